@@ -1,0 +1,60 @@
+package api
+
+import (
+	"errors"
+	"net/http"
+	"slices"
+	"strings"
+
+	"github.com/labstack/echo/v4"
+
+	"etchlog/db"
+)
+
+// Role sets used in routes.go.
+var (
+	public    []string
+	readers   = []string{db.RoleTechnician, db.RoleEngineer, db.RoleAuditor}
+	recorders = []string{db.RoleTechnician, db.RoleEngineer}
+	engineers = []string{db.RoleEngineer}
+)
+
+const ctxUser = "etchlog.user"
+
+// requireRole authenticates the bearer token and admits only the given roles.
+func (s *Server) requireRole(roles []string) echo.MiddlewareFunc {
+	return func(next echo.HandlerFunc) echo.HandlerFunc {
+		return func(c echo.Context) error {
+			h := c.Request().Header.Get(echo.HeaderAuthorization)
+			token, ok := strings.CutPrefix(h, "Bearer ")
+			if !ok || token == "" {
+				c.Response().Header().Set(echo.HeaderWWWAuthenticate, `Bearer realm="etchlog"`)
+				return echo.NewHTTPError(http.StatusUnauthorized, "send Authorization: Bearer <token>")
+			}
+			u, err := s.store.UserByToken(c.Request().Context(), token)
+			if errors.Is(err, db.ErrNotFound) {
+				c.Response().Header().Set(echo.HeaderWWWAuthenticate, `Bearer realm="etchlog", error="invalid_token"`)
+				return echo.NewHTTPError(http.StatusUnauthorized, "unknown token")
+			}
+			if err != nil {
+				return err
+			}
+			if !slices.Contains(roles, u.Role) {
+				return echo.NewHTTPError(http.StatusForbidden, "role "+u.Role+" may not do this; allowed: "+strings.Join(roles, ", "))
+			}
+			c.Set(ctxUser, u)
+			return next(c)
+		}
+	}
+}
+
+// actorOf returns the authenticated user as the actor of a write.
+func actorOf(c echo.Context) db.Actor {
+	u, _ := c.Get(ctxUser).(db.User)
+	return db.Actor{Site: u.Site, Name: u.Name, Role: u.Role}
+}
+
+func userName(c echo.Context) string {
+	u, _ := c.Get(ctxUser).(db.User)
+	return u.Name
+}

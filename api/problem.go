@@ -1,0 +1,169 @@
+package api
+
+import (
+	"encoding/json"
+	"errors"
+	"fmt"
+	"log/slog"
+	"net/http"
+	"regexp"
+	"strings"
+
+	"github.com/getkin/kin-openapi/openapi3"
+	"github.com/getkin/kin-openapi/openapi3filter"
+	"github.com/labstack/echo/v4"
+
+	"etchlog/db"
+	"etchlog/predict"
+)
+
+// Problem is an RFC 9457 problem details body. Errors lists each refused field.
+type Problem struct {
+	Type      string       `json:"type"`
+	Title     string       `json:"title"`
+	Status    int          `json:"status"`
+	Detail    string       `json:"detail,omitempty"`
+	Instance  string       `json:"instance,omitempty"`
+	RequestID string       `json:"request_id,omitempty"`
+	Errors    []FieldIssue `json:"errors,omitempty"`
+}
+
+// FieldIssue names one refused request field and the reason.
+type FieldIssue struct {
+	Field  string `json:"field"`
+	Reason string `json:"reason"`
+}
+
+// invalidError is a request that failed validation, with the HTTP status to send.
+type invalidError struct {
+	status int
+	issues []FieldIssue
+}
+
+func (e *invalidError) Error() string {
+	parts := make([]string, len(e.issues))
+	for i, is := range e.issues {
+		parts[i] = is.Field + ": " + is.Reason
+	}
+	return strings.Join(parts, "; ")
+}
+
+// badRequest (400) is for a request whose shape is wrong: malformed JSON,
+// unknown or missing fields, wrong types.
+func badRequest(field, reason string) error {
+	return &invalidError{status: http.StatusBadRequest, issues: []FieldIssue{{field, reason}}}
+}
+
+// unprocessable (422) is for well-formed values that are refused.
+func unprocessable(issues ...FieldIssue) error {
+	return &invalidError{status: http.StatusUnprocessableEntity, issues: issues}
+}
+
+// problemFor maps any handler error to its problem body. It is the only place
+// where errors become HTTP.
+func problemFor(err error) Problem {
+	var inv *invalidError
+	var fe *db.FieldError
+	var pe *predict.InputError
+	var he *echo.HTTPError
+	var re *openapi3filter.RequestError
+	switch {
+	case errors.As(err, &inv):
+		title := "The request is malformed"
+		if inv.status == http.StatusUnprocessableEntity {
+			title = "The request has values that are refused"
+		}
+		return Problem{Type: "urn:etchlog:problem:invalid", Title: title, Status: inv.status, Detail: inv.Error(), Errors: inv.issues}
+	case errors.As(err, &re):
+		issues := requestIssues(re)
+		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request does not match the API description",
+			Status: http.StatusBadRequest, Detail: (&invalidError{issues: issues}).Error(), Errors: issues}
+	case errors.As(err, &fe):
+		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request has values that are refused",
+			Status: http.StatusUnprocessableEntity, Detail: fe.Error(), Errors: []FieldIssue{{fe.Field, fe.Reason}}}
+	case errors.As(err, &pe):
+		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request has values that are refused",
+			Status: http.StatusUnprocessableEntity, Detail: pe.Error(), Errors: []FieldIssue{{pe.Field, pe.Reason}}}
+	case errors.Is(err, db.ErrNotFound):
+		return Problem{Type: "urn:etchlog:problem:not-found", Title: "No such record", Status: http.StatusNotFound, Detail: err.Error()}
+	case errors.Is(err, db.ErrConflict):
+		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict, Detail: err.Error()}
+	case errors.Is(err, db.ErrVoided):
+		return Problem{Type: "urn:etchlog:problem:voided", Title: "The record is voided", Status: http.StatusConflict, Detail: err.Error()}
+	case errors.As(err, &he):
+		return Problem{Type: "about:blank", Title: http.StatusText(he.Code), Status: he.Code, Detail: fmt.Sprint(he.Message)}
+	}
+	return Problem{Type: "about:blank", Title: "Internal error", Status: http.StatusInternalServerError,
+		Detail: "the server could not complete the request; it has been logged with the request id"}
+}
+
+var unsupportedProperty = regexp.MustCompile(`^property "([^"]+)" is unsupported`)
+
+// requestIssues turns an OpenAPI request validation error into field issues,
+// naming the field by its JSON path.
+func requestIssues(re *openapi3filter.RequestError) []FieldIssue {
+	var issues []FieldIssue
+	var walk func(err error, param string)
+	walk = func(err error, param string) {
+		var multi openapi3.MultiError
+		var se *openapi3.SchemaError
+		switch {
+		case errors.As(err, &multi):
+			for _, e := range multi {
+				walk(e, param)
+			}
+		case errors.As(err, &se):
+			field := strings.Join(se.JSONPointer(), ".")
+			if param != "" {
+				field = strings.TrimSuffix(param+"."+field, ".")
+			}
+			// An unknown property is reported on its parent; name the property itself.
+			if m := unsupportedProperty.FindStringSubmatch(se.Reason); m != nil {
+				field = strings.TrimPrefix(field+"."+m[1], ".")
+			}
+			if field == "" {
+				field = "body"
+			}
+			issues = append(issues, FieldIssue{Field: field, Reason: se.Reason})
+		default:
+			field := param
+			if field == "" {
+				field = "body"
+			}
+			var syn *json.SyntaxError
+			reason := err.Error()
+			if errors.As(err, &syn) {
+				reason = "malformed JSON: " + syn.Error()
+			}
+			issues = append(issues, FieldIssue{Field: field, Reason: reason})
+		}
+	}
+	param := ""
+	if re.Parameter != nil {
+		param = re.Parameter.Name
+	}
+	if re.Err != nil {
+		walk(re.Err, param)
+	} else {
+		issues = append(issues, FieldIssue{Field: param, Reason: re.Reason})
+	}
+	return issues
+}
+
+// errorHandler writes every error as problem+json and logs the unexpected ones.
+func errorHandler(log *slog.Logger) echo.HTTPErrorHandler {
+	return func(err error, c echo.Context) {
+		if c.Response().Committed {
+			return
+		}
+		p := problemFor(err)
+		p.Instance = c.Request().URL.Path
+		p.RequestID = c.Response().Header().Get(echo.HeaderXRequestID)
+		if p.Status >= 500 {
+			log.Error("request failed", "request_id", p.RequestID, "method", c.Request().Method, "path", p.Instance, "err", err)
+		}
+		c.Response().Header().Set(echo.HeaderContentType, "application/problem+json")
+		c.Response().WriteHeader(p.Status)
+		_ = json.NewEncoder(c.Response()).Encode(p)
+	}
+}

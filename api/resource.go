@@ -1,0 +1,225 @@
+package api
+
+import (
+	"context"
+	"net/http"
+	"strconv"
+
+	"github.com/google/uuid"
+	"github.com/labstack/echo/v4"
+
+	"etchlog/db"
+)
+
+// changeFields are the body fields of a correction; they must be absent on create.
+type changeFields struct {
+	BaseRevision *int    `json:"base_revision,omitempty"`
+	Reason       *string `json:"reason,omitempty"`
+}
+
+func (c changeFields) fields() changeFields { return c }
+
+// input is a request body that converts into stored data D.
+type input[D any] interface {
+	fields() changeFields
+	data(c echo.Context, s *Server) (D, error)
+}
+
+// resource wires the create/correct/void/read handlers of one record kind to
+// its Store methods. Every record kind behaves the same way: corrections are
+// new revisions with a reason, voids keep the record, nothing is deleted.
+type resource[In input[D], D any, R any] struct {
+	path      string // collection path, e.g. /v1/coupons
+	create    func(context.Context, db.Actor, D) (R, error)
+	correct   func(context.Context, db.Actor, uuid.UUID, db.Change, D) (R, error)
+	void      func(context.Context, db.Actor, uuid.UUID, db.Change) (R, error)
+	get       func(context.Context, string, uuid.UUID, int) (R, error)
+	revisions func(context.Context, string, uuid.UUID) ([]R, error)
+}
+
+func handleCreate[In input[D], D any, R any](s *Server, r resource[In, D, R]) echo.HandlerFunc {
+	return func(c echo.Context) error {
+		var in In
+		if err := bind(c, &in); err != nil {
+			return err
+		}
+		if ch := in.fields(); ch.BaseRevision != nil || ch.Reason != nil {
+			return badRequest("base_revision", "base_revision and reason belong to a correction (PUT), not to a new record")
+		}
+		d, err := in.data(c, s)
+		if err != nil {
+			return err
+		}
+		if err := s.check(d); err != nil {
+			return err
+		}
+		rec, err := r.create(c.Request().Context(), actorOf(c), d)
+		if err != nil {
+			return err
+		}
+		c.Response().Header().Set(echo.HeaderLocation, r.path+"/"+idOf(rec).String())
+		return c.JSON(http.StatusCreated, rec)
+	}
+}
+
+func handleCorrect[In input[D], D any, R any](s *Server, r resource[In, D, R]) echo.HandlerFunc {
+	return func(c echo.Context) error {
+		id, err := pathID(c)
+		if err != nil {
+			return err
+		}
+		var in In
+		if err := bind(c, &in); err != nil {
+			return err
+		}
+		ch, err := change(in.fields())
+		if err != nil {
+			return err
+		}
+		d, err := in.data(c, s)
+		if err != nil {
+			return err
+		}
+		if err := s.check(d); err != nil {
+			return err
+		}
+		rec, err := r.correct(c.Request().Context(), actorOf(c), id, ch, d)
+		if err != nil {
+			return err
+		}
+		return c.JSON(http.StatusOK, rec)
+	}
+}
+
+func handleVoid[In input[D], D any, R any](r resource[In, D, R]) echo.HandlerFunc {
+	return func(c echo.Context) error {
+		id, err := pathID(c)
+		if err != nil {
+			return err
+		}
+		var in changeFields
+		if err := bind(c, &in); err != nil {
+			return err
+		}
+		ch, err := change(in)
+		if err != nil {
+			return err
+		}
+		rec, err := r.void(c.Request().Context(), actorOf(c), id, ch)
+		if err != nil {
+			return err
+		}
+		return c.JSON(http.StatusOK, rec)
+	}
+}
+
+func handleGet[In input[D], D any, R any](r resource[In, D, R]) echo.HandlerFunc {
+	return func(c echo.Context) error {
+		id, err := pathID(c)
+		if err != nil {
+			return err
+		}
+		rev, err := queryInt(c, "revision")
+		if err != nil {
+			return err
+		}
+		rec, err := r.get(c.Request().Context(), actorOf(c).Site, id, rev)
+		if err != nil {
+			return err
+		}
+		return c.JSON(http.StatusOK, rec)
+	}
+}
+
+func handleRevisions[In input[D], D any, R any](r resource[In, D, R]) echo.HandlerFunc {
+	return func(c echo.Context) error {
+		id, err := pathID(c)
+		if err != nil {
+			return err
+		}
+		recs, err := r.revisions(c.Request().Context(), actorOf(c).Site, id)
+		if err != nil {
+			return err
+		}
+		return c.JSON(http.StatusOK, map[string]any{"items": recs})
+	}
+}
+
+// change checks a correction's base revision and reason.
+func change(f changeFields) (db.Change, error) {
+	var issues []FieldIssue
+	if f.BaseRevision == nil || *f.BaseRevision < 1 {
+		issues = append(issues, FieldIssue{"base_revision", "is required: the revision this change is based on (1 or more)"})
+	}
+	if f.Reason == nil || *f.Reason == "" {
+		issues = append(issues, FieldIssue{"reason", "is required: say why the record is changed"})
+	}
+	if issues != nil {
+		return db.Change{}, unprocessable(issues...)
+	}
+	return db.Change{BaseRevision: *f.BaseRevision, Reason: *f.Reason}, nil
+}
+
+func idOf(rec any) uuid.UUID {
+	type ider interface{ RecordID() uuid.UUID }
+	return rec.(ider).RecordID()
+}
+
+func pathID(c echo.Context) (uuid.UUID, error) {
+	id, err := uuid.Parse(c.Param("id"))
+	if err != nil {
+		return uuid.Nil, badRequest("id", "not a record id (UUID)")
+	}
+	return id, nil
+}
+
+func queryInt(c echo.Context, name string) (int, error) {
+	s := c.QueryParam(name)
+	if s == "" {
+		return 0, nil
+	}
+	n, err := strconv.Atoi(s)
+	if err != nil || n < 0 {
+		return 0, badRequest(name, "want a whole number")
+	}
+	return n, nil
+}
+
+// queryUUID reads an optional UUID query parameter.
+func queryUUID(c echo.Context, name string) (*uuid.UUID, error) {
+	s := c.QueryParam(name)
+	if s == "" {
+		return nil, nil
+	}
+	id, err := uuid.Parse(s)
+	if err != nil {
+		return nil, badRequest(name, "not a record id (UUID)")
+	}
+	return &id, nil
+}
+
+// queryDate reads an optional YYYY-MM-DD query parameter.
+func queryDate(c echo.Context, name string) (*db.Date, error) {
+	s := c.QueryParam(name)
+	if s == "" {
+		return nil, nil
+	}
+	d, err := db.ParseDate(s)
+	if err != nil {
+		return nil, badRequest(name, err.Error())
+	}
+	return &d, nil
+}
+
+// listPage is the JSON shape of every list.
+type listPage[T any] struct {
+	Items []T    `json:"items"`
+	Next  string `json:"next_cursor,omitempty"`
+}
+
+func pageOf[T any](p db.Page[T]) listPage[T] {
+	if p.Items == nil {
+		p.Items = []T{}
+	}
+	return listPage[T]{Items: p.Items, Next: p.Next}
+}

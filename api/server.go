@@ -1,0 +1,85 @@
+// Package api is etchlog's HTTP layer: JSON over REST, described by the
+// OpenAPI document in openapi/, with every request checked against it.
+// Handlers bind, validate, call the store and return JSON; errors become
+// RFC 9457 problem+json in one place (errorHandler).
+package api
+
+import (
+	"log/slog"
+	"net/http"
+
+	"github.com/getkin/kin-openapi/openapi3"
+	"github.com/go-playground/validator/v10"
+	"github.com/labstack/echo/v4"
+	"github.com/labstack/echo/v4/middleware"
+
+	"etchlog/db"
+)
+
+// Options configure a Server.
+type Options struct {
+	Logger    *slog.Logger
+	BodyLimit string // e.g. "1M"; requests above it get 413
+}
+
+// Server serves etchlog's API over a Store.
+type Server struct {
+	store    *db.Store
+	log      *slog.Logger
+	validate *validator.Validate
+	spec     *openapi3.T
+	echo     *echo.Echo
+}
+
+// New builds the server and registers every route. It fails when a route has
+// no operation in the OpenAPI document.
+func New(store *db.Store, opt Options) (*Server, error) {
+	if opt.Logger == nil {
+		opt.Logger = slog.Default()
+	}
+	if opt.BodyLimit == "" {
+		opt.BodyLimit = "1M"
+	}
+	spec, err := loadSpec()
+	if err != nil {
+		return nil, err
+	}
+	e := echo.New()
+	e.HideBanner, e.HidePort = true, true
+	s := &Server{store: store, log: opt.Logger, validate: newValidator(), spec: spec, echo: e}
+	e.HTTPErrorHandler = errorHandler(opt.Logger)
+	e.Use(middleware.RequestID())
+	e.Use(middleware.Recover())
+	e.Use(s.accessLog)
+	e.Use(middleware.BodyLimit(opt.BodyLimit))
+	if err := s.routes(); err != nil {
+		return nil, err
+	}
+	return s, nil
+}
+
+// ServeHTTP lets the server be used as an http.Handler.
+func (s *Server) ServeHTTP(w http.ResponseWriter, r *http.Request) { s.echo.ServeHTTP(w, r) }
+
+// Routes lists the registered method and path pairs, with OpenAPI-style {params}.
+func (s *Server) Routes() []string {
+	var out []string
+	for _, r := range s.echo.Routes() {
+		out = append(out, r.Method+" "+specPath(r.Path))
+	}
+	return out
+}
+
+// accessLog writes one structured line per request.
+func (s *Server) accessLog(next echo.HandlerFunc) echo.HandlerFunc {
+	return func(c echo.Context) error {
+		err := next(c)
+		if err != nil {
+			c.Error(err)
+		}
+		s.log.Info("request", "method", c.Request().Method, "path", c.Request().URL.Path,
+			"status", c.Response().Status, "request_id", c.Response().Header().Get(echo.HeaderXRequestID),
+			"user", userName(c))
+		return nil
+	}
+}

@@ -1,0 +1,67 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"log/slog"
+	"net"
+	"net/http"
+	"time"
+
+	"etchlog/api"
+	"etchlog/db"
+)
+
+// cmdServe is the production entry: configuration from flags and environment,
+// JSON logs, graceful shutdown on SIGINT/SIGTERM.
+func cmdServe(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
+	c, err := parse("serve", args, getenv, stderr, nil)
+	if err != nil {
+		return err
+	}
+	log := c.logger(stderr)
+	store, err := openStore(ctx, c, log)
+	if err != nil {
+		return err
+	}
+	defer store.Close()
+	return serve(ctx, c, store, log, func(base string) {
+		fmt.Fprintf(stdout, "etchlog listening on %s\n", base)
+	})
+}
+
+// serve runs the HTTP server until ctx ends, then drains it for up to 10 s.
+// ready is called with the base URL once the listener is open.
+func serve(ctx context.Context, c config, store *db.Store, log *slog.Logger, ready func(base string)) error {
+	srv, err := api.New(store, api.Options{Logger: log, BodyLimit: c.BodyLimit})
+	if err != nil {
+		return err
+	}
+	ln, err := net.Listen("tcp", c.Addr)
+	if err != nil {
+		return fmt.Errorf("listen on %s: %w", c.Addr, err)
+	}
+	hs := &http.Server{Handler: srv, ReadHeaderTimeout: 10 * time.Second, ReadTimeout: 60 * time.Second,
+		WriteTimeout: 120 * time.Second, IdleTimeout: 120 * time.Second}
+	errc := make(chan error, 1)
+	go func() { errc <- hs.Serve(ln) }()
+	ready("http://" + ln.Addr().String())
+	log.Info("listening", "addr", ln.Addr().String())
+	select {
+	case err := <-errc:
+		return err
+	case <-ctx.Done():
+	}
+	log.Info("shutting down")
+	sctx, cancel := context.WithTimeout(context.Background(), 10*time.Second)
+	defer cancel()
+	if err := hs.Shutdown(sctx); err != nil {
+		return err
+	}
+	if err := <-errc; !errors.Is(err, http.ErrServerClosed) {
+		return err
+	}
+	return nil
+}

@@ -1,0 +1,153 @@
+package db
+
+import (
+	"context"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// CouponData is what was welded on one test coupon. Units: mm, mm/s (travel
+// speed), m/min (wire feed speed), A, V, °C.
+type CouponData struct {
+	ProcedureID           *uuid.UUID `db:"procedure_id" json:"procedure_id,omitempty" validate:"required_without=QualificationRecordID"`
+	QualificationRecordID *uuid.UUID `db:"qualification_record_id" json:"qualification_record_id,omitempty"`
+	CouponMark            string     `db:"coupon_mark" json:"coupon_mark" validate:"required,max=64"`
+	WelderID              string     `db:"welder_id" json:"welder_id" validate:"required,max=64"`
+	PowerSourceID         string     `db:"power_source_id" json:"power_source_id" validate:"max=64"`
+	FillerLot             string     `db:"filler_lot" json:"filler_lot" validate:"max=64"`
+	WeldedOn              Date       `db:"welded_on" json:"welded_on" validate:"required"`
+	JointType             string     `db:"joint_type" json:"joint_type" validate:"required,oneof=bead_on_plate butt fillet lap corner edge"`
+	ThicknessMM           float64    `db:"thickness_mm" json:"thickness_mm" validate:"required,gte=0.5,lte=300"`
+	PassNumber            int        `db:"pass_number" json:"pass_number" validate:"required,gte=1,lte=500"`
+	CurrentA              float64    `db:"current_a" json:"current_a" validate:"required,gte=10,lte=1000"`
+	VoltageV              float64    `db:"voltage_v" json:"voltage_v" validate:"required,gte=5,lte=60"`
+	TravelSpeedMMPerS     float64    `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
+	WireFeedSpeedMPerMin  *float64   `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min,omitempty" validate:"omitempty,gte=0.5,lte=30"`
+	CTWDMM                *float64   `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,gte=3,lte=50"`
+	WireDiameterMM        float64    `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,gte=0.6,lte=4"`
+	ShieldingGas          string     `db:"shielding_gas" json:"shielding_gas" validate:"max=64"`
+	Polarity              string     `db:"polarity" json:"polarity" validate:"required,oneof=DCEP DCEN AC"`
+	Position              string     `db:"position" json:"position" validate:"required,max=8"`
+	PreheatC              *float64   `db:"preheat_c" json:"preheat_c,omitempty" validate:"omitempty,gte=-20,lte=350"`
+	InterpassC            *float64   `db:"interpass_c" json:"interpass_c,omitempty" validate:"omitempty,gte=-20,lte=350"`
+}
+
+// Coupon is one stored revision of a coupon.
+type Coupon struct {
+	Meta
+	CouponData
+}
+
+var coupons = table{name: "coupons", entity: "coupon", fields: []string{
+	"procedure_id", "qualification_record_id", "coupon_mark", "welder_id", "power_source_id",
+	"filler_lot", "welded_on", "joint_type", "thickness_mm", "pass_number", "current_a", "voltage_v",
+	"travel_speed_mm_s", "wire_feed_speed_m_min", "ctwd_mm", "wire_diameter_mm", "shielding_gas",
+	"polarity", "position", "preheat_c", "interpass_c",
+}}
+
+func (c CouponData) values() []any {
+	return []any{c.ProcedureID, c.QualificationRecordID, c.CouponMark, c.WelderID, c.PowerSourceID,
+		c.FillerLot, c.WeldedOn, c.JointType, c.ThicknessMM, c.PassNumber, c.CurrentA, c.VoltageV,
+		c.TravelSpeedMMPerS, c.WireFeedSpeedMPerMin, c.CTWDMM, c.WireDiameterMM, c.ShieldingGas,
+		c.Polarity, c.Position, c.PreheatC, c.InterpassC}
+}
+
+// checkLinks verifies that the procedure and qualification record a coupon names exist at the site.
+func (c CouponData) checkLinks(ctx context.Context, site string) func(pgx.Tx) error {
+	return func(tx pgx.Tx) error {
+		if c.ProcedureID == nil && c.QualificationRecordID == nil {
+			return &FieldError{Field: "procedure_id", Reason: "a coupon belongs to a procedure or a qualification record; give at least one"}
+		}
+		if c.ProcedureID != nil {
+			if err := exists(ctx, tx, procedures, site, *c.ProcedureID, "procedure_id"); err != nil {
+				return err
+			}
+		}
+		if c.QualificationRecordID != nil {
+			return exists(ctx, tx, qualificationRecords, site, *c.QualificationRecordID, "qualification_record_id")
+		}
+		return nil
+	}
+}
+
+// CreateCoupon stores revision 1 of a new coupon.
+func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon, error) {
+	m, err := s.create(ctx, a, coupons, c.checkLinks(ctx, a.Site), c.values())
+	return Coupon{m, c}, err
+}
+
+// CorrectCoupon stores the next revision of a coupon.
+func (s *Store) CorrectCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Change, c CouponData) (Coupon, error) {
+	m, err := s.correct(ctx, a, coupons, id, ch, c.checkLinks(ctx, a.Site), c.values())
+	return Coupon{m, c}, err
+}
+
+// VoidCoupon voids a coupon with a reason.
+func (s *Store) VoidCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Change) (Coupon, error) {
+	if _, err := s.void(ctx, a, coupons, id, ch); err != nil {
+		return Coupon{}, err
+	}
+	return s.Coupon(ctx, a.Site, id, 0)
+}
+
+// Coupon reads the latest revision of a coupon, or revision rev when rev > 0.
+func (s *Store) Coupon(ctx context.Context, site string, id uuid.UUID, rev int) (Coupon, error) {
+	return readOne[Coupon](ctx, s, coupons, site, id, rev)
+}
+
+// CouponRevisions lists every revision of a coupon, oldest first.
+func (s *Store) CouponRevisions(ctx context.Context, site string, id uuid.UUID) ([]Coupon, error) {
+	return revisions[Coupon](ctx, s, coupons, site, id)
+}
+
+// CouponFilter selects coupons in a list. Acceptance "reject" keeps coupons
+// with at least one rejected section; "accept" keeps measured coupons with none.
+type CouponFilter struct {
+	ProcedureID           *uuid.UUID
+	QualificationRecordID *uuid.UUID
+	WelderID              string
+	WeldedFrom            *Date
+	WeldedTo              *Date
+	Acceptance            string
+	IncludeVoided         bool
+}
+
+// currentMeasurement selects the latest, non-voided revision of measurement m
+// that belongs to the coupon row "cur".
+const currentMeasurement = `SELECT 1 FROM measurements m WHERE m.coupon_id = cur.id AND NOT m.voided
+	AND m.revision = (SELECT max(m2.revision) FROM measurements m2 WHERE m2.id = m.id)`
+
+// Coupons lists current coupons after the cursor.
+func (s *Store) Coupons(ctx context.Context, site string, cf CouponFilter, cursor string, limit int) (Page[Coupon], error) {
+	f := newFilter()
+	if !cf.IncludeVoided {
+		f.add("NOT voided")
+	}
+	if cf.ProcedureID != nil {
+		f.add("procedure_id = ?", *cf.ProcedureID)
+	}
+	if cf.QualificationRecordID != nil {
+		f.add("qualification_record_id = ?", *cf.QualificationRecordID)
+	}
+	if cf.WelderID != "" {
+		f.add("welder_id = ?", cf.WelderID)
+	}
+	if cf.WeldedFrom != nil {
+		f.add("welded_on >= ?", *cf.WeldedFrom)
+	}
+	if cf.WeldedTo != nil {
+		f.add("welded_on <= ?", *cf.WeldedTo)
+	}
+	switch cf.Acceptance {
+	case "reject":
+		f.add("EXISTS (" + currentMeasurement + " AND m.acceptance = 'reject')")
+	case "accept":
+		f.add("EXISTS (" + currentMeasurement + ")")
+		f.add("NOT EXISTS (" + currentMeasurement + " AND m.acceptance = 'reject')")
+	case "":
+	default:
+		return Page[Coupon]{}, &FieldError{Field: "acceptance", Reason: "want accept or reject"}
+	}
+	return listCurrent[Coupon](ctx, s, coupons, site, f, cursor, limit)
+}

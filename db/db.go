@@ -1,0 +1,93 @@
+// Package db stores etchlog's records in PostgreSQL: procedures (WPS),
+// qualification records (PQR), coupons, macro-etch measurements, API users and
+// the audit chain. All SQL lives in this package. Records are append-only: a
+// correction or a void writes a new revision, and every write is one
+// transaction that also appends an audit event.
+package db
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"time"
+
+	"github.com/jackc/pgx/v5/pgconn"
+	"github.com/jackc/pgx/v5/pgxpool"
+)
+
+// Sentinel errors returned by Store methods; the HTTP layer maps them to status codes.
+var (
+	// ErrNotFound means no record with that key exists at the caller's site.
+	ErrNotFound = errors.New("not found")
+	// ErrConflict means the write collides with existing data (duplicate key or stale revision).
+	ErrConflict = errors.New("conflict")
+	// ErrInvalid means the database refused a value (check or foreign-key rule).
+	ErrInvalid = errors.New("invalid value")
+	// ErrVoided means the record was voided and can no longer be corrected.
+	ErrVoided = errors.New("record is voided")
+)
+
+// FieldError is a refused value for one named field.
+type FieldError struct {
+	Field  string
+	Reason string
+}
+
+// Error reports the field and the reason.
+func (e *FieldError) Error() string { return e.Field + ": " + e.Reason }
+
+// Is lets errors.Is(err, ErrInvalid) match a FieldError.
+func (e *FieldError) Is(target error) bool { return target == ErrInvalid }
+
+// Store is the PostgreSQL-backed record store.
+type Store struct {
+	pool *pgxpool.Pool
+	now  func() time.Time
+}
+
+// Open connects to the database at url and checks that it answers.
+func Open(ctx context.Context, url string) (*Store, error) {
+	cfg, err := pgxpool.ParseConfig(url)
+	if err != nil {
+		return nil, fmt.Errorf("db: parse url: %w", err)
+	}
+	// Audit payloads render timestamps as text; a fixed zone keeps them comparable.
+	cfg.ConnConfig.RuntimeParams["timezone"] = "UTC"
+	pool, err := pgxpool.NewWithConfig(ctx, cfg)
+	if err != nil {
+		return nil, fmt.Errorf("db: connect: %w", err)
+	}
+	if err := pool.Ping(ctx); err != nil {
+		pool.Close()
+		return nil, fmt.Errorf("db: ping: %w", err)
+	}
+	return &Store{pool: pool, now: func() time.Time { return time.Now().UTC().Truncate(time.Microsecond) }}, nil
+}
+
+// Close releases every connection.
+func (s *Store) Close() { s.pool.Close() }
+
+// Pool exposes the connection pool for benchmarks that compare against raw inserts.
+func (s *Store) Pool() *pgxpool.Pool { return s.pool }
+
+// Ping reports whether the database answers.
+func (s *Store) Ping(ctx context.Context) error { return s.pool.Ping(ctx) }
+
+// mapError turns PostgreSQL errors into the package's sentinel errors by SQLSTATE.
+func mapError(err error) error {
+	var pg *pgconn.PgError
+	if !errors.As(err, &pg) {
+		return err
+	}
+	switch pg.Code {
+	case "23505": // unique_violation
+		return fmt.Errorf("%w: %s", ErrConflict, pg.ConstraintName)
+	case "23514", "23502", "23503", "22007", "22008", "22P02": // check, not null, fk, bad date/time/text
+		field := pg.ColumnName
+		if field == "" {
+			field = pg.ConstraintName
+		}
+		return &FieldError{Field: field, Reason: "refused by the database rule " + pg.ConstraintName}
+	}
+	return err
+}

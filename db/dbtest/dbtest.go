@@ -1,0 +1,109 @@
+// Package dbtest gives each test package a fresh PostgreSQL database of its own,
+// created on the server named by ETCHLOG_TEST_DATABASE_URL (default: the local
+// server at 127.0.0.1:5432), migrated, and dropped when the package's tests end.
+package dbtest
+
+import (
+	"context"
+	"crypto/rand"
+	"encoding/hex"
+	"fmt"
+	"net/url"
+	"os"
+	"sync"
+	"testing"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"etchlog/db"
+)
+
+// DefaultServerURL is the maintenance database used when ETCHLOG_TEST_DATABASE_URL is unset.
+const DefaultServerURL = "postgres://postgres@127.0.0.1:5432/postgres?sslmode=disable"
+
+var (
+	once    sync.Once
+	store   *db.Store
+	dbURL   string
+	dbName  string
+	setupEr error
+)
+
+func serverURL() string {
+	if u := os.Getenv("ETCHLOG_TEST_DATABASE_URL"); u != "" {
+		return u
+	}
+	return DefaultServerURL
+}
+
+func setup() {
+	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+	defer cancel()
+	admin, err := pgx.Connect(ctx, serverURL())
+	if err != nil {
+		setupEr = fmt.Errorf("no PostgreSQL at %s: %w", serverURL(), err)
+		return
+	}
+	defer admin.Close(ctx)
+	b := make([]byte, 6)
+	_, _ = rand.Read(b)
+	dbName = "etchlog_test_" + hex.EncodeToString(b)
+	if _, err := admin.Exec(ctx, "CREATE DATABASE "+dbName); err != nil {
+		setupEr = fmt.Errorf("create test database: %w", err)
+		return
+	}
+	u, _ := url.Parse(serverURL())
+	u.Path = "/" + dbName
+	dbURL = u.String()
+	if err := db.Migrate(dbURL, "up"); err != nil {
+		setupEr = err
+		return
+	}
+	store, setupEr = db.Open(ctx, dbURL)
+}
+
+// URL returns the connection URL of the package's test database.
+func URL(tb testing.TB) string {
+	tb.Helper()
+	Store(tb)
+	return dbURL
+}
+
+// Store returns the package's migrated test database. Without a reachable
+// server the test is skipped on a laptop, but fails when CI is set.
+func Store(tb testing.TB) *db.Store {
+	tb.Helper()
+	once.Do(setup)
+	if setupEr != nil {
+		if os.Getenv("CI") != "" {
+			tb.Fatalf("dbtest: %v (CI is set: a database is required)", setupEr)
+		}
+		tb.Skipf("dbtest: %v (set ETCHLOG_TEST_DATABASE_URL to run database tests)", setupEr)
+	}
+	return store
+}
+
+// Site returns a site key unique to the calling test, so tests sharing the
+// package database never see each other's rows.
+func Site(tb testing.TB) string {
+	tb.Helper()
+	b := make([]byte, 4)
+	_, _ = rand.Read(b)
+	return tb.Name() + "-" + hex.EncodeToString(b)
+}
+
+// Main runs the package's tests and then drops the test database.
+func Main(m *testing.M) {
+	code := m.Run()
+	if store != nil {
+		store.Close()
+		ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+		if admin, err := pgx.Connect(ctx, serverURL()); err == nil {
+			_, _ = admin.Exec(ctx, "DROP DATABASE IF EXISTS "+dbName+" WITH (FORCE)")
+			admin.Close(ctx)
+		}
+		cancel()
+	}
+	os.Exit(code)
+}

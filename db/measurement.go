@@ -1,0 +1,97 @@
+package db
+
+import (
+	"context"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// MeasurementData is what an inspector measured on one macro-etched section of a
+// coupon. Lengths in mm, area in mm². Reinforcement may be negative (underfill).
+type MeasurementData struct {
+	CouponID        uuid.UUID `db:"coupon_id" json:"coupon_id"`
+	Section         string    `db:"section" json:"section" validate:"required,max=32"`
+	PenetrationMM   float64   `db:"penetration_mm" json:"penetration_mm" validate:"gte=0,lte=50"`
+	BeadWidthMM     float64   `db:"bead_width_mm" json:"bead_width_mm" validate:"required,gt=0,lte=100"`
+	ReinforcementMM float64   `db:"reinforcement_mm" json:"reinforcement_mm" validate:"gte=-10,lte=30"`
+	Leg1MM          *float64  `db:"leg1_mm" json:"leg1_mm,omitempty" validate:"omitempty,gt=0,lte=100"`
+	Leg2MM          *float64  `db:"leg2_mm" json:"leg2_mm,omitempty" validate:"omitempty,gt=0,lte=100"`
+	ThroatMM        *float64  `db:"throat_mm" json:"throat_mm,omitempty" validate:"omitempty,gt=0,lte=100"`
+	FusedAreaMM2    *float64  `db:"fused_area_mm2" json:"fused_area_mm2,omitempty" validate:"omitempty,gt=0,lte=10000"`
+	Acceptance      string    `db:"acceptance" json:"acceptance" validate:"required,oneof=accept reject"`
+	Inspector       string    `db:"inspector" json:"inspector" validate:"required,max=64"`
+	Remark          string    `db:"remark" json:"remark" validate:"max=2000"`
+}
+
+// Measurement is one stored revision of a macro-etch measurement.
+type Measurement struct {
+	Meta
+	MeasurementData
+}
+
+var measurements = table{name: "measurements", entity: "measurement", fields: []string{
+	"coupon_id", "section", "penetration_mm", "bead_width_mm", "reinforcement_mm", "leg1_mm",
+	"leg2_mm", "throat_mm", "fused_area_mm2", "acceptance", "inspector", "remark",
+}}
+
+func (d MeasurementData) values() []any {
+	return []any{d.CouponID, d.Section, d.PenetrationMM, d.BeadWidthMM, d.ReinforcementMM, d.Leg1MM,
+		d.Leg2MM, d.ThroatMM, d.FusedAreaMM2, d.Acceptance, d.Inspector, d.Remark}
+}
+
+func (d MeasurementData) checkCoupon(ctx context.Context, site string) func(pgx.Tx) error {
+	return func(tx pgx.Tx) error { return exists(ctx, tx, coupons, site, d.CouponID, "coupon_id") }
+}
+
+// CreateMeasurement stores revision 1 of a new measurement on an existing coupon.
+func (s *Store) CreateMeasurement(ctx context.Context, a Actor, d MeasurementData) (Measurement, error) {
+	m, err := s.create(ctx, a, measurements, d.checkCoupon(ctx, a.Site), d.values())
+	return Measurement{m, d}, err
+}
+
+// CorrectMeasurement stores the next revision of a measurement.
+func (s *Store) CorrectMeasurement(ctx context.Context, a Actor, id uuid.UUID, ch Change, d MeasurementData) (Measurement, error) {
+	m, err := s.correct(ctx, a, measurements, id, ch, d.checkCoupon(ctx, a.Site), d.values())
+	return Measurement{m, d}, err
+}
+
+// VoidMeasurement voids a measurement with a reason.
+func (s *Store) VoidMeasurement(ctx context.Context, a Actor, id uuid.UUID, ch Change) (Measurement, error) {
+	if _, err := s.void(ctx, a, measurements, id, ch); err != nil {
+		return Measurement{}, err
+	}
+	return s.Measurement(ctx, a.Site, id, 0)
+}
+
+// Measurement reads the latest revision of a measurement, or revision rev when rev > 0.
+func (s *Store) Measurement(ctx context.Context, site string, id uuid.UUID, rev int) (Measurement, error) {
+	return readOne[Measurement](ctx, s, measurements, site, id, rev)
+}
+
+// MeasurementRevisions lists every revision of a measurement, oldest first.
+func (s *Store) MeasurementRevisions(ctx context.Context, site string, id uuid.UUID) ([]Measurement, error) {
+	return revisions[Measurement](ctx, s, measurements, site, id)
+}
+
+// MeasurementFilter selects measurements in a list.
+type MeasurementFilter struct {
+	CouponID      *uuid.UUID
+	Acceptance    string
+	IncludeVoided bool
+}
+
+// Measurements lists current measurements after the cursor.
+func (s *Store) Measurements(ctx context.Context, site string, mf MeasurementFilter, cursor string, limit int) (Page[Measurement], error) {
+	f := newFilter()
+	if !mf.IncludeVoided {
+		f.add("NOT voided")
+	}
+	if mf.CouponID != nil {
+		f.add("coupon_id = ?", *mf.CouponID)
+	}
+	if mf.Acceptance != "" {
+		f.add("acceptance = ?", mf.Acceptance)
+	}
+	return listCurrent[Measurement](ctx, s, measurements, site, f, cursor, limit)
+}

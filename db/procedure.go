@@ -1,0 +1,126 @@
+package db
+
+import (
+	"context"
+	"fmt"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// ProcedureData is what a welding procedure specification (WPS) states.
+// Lengths are in mm.
+type ProcedureData struct {
+	Code                 string      `db:"code" json:"code" validate:"required,max=64"`
+	Title                string      `db:"title" json:"title" validate:"required,max=200"`
+	Process              string      `db:"process" json:"process" validate:"required,oneof=GMAW FCAW GTAW SMAW SAW"`
+	FillerClassification string      `db:"filler_classification" json:"filler_classification" validate:"required,max=64"`
+	WireDiameterMM       float64     `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,gte=0.6,lte=4"`
+	ShieldingGas         string      `db:"shielding_gas" json:"shielding_gas" validate:"max=64"`
+	Polarity             string      `db:"polarity" json:"polarity" validate:"required,oneof=DCEP DCEN AC"`
+	TransferMode         string      `db:"transfer_mode" json:"transfer_mode" validate:"omitempty,oneof=short_circuit globular spray pulsed_spray"`
+	Positions            []string    `db:"positions" json:"positions" validate:"required,min=1,dive,required,max=8"`
+	BaseMetalGroup       string      `db:"base_metal_group" json:"base_metal_group" validate:"required,max=64"`
+	ThicknessMinMM       float64     `db:"thickness_min_mm" json:"thickness_min_mm" validate:"required,gte=0.5,lte=300"`
+	ThicknessMaxMM       float64     `db:"thickness_max_mm" json:"thickness_max_mm" validate:"required,gte=0.5,lte=300,gtefield=ThicknessMinMM"`
+	MinPenetrationMM     *float64    `db:"min_penetration_mm" json:"min_penetration_mm,omitempty" validate:"omitempty,gt=0,lte=50"`
+	Status               string      `db:"status" json:"status" validate:"required,oneof=draft qualified superseded"`
+	SupportingRecordIDs  []uuid.UUID `db:"supporting_record_ids" json:"supporting_record_ids"`
+}
+
+// Procedure is one stored revision of a WPS.
+type Procedure struct {
+	Meta
+	ProcedureData
+}
+
+var procedures = table{name: "procedures", entity: "procedure", fields: []string{
+	"code", "title", "process", "filler_classification", "wire_diameter_mm", "shielding_gas",
+	"polarity", "transfer_mode", "positions", "base_metal_group", "thickness_min_mm",
+	"thickness_max_mm", "min_penetration_mm", "status", "supporting_record_ids",
+}}
+
+func (p ProcedureData) values() []any {
+	ids := p.SupportingRecordIDs
+	if ids == nil {
+		ids = []uuid.UUID{}
+	}
+	return []any{p.Code, p.Title, p.Process, p.FillerClassification, p.WireDiameterMM, p.ShieldingGas,
+		p.Polarity, p.TransferMode, p.Positions, p.BaseMetalGroup, p.ThicknessMinMM,
+		p.ThicknessMaxMM, p.MinPenetrationMM, p.Status, ids}
+}
+
+// checkSupport verifies that every supporting qualification record exists at the site.
+func (p ProcedureData) checkSupport(ctx context.Context, site string) func(pgx.Tx) error {
+	return func(tx pgx.Tx) error {
+		for _, id := range p.SupportingRecordIDs {
+			if err := exists(ctx, tx, qualificationRecords, site, id, "supporting_record_ids"); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+}
+
+// CreateProcedure stores revision 1 of a new procedure.
+func (s *Store) CreateProcedure(ctx context.Context, a Actor, p ProcedureData) (Procedure, error) {
+	m, err := s.create(ctx, a, procedures, p.checkSupport(ctx, a.Site), p.values())
+	return Procedure{m, p}, err
+}
+
+// CorrectProcedure stores the next revision of a procedure. The code is the
+// procedure's identity and cannot change; void it and create another instead.
+func (s *Store) CorrectProcedure(ctx context.Context, a Actor, id uuid.UUID, ch Change, p ProcedureData) (Procedure, error) {
+	check := func(tx pgx.Tx) error {
+		old, err := getRecord[Procedure](ctx, tx, procedures, a.Site, id, 0)
+		if err != nil {
+			return err
+		}
+		if old.Code != p.Code {
+			return &FieldError{Field: "code", Reason: fmt.Sprintf("the code %q cannot change; void this procedure and create a new one", old.Code)}
+		}
+		return p.checkSupport(ctx, a.Site)(tx)
+	}
+	m, err := s.correct(ctx, a, procedures, id, ch, check, p.values())
+	return Procedure{m, p}, err
+}
+
+// VoidProcedure voids a procedure with a reason.
+func (s *Store) VoidProcedure(ctx context.Context, a Actor, id uuid.UUID, ch Change) (Procedure, error) {
+	if _, err := s.void(ctx, a, procedures, id, ch); err != nil {
+		return Procedure{}, err
+	}
+	return s.Procedure(ctx, a.Site, id, 0)
+}
+
+// Procedure reads the latest revision of a procedure, or revision rev when rev > 0.
+func (s *Store) Procedure(ctx context.Context, site string, id uuid.UUID, rev int) (Procedure, error) {
+	return readOne[Procedure](ctx, s, procedures, site, id, rev)
+}
+
+// ProcedureRevisions lists every revision of a procedure, oldest first.
+func (s *Store) ProcedureRevisions(ctx context.Context, site string, id uuid.UUID) ([]Procedure, error) {
+	return revisions[Procedure](ctx, s, procedures, site, id)
+}
+
+// ProcedureFilter selects procedures in a list.
+type ProcedureFilter struct {
+	Process       string
+	Status        string
+	IncludeVoided bool
+}
+
+// Procedures lists current procedures after the cursor.
+func (s *Store) Procedures(ctx context.Context, site string, pf ProcedureFilter, cursor string, limit int) (Page[Procedure], error) {
+	f := newFilter()
+	if !pf.IncludeVoided {
+		f.add("NOT voided")
+	}
+	if pf.Process != "" {
+		f.add("process = ?", pf.Process)
+	}
+	if pf.Status != "" {
+		f.add("status = ?", pf.Status)
+	}
+	return listCurrent[Procedure](ctx, s, procedures, site, f, cursor, limit)
+}

@@ -1,0 +1,147 @@
+package db
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"strconv"
+	"strings"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// MaxPageSize caps how many records one list call returns.
+const MaxPageSize = 500
+
+// Page is one page of a keyset-paginated list. Next is the cursor for the
+// following page, empty on the last page.
+type Page[T any] struct {
+	Items []T
+	Next  string
+}
+
+// getRecord reads the latest revision of a record, or the given revision when rev > 0.
+func getRecord[T any](ctx context.Context, q querier, t table, site string, id uuid.UUID, rev int) (T, error) {
+	sql := "SELECT " + t.columns() + " FROM " + t.name + " WHERE site = $1 AND id = $2"
+	args := []any{site, id}
+	if rev > 0 {
+		sql += " AND revision = $3"
+		args = append(args, rev)
+	}
+	sql += " ORDER BY revision DESC LIMIT 1"
+	rows, _ := q.Query(ctx, sql, args...)
+	v, err := pgx.CollectOneRow(rows, pgx.RowToStructByName[T])
+	if errors.Is(err, pgx.ErrNoRows) {
+		var zero T
+		return zero, fmt.Errorf("db: %s %s: %w", t.entity, id, ErrNotFound)
+	}
+	return v, err
+}
+
+// querier is what both a pool and a transaction can do.
+type querier interface {
+	Query(ctx context.Context, sql string, args ...any) (pgx.Rows, error)
+	QueryRow(ctx context.Context, sql string, args ...any) pgx.Row
+}
+
+// readOne reads a record outside any write transaction.
+func readOne[T any](ctx context.Context, s *Store, t table, site string, id uuid.UUID, rev int) (T, error) {
+	return getRecord[T](ctx, s.pool, t, site, id, rev)
+}
+
+// exists checks, inside a write, that a referenced record exists at the site and
+// is not voided; otherwise it names the referring field.
+func exists(ctx context.Context, q querier, t table, site string, id uuid.UUID, field string) error {
+	var voided bool
+	err := q.QueryRow(ctx, "SELECT voided FROM "+t.name+
+		" WHERE site = $1 AND id = $2 ORDER BY revision DESC LIMIT 1", site, id).Scan(&voided)
+	switch {
+	case errors.Is(err, pgx.ErrNoRows):
+		return &FieldError{Field: field, Reason: fmt.Sprintf("no %s %s", t.entity, id)}
+	case err != nil:
+		return err
+	case voided:
+		return &FieldError{Field: field, Reason: fmt.Sprintf("%s %s is voided", t.entity, id)}
+	}
+	return nil
+}
+
+// revisions lists every revision of one record, oldest first.
+func revisions[T any](ctx context.Context, s *Store, t table, site string, id uuid.UUID) ([]T, error) {
+	sql := "SELECT " + t.columns() + " FROM " + t.name + " WHERE site = $1 AND id = $2 ORDER BY revision"
+	rows, _ := s.pool.Query(ctx, sql, site, id)
+	v, err := pgx.CollectRows(rows, pgx.RowToStructByName[T])
+	if err != nil {
+		return nil, fmt.Errorf("db: %s %s revisions: %w", t.entity, id, err)
+	}
+	if len(v) == 0 {
+		return nil, fmt.Errorf("db: %s %s: %w", t.entity, id, ErrNotFound)
+	}
+	return v, nil
+}
+
+// filter collects WHERE conditions on the current revision ("cur") of a list.
+// Placeholders $1 and $2 are reserved for the site and the cursor.
+type filter struct {
+	conds []string
+	args  []any
+}
+
+// newFilter returns an empty filter with the site and cursor placeholders reserved.
+func newFilter() filter { return filter{args: []any{nil, nil}} }
+
+// add appends a condition; each "?" in cond becomes the next $n placeholder.
+func (f *filter) add(cond string, vals ...any) {
+	for _, v := range vals {
+		f.args = append(f.args, v)
+		cond = strings.Replace(cond, "?", "$"+strconv.Itoa(len(f.args)), 1)
+	}
+	f.conds = append(f.conds, cond)
+}
+
+// listCurrent returns the current revisions matching f, ordered by id (ids are
+// time-ordered UUIDv7), after the cursor. Rows added while a client pages
+// through sort after every existing id, so each row is returned exactly once.
+func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f filter, cursor string, limit int) (Page[T], error) {
+	if limit <= 0 || limit > MaxPageSize {
+		limit = MaxPageSize
+	}
+	var after uuid.UUID
+	if cursor != "" {
+		var err error
+		if after, err = uuid.Parse(cursor); err != nil {
+			return Page[T]{}, &FieldError{Field: "cursor", Reason: "not a cursor returned by this list"}
+		}
+	}
+	if len(f.args) < 2 {
+		f = newFilter()
+	}
+	f.args[0], f.args[1] = site, after
+	where := "true"
+	if len(f.conds) > 0 {
+		where = strings.Join(f.conds, " AND ")
+	}
+	f.args = append(f.args, limit+1)
+	sql := "SELECT " + t.columns() + " FROM (SELECT DISTINCT ON (id) " + t.columns() + " FROM " + t.name +
+		" WHERE site = $1 AND id > $2 ORDER BY id, revision DESC) cur WHERE " + where +
+		" ORDER BY id LIMIT $" + strconv.Itoa(len(f.args))
+	rows, _ := s.pool.Query(ctx, sql, f.args...)
+	items, err := pgx.CollectRows(rows, pgx.RowToStructByName[T])
+	if err != nil {
+		return Page[T]{}, fmt.Errorf("db: list %s: %w", t.entity, mapError(err))
+	}
+	p := Page[T]{Items: items}
+	if len(items) > limit {
+		p.Items = items[:limit]
+		p.Next = metaOf(any(&p.Items[limit-1])).ID.String()
+	}
+	return p, nil
+}
+
+// metaHolder is implemented by every record type through its embedded Meta.
+type metaHolder interface{ meta() *Meta }
+
+func (m *Meta) meta() *Meta { return m }
+
+func metaOf(v any) *Meta { return v.(metaHolder).meta() }
