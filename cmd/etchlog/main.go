@@ -5,6 +5,7 @@
 //	etchlog demo             load the demo shop and run the server
 //	etchlog migrate up|down  apply or roll back the schema
 //	etchlog user add         create an API user and print its token
+//	etchlog load             measure a running server (loopback only)
 package main
 
 import (
@@ -32,6 +33,7 @@ commands:
   demo             load the invented demo shop into the local database and run the server
   migrate up|down  apply or roll back the database schema
   user add         create or replace an API user and print its token
+  load             measure a running server against a no-database baseline (loopback only)
 
 Run "etchlog <command> -h" for the flags of a command. Without DATABASE_URL,
 etchlog uses the local PostgreSQL server, or starts a private one.`
@@ -51,6 +53,8 @@ func run(ctx context.Context, args []string, getenv func(string) string, stdout,
 		return cmdMigrate(ctx, args[1:], getenv, stdout, stderr)
 	case "user":
 		return cmdUser(ctx, args[1:], getenv, stdout, stderr)
+	case "load":
+		return cmdLoad(ctx, args[1:], getenv, stdout, stderr)
 	case "help", "-h", "--help":
 		fmt.Fprintln(stdout, usage)
 		return nil
