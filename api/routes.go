@@ -51,6 +51,7 @@ func (s *Server) routes() error {
 
 		{http.MethodGet, "/v1/audit/events", s.handleAuditEvents, readers},
 		{http.MethodGet, "/v1/audit/verify", s.handleAuditVerify, readers},
+		{http.MethodGet, "/v1/export", s.handleExport, readers},
 	} {
 		conform, err := s.conformTo(r.method, r.path)
 		if err != nil {
