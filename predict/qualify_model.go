@@ -1,0 +1,90 @@
+package predict
+
+import (
+	"fmt"
+	"math"
+)
+
+// Variables of the model flags (never rule variables).
+const (
+	// VarPenetration is the measured penetration (mean of the coupon's
+	// sections, mm) checked against the calibration's prediction interval.
+	VarPenetration Variable = "penetration_mm"
+	// VarPredictedPenetration is the calibrated median penetration (mm) at
+	// the record's current, voltage and travel speed, checked against the
+	// procedure's required minimum.
+	VarPredictedPenetration Variable = "predicted_penetration_mm"
+)
+
+// PenetrationCheck compares records with a shop's active Jackson
+// calibration: a measured penetration outside the prediction interval for
+// one new coupon at Fit's level (the coupon does not behave like the ones
+// the model was fitted to), and a predicted median below the procedure's
+// required minimum (MinPenetrationMM, nil when the procedure states none).
+type PenetrationCheck struct {
+	Fit              PenetrationFit
+	Level            float64
+	Label            string // names the calibration in flag details
+	MinPenetrationMM *float64
+}
+
+// Evaluate appends the model flags of one record welded with the
+// observation's current, voltage and travel speed; measuredMM is nil when
+// the record has no measured section (production records never have).
+// A record without the three values gets one not_checkable flag.
+func (p PenetrationCheck) Evaluate(o *Observation, measuredMM *float64, dst []Flag) []Flag {
+	i, okI := o.Number(VarCurrent)
+	v, okV := o.Number(VarVoltage)
+	s, okS := o.Number(VarTravelSpeed)
+	if !okI || !okV || !okS {
+		return append(dst, Flag{Kind: FlagNotCheckable, Variable: VarPredictedPenetration, Unit: "mm",
+			Detail: "a penetration prediction needs current, voltage and travel speed, and one is not recorded"})
+	}
+	iv, err := p.Fit.Predict(i, v, s, p.Level)
+	if err != nil {
+		return append(dst, Flag{Kind: FlagNotCheckable, Variable: VarPredictedPenetration, Unit: "mm",
+			Detail: fmt.Sprintf("calibration %s cannot predict here: %v", p.Label, err)})
+	}
+	if measuredMM != nil {
+		band := Band{iv.PredLowMM, iv.PredHighMM}
+		r := VariableRange{Variable: VarPenetration, Unit: "mm", Bands: []Band{band}}
+		if f, out := outside(&r, *measuredMM); out {
+			f.Kind = FlagModel
+			f.Detail = fmt.Sprintf("measured penetration %.3g mm is %s the %.0f %% prediction interval %s mm of calibration %s by %.3g mm",
+				*measuredMM, f.Direction, p.Level*100, band, p.Label, *f.Excess)
+			dst = append(dst, f)
+		}
+	}
+	if p.MinPenetrationMM != nil && iv.MedianMM < *p.MinPenetrationMM {
+		med, need := iv.MedianMM, *p.MinPenetrationMM
+		ex := need - med
+		pct := ex / need * 100
+		dst = append(dst, Flag{Kind: FlagModel, Variable: VarPredictedPenetration, Unit: "mm", Value: &med, Min: &need,
+			Direction: Below, Excess: &ex, ExcessPct: &pct,
+			Detail: fmt.Sprintf("calibration %s predicts %.3g mm penetration (median; %.0f %% interval %.3g–%.3g mm), below the procedure's required %.3g mm",
+				p.Label, med, p.Level*100, iv.PredLowMM, iv.PredHighMM, need)})
+	}
+	return dst
+}
+
+// meanOf is the plain mean of section values, NaN for none.
+func meanOf(v []float64) float64 {
+	if len(v) == 0 {
+		return math.NaN()
+	}
+	s := 0.0
+	for _, x := range v {
+		s += x
+	}
+	return s / float64(len(v))
+}
+
+// MeanSectionMM returns the mean of a coupon's section penetrations, or nil
+// when it has none.
+func MeanSectionMM(sections []float64) *float64 {
+	if len(sections) == 0 {
+		return nil
+	}
+	m := meanOf(sections)
+	return &m
+}
