@@ -77,13 +77,19 @@ func problemFor(err error) Problem {
 	case errors.As(err, &re):
 		issues := requestIssues(re)
 		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request does not match the API description",
-			Status: http.StatusBadRequest, Detail: (&invalidError{issues: issues}).Error(), Errors: issues}
+			Status: requestStatus(re), Detail: (&invalidError{issues: issues}).Error(), Errors: issues}
+	case errors.Is(err, db.ErrBadCursor):
+		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request is malformed", Status: http.StatusBadRequest,
+			Detail: err.Error(), Errors: []FieldIssue{{"cursor", db.ErrBadCursor.Error()}}}
 	case errors.As(err, &fe):
 		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request has values that are refused",
 			Status: http.StatusUnprocessableEntity, Detail: fe.Error(), Errors: []FieldIssue{{fe.Field, fe.Reason}}}
 	case errors.As(err, &pe):
 		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request has values that are refused",
 			Status: http.StatusUnprocessableEntity, Detail: pe.Error(), Errors: []FieldIssue{{pe.Field, pe.Reason}}}
+	case errors.Is(err, predict.ErrTooFewSamples), errors.Is(err, predict.ErrDegenerate):
+		return Problem{Type: "urn:etchlog:problem:fit-refused", Title: "The selected coupons cannot support this fit",
+			Status: http.StatusUnprocessableEntity, Detail: err.Error(), Errors: []FieldIssue{{"coupons", fitRefusal(err)}}}
 	case errors.Is(err, db.ErrNotFound):
 		return Problem{Type: "urn:etchlog:problem:not-found", Title: "No such record", Status: http.StatusNotFound, Detail: err.Error()}
 	case errors.Is(err, db.ErrConflict):
@@ -95,6 +101,46 @@ func problemFor(err error) Problem {
 	}
 	return Problem{Type: "about:blank", Title: "Internal error", Status: http.StatusInternalServerError,
 		Detail: "the server could not complete the request; it has been logged with the request id"}
+}
+
+// rangeKeywords are the schema keywords whose failure means a well-formed
+// value outside its allowed range or length: refused (422) like the
+// validator's bounds, not malformed (400).
+var rangeKeywords = map[string]bool{
+	"minimum": true, "maximum": true, "exclusiveMinimum": true, "exclusiveMaximum": true,
+	"minLength": true, "maxLength": true, "minItems": true, "maxItems": true,
+}
+
+// requestStatus is the status for an OpenAPI request validation error: 422
+// when every failure is a value out of its range or length, else 400.
+func requestStatus(err error) int {
+	leaves, refused := 0, 0
+	var walk func(err error)
+	walk = func(err error) {
+		var multi openapi3.MultiError
+		var re *openapi3filter.RequestError
+		var se *openapi3.SchemaError
+		switch {
+		case errors.As(err, &multi):
+			for _, e := range multi {
+				walk(e)
+			}
+		case errors.As(err, &re) && re.Err != nil:
+			walk(re.Err)
+		case errors.As(err, &se):
+			leaves++
+			if rangeKeywords[se.SchemaField] {
+				refused++
+			}
+		default:
+			leaves++
+		}
+	}
+	walk(err)
+	if leaves > 0 && refused == leaves {
+		return http.StatusUnprocessableEntity
+	}
+	return http.StatusBadRequest
 }
 
 var unsupportedProperty = regexp.MustCompile(`^property "([^"]+)" is unsupported`)

@@ -44,7 +44,11 @@ func handleCreate[In input[D], D any, R any](s *Server, r resource[In, D, R]) ec
 			return err
 		}
 		if ch := in.fields(); ch.BaseRevision != nil || ch.Reason != nil {
-			return badRequest("base_revision", "base_revision and reason belong to a correction (PUT), not to a new record")
+			field := "base_revision"
+			if ch.BaseRevision == nil {
+				field = "reason"
+			}
+			return badRequest(field, "base_revision and reason belong to a correction (PUT), not to a new record")
 		}
 		d, err := in.data(c, s)
 		if err != nil {

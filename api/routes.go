@@ -51,7 +51,33 @@ func (s *Server) routes() error {
 
 		{http.MethodGet, "/v1/audit/events", s.handleAuditEvents, readers},
 		{http.MethodGet, "/v1/audit/verify", s.handleAuditVerify, readers},
+
+		// rule sets, ranges and flags
+		{http.MethodGet, "/v1/rule-sets", s.handleRuleSetList, readers},
+		{http.MethodPost, "/v1/rule-sets", s.handleRuleSetCreate, engineers},
+		{http.MethodGet, "/v1/rule-sets/:rule_set_id", s.handleRuleSetGet, readers},
+		{http.MethodPost, "/v1/procedures/:id/ranges", s.handleRangesDerive, engineers},
+		{http.MethodGet, "/v1/procedures/:id/ranges", s.handleRangesGet, readers},
+		{http.MethodPost, "/v1/procedures/:id/ranges/narrow", s.handleRangesNarrow, engineers},
+		{http.MethodGet, "/v1/procedures/:id/flag-summary", s.handleFlagSummary, readers},
+		{http.MethodPost, "/v1/production-records", s.handleProductionCreate, recorders},
+		{http.MethodGet, "/v1/production-records", s.handleProductionList, readers},
+		{http.MethodGet, "/v1/flags", s.handleFlagList, readers},
+		// end of rule sets, ranges and flags
 		{http.MethodGet, "/v1/export", s.handleExport, readers},
+
+		// predictions and calibrations
+		{http.MethodPost, "/v1/predictions", s.handlePrediction, readers},
+		{http.MethodPost, "/v1/calibrations", s.handleCalibrationCreate, engineers},
+		{http.MethodGet, "/v1/calibrations", s.handleCalibrationList, readers},
+		{http.MethodGet, "/v1/calibrations/:id", s.handleCalibrationGet, readers},
+		{http.MethodPost, "/v1/calibrations/:id/activate", s.handleCalibrationActivate, engineers},
+		{http.MethodGet, "/v1/coupons/:id/model", s.handleCouponModel, readers},
+		{http.MethodPost, "/v1/inverse/current-for-deposition", s.handleInverseDeposition, readers},
+		{http.MethodPost, "/v1/inverse/hold-penetration", s.handleInverseHold, readers},
+		{http.MethodPost, "/v1/inverse/penetration", s.handleInversePenetration, readers},
+		{http.MethodPost, "/v1/parameter-window", s.handleWindow, readers},
+		// end of predictions and calibrations
 	} {
 		conform, err := s.conformTo(r.method, r.path)
 		if err != nil {

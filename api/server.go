@@ -19,7 +19,7 @@ import (
 // Options configure a Server.
 type Options struct {
 	Logger    *slog.Logger
-	BodyLimit string // e.g. "1M"; requests above it get 413
+	BodyLimit string // e.g. "1MiB" (1,048,576 bytes; "1M" would be 10^6); requests above it get 413
 }
 
 // Server serves etchlog's API over a Store.
@@ -38,7 +38,7 @@ func New(store *db.Store, opt Options) (*Server, error) {
 		opt.Logger = slog.Default()
 	}
 	if opt.BodyLimit == "" {
-		opt.BodyLimit = "1M"
+		opt.BodyLimit = "1MiB"
 	}
 	spec, err := loadSpec()
 	if err != nil {

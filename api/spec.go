@@ -73,7 +73,7 @@ func asRequestError(err error) error {
 			}
 			issues = append(issues, FieldIssue{"request", e.Error()})
 		}
-		return &invalidError{status: 400, issues: issues}
+		return &invalidError{status: requestStatus(multi), issues: issues}
 	}
 	return err
 }

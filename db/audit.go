@@ -90,7 +90,8 @@ type Verification struct {
 }
 
 // record tables whose revisions the audit chain covers.
-var auditedTables = []table{procedures, qualificationRecords, coupons, measurements}
+var auditedTables = []table{procedures, qualificationRecords, coupons, measurements, calibrationTable, activationTable,
+	ruleSetTable, rangesTable, productionBatchTable}
 
 // VerifyAudit recomputes every link of the site's chain and compares every
 // stored record revision with the content its audit event recorded. Any edit

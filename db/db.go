@@ -25,6 +25,8 @@ var (
 	ErrInvalid = errors.New("invalid value")
 	// ErrVoided means the record was voided and can no longer be corrected.
 	ErrVoided = errors.New("record is voided")
+	// ErrBadCursor means a list cursor is not one that the list handed out.
+	ErrBadCursor = errors.New("not a cursor returned by this list")
 )
 
 // FieldError is a refused value for one named field.

@@ -40,14 +40,19 @@ var procedures = table{name: "procedures", entity: "procedure", fields: []string
 	"thickness_max_mm", "min_penetration_mm", "status", "supporting_record_ids",
 }}
 
-func (p ProcedureData) values() []any {
-	ids := p.SupportingRecordIDs
-	if ids == nil {
-		ids = []uuid.UUID{}
+// supportingIDs is SupportingRecordIDs with none as an empty list, as it is stored
+// and read back (so a write returns what a read returns).
+func (p ProcedureData) supportingIDs() []uuid.UUID {
+	if p.SupportingRecordIDs == nil {
+		return []uuid.UUID{}
 	}
+	return p.SupportingRecordIDs
+}
+
+func (p ProcedureData) values() []any {
 	return []any{p.Code, p.Title, p.Process, p.FillerClassification, p.WireDiameterMM, p.ShieldingGas,
 		p.Polarity, p.TransferMode, p.Positions, p.BaseMetalGroup, p.ThicknessMinMM,
-		p.ThicknessMaxMM, p.MinPenetrationMM, p.Status, ids}
+		p.ThicknessMaxMM, p.MinPenetrationMM, p.Status, p.supportingIDs()}
 }
 
 // checkSupport verifies that every supporting qualification record exists at the site.
@@ -64,6 +69,7 @@ func (p ProcedureData) checkSupport(ctx context.Context, site string) func(pgx.T
 
 // CreateProcedure stores revision 1 of a new procedure.
 func (s *Store) CreateProcedure(ctx context.Context, a Actor, p ProcedureData) (Procedure, error) {
+	p.SupportingRecordIDs = p.supportingIDs()
 	m, err := s.create(ctx, a, procedures, p.checkSupport(ctx, a.Site), p.values())
 	return Procedure{m, p}, err
 }
@@ -71,6 +77,7 @@ func (s *Store) CreateProcedure(ctx context.Context, a Actor, p ProcedureData) (
 // CorrectProcedure stores the next revision of a procedure. The code is the
 // procedure's identity and cannot change; void it and create another instead.
 func (s *Store) CorrectProcedure(ctx context.Context, a Actor, id uuid.UUID, ch Change, p ProcedureData) (Procedure, error) {
+	p.SupportingRecordIDs = p.supportingIDs()
 	check := func(tx pgx.Tx) error {
 		old, err := getRecord[Procedure](ctx, tx, procedures, a.Site, id, 0)
 		if err != nil {

@@ -111,7 +111,7 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	if cursor != "" {
 		var err error
 		if after, err = uuid.Parse(cursor); err != nil {
-			return Page[T]{}, &FieldError{Field: "cursor", Reason: "not a cursor returned by this list"}
+			return Page[T]{}, fmt.Errorf("db: list %s: cursor %q: %w", t.entity, cursor, ErrBadCursor)
 		}
 	}
 	if len(f.args) < 2 {

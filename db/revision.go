@@ -63,7 +63,10 @@ func (t table) insert(ctx context.Context, tx pgx.Tx, m Meta, action string, val
 	if _, err := tx.Exec(ctx, q, args...); err != nil {
 		return mapError(err)
 	}
-	return appendAudit(ctx, tx, t, m, action)
+	if err := appendAudit(ctx, tx, t, m, action); err != nil {
+		return err
+	}
+	return afterWrite(ctx, tx, t, m) // derived data (flags) kept in step, same transaction
 }
 
 // lockLatest locks the latest revision of a record and returns it.
@@ -106,7 +109,10 @@ func (t table) voidLatest(ctx context.Context, tx pgx.Tx, m Meta) error {
 	if _, err := tx.Exec(ctx, q, m.Site, m.ID, m.Revision, m.CreatedAt, m.CreatedBy, m.Reason, m.Revision-1); err != nil {
 		return mapError(err)
 	}
-	return appendAudit(ctx, tx, t, m, "void")
+	if err := appendAudit(ctx, tx, t, m, "void"); err != nil {
+		return err
+	}
+	return afterWrite(ctx, tx, t, m)
 }
 
 // tx runs fn in one transaction and commits once.

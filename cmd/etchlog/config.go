@@ -23,7 +23,7 @@ type config struct {
 
 // defaults fills the configuration from the environment.
 func defaults(getenv func(string) string) config {
-	c := config{Addr: "127.0.0.1:8080", LogLevel: "info", BodyLimit: "1M", DatabaseURL: getenv("DATABASE_URL")}
+	c := config{Addr: "127.0.0.1:8080", LogLevel: "info", BodyLimit: "1MiB", DatabaseURL: getenv("DATABASE_URL")}
 	if v := getenv("ETCHLOG_ADDR"); v != "" {
 		c.Addr = v
 	}
@@ -38,7 +38,7 @@ func (c *config) flags(fs *flag.FlagSet) {
 	fs.StringVar(&c.Addr, "addr", c.Addr, "listen address (env ETCHLOG_ADDR)")
 	fs.StringVar(&c.DatabaseURL, "database-url", c.DatabaseURL, "PostgreSQL URL (env DATABASE_URL; empty: local default database)")
 	fs.StringVar(&c.LogLevel, "log-level", c.LogLevel, "debug, info, warn or error (env ETCHLOG_LOG_LEVEL)")
-	fs.StringVar(&c.BodyLimit, "body-limit", c.BodyLimit, "largest request body, e.g. 1M")
+	fs.StringVar(&c.BodyLimit, "body-limit", c.BodyLimit, "largest request body, e.g. 1MiB (binary) or 1M (10^6 bytes)")
 }
 
 // validate checks the configuration before anything is opened.

@@ -210,6 +210,23 @@ func loadDemo(ctx context.Context, s *db.Store) (bool, error) {
 			}
 		}
 	}
+	if err := loadDemoRanges(ctx, s); err != nil {
+		return false, err
+	}
+	// Calibrate the penetration model on each procedure's coupons and make it active,
+	// so coupon model views and model flags have something to compare with.
+	for _, f := range fams {
+		cal, err := s.CreateCalibration(ctx, eng, db.CalibrationSpec{
+			Model: "jackson_fixed", Process: "GMAW", WireDiameterMM: f.wireMM, ShieldingGas: f.proc.ShieldingGas,
+			JointType: f.joint, ProcedureID: &f.proc.ID, Level: 0.95, Note: "demo: published exponents, shop K",
+		})
+		if err != nil {
+			return false, err
+		}
+		if _, err := s.ActivateCalibration(ctx, eng, cal.ID, "demo: first calibration of this group"); err != nil {
+			return false, err
+		}
+	}
 	return true, nil
 }
 

@@ -1,0 +1,43 @@
+package api
+
+import (
+	"net/http"
+
+	"github.com/labstack/echo/v4"
+
+	"etchlog/db"
+)
+
+func (s *Server) handleFlagList(c echo.Context) error {
+	limit, err := queryInt(c, "limit")
+	if err != nil {
+		return err
+	}
+	f := db.FlagFilter{SubjectKind: c.QueryParam("subject_kind"), Kind: c.QueryParam("kind"), Variable: c.QueryParam("variable")}
+	if f.ProcedureID, err = queryUUID(c, "procedure_id"); err != nil {
+		return err
+	}
+	if f.From, err = queryTime(c, "from"); err != nil {
+		return err
+	}
+	if f.To, err = queryTime(c, "to"); err != nil {
+		return err
+	}
+	p, err := s.store.Flags(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)
+	if err != nil {
+		return err
+	}
+	return c.JSON(http.StatusOK, pageOf(p))
+}
+
+func (s *Server) handleFlagSummary(c echo.Context) error {
+	id, err := pathID(c)
+	if err != nil {
+		return err
+	}
+	sum, err := s.store.FlagSummary(c.Request().Context(), actorOf(c).Site, id)
+	if err != nil {
+		return err
+	}
+	return c.JSON(http.StatusOK, sum)
+}

@@ -1,0 +1,150 @@
+package api
+
+import (
+	"fmt"
+	"net/http"
+
+	"github.com/labstack/echo/v4"
+
+	"etchlog/db"
+	"etchlog/predict"
+)
+
+// penetrationInverseIn asks for the current, voltage or travel speed that
+// gives a target Jackson penetration with the other two given. K is the
+// group's active jackson_fixed calibration's, else the caller's.
+type penetrationInverseIn struct {
+	groupFields
+	SolveFor            string      `json:"solve_for"`
+	PenetrationMM       *float64    `json:"penetration_mm"`
+	PenetrationIn       *float64    `json:"penetration_in"`
+	CurrentA            *float64    `json:"current_a"`
+	VoltageV            *float64    `json:"voltage_v"`
+	TravelSpeedMMPerS   *float64    `json:"travel_speed_mm_s"`
+	TravelSpeedMMPerMin *float64    `json:"travel_speed_mm_min"`
+	TravelSpeedInPerMin *float64    `json:"travel_speed_in_min"`
+	WireDiameterMM      *float64    `json:"wire_diameter_mm"`
+	WireDiameterIn      *float64    `json:"wire_diameter_in"`
+	JacksonK            *jacksonKIn `json:"jackson_k"`
+}
+
+// penetrationInverse is the request in metric units, validated.
+type penetrationInverse struct {
+	SolveFor          string      `json:"solve_for" validate:"required,oneof=current voltage travel_speed"`
+	PenetrationMM     float64     `json:"penetration_mm" validate:"required,gt=0,lte=50"`
+	CurrentA          *float64    `json:"current_a" validate:"omitempty,gte=10,lte=1000"`
+	VoltageV          *float64    `json:"voltage_v" validate:"omitempty,gte=5,lte=60"`
+	TravelSpeedMMPerS *float64    `json:"travel_speed_mm_s" validate:"omitempty,gte=0.5,lte=30"`
+	WireDiameterMM    *float64    `json:"wire_diameter_mm" validate:"omitempty,gte=0.6,lte=4"`
+	JacksonK          *jacksonKIn `json:"jackson_k"`
+}
+
+func (in penetrationInverseIn) metric() (penetrationInverse, error) {
+	var u units
+	q := penetrationInverse{SolveFor: in.SolveFor, CurrentA: in.CurrentA, VoltageV: in.VoltageV, JacksonK: in.JacksonK,
+		PenetrationMM:     u.req(mm("penetration_mm", in.PenetrationMM), inch("penetration_in", in.PenetrationIn)),
+		TravelSpeedMMPerS: u.opt(mmPerS("travel_speed_mm_s", in.TravelSpeedMMPerS), mmPerMin("travel_speed_mm_min", in.TravelSpeedMMPerMin), inPerMin("travel_speed_in_min", in.TravelSpeedInPerMin)),
+		WireDiameterMM:    u.opt(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn)),
+	}
+	for _, v := range []struct {
+		name  string
+		given bool
+	}{{"current", q.CurrentA != nil}, {"voltage", q.VoltageV != nil}, {"travel_speed", q.TravelSpeedMMPerS != nil}} {
+		field := map[string]string{"current": "current_a", "voltage": "voltage_v", "travel_speed": "travel_speed_mm_s"}[v.name]
+		switch {
+		case v.name == q.SolveFor && v.given:
+			u.issues = append(u.issues, FieldIssue{field, "is what solve_for asks for; leave it out"})
+		case v.name != q.SolveFor && !v.given && q.SolveFor != "":
+			u.issues = append(u.issues, FieldIssue{field, "is required when solving for " + q.SolveFor})
+		}
+	}
+	return q, u.err()
+}
+
+// penetrationInverseOut is the full setting with the solved quantity filled
+// in, the penetration the forward model gives there and the K used.
+type penetrationInverseOut struct {
+	SolveFor            string         `json:"solve_for"`
+	CurrentA            float64        `json:"current_a"`
+	VoltageV            float64        `json:"voltage_v"`
+	TravelSpeedMMPerS   float64        `json:"travel_speed_mm_s"`
+	TravelSpeedInPerMin float64        `json:"travel_speed_in_min"`
+	Penetration         penetrationOut `json:"penetration"`
+	Notes               []string       `json:"notes"`
+	Caution             string         `json:"caution"`
+}
+
+// handleInversePenetration answers POST /v1/inverse/penetration.
+func (s *Server) handleInversePenetration(c echo.Context) error {
+	var in penetrationInverseIn
+	if err := bind(c, &in); err != nil {
+		return err
+	}
+	q, err := in.metric()
+	if err != nil {
+		return err
+	}
+	if err := s.check(q); err != nil {
+		return err
+	}
+	if err := s.check(in.groupFields); err != nil {
+		return err
+	}
+	g, err := in.group(q.WireDiameterMM)
+	if err != nil {
+		return err
+	}
+	k, cal, err := s.jacksonKFor(c, g, q.JacksonK)
+	if err != nil {
+		return err
+	}
+	if k == nil {
+		return unprocessable(FieldIssue{"jackson_k", "is required: give it, or the group of an active jackson_fixed calibration"})
+	}
+	out := penetrationInverseOut{SolveFor: q.SolveFor, Notes: []string{}, Caution: predictionCaution}
+	if err := solveJackson(*k, q, &out); err != nil {
+		return renamed(err, jacksonFieldNames)
+	}
+	po := &out.Penetration
+	po.Source, po.Model = sourceRequest, "jackson"
+	if cal != nil {
+		po.Source, po.Model, po.CalibrationID = sourceCalibration, string(db.CalibrationJacksonFixed), &cal.ID
+	}
+	po.Exponents = &exponentsOut{predict.JacksonCurrentExponent, predict.JacksonTravelExponent, predict.JacksonVoltageExponent}
+	if err := po.setK(*k); err != nil {
+		return err
+	}
+	p, err := predict.PenetrationMM(*k, out.CurrentA, out.TravelSpeedMMPerS, out.VoltageV)
+	if err != nil {
+		return err
+	}
+	po.PenetrationMM, po.PenetrationIn = &p, ptrTo(predict.MMToInch(p))
+	out.TravelSpeedInPerMin = predict.MMPerSToInPerMin(out.TravelSpeedMMPerS)
+	for _, b := range []struct {
+		name   string
+		v      float64
+		lo, hi float64
+	}{{"current_a", out.CurrentA, 10, 1000}, {"voltage_v", out.VoltageV, 5, 60}, {"travel_speed_mm_s", out.TravelSpeedMMPerS, 0.5, 30}} {
+		if b.v < b.lo || b.v > b.hi {
+			out.Notes = append(out.Notes, fmt.Sprintf("%s = %.4g is outside its plausible range %g–%g: no usual weld gives this penetration with the other two held", b.name, b.v, b.lo, b.hi))
+		}
+	}
+	return c.JSON(http.StatusOK, out)
+}
+
+// solveJackson fills the setting with the quantity q solves for.
+func solveJackson(k predict.JacksonK, q penetrationInverse, out *penetrationInverseOut) error {
+	var err error
+	switch q.SolveFor {
+	case "current":
+		out.VoltageV, out.TravelSpeedMMPerS = *q.VoltageV, *q.TravelSpeedMMPerS
+		out.CurrentA, err = predict.JacksonCurrentA(k, q.PenetrationMM, out.TravelSpeedMMPerS, out.VoltageV)
+	case "voltage":
+		out.CurrentA, out.TravelSpeedMMPerS = *q.CurrentA, *q.TravelSpeedMMPerS
+		out.VoltageV, err = predict.JacksonVoltageV(k, q.PenetrationMM, out.CurrentA, out.TravelSpeedMMPerS)
+	default:
+		out.CurrentA, out.VoltageV = *q.CurrentA, *q.VoltageV
+		out.TravelSpeedMMPerS, err = predict.JacksonTravelSpeedMMPerS(k, q.PenetrationMM, out.CurrentA, out.VoltageV)
+	}
+	return err
+}

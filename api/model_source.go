@@ -1,0 +1,155 @@
+package api
+
+import (
+	"errors"
+
+	"github.com/labstack/echo/v4"
+
+	"etchlog/db"
+	"etchlog/predict"
+)
+
+// predictionCaution is sent with every prediction, inverse solve and window.
+const predictionCaution = "Predictions are estimates for planning; they never replace qualification testing. " +
+	"Qualification follows the governing welding code; defer to local codes, the code of record and " +
+	"licensed or certified engineering and inspection practice."
+
+// defaultLevel is the confidence level of intervals when a request gives none.
+const defaultLevel = 0.95
+
+// Where a model's coefficients came from, as reported in responses.
+const (
+	sourceCalibration = "calibration" // the group's active calibration
+	sourceRequest     = "request"     // coefficients the caller sent
+	sourceNone        = "none"        // neither: the value is not computed
+)
+
+// jacksonKIn is a Jackson coefficient as a caller sends it.
+type jacksonKIn struct {
+	Value float64 `json:"value" validate:"required,gt=0"`
+	Units string  `json:"units" validate:"required,oneof=metric inch"`
+}
+
+func (k jacksonKIn) jackson() predict.JacksonK {
+	return predict.JacksonK{Value: k.Value, Units: predict.JacksonUnits(k.Units)}
+}
+
+// lesnewichIn is a pair of Lesnewich coefficients as a caller sends them.
+type lesnewichIn struct {
+	AlphaKgPerHA   float64 `json:"alpha_kg_h_a" validate:"gte=0"`
+	BetaKgPerHA2MM float64 `json:"beta_kg_h_a2_mm" validate:"gte=0"`
+}
+
+func (l lesnewichIn) lesnewich() predict.Lesnewich {
+	return predict.Lesnewich{AlphaKgPerHA: l.AlphaKgPerHA, BetaKgPerHA2MM: l.BetaKgPerHA2MM}
+}
+
+// groupFields are the optional calibration-group fields of a request; with
+// them the group's active calibrations are used.
+type groupFields struct {
+	Process      *string `json:"process" validate:"omitempty,oneof=GMAW FCAW GTAW SMAW SAW"`
+	ShieldingGas *string `json:"shielding_gas" validate:"omitempty,max=64"`
+	JointType    *string `json:"joint_type" validate:"omitempty,oneof=bead_on_plate butt fillet lap corner edge"`
+}
+
+// group returns the calibration group named by the request, nil when none of
+// process, shielding_gas and joint_type is given. With any of them, process,
+// joint_type and the wire diameter are required (an absent gas is "").
+func (g groupFields) group(wireDiameterMM *float64) (*db.CalibrationGroup, error) {
+	if g.Process == nil && g.ShieldingGas == nil && g.JointType == nil {
+		return nil, nil
+	}
+	var issues []FieldIssue
+	why := "is required to look up the group's active calibration"
+	if g.Process == nil {
+		issues = append(issues, FieldIssue{"process", why})
+	}
+	if g.JointType == nil {
+		issues = append(issues, FieldIssue{"joint_type", why})
+	}
+	if wireDiameterMM == nil {
+		issues = append(issues, FieldIssue{"wire_diameter_mm", why + " (or give wire_diameter_in)"})
+	}
+	if issues != nil {
+		return nil, unprocessable(issues...)
+	}
+	gr := db.CalibrationGroup{Process: *g.Process, WireDiameterMM: *wireDiameterMM, JointType: *g.JointType}
+	if g.ShieldingGas != nil {
+		gr.ShieldingGas = *g.ShieldingGas
+	}
+	return &gr, nil
+}
+
+// activeCalibration returns the group's active calibration of the first model
+// that has one, or nil (no group, or none activated).
+func (s *Server) activeCalibration(c echo.Context, g *db.CalibrationGroup, models ...db.CalibrationModel) (*db.Calibration, error) {
+	if g == nil {
+		return nil, nil
+	}
+	for _, m := range models {
+		cal, err := s.store.ActiveCalibration(c.Request().Context(), actorOf(c).Site, *g, m)
+		if errors.Is(err, db.ErrNotFound) {
+			continue
+		}
+		if err != nil {
+			return nil, err
+		}
+		return &cal, nil
+	}
+	return nil, nil
+}
+
+// jacksonKFor picks the Jackson K with the published exponents: the group's
+// active jackson_fixed calibration, else the caller's K, else none (nil).
+func (s *Server) jacksonKFor(c echo.Context, g *db.CalibrationGroup, given *jacksonKIn) (*predict.JacksonK, *db.Calibration, error) {
+	cal, err := s.activeCalibration(c, g, db.CalibrationJacksonFixed)
+	if err != nil {
+		return nil, nil, err
+	}
+	if cal != nil && cal.Fit.Penetration != nil {
+		k, err := cal.Fit.Penetration.JacksonK()
+		if err != nil {
+			return nil, nil, err
+		}
+		return &k, cal, nil
+	}
+	if given == nil {
+		return nil, nil, nil
+	}
+	k := given.jackson()
+	return &k, nil, nil
+}
+
+// lesnewichFor picks the Lesnewich coefficients: the group's active
+// calibration, else the caller's, else none (nil).
+func (s *Server) lesnewichFor(c echo.Context, g *db.CalibrationGroup, given *lesnewichIn) (*predict.Lesnewich, *db.Calibration, error) {
+	cal, err := s.activeCalibration(c, g, db.CalibrationLesnewich)
+	if err != nil {
+		return nil, nil, err
+	}
+	if cal != nil && cal.Fit.Melting != nil {
+		l := cal.Fit.Melting.Lesnewich()
+		return &l, cal, nil
+	}
+	if given == nil {
+		return nil, nil, nil
+	}
+	l := given.lesnewich()
+	return &l, nil, nil
+}
+
+// renamed turns a predict input error into a 422 naming the request field
+// (names maps predict's quantity names to JSON field names); other errors
+// pass through unchanged.
+func renamed(err error, names map[string]string) error {
+	var pe *predict.InputError
+	if errors.As(err, &pe) {
+		if f, ok := names[pe.Field]; ok {
+			return unprocessable(FieldIssue{f, pe.Reason})
+		}
+	}
+	return err
+}
+
+// ptrTo returns a pointer to v, for optional response fields.
+func ptrTo[T any](v T) *T { return &v }

@@ -1,0 +1,185 @@
+package api
+
+import (
+	"fmt"
+	"net/http"
+
+	"github.com/labstack/echo/v4"
+
+	"etchlog/predict"
+)
+
+// rangeIn is a qualified range [min, max]; the unit is in the field's name.
+type rangeIn struct {
+	Min float64 `json:"min"`
+	Max float64 `json:"max"`
+}
+
+// rangeSpelling is one accepted field name for a range, with its conversion.
+type rangeSpelling struct {
+	field string
+	r     *rangeIn
+	conv  func(float64) float64
+}
+
+// pickRange is units.pick for a range: the one spelling given, converted,
+// or nil (an issue when required). Every conversion here is increasing.
+func (u *units) pickRange(required bool, alts ...rangeSpelling) *predict.Range {
+	mins, maxs := make([]spelling, len(alts)), make([]spelling, len(alts))
+	for i, a := range alts {
+		mins[i], maxs[i] = spelling{a.field, nil, a.conv}, spelling{a.field, nil, a.conv}
+		if a.r != nil {
+			mins[i].v, maxs[i].v = &a.r.Min, &a.r.Max
+		}
+	}
+	lo := u.pick(required, mins...)
+	if lo == nil {
+		return nil
+	}
+	return &predict.Range{Min: *lo, Max: *u.pick(true, maxs...)}
+}
+
+// windowIn is a parameter window request: qualified ranges, grid steps and
+// the targets to meet (each optional), in metric or inch spellings.
+type windowIn struct {
+	groupFields
+	CurrentA              rangeIn      `json:"current_a"`
+	VoltageV              rangeIn      `json:"voltage_v"`
+	TravelSpeedMMPerS     *rangeIn     `json:"travel_speed_mm_s"`
+	TravelSpeedMMPerMin   *rangeIn     `json:"travel_speed_mm_min"`
+	TravelSpeedInPerMin   *rangeIn     `json:"travel_speed_in_min"`
+	WireFeedSpeedMPerMin  *rangeIn     `json:"wire_feed_speed_m_min"`
+	WireFeedSpeedInPerMin *rangeIn     `json:"wire_feed_speed_in_min"`
+	ExtensionMM           *rangeIn     `json:"extension_mm"`
+	VoltageSteps          int          `json:"voltage_steps"`
+	TravelSpeedSteps      int          `json:"travel_speed_steps"`
+	ExtensionSteps        int          `json:"extension_steps"`
+	MinPenetrationMM      *float64     `json:"min_penetration_mm"`
+	MinPenetrationIn      *float64     `json:"min_penetration_in"`
+	JacksonK              *jacksonKIn  `json:"jackson_k"`
+	DepositionRateKgH     *rangeIn     `json:"deposition_rate_kg_h"`
+	DepositionRateLbH     *rangeIn     `json:"deposition_rate_lb_h"`
+	DepositionEfficiency  *float64     `json:"deposition_efficiency"`
+	WireDiameterMM        *float64     `json:"wire_diameter_mm"`
+	WireDiameterIn        *float64     `json:"wire_diameter_in"`
+	Lesnewich             *lesnewichIn `json:"lesnewich"`
+	MaxHeatInputJMM       *float64     `json:"max_heat_input_j_mm"`
+	MaxHeatInputKJMM      *float64     `json:"max_heat_input_kj_mm"`
+	MaxHeatInputKJIn      *float64     `json:"max_heat_input_kj_in"`
+	HeatInputForm         string       `json:"heat_input_form"`
+	ThermalEfficiency     *float64     `json:"thermal_efficiency"`
+	WaveformPowerRatio    *float64     `json:"waveform_power_ratio"`
+}
+
+// window is the request in metric units; ranges are checked by checkRanges.
+type window struct {
+	in                 predict.WindowInput
+	MinPenetrationMM   *float64    `json:"min_penetration_mm" validate:"omitempty,gt=0,lte=50"`
+	JacksonK           *jacksonKIn `json:"jackson_k"`
+	Deposition         *predict.Range
+	Efficiency         *float64     `json:"deposition_efficiency" validate:"omitempty,gt=0,lte=1"`
+	WireDiameterMM     *float64     `json:"wire_diameter_mm" validate:"omitempty,gte=0.6,lte=4"`
+	Lesnewich          *lesnewichIn `json:"lesnewich"`
+	MaxHeatInputJMM    *float64     `json:"max_heat_input_j_mm" validate:"omitempty,gt=0"`
+	ThermalEfficiency  *float64     `json:"thermal_efficiency" validate:"omitempty,gt=0,lte=1"`
+	WaveformPowerRatio *float64     `json:"waveform_power_ratio" validate:"omitempty,gt=0,lte=10"`
+	VoltageSteps       int          `json:"voltage_steps" validate:"gte=0,lte=25"`
+	TravelSpeedSteps   int          `json:"travel_speed_steps" validate:"gte=0,lte=25"`
+	ExtensionSteps     int          `json:"extension_steps" validate:"gte=0,lte=25"`
+}
+
+func kjPerMM(field string, v *float64) spelling { return spelling{field, v, predict.KJPerMMToJPerMM} }
+func kjPerIn(field string, v *float64) spelling {
+	return spelling{field, v, func(x float64) float64 { return predict.KJPerMMToJPerMM(predict.KJPerInToKJPerMM(x)) }}
+}
+
+func (in windowIn) metric() (window, error) {
+	var u units
+	same := func(f string, r *rangeIn) rangeSpelling {
+		return rangeSpelling{f, r, func(v float64) float64 { return v }}
+	}
+	w := window{MinPenetrationMM: u.opt(mm("min_penetration_mm", in.MinPenetrationMM), inch("min_penetration_in", in.MinPenetrationIn)),
+		JacksonK: in.JacksonK, Efficiency: in.DepositionEfficiency, Lesnewich: in.Lesnewich,
+		WireDiameterMM:    u.opt(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn)),
+		MaxHeatInputJMM:   u.opt(spelling{"max_heat_input_j_mm", in.MaxHeatInputJMM, func(v float64) float64 { return v }}, kjPerMM("max_heat_input_kj_mm", in.MaxHeatInputKJMM), kjPerIn("max_heat_input_kj_in", in.MaxHeatInputKJIn)),
+		ThermalEfficiency: in.ThermalEfficiency, WaveformPowerRatio: in.WaveformPowerRatio,
+		VoltageSteps: in.VoltageSteps, TravelSpeedSteps: in.TravelSpeedSteps, ExtensionSteps: in.ExtensionSteps,
+	}
+	w.in.CurrentA, w.in.VoltageV = predict.Range{Min: in.CurrentA.Min, Max: in.CurrentA.Max}, predict.Range{Min: in.VoltageV.Min, Max: in.VoltageV.Max}
+	w.in.VoltageSteps, w.in.TravelSpeedSteps, w.in.ExtensionSteps = in.VoltageSteps, in.TravelSpeedSteps, in.ExtensionSteps
+	if s := u.pickRange(true, same("travel_speed_mm_s", in.TravelSpeedMMPerS),
+		rangeSpelling{"travel_speed_mm_min", in.TravelSpeedMMPerMin, predict.MMPerMinToMMPerS},
+		rangeSpelling{"travel_speed_in_min", in.TravelSpeedInPerMin, predict.InPerMinToMMPerS}); s != nil {
+		w.in.TravelSpeedMMPerS = *s
+	}
+	w.in.WireFeedSpeedMPerMin = u.pickRange(false, same("wire_feed_speed_m_min", in.WireFeedSpeedMPerMin),
+		rangeSpelling{"wire_feed_speed_in_min", in.WireFeedSpeedInPerMin, predict.InPerMinToMPerMin})
+	w.in.ExtensionMM = u.pickRange(false, same("extension_mm", in.ExtensionMM))
+	w.Deposition = u.pickRange(false, same("deposition_rate_kg_h", in.DepositionRateKgH),
+		rangeSpelling{"deposition_rate_lb_h", in.DepositionRateLbH, predict.LbPerHToKgPerH})
+	if w.Deposition != nil && w.Efficiency == nil {
+		u.issues = append(u.issues, FieldIssue{"deposition_efficiency", "is required with a deposition rate target"})
+	}
+	if err := u.err(); err != nil {
+		return w, err
+	}
+	return w, checkRanges(w.in, w.Deposition)
+}
+
+// checkRanges refuses a range outside the plausible bounds of its quantity
+// or with min above max (domain primer bounds).
+func checkRanges(in predict.WindowInput, dep *predict.Range) error {
+	var issues []FieldIssue
+	for _, r := range []struct {
+		field  string
+		r      *predict.Range
+		lo, hi float64
+	}{{"current_a", &in.CurrentA, 10, 1000}, {"voltage_v", &in.VoltageV, 5, 60},
+		{"travel_speed_mm_s", &in.TravelSpeedMMPerS, 0.5, 30}, {"wire_feed_speed_m_min", in.WireFeedSpeedMPerMin, 0.5, 30},
+		{"extension_mm", in.ExtensionMM, 1, 50}, {"deposition_rate_kg_h", dep, 1e-3, 100}} {
+		switch {
+		case r.r == nil:
+		case r.r.Min < r.lo || r.r.Max > r.hi:
+			issues = append(issues, FieldIssue{r.field, fmt.Sprintf("min and max must lie within %g–%g (got %g–%g)", r.lo, r.hi, r.r.Min, r.r.Max)})
+		case r.r.Min > r.r.Max:
+			issues = append(issues, FieldIssue{r.field + ".min", fmt.Sprintf("exceeds max (%g > %g)", r.r.Min, r.r.Max)})
+		}
+	}
+	if issues != nil {
+		return unprocessable(issues...)
+	}
+	return nil
+}
+
+// handleWindow answers POST /v1/parameter-window. An empty window is an
+// answer (200, feasible false, with the limits in conflict), not an error.
+func (s *Server) handleWindow(c echo.Context) error {
+	var in windowIn
+	if err := bind(c, &in); err != nil {
+		return err
+	}
+	w, err := in.metric()
+	if err != nil {
+		return err
+	}
+	if err := s.check(w); err != nil {
+		return err
+	}
+	if err := s.check(in.groupFields); err != nil {
+		return err
+	}
+	g, err := in.group(w.WireDiameterMM)
+	if err != nil {
+		return err
+	}
+	out := windowOut{Caution: predictionCaution}
+	if err := s.windowTargets(c, g, in, &w, &out); err != nil {
+		return err
+	}
+	res, err := predict.ParameterWindow(w.in)
+	if err != nil {
+		return renamed(err, windowFieldNames)
+	}
+	out.fill(res)
+	return c.JSON(http.StatusOK, out)
+}

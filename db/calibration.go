@@ -1,0 +1,228 @@
+package db
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"time"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+
+	"etchlog/predict"
+)
+
+// CalibrationModel names the model form a calibration fits.
+type CalibrationModel string
+
+// Calibration models, as stored and sent at the API boundary.
+const (
+	// CalibrationJacksonFixed fits K of the Jackson law with the published exponents.
+	CalibrationJacksonFixed CalibrationModel = "jackson_fixed"
+	// CalibrationJacksonFree fits ln P = c₀ + a·ln I + b·ln S + c·ln V.
+	CalibrationJacksonFree CalibrationModel = "jackson_free"
+	// CalibrationLesnewich fits the Lesnewich melting-rate coefficients α and β.
+	CalibrationLesnewich CalibrationModel = "lesnewich"
+)
+
+// CalibrationGroup is the key under which coupons are pooled for a fit and a
+// calibration is activated: process (the coupon's procedure's, else its
+// qualification record's), wire diameter in mm (compared to 0.001 mm),
+// shielding gas (exact text) and joint type.
+type CalibrationGroup struct {
+	Process        string  `db:"process" json:"process"`
+	WireDiameterMM float64 `db:"wire_diameter_mm" json:"wire_diameter_mm"`
+	ShieldingGas   string  `db:"shielding_gas" json:"shielding_gas"`
+	JointType      string  `db:"joint_type" json:"joint_type"`
+}
+
+// canonical returns g with the wire diameter rounded to 0.001 mm, so that
+// 0.035 in (0.889 mm) typed in either unit is one group.
+func (g CalibrationGroup) canonical() CalibrationGroup {
+	g.WireDiameterMM = math.Round(g.WireDiameterMM*1000) / 1000
+	return g
+}
+
+// CalibrationSpec says what to fit: the model, the group, which of its coupons
+// (welded date range and procedure, both optional), the confidence level for
+// diagnostics and, for Lesnewich, the arc length in mm subtracted from each
+// coupon's CTWD to give its electrode extension.
+type CalibrationSpec struct {
+	Model          CalibrationModel `db:"model" json:"model" validate:"required,oneof=jackson_fixed jackson_free lesnewich"`
+	Process        string           `db:"process" json:"process" validate:"required,oneof=GMAW FCAW GTAW SMAW SAW"`
+	WireDiameterMM float64          `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,gte=0.6,lte=4"`
+	ShieldingGas   string           `db:"shielding_gas" json:"shielding_gas" validate:"max=64"`
+	JointType      string           `db:"joint_type" json:"joint_type" validate:"required,oneof=bead_on_plate butt fillet lap corner edge"`
+	WeldedFrom     *Date            `db:"welded_from" json:"welded_from,omitempty"`
+	WeldedTo       *Date            `db:"welded_to" json:"welded_to,omitempty"`
+	ProcedureID    *uuid.UUID       `db:"procedure_id" json:"procedure_id,omitempty"`
+	Level          float64          `db:"level" json:"level" validate:"gt=0,lt=1"`
+	ArcLengthMM    *float64         `db:"arc_length_mm" json:"arc_length_mm,omitempty" validate:"omitempty,gt=0,lte=50"`
+	Note           string           `db:"note" json:"note" validate:"max=2000"`
+}
+
+// Group returns the spec's group key.
+func (c CalibrationSpec) Group() CalibrationGroup {
+	return CalibrationGroup{Process: c.Process, WireDiameterMM: c.WireDiameterMM, ShieldingGas: c.ShieldingGas, JointType: c.JointType}
+}
+
+// Filter returns the coupon selection of the spec.
+func (c CalibrationSpec) Filter() SampleFilter {
+	return SampleFilter{Group: c.Group(), WeldedFrom: c.WeldedFrom, WeldedTo: c.WeldedTo, ProcedureID: c.ProcedureID}
+}
+
+// CalibrationFit is a stored fit result: Penetration for the Jackson models,
+// Melting for Lesnewich. The values are predict's, unchanged.
+type CalibrationFit struct {
+	Penetration *predict.PenetrationFit `json:"penetration,omitempty"`
+	Melting     *predict.MeltingFit     `json:"melting,omitempty"`
+}
+
+// CalibrationSamples are the numbers a fit was computed from, in coupon id
+// (creation) order; one sample per coupon.
+type CalibrationSamples struct {
+	Penetration []predict.PenetrationSample `json:"penetration,omitempty"`
+	Melting     []predict.MeltingSample     `json:"melting,omitempty"`
+}
+
+// Calibration is a stored fit over a group's coupons. Calibrations are never
+// corrected: a new fit is a new calibration. Samples is nil in lists.
+type Calibration struct {
+	Site      string    `db:"site" json:"site"`
+	ID        uuid.UUID `db:"id" json:"id"`
+	CreatedAt time.Time `db:"created_at" json:"created_at"`
+	CreatedBy string    `db:"created_by" json:"created_by"`
+	CalibrationSpec
+	Fit       CalibrationFit      `db:"fit" json:"fit"`
+	Samples   *CalibrationSamples `db:"samples" json:"samples,omitempty"`
+	CouponIDs []uuid.UUID         `db:"coupon_ids" json:"coupon_ids"`
+	// Active is true when this calibration is its group's latest activation for its model.
+	Active bool `db:"active" json:"active"`
+}
+
+// calibrationTable and activationTable name the tables for the audit chain.
+var (
+	calibrationTable = table{name: "calibrations", entity: "calibration"}
+	activationTable  = table{name: "calibration_activations", entity: "calibration_activation"}
+)
+
+// validate checks what the database's rules would refuse, naming the field.
+func (c CalibrationSpec) validate() error {
+	switch c.Model {
+	case CalibrationJacksonFixed, CalibrationJacksonFree:
+		if c.ArcLengthMM != nil {
+			return &FieldError{Field: "arc_length_mm", Reason: "belongs to a lesnewich calibration only"}
+		}
+	case CalibrationLesnewich:
+		if c.ArcLengthMM == nil {
+			return &FieldError{Field: "arc_length_mm", Reason: "is required for lesnewich: extension = CTWD − arc length"}
+		}
+	default:
+		return &FieldError{Field: "model", Reason: fmt.Sprintf("unknown model %q", c.Model)}
+	}
+	if !(c.Level > 0 && c.Level < 1) {
+		return &FieldError{Field: "level", Reason: "must be between 0 and 1 (e.g. 0.95)"}
+	}
+	if c.WeldedFrom != nil && c.WeldedTo != nil && c.WeldedTo.Before(c.WeldedFrom.Time) {
+		return &FieldError{Field: "welded_to", Reason: "is before welded_from"}
+	}
+	return nil
+}
+
+// CreateCalibration selects the group's coupons, fits the model to them and
+// stores the result with the samples and coupon ids used, all in one
+// transaction (so the stored coupon ids are exactly the ones fitted). A fit
+// refused by predict returns its error (predict.ErrTooFewSamples,
+// predict.ErrDegenerate); a coupon the model cannot take is a FieldError.
+func (s *Store) CreateCalibration(ctx context.Context, a Actor, spec CalibrationSpec) (Calibration, error) {
+	if err := spec.validate(); err != nil {
+		return Calibration{}, fmt.Errorf("db: create calibration: %w", err)
+	}
+	spec.WireDiameterMM = spec.Group().canonical().WireDiameterMM
+	id, err := uuid.NewV7()
+	if err != nil {
+		return Calibration{}, err
+	}
+	c := Calibration{Site: a.Site, ID: id, CreatedAt: s.now(), CreatedBy: a.Name, CalibrationSpec: spec}
+	err = s.tx(ctx, func(tx pgx.Tx) error {
+		if spec.ProcedureID != nil {
+			if err := exists(ctx, tx, procedures, a.Site, *spec.ProcedureID, "procedure_id"); err != nil {
+				return err
+			}
+		}
+		if err := fitSpec(ctx, tx, &c); err != nil {
+			return err
+		}
+		return insertCalibration(ctx, tx, c)
+	})
+	if err != nil {
+		return Calibration{}, fmt.Errorf("db: create calibration: %w", err)
+	}
+	return c, nil
+}
+
+// fitSpec gathers c's samples inside tx and fits c's model to them.
+func fitSpec(ctx context.Context, tx pgx.Tx, c *Calibration) error {
+	var err error
+	var ids []string
+	c.Samples = &CalibrationSamples{}
+	if c.Model == CalibrationLesnewich {
+		var fit predict.MeltingFit
+		if c.Samples.Melting, err = meltingSamples(ctx, tx, c.Site, c.Filter(), *c.ArcLengthMM); err != nil {
+			return err
+		}
+		fit, err = predict.FitMeltingRate(c.Samples.Melting)
+		c.Fit.Melting, ids = &fit, fit.SampleIDs
+	} else {
+		var fit predict.PenetrationFit
+		if c.Samples.Penetration, err = penetrationSamples(ctx, tx, c.Site, c.Filter()); err != nil {
+			return err
+		}
+		if c.Model == CalibrationJacksonFixed {
+			fit, err = predict.FitPenetrationFixed(c.Samples.Penetration)
+		} else {
+			fit, err = predict.FitPenetrationFree(c.Samples.Penetration)
+		}
+		c.Fit.Penetration, ids = &fit, fit.SampleIDs
+	}
+	var ie *predict.InputError
+	if errors.As(err, &ie) { // a stored coupon outside what the model takes: say which
+		return &FieldError{Field: "coupons", Reason: "a selected coupon cannot be fitted: " + err.Error()}
+	}
+	if err != nil {
+		return err
+	}
+	c.CouponIDs = make([]uuid.UUID, len(ids))
+	for i, s := range ids {
+		if c.CouponIDs[i], err = uuid.Parse(s); err != nil {
+			return fmt.Errorf("sample id %q: %w", s, err)
+		}
+	}
+	return nil
+}
+
+// insertCalibration writes the calibration row and its audit event.
+func insertCalibration(ctx context.Context, tx pgx.Tx, c Calibration) error {
+	fit, err := json.Marshal(c.Fit)
+	if err != nil {
+		return fmt.Errorf("encode fit: %w", err)
+	}
+	samples, err := json.Marshal(c.Samples)
+	if err != nil {
+		return fmt.Errorf("encode samples: %w", err)
+	}
+	_, err = tx.Exec(ctx, `
+		INSERT INTO calibrations (site, id, created_at, created_by, model, process, wire_diameter_mm,
+			shielding_gas, joint_type, welded_from, welded_to, procedure_id, level, arc_length_mm,
+			fit, samples, coupon_ids, note)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18)`,
+		c.Site, c.ID, c.CreatedAt, c.CreatedBy, c.Model, c.Process, c.WireDiameterMM,
+		c.ShieldingGas, c.JointType, c.WeldedFrom, c.WeldedTo, c.ProcedureID, c.Level, c.ArcLengthMM,
+		string(fit), string(samples), c.CouponIDs, c.Note)
+	if err != nil {
+		return mapError(err)
+	}
+	return appendAudit(ctx, tx, calibrationTable, Meta{Site: c.Site, ID: c.ID, Revision: 1, CreatedAt: c.CreatedAt, CreatedBy: c.CreatedBy}, "create")
+}

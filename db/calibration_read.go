@@ -1,0 +1,129 @@
+package db
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"strconv"
+	"strings"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// calibrationColumns are the stored columns of a calibration, read from "c".
+const calibrationColumns = `c.site, c.id, c.created_at, c.created_by, c.model, c.process,
+	c.wire_diameter_mm, c.shielding_gas, c.joint_type, c.welded_from, c.welded_to, c.procedure_id,
+	c.level, c.arc_length_mm, c.fit, c.coupon_ids, c.note`
+
+// latestActivations is, per group and model, the calibration activated last.
+const latestActivations = `latest AS (
+	SELECT DISTINCT ON (model, process, wire_diameter_mm, shielding_gas, joint_type) calibration_id
+	FROM calibration_activations WHERE site = $1
+	ORDER BY model, process, wire_diameter_mm, shielding_gas, joint_type, activated_at DESC, id DESC)`
+
+// Calibration reads one calibration with the samples it was fitted to.
+func (s *Store) Calibration(ctx context.Context, site string, id uuid.UUID) (Calibration, error) {
+	rows, _ := s.pool.Query(ctx, `WITH `+latestActivations+`
+		SELECT `+calibrationColumns+`, c.samples, l.calibration_id IS NOT NULL AS active
+		FROM calibrations c LEFT JOIN latest l ON l.calibration_id = c.id
+		WHERE c.site = $1 AND c.id = $2`, site, id)
+	c, err := pgx.CollectOneRow(rows, pgx.RowToStructByName[Calibration])
+	if errors.Is(err, pgx.ErrNoRows) {
+		return c, fmt.Errorf("db: calibration %s: %w", id, ErrNotFound)
+	}
+	if err != nil {
+		return c, fmt.Errorf("db: calibration %s: %w", id, err)
+	}
+	return c, nil
+}
+
+// CalibrationFilter selects calibrations in a list; zero fields do not filter.
+// ShieldingGas is a pointer because the empty gas is a real group value.
+type CalibrationFilter struct {
+	Model          CalibrationModel
+	Process        string
+	WireDiameterMM *float64
+	ShieldingGas   *string
+	JointType      string
+	ActiveOnly     bool
+}
+
+// Calibrations lists calibrations oldest first after the cursor (keyset on the
+// time-ordered id), without their samples.
+func (s *Store) Calibrations(ctx context.Context, site string, cf CalibrationFilter, cursor string, limit int) (Page[Calibration], error) {
+	if limit <= 0 || limit > MaxPageSize {
+		limit = MaxPageSize
+	}
+	var after uuid.UUID
+	if cursor != "" {
+		var err error
+		if after, err = uuid.Parse(cursor); err != nil {
+			return Page[Calibration]{}, fmt.Errorf("db: list calibrations: cursor %q: %w", cursor, ErrBadCursor)
+		}
+	}
+	f := newFilter()
+	f.args[0], f.args[1] = site, after
+	if cf.Model != "" {
+		f.add("c.model = ?", cf.Model)
+	}
+	if cf.Process != "" {
+		f.add("c.process = ?", cf.Process)
+	}
+	if cf.WireDiameterMM != nil {
+		f.add("c.wire_diameter_mm = ?", CalibrationGroup{WireDiameterMM: *cf.WireDiameterMM}.canonical().WireDiameterMM)
+	}
+	if cf.ShieldingGas != nil {
+		f.add("c.shielding_gas = ?", *cf.ShieldingGas)
+	}
+	if cf.JointType != "" {
+		f.add("c.joint_type = ?", cf.JointType)
+	}
+	if cf.ActiveOnly {
+		f.add("l.calibration_id IS NOT NULL")
+	}
+	where := "true"
+	if len(f.conds) > 0 {
+		where = strings.Join(f.conds, " AND ")
+	}
+	f.args = append(f.args, limit+1)
+	rows, _ := s.pool.Query(ctx, `WITH `+latestActivations+`
+		SELECT `+calibrationColumns+`, NULL::jsonb AS samples, l.calibration_id IS NOT NULL AS active
+		FROM calibrations c LEFT JOIN latest l ON l.calibration_id = c.id
+		WHERE c.site = $1 AND c.id > $2 AND `+where+`
+		ORDER BY c.id LIMIT $`+strconv.Itoa(len(f.args)), f.args...)
+	items, err := pgx.CollectRows(rows, pgx.RowToStructByName[Calibration])
+	if err != nil {
+		return Page[Calibration]{}, fmt.Errorf("db: list calibrations: %w", mapError(err))
+	}
+	p := Page[Calibration]{Items: items}
+	if len(items) > limit {
+		p.Items = items[:limit]
+		p.Next = p.Items[limit-1].ID.String()
+	}
+	return p, nil
+}
+
+// ActiveCalibration returns the calibration of model last activated for the
+// group, without its samples, or ErrNotFound when none was ever activated.
+func (s *Store) ActiveCalibration(ctx context.Context, site string, g CalibrationGroup, model CalibrationModel) (Calibration, error) {
+	g = g.canonical()
+	rows, _ := s.pool.Query(ctx, `
+		SELECT `+calibrationColumns+`, NULL::jsonb AS samples, true AS active
+		FROM calibrations c
+		WHERE c.site = $1 AND c.id = (
+			SELECT calibration_id FROM calibration_activations
+			WHERE site = $1 AND model = $2 AND process = $3 AND wire_diameter_mm = $4
+			  AND shielding_gas = $5 AND joint_type = $6
+			ORDER BY activated_at DESC, id DESC LIMIT 1)`,
+		site, model, g.Process, g.WireDiameterMM, g.ShieldingGas, g.JointType)
+	c, err := pgx.CollectOneRow(rows, pgx.RowToStructByName[Calibration])
+	if errors.Is(err, pgx.ErrNoRows) {
+		return c, fmt.Errorf("db: active %s calibration for %s %.3f mm %q %s: %w",
+			model, g.Process, g.WireDiameterMM, g.ShieldingGas, g.JointType, ErrNotFound)
+	}
+	if err != nil {
+		return c, fmt.Errorf("db: active %s calibration: %w", model, err)
+	}
+	return c, nil
+}

@@ -1,0 +1,150 @@
+package db
+
+import (
+	"context"
+	"fmt"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+
+	"etchlog/predict"
+)
+
+// SampleFilter selects the coupons of one group for a fit: current,
+// non-voided coupons of the group, optionally welded within [WeldedFrom,
+// WeldedTo] (inclusive) and on one procedure.
+type SampleFilter struct {
+	Group       CalibrationGroup
+	WeldedFrom  *Date
+	WeldedTo    *Date
+	ProcedureID *uuid.UUID
+}
+
+// groupCoupon is one selected coupon with its current, non-voided sections'
+// penetrations in measurement id (creation) order.
+type groupCoupon struct {
+	ID                   uuid.UUID `db:"id"`
+	CurrentA             float64   `db:"current_a"`
+	VoltageV             float64   `db:"voltage_v"`
+	TravelSpeedMMPerS    float64   `db:"travel_speed_mm_s"`
+	WireFeedSpeedMPerMin *float64  `db:"wire_feed_speed_m_min"`
+	CTWDMM               *float64  `db:"ctwd_mm"`
+	WireDiameterMM       float64   `db:"wire_diameter_mm"`
+	PenetrationsMM       []float64 `db:"penetrations_mm"`
+}
+
+// groupCoupons runs the selection; the process comes from the coupon's
+// procedure, else from its qualification record (current revisions).
+func groupCoupons(ctx context.Context, q querier, site string, f SampleFilter) ([]groupCoupon, error) {
+	g := f.Group.canonical()
+	rows, _ := q.Query(ctx, `
+		WITH cur AS (
+			SELECT DISTINCT ON (id) id, voided, procedure_id, qualification_record_id, welded_on,
+			       joint_type, current_a, voltage_v, travel_speed_mm_s, wire_feed_speed_m_min,
+			       ctwd_mm, wire_diameter_mm, shielding_gas
+			FROM coupons WHERE site = $1 ORDER BY id, revision DESC
+		)
+		SELECT cur.id, cur.current_a, cur.voltage_v, cur.travel_speed_mm_s, cur.wire_feed_speed_m_min,
+		       cur.ctwd_mm, cur.wire_diameter_mm, coalesce(m.pens, '{}') AS penetrations_mm
+		FROM cur
+		LEFT JOIN LATERAL (SELECT process FROM procedures p WHERE p.site = $1 AND p.id = cur.procedure_id
+		                   ORDER BY revision DESC LIMIT 1) p ON true
+		LEFT JOIN LATERAL (SELECT process FROM qualification_records r WHERE r.site = $1 AND r.id = cur.qualification_record_id
+		                   ORDER BY revision DESC LIMIT 1) r ON true
+		LEFT JOIN LATERAL (SELECT array_agg(sec.penetration_mm ORDER BY sec.id) AS pens FROM (
+			SELECT DISTINCT ON (id) id, voided, penetration_mm FROM measurements
+			WHERE coupon_id = cur.id AND site = $1 ORDER BY id, revision DESC) sec
+			WHERE NOT sec.voided) m ON true
+		WHERE NOT cur.voided
+		  AND coalesce(p.process, r.process) = $2
+		  AND round(cur.wire_diameter_mm::numeric, 3) = round($3::numeric, 3)
+		  AND cur.shielding_gas = $4
+		  AND cur.joint_type = $5
+		  AND ($6::date IS NULL OR cur.welded_on >= $6)
+		  AND ($7::date IS NULL OR cur.welded_on <= $7)
+		  AND ($8::uuid IS NULL OR cur.procedure_id = $8)
+		ORDER BY cur.id`,
+		site, g.Process, g.WireDiameterMM, g.ShieldingGas, g.JointType, f.WeldedFrom, f.WeldedTo, f.ProcedureID)
+	cs, err := pgx.CollectRows(rows, pgx.RowToStructByName[groupCoupon])
+	if err != nil {
+		return nil, fmt.Errorf("select coupons: %w", err)
+	}
+	return cs, nil
+}
+
+// SectionMean is the arithmetic mean of a coupon's section values: their plain sum
+// in the given order divided by their number.
+func SectionMean(v []float64) float64 {
+	sum := 0.0
+	for _, x := range v {
+		sum += x
+	}
+	return sum / float64(len(v))
+}
+
+// penetrationSamples gives one Jackson sample per measured coupon: the
+// coupon is the experimental unit (its sections share one current, voltage
+// and travel speed), so its penetration is the mean of its current,
+// non-voided sections. Coupons without a section are left out.
+func penetrationSamples(ctx context.Context, q querier, site string, f SampleFilter) ([]predict.PenetrationSample, error) {
+	cs, err := groupCoupons(ctx, q, site, f)
+	if err != nil {
+		return nil, err
+	}
+	out := make([]predict.PenetrationSample, 0, len(cs))
+	for _, c := range cs {
+		if len(c.PenetrationsMM) == 0 {
+			continue
+		}
+		out = append(out, predict.PenetrationSample{ID: c.ID.String(), CurrentA: c.CurrentA, VoltageV: c.VoltageV,
+			TravelSpeedMMPerS: c.TravelSpeedMMPerS, PenetrationMM: SectionMean(c.PenetrationsMM)})
+	}
+	return out, nil
+}
+
+// meltingSamples gives one Lesnewich sample per coupon with a wire feed speed
+// and a CTWD: the melting rate is the wire fed (steady state: what is fed is
+// melted), WFS·(π·d²/4)·ρ with the carbon steel density 7.85 g/cm³, and the
+// electrode extension is CTWD − arcLengthMM, the arc length the caller states
+// for the whole group (it is not recorded per coupon).
+func meltingSamples(ctx context.Context, q querier, site string, f SampleFilter, arcLengthMM float64) ([]predict.MeltingSample, error) {
+	cs, err := groupCoupons(ctx, q, site, f)
+	if err != nil {
+		return nil, err
+	}
+	out := make([]predict.MeltingSample, 0, len(cs))
+	for _, c := range cs {
+		if c.WireFeedSpeedMPerMin == nil || c.CTWDMM == nil {
+			continue
+		}
+		mr, err := predict.WireMeltingRateKgPerH(*c.WireFeedSpeedMPerMin, c.WireDiameterMM, predict.CarbonSteelDensityKgPerMM3)
+		if err != nil {
+			return nil, &FieldError{Field: "coupons", Reason: fmt.Sprintf("coupon %s: %v", c.ID, err)}
+		}
+		ext, err := predict.ExtensionFromCTWD(*c.CTWDMM, arcLengthMM)
+		if err != nil {
+			return nil, &FieldError{Field: "arc_length_mm", Reason: fmt.Sprintf("coupon %s: %v", c.ID, err)}
+		}
+		out = append(out, predict.MeltingSample{ID: c.ID.String(), CurrentA: c.CurrentA, ExtensionMM: ext, MeltingRateKgPerH: mr})
+	}
+	return out, nil
+}
+
+// PenetrationSamples returns the Jackson samples a fit over f would use.
+func (s *Store) PenetrationSamples(ctx context.Context, site string, f SampleFilter) ([]predict.PenetrationSample, error) {
+	out, err := penetrationSamples(ctx, s.pool, site, f)
+	if err != nil {
+		return nil, fmt.Errorf("db: penetration samples: %w", err)
+	}
+	return out, nil
+}
+
+// MeltingSamples returns the Lesnewich samples a fit over f would use with
+// the given arc length in mm.
+func (s *Store) MeltingSamples(ctx context.Context, site string, f SampleFilter, arcLengthMM float64) ([]predict.MeltingSample, error) {
+	out, err := meltingSamples(ctx, s.pool, site, f, arcLengthMM)
+	if err != nil {
+		return nil, fmt.Errorf("db: melting samples: %w", err)
+	}
+	return out, nil
+}

@@ -1,0 +1,150 @@
+package db
+
+import (
+	"context"
+	"encoding/base64"
+	"fmt"
+	"strings"
+	"time"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// FlagFilter selects flags; zero fields do not filter. From and To bound the
+// subject's time (a coupon's welding day, a production record's recorded_at),
+// From inclusive, To exclusive.
+type FlagFilter struct {
+	SubjectKind string
+	Kind        string
+	Variable    string
+	ProcedureID *uuid.UUID
+	From, To    *time.Time
+}
+
+// flagCursor is the keyset position (subject id, variable, kind): stable
+// across recomputes, which rewrite rows but not their keys.
+type flagCursor struct {
+	subject  uuid.UUID
+	variable string
+	kind     string
+}
+
+func (c flagCursor) String() string {
+	return base64.RawURLEncoding.EncodeToString([]byte(c.subject.String() + "|" + c.variable + "|" + c.kind))
+}
+
+func parseFlagCursor(s string) (flagCursor, error) {
+	bad := fmt.Errorf("db: list flags: cursor %q: %w", s, ErrBadCursor)
+	b, err := base64.RawURLEncoding.DecodeString(s)
+	if err != nil {
+		return flagCursor{}, bad
+	}
+	parts := strings.Split(string(b), "|")
+	if len(parts) != 3 {
+		return flagCursor{}, bad
+	}
+	id, err := uuid.Parse(parts[0])
+	if err != nil {
+		return flagCursor{}, bad
+	}
+	return flagCursor{id, parts[1], parts[2]}, nil
+}
+
+// Flags lists a site's current flags ordered by subject (creation order),
+// variable and kind, after the cursor.
+func (s *Store) Flags(ctx context.Context, site string, ff FlagFilter, cursor string, limit int) (Page[Flag], error) {
+	if limit <= 0 || limit > MaxPageSize {
+		limit = MaxPageSize
+	}
+	var after *flagCursor
+	if cursor != "" {
+		c, err := parseFlagCursor(cursor)
+		if err != nil {
+			return Page[Flag]{}, err
+		}
+		after = &c
+	}
+	f := filter{args: []any{site}}
+	if after != nil {
+		f.add("(subject_id, variable, kind) > (?, ?, ?)", after.subject, after.variable, after.kind)
+	}
+	for _, c := range []struct{ col, v string }{{"subject_kind", ff.SubjectKind}, {"kind", ff.Kind}, {"variable", ff.Variable}} {
+		if c.v != "" {
+			f.add(c.col+" = ?", c.v)
+		}
+	}
+	if ff.ProcedureID != nil {
+		f.add("procedure_id = ?", *ff.ProcedureID)
+	}
+	if ff.From != nil {
+		f.add("subject_at >= ?", *ff.From)
+	}
+	if ff.To != nil {
+		f.add("subject_at < ?", *ff.To)
+	}
+	where := "site = $1"
+	if len(f.conds) > 0 {
+		where += " AND " + strings.Join(f.conds, " AND ")
+	}
+	f.args = append(f.args, limit+1)
+	rows, _ := s.pool.Query(ctx, `SELECT `+strings.Join(flagColumns[1:], ", ")+` FROM flags WHERE `+where+
+		fmt.Sprintf(" ORDER BY subject_id, variable, kind LIMIT $%d", len(f.args)), f.args...)
+	items, err := pgx.CollectRows(rows, pgx.RowToStructByName[Flag])
+	if err != nil {
+		return Page[Flag]{}, fmt.Errorf("db: list flags: %w", mapError(err))
+	}
+	p := Page[Flag]{Items: items}
+	if len(items) > limit {
+		last := items[limit-1]
+		p.Items, p.Next = items[:limit], flagCursor{last.SubjectID, last.Variable, last.Kind}.String()
+	}
+	return p, nil
+}
+
+// FlagCount is how many flags of one kind a variable has.
+type FlagCount struct {
+	Variable string `db:"variable" json:"variable"`
+	Kind     string `db:"kind" json:"kind"`
+	Count    int    `db:"count" json:"count"`
+}
+
+// FlagSummary sums up a procedure's current flags: per variable and kind,
+// and how many coupons and production records carry at least one.
+type FlagSummary struct {
+	ProcedureID           uuid.UUID   `json:"procedure_id"`
+	RangesVersion         *int        `json:"ranges_version,omitempty"`
+	Total                 int         `json:"total"`
+	FlaggedCoupons        int         `json:"flagged_coupons"`
+	FlaggedProductionRecs int         `json:"flagged_production_records"`
+	ByVariable            []FlagCount `json:"by_variable"`
+}
+
+// FlagSummary counts a procedure's flags. The procedure must exist at the site.
+func (s *Store) FlagSummary(ctx context.Context, site string, procedureID uuid.UUID) (FlagSummary, error) {
+	sum := FlagSummary{ProcedureID: procedureID, ByVariable: []FlagCount{}}
+	if _, err := getRecord[Procedure](ctx, s.pool, procedures, site, procedureID, 0); err != nil {
+		return sum, err
+	}
+	if pr, err := latestRanges(ctx, s.pool, site, procedureID, 0); err == nil {
+		sum.RangesVersion = &pr.Version
+	}
+	rows, _ := s.pool.Query(ctx, `SELECT variable, kind, count(*)::int AS count FROM flags
+		WHERE site = $1 AND procedure_id = $2 GROUP BY variable, kind ORDER BY variable, kind`, site, procedureID)
+	counts, err := pgx.CollectRows(rows, pgx.RowToStructByName[FlagCount])
+	if err != nil {
+		return sum, fmt.Errorf("db: flag summary: %w", err)
+	}
+	sum.ByVariable = append(sum.ByVariable, counts...)
+	for _, c := range counts {
+		sum.Total += c.Count
+	}
+	err = s.pool.QueryRow(ctx, `SELECT
+			count(DISTINCT subject_id) FILTER (WHERE subject_kind = 'coupon'),
+			count(DISTINCT subject_id) FILTER (WHERE subject_kind = 'production_record')
+		FROM flags WHERE site = $1 AND procedure_id = $2`, site, procedureID).Scan(&sum.FlaggedCoupons, &sum.FlaggedProductionRecs)
+	if err != nil {
+		return sum, fmt.Errorf("db: flag summary: %w", err)
+	}
+	return sum, nil
+}

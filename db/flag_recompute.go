@@ -1,0 +1,125 @@
+package db
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"time"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// Flags are recomputed inside the transaction of the write that changes what
+// they derive from, so a reader never sees flags that disagree with the
+// records: a change of ranges rewrites every flag of the procedure, a coupon
+// write rewrites that coupon's flags, a production batch writes its rows'.
+// Every such transaction holds the site's write lock (lockSite, also taken
+// by the audit chain), so an evaluation never races a change of ranges.
+
+// afterWrite runs after a record revision is written, in its transaction
+// (called from table.insert and table.voidLatest in revision.go).
+func afterWrite(ctx context.Context, tx pgx.Tx, t table, m Meta) error {
+	id := m.ID
+	switch t.name {
+	case coupons.name:
+	case measurements.name: // a section changes the coupon's measured penetration
+		var err error
+		if id, err = measurementCoupon(ctx, tx, m.Site, m.ID); err != nil {
+			return err
+		}
+	default:
+		return nil
+	}
+	_, err := recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, id)
+	return err
+}
+
+// recomputeCoupon rewrites one coupon's flags from its latest revision: none
+// when it is voided, names no procedure, or the procedure has no ranges.
+func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID) (int, error) {
+	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2`, site, id); err != nil {
+		return 0, err
+	}
+	c, err := getRecord[Coupon](ctx, tx, coupons, site, id, 0)
+	if err != nil {
+		return 0, err
+	}
+	if c.Voided || c.ProcedureID == nil {
+		return 0, nil
+	}
+	p, err := getRecord[Procedure](ctx, tx, procedures, site, *c.ProcedureID, 0)
+	if err != nil {
+		return 0, err
+	}
+	pr, err := latestRanges(ctx, tx, site, p.ID, 0)
+	if errors.Is(err, ErrNotFound) { // no ranges yet: model flags only
+		pr, err = ProcedureRanges{Site: site, ProcedureID: p.ID}, nil
+	}
+	if err != nil {
+		return 0, err
+	}
+	sub, err := couponSubject(ctx, tx, site, c, p)
+	if err != nil {
+		return 0, err
+	}
+	w := newFlagWriter(site, now, pr)
+	w.add(sub)
+	return w.flush(ctx, tx)
+}
+
+// recomputeProcedure rewrites every flag of a procedure under ranges pr:
+// its current, non-voided coupons and all its production records.
+func recomputeProcedure(ctx context.Context, tx pgx.Tx, now time.Time, pr ProcedureRanges) (int, error) {
+	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2`, pr.Site, pr.ProcedureID); err != nil {
+		return 0, fmt.Errorf("clear flags: %w", err)
+	}
+	w := newFlagWriter(pr.Site, now, pr)
+	rows, _ := tx.Query(ctx, `SELECT `+coupons.columns()+` FROM (
+			SELECT DISTINCT ON (id) `+coupons.columns()+` FROM coupons
+			WHERE site = $1 AND id IN (SELECT id FROM coupons WHERE site = $1 AND procedure_id = $2)
+			ORDER BY id, revision DESC) cur
+		WHERE NOT voided AND procedure_id = $2`, pr.Site, pr.ProcedureID)
+	cs, err := pgx.CollectRows(rows, pgx.RowToStructByName[Coupon])
+	if err != nil {
+		return 0, fmt.Errorf("read coupons: %w", err)
+	}
+	p, err := getRecord[Procedure](ctx, tx, procedures, pr.Site, pr.ProcedureID, 0)
+	if err != nil {
+		return 0, err
+	}
+	for i := range cs {
+		sub, err := couponSubject(ctx, tx, pr.Site, cs[i], p)
+		if err != nil {
+			return 0, err
+		}
+		w.add(sub)
+	}
+	if err := evaluateProduction(ctx, tx, w); err != nil {
+		return 0, err
+	}
+	return w.flush(ctx, tx)
+}
+
+// evaluateProduction queues the flags of every production record of w's procedure.
+func evaluateProduction(ctx context.Context, tx pgx.Tx, w *flagWriter) error {
+	rows, err := tx.Query(ctx, `SELECT id, recorded_at, current_a, voltage_v, travel_speed_mm_s,
+			wire_feed_speed_m_min, ctwd_mm
+		FROM production_records WHERE site = $1 AND procedure_id = $2`, w.site, w.ranges.ProcedureID)
+	if err != nil {
+		return fmt.Errorf("read production records: %w", err)
+	}
+	defer rows.Close()
+	var s subject
+	var r ProductionRecordData
+	s.kind = SubjectProductionRecord
+	for rows.Next() {
+		r.CTWDMM = nil
+		if err := rows.Scan(&s.id, &s.at, &r.CurrentA, &r.VoltageV, &r.TravelSpeedMMPerS, &r.WireFeedSpeedMPerMin, &r.CTWDMM); err != nil {
+			return err
+		}
+		s.obs = productionObservation(r)
+		w.add(&s)
+	}
+	return rows.Err()
+}

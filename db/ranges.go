@@ -1,0 +1,184 @@
+package db
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"time"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+
+	"etchlog/predict"
+)
+
+// ProcedureRanges is one version of a procedure's qualified ranges: derived
+// from the supporting records of procedure revision ProcedureRevision under a
+// rule set version, or narrowed from the previous version with a reason.
+// FlagsWritten (not stored) counts the flags rewritten by the change.
+type ProcedureRanges struct {
+	RowID             uuid.UUID               `db:"id" json:"-"`
+	Site              string                  `db:"site" json:"-"`
+	ProcedureID       uuid.UUID               `db:"procedure_id" json:"procedure_id"`
+	ProcedureRevision int                     `db:"procedure_revision" json:"procedure_revision"`
+	Version           int                     `db:"version" json:"version"`
+	Action            string                  `db:"action" json:"action"`
+	RuleSetSite       string                  `db:"rule_set_site" json:"-"`
+	RuleSetID         string                  `db:"rule_set_id" json:"rule_set_id"`
+	RuleSetVersion    int                     `db:"rule_set_version" json:"rule_set_version"`
+	Reason            string                  `db:"reason" json:"reason"`
+	Ranges            predict.QualifiedRanges `db:"ranges" json:"ranges"`
+	CreatedAt         time.Time               `db:"created_at" json:"created_at"`
+	CreatedBy         string                  `db:"created_by" json:"created_by"`
+	FlagsWritten      int                     `db:"-" json:"flags_written"`
+}
+
+var rangesTable = table{name: "procedure_ranges", entity: "procedure_ranges"}
+
+const rangesColumns = `id, site, procedure_id, procedure_revision, version, action, rule_set_site,
+	rule_set_id, rule_set_version, reason, ranges, created_at, created_by`
+
+// DeriveRanges derives a procedure's qualified ranges from its supporting
+// qualification records (current, non-voided revisions) under a rule set
+// version (0: latest), stores them as the next version and recomputes every
+// flag of the procedure, all in one transaction.
+func (s *Store) DeriveRanges(ctx context.Context, a Actor, procedureID uuid.UUID, ruleSetID string, ruleSetVersion int) (ProcedureRanges, error) {
+	pr := ProcedureRanges{Site: a.Site, ProcedureID: procedureID, Action: "derive", CreatedAt: s.now(), CreatedBy: a.Name}
+	err := s.tx(ctx, func(tx pgx.Tx) error {
+		if err := lockSite(ctx, tx, a.Site); err != nil {
+			return err
+		}
+		p, err := getRecord[Procedure](ctx, tx, procedures, a.Site, procedureID, 0)
+		if err != nil {
+			return err
+		}
+		if p.Voided {
+			return fmt.Errorf("procedure %s: %w", procedureID, ErrVoided)
+		}
+		rs, err := ruleSet(ctx, tx, a.Site, ruleSetID, ruleSetVersion)
+		if err != nil {
+			return &FieldError{Field: "rule_set_id", Reason: fmt.Sprintf("no rule set %q (version %d) at this site or built in", ruleSetID, ruleSetVersion)}
+		}
+		if rs.Process != p.Process {
+			return &FieldError{Field: "rule_set_id", Reason: fmt.Sprintf("rule set %s is for %s, the procedure is %s", rs.RuleSetID, rs.Process, p.Process)}
+		}
+		pqrs, err := supportingValues(ctx, tx, a.Site, p)
+		if err != nil {
+			return err
+		}
+		if pr.Ranges, err = predict.Derive(rs.Rules, pqrs); err != nil {
+			return &FieldError{Field: "rule_set_id", Reason: err.Error()}
+		}
+		pr.ProcedureRevision, pr.RuleSetSite, pr.RuleSetID, pr.RuleSetVersion = p.Revision, rs.Site, rs.RuleSetID, rs.Version
+		return s.storeRanges(ctx, tx, &pr)
+	})
+	if err != nil {
+		return ProcedureRanges{}, fmt.Errorf("db: derive ranges of procedure %s: %w", procedureID, err)
+	}
+	return pr, nil
+}
+
+// NarrowRanges tightens the latest ranges (which must be version
+// baseVersion, else ErrConflict) and recomputes the procedure's flags, in
+// one transaction. predict.Narrow refuses anything that would widen.
+func (s *Store) NarrowRanges(ctx context.Context, a Actor, procedureID uuid.UUID, baseVersion int, reason string, changes []predict.Narrowing) (ProcedureRanges, error) {
+	var pr ProcedureRanges
+	err := s.tx(ctx, func(tx pgx.Tx) error {
+		if err := lockSite(ctx, tx, a.Site); err != nil {
+			return err
+		}
+		cur, err := latestRanges(ctx, tx, a.Site, procedureID, 0)
+		if err != nil {
+			return err
+		}
+		if cur.Version != baseVersion {
+			return fmt.Errorf("%w: the ranges of procedure %s are at version %d, the narrowing is based on version %d",
+				ErrConflict, procedureID, cur.Version, baseVersion)
+		}
+		narrowed, err := predict.Narrow(cur.Ranges, changes, reason)
+		if err != nil {
+			return err
+		}
+		pr = cur
+		pr.Action, pr.Reason, pr.Ranges, pr.CreatedAt, pr.CreatedBy = "narrow", reason, narrowed, s.now(), a.Name
+		return s.storeRanges(ctx, tx, &pr)
+	})
+	if err != nil {
+		return ProcedureRanges{}, fmt.Errorf("db: narrow ranges of procedure %s: %w", procedureID, err)
+	}
+	return pr, nil
+}
+
+// storeRanges inserts pr as the procedure's next version, appends its audit
+// event and recomputes the procedure's flags under it.
+func (s *Store) storeRanges(ctx context.Context, tx pgx.Tx, pr *ProcedureRanges) error {
+	id, err := uuid.NewV7()
+	if err != nil {
+		return err
+	}
+	pr.RowID = id
+	if err := tx.QueryRow(ctx, `SELECT coalesce(max(version), 0) + 1 FROM procedure_ranges WHERE site = $1 AND procedure_id = $2`,
+		pr.Site, pr.ProcedureID).Scan(&pr.Version); err != nil {
+		return err
+	}
+	if _, err := tx.Exec(ctx, `INSERT INTO procedure_ranges (`+rangesColumns+`)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13)`,
+		pr.RowID, pr.Site, pr.ProcedureID, pr.ProcedureRevision, pr.Version, pr.Action, pr.RuleSetSite,
+		pr.RuleSetID, pr.RuleSetVersion, pr.Reason, pr.Ranges, pr.CreatedAt, pr.CreatedBy); err != nil {
+		return mapError(err)
+	}
+	if err := appendAudit(ctx, tx, rangesTable, Meta{Site: pr.Site, ID: pr.RowID, Revision: 1,
+		CreatedAt: pr.CreatedAt, CreatedBy: pr.CreatedBy, Reason: pr.Reason}, "create"); err != nil {
+		return err
+	}
+	pr.FlagsWritten, err = recomputeProcedure(ctx, tx, pr.CreatedAt, *pr)
+	return err
+}
+
+// ProcedureRanges reads version ver of a procedure's ranges, or the latest when ver is 0.
+func (s *Store) ProcedureRanges(ctx context.Context, site string, procedureID uuid.UUID, ver int) (ProcedureRanges, error) {
+	pr, err := latestRanges(ctx, s.pool, site, procedureID, ver)
+	if err != nil {
+		return ProcedureRanges{}, fmt.Errorf("db: %w", err)
+	}
+	return pr, nil
+}
+
+// latestRanges reads version ver (0: the latest) of a procedure's ranges.
+func latestRanges(ctx context.Context, q querier, site string, procedureID uuid.UUID, ver int) (ProcedureRanges, error) {
+	rows, _ := q.Query(ctx, `SELECT `+rangesColumns+` FROM procedure_ranges
+		WHERE site = $1 AND procedure_id = $2 AND ($3 = 0 OR version = $3)
+		ORDER BY version DESC LIMIT 1`, site, procedureID, ver)
+	pr, err := pgx.CollectOneRow(rows, pgx.RowToStructByName[ProcedureRanges])
+	if errors.Is(err, pgx.ErrNoRows) {
+		return ProcedureRanges{}, fmt.Errorf("ranges of procedure %s (version %d; derive them first): %w", procedureID, ver, ErrNotFound)
+	}
+	return pr, err
+}
+
+// supportingValues reads the current revisions of a procedure's supporting
+// qualification records as derivation input; a voided one is refused.
+func supportingValues(ctx context.Context, q querier, site string, p Procedure) ([]predict.PQRValues, error) {
+	if len(p.SupportingRecordIDs) == 0 {
+		return nil, &FieldError{Field: "supporting_record_ids", Reason: "the procedure names no supporting qualification record to derive ranges from"}
+	}
+	out := make([]predict.PQRValues, 0, len(p.SupportingRecordIDs))
+	for _, id := range p.SupportingRecordIDs {
+		r, err := getRecord[QualificationRecord](ctx, q, qualificationRecords, site, id, 0)
+		if err != nil {
+			return nil, err
+		}
+		if r.Voided {
+			return nil, &FieldError{Field: "supporting_record_ids", Reason: fmt.Sprintf("qualification record %s is voided; correct the procedure first", r.RecordNumber)}
+		}
+		out = append(out, predict.PQRValues{Label: r.RecordNumber, Values: pqrObservation(r.QualificationRecordData)})
+	}
+	return out, nil
+}
+
+// lockSite takes the site's write lock (the one the audit chain takes), so
+// flag evaluations and range changes at one site never interleave.
+func lockSite(ctx context.Context, tx pgx.Tx, site string) error {
+	_, err := tx.Exec(ctx, "SELECT pg_advisory_xact_lock(hashtextextended('etchlog-audit:' || $1, 0))", site)
+	return err
+}
