@@ -91,21 +91,11 @@ type depositionInverseOut struct {
 
 // handleInverseDeposition answers POST /v1/inverse/current-for-deposition.
 func (s *Server) handleInverseDeposition(c echo.Context) error {
-	var in depositionInverseIn
-	if err := bind(c, &in); err != nil {
-		return err
-	}
-	q, err := in.metric()
+	in, q, err := bindMetric[depositionInverse, depositionInverseIn](s, c)
 	if err != nil {
 		return err
 	}
-	if err := s.check(q); err != nil {
-		return err
-	}
-	if err := s.check(in.groupFields); err != nil {
-		return err
-	}
-	g, err := in.group(q.WireDiameterMM)
+	g, err := s.calibrationGroup(in.groupFields, q.WireDiameterMM)
 	if err != nil {
 		return err
 	}

@@ -76,21 +76,11 @@ type penetrationInverseOut struct {
 
 // handleInversePenetration answers POST /v1/inverse/penetration.
 func (s *Server) handleInversePenetration(c echo.Context) error {
-	var in penetrationInverseIn
-	if err := bind(c, &in); err != nil {
-		return err
-	}
-	q, err := in.metric()
+	in, q, err := bindMetric[penetrationInverse, penetrationInverseIn](s, c)
 	if err != nil {
 		return err
 	}
-	if err := s.check(q); err != nil {
-		return err
-	}
-	if err := s.check(in.groupFields); err != nil {
-		return err
-	}
-	g, err := in.group(q.WireDiameterMM)
+	g, err := s.calibrationGroup(in.groupFields, q.WireDiameterMM)
 	if err != nil {
 		return err
 	}

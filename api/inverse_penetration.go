@@ -65,15 +65,8 @@ const holdNote = "holds Jackson penetration P = K·I^(4/3)·S^(−1/3)·V^(−2/
 
 // handleInverseHold answers POST /v1/inverse/hold-penetration.
 func (s *Server) handleInverseHold(c echo.Context) error {
-	var in holdIn
-	if err := bind(c, &in); err != nil {
-		return err
-	}
-	h, err := in.metric()
+	_, h, err := bindMetric[hold, holdIn](s, c)
 	if err != nil {
-		return err
-	}
-	if err := s.check(h); err != nil {
 		return err
 	}
 	i2, err := predict.HoldPenetrationCurrentA(h.CurrentA, h.TravelSpeedMMPerS, h.NewTravelSpeedMMPerS, h.VoltageV, h.NewVoltageV)

@@ -52,6 +52,31 @@ type groupFields struct {
 	JointType    *string `json:"joint_type" validate:"omitempty,oneof=bead_on_plate butt fillet lap corner edge"`
 }
 
+// metricInput is a request body that converts into metric values Q.
+type metricInput[Q any] interface{ metric() (Q, error) }
+
+// bindMetric binds the body, converts it into metric values and validates them.
+func bindMetric[Q any, In metricInput[Q]](s *Server, c echo.Context) (In, Q, error) {
+	var in In
+	var q Q
+	if err := bind(c, &in); err != nil {
+		return in, q, err
+	}
+	q, err := in.metric()
+	if err != nil {
+		return in, q, err
+	}
+	return in, q, s.check(q)
+}
+
+// calibrationGroup validates the request's group fields and returns the group they name.
+func (s *Server) calibrationGroup(g groupFields, wireDiameterMM *float64) (*db.CalibrationGroup, error) {
+	if err := s.check(g); err != nil {
+		return nil, err
+	}
+	return g.group(wireDiameterMM)
+}
+
 // group returns the calibration group named by the request, nil when none of
 // process, shielding_gas and joint_type is given. With any of them, process,
 // joint_type and the wire diameter are required (an absent gas is "").

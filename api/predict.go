@@ -83,21 +83,11 @@ type predictionOut struct {
 
 // handlePrediction answers POST /v1/predictions.
 func (s *Server) handlePrediction(c echo.Context) error {
-	var in predictionIn
-	if err := bind(c, &in); err != nil {
-		return err
-	}
-	p, err := in.metric()
+	in, p, err := bindMetric[prediction, predictionIn](s, c)
 	if err != nil {
 		return err
 	}
-	if err := s.check(p); err != nil {
-		return err
-	}
-	if err := s.check(in.groupFields); err != nil {
-		return err
-	}
-	g, err := in.group(p.WireDiameterMM)
+	g, err := s.calibrationGroup(in.groupFields, p.WireDiameterMM)
 	if err != nil {
 		return err
 	}

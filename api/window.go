@@ -154,21 +154,11 @@ func checkRanges(in predict.WindowInput, dep *predict.Range) error {
 // handleWindow answers POST /v1/parameter-window. An empty window is an
 // answer (200, feasible false, with the limits in conflict), not an error.
 func (s *Server) handleWindow(c echo.Context) error {
-	var in windowIn
-	if err := bind(c, &in); err != nil {
-		return err
-	}
-	w, err := in.metric()
+	in, w, err := bindMetric[window, windowIn](s, c)
 	if err != nil {
 		return err
 	}
-	if err := s.check(w); err != nil {
-		return err
-	}
-	if err := s.check(in.groupFields); err != nil {
-		return err
-	}
-	g, err := in.group(w.WireDiameterMM)
+	g, err := s.calibrationGroup(in.groupFields, w.WireDiameterMM)
 	if err != nil {
 		return err
 	}
