@@ -26,8 +26,10 @@ func (s *Server) requireRole(roles []string) echo.MiddlewareFunc {
 	return func(next echo.HandlerFunc) echo.HandlerFunc {
 		return func(c echo.Context) error {
 			h := c.Request().Header.Get(echo.HeaderAuthorization)
-			token, ok := strings.CutPrefix(h, "Bearer ")
-			if !ok || token == "" {
+			// The scheme name is case-insensitive (RFC 9110, section 11.1).
+			scheme, token, _ := strings.Cut(h, " ")
+			token = strings.TrimSpace(token)
+			if !strings.EqualFold(scheme, "Bearer") || token == "" {
 				c.Response().Header().Set(echo.HeaderWWWAuthenticate, `Bearer realm="etchlog"`)
 				return echo.NewHTTPError(http.StatusUnauthorized, "send Authorization: Bearer <token>")
 			}

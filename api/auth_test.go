@@ -99,3 +99,15 @@ func TestRoles(t *testing.T) {
 		}
 	}
 }
+
+// TestBearerSchemeCaseInsensitive: the auth scheme name is case-insensitive
+// (RFC 9110, section 11.1), so "bearer" and "BEARER" work like "Bearer".
+func TestBearerSchemeCaseInsensitive(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	for _, scheme := range []string{"bearer", "BEARER", "Bearer"} {
+		if r := e.doAuth(http.MethodGet, "/v1/coupons", scheme+" "+e.tokens["auditor"], nil); r.status != http.StatusOK {
+			t.Errorf("GET /v1/coupons with scheme %q: status = %d, want 200", scheme, r.status)
+		}
+	}
+}

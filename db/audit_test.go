@@ -230,3 +230,23 @@ func TestAppendOnly(t *testing.T) {
 		t.Errorf("VerifyAudit after refused statements = %+v (err %v), want ok", v, err)
 	}
 }
+
+// TestTruncateRefused checks that TRUNCATE, which row triggers do not see, is
+// refused on every append-only table.
+func TestTruncateRefused(t *testing.T) {
+	t.Parallel()
+	dbtest.Store(t)
+	conn := superuser(t)
+	ctx := context.Background()
+	for _, table := range []string{"procedures", "qualification_records", "coupons", "measurements",
+		"audit_events", "calibrations", "calibration_activations", "rule_sets", "procedure_ranges",
+		"production_batches", "production_records"} {
+		t.Run(table, func(t *testing.T) {
+			_, err := conn.Exec(ctx, "TRUNCATE "+table+" CASCADE")
+			var pg *pgconn.PgError
+			if !errors.As(err, &pg) || pg.Code != "42501" || !strings.Contains(pg.Message, "append-only") {
+				t.Errorf("TRUNCATE %s: err = %v, want SQLSTATE 42501 from the append-only trigger", table, err)
+			}
+		})
+	}
+}

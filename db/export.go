@@ -2,6 +2,7 @@ package db
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 
 	"github.com/jackc/pgx/v5"
@@ -15,8 +16,17 @@ type ExportSummary struct {
 	ChainHead []byte `json:"chain_head"`
 }
 
+// exportedEvent is an audit event as exported: JSON encoders re-space the
+// payload object, so the exact text that entered the hash travels beside it.
+type exportedEvent struct {
+	AuditEvent
+	PayloadText string `json:"payload_text"`
+}
+
 // Export streams every revision of every record of a site (procedures,
-// qualification records, coupons, measurements), then the site's audit chain,
+// qualification records, coupons, measurements, calibrations and their
+// activations, rule sets, qualified ranges, production batches and records),
+// then the site's audit chain,
 // to emit, inside one repeatable-read snapshot so the parts agree.
 func (s *Store) Export(ctx context.Context, site string, emit func(kind string, v any) error) (ExportSummary, error) {
 	var sum ExportSummary
@@ -32,6 +42,17 @@ func (s *Store) Export(ctx context.Context, site string, emit func(kind string, 
 		},
 		func() (int64, error) { return exportTable[Coupon](ctx, tx, coupons, site, emit) },
 		func() (int64, error) { return exportTable[Measurement](ctx, tx, measurements, site, emit) },
+	}
+	// The remaining tables are exported as stored, one JSON object per row.
+	for _, r := range []struct {
+		name, kind string
+		builtins   bool // also rows of the built-in site ''
+	}{
+		{"calibrations", "calibration", false}, {"calibration_activations", "calibration_activation", false},
+		{"rule_sets", "rule_set", true}, {"procedure_ranges", "procedure_ranges", false},
+		{"production_batches", "production_batch", false}, {"production_records", "production_record", false},
+	} {
+		steps = append(steps, func() (int64, error) { return exportRaw(ctx, tx, r.name, r.kind, site, r.builtins, emit) })
 	}
 	for _, step := range steps {
 		n, err := step()
@@ -52,7 +73,7 @@ func (s *Store) Export(ctx context.Context, site string, emit func(kind string, 
 		if err != nil {
 			return sum, err
 		}
-		if err := emit("audit_event", ev); err != nil {
+		if err := emit("audit_event", exportedEvent{ev, string(ev.Payload)}); err != nil {
 			return sum, err
 		}
 		sum.Events++
@@ -75,6 +96,31 @@ func exportTable[T any](ctx context.Context, tx pgx.Tx, t table, site string, em
 			return n, err
 		}
 		if err := emit(t.entity, v); err != nil {
+			return n, err
+		}
+		n++
+	}
+	return n, rows.Err()
+}
+
+// exportRaw emits every row of one table at the site as its stored JSON form.
+func exportRaw(ctx context.Context, tx pgx.Tx, name, kind, site string, builtins bool, emit func(string, any) error) (int64, error) {
+	sites := []string{site}
+	if builtins {
+		sites = append(sites, "")
+	}
+	rows, err := tx.Query(ctx, "SELECT to_jsonb(r) FROM "+name+" r WHERE site = ANY($1) ORDER BY id", sites)
+	if err != nil {
+		return 0, fmt.Errorf("db: export %s: %w", name, err)
+	}
+	defer rows.Close()
+	var n int64
+	for rows.Next() {
+		var v json.RawMessage
+		if err := rows.Scan(&v); err != nil {
+			return n, err
+		}
+		if err := emit(kind, v); err != nil {
 			return n, err
 		}
 		n++

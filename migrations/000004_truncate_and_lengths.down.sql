@@ -1,0 +1,18 @@
+DROP TRIGGER IF EXISTS procedures_no_truncate ON procedures;
+DROP TRIGGER IF EXISTS qualification_records_no_truncate ON qualification_records;
+DROP TRIGGER IF EXISTS coupons_no_truncate ON coupons;
+DROP TRIGGER IF EXISTS measurements_no_truncate ON measurements;
+DROP TRIGGER IF EXISTS audit_events_no_truncate ON audit_events;
+DROP TRIGGER IF EXISTS calibrations_no_truncate ON calibrations;
+DROP TRIGGER IF EXISTS calibration_activations_no_truncate ON calibration_activations;
+DROP TRIGGER IF EXISTS rule_sets_no_truncate ON rule_sets;
+DROP TRIGGER IF EXISTS procedure_ranges_no_truncate ON procedure_ranges;
+DROP TRIGGER IF EXISTS production_batches_no_truncate ON production_batches;
+DROP TRIGGER IF EXISTS production_records_no_truncate ON production_records;
+ALTER TABLE procedures DROP CONSTRAINT IF EXISTS procedures_shielding_gas_length;
+ALTER TABLE qualification_records DROP CONSTRAINT IF EXISTS qualification_records_shielding_gas_length;
+ALTER TABLE qualification_records DROP CONSTRAINT IF EXISTS qualification_records_remarks_length;
+ALTER TABLE coupons DROP CONSTRAINT IF EXISTS coupons_power_source_id_length;
+ALTER TABLE coupons DROP CONSTRAINT IF EXISTS coupons_filler_lot_length;
+ALTER TABLE coupons DROP CONSTRAINT IF EXISTS coupons_shielding_gas_length;
+ALTER TABLE measurements DROP CONSTRAINT IF EXISTS measurements_remark_length;
