@@ -45,11 +45,11 @@ func TestPage(t *testing.T) {
 	t.Parallel()
 	e := newEnv(t)
 	ctx := browser(t)
-	proc := e.procedure()
-	var marks []string
+	proc := e.rangedProcedure() // fixture coupons at 180 A fall below its qualified current
+	var marks, ids []string
 	for range 2 {
 		b := couponBody(proc, "", uniq("C-page"))
-		e.create("/v1/coupons", "technician", b)
+		ids = append(ids, e.create("/v1/coupons", "technician", b)["id"].(string))
 		marks = append(marks, b["coupon_mark"].(string))
 	}
 
@@ -78,10 +78,20 @@ func TestPage(t *testing.T) {
 	if err != nil {
 		t.Fatalf("read the coupon table: %v", err)
 	}
-	// The fixture coupons as the page formats them: mark, day, welder, joint, A, V, mm/s, m/min, revision.
+	// The fixture coupons as the page formats them: mark, day, welder, joint, A,
+	// V, mm/s, m/min, revision, and the API's flags of the coupon ("variable direction").
+	flags := map[string][]string{}
+	for _, f := range e.do(http.MethodGet, "/v1/flags?subject_kind=coupon", "auditor", nil).items(t) {
+		id := f["subject_id"].(string)
+		flags[id] = append(flags[id], f["variable"].(string)+" "+f["direction"].(string))
+	}
 	var want [][]string
-	for _, m := range marks {
-		want = append(want, []string{m, "2026-11-03", "W-07", "fillet", "180", "21.0", "5.00", "7.60", "1"})
+	for i, m := range marks {
+		fl := strings.Join(flags[ids[i]], ", ")
+		if !strings.Contains(fl, "current_a below") {
+			t.Errorf("coupon %s flags %q: want current_a below (180 A under the derived range)", m, fl)
+		}
+		want = append(want, []string{m, "2026-11-03", "W-07", "fillet", "180", "21.0", "5.00", "7.60", "1", fl})
 	}
 	if d := cmp.Diff(want, rows); d != "" {
 		t.Errorf("coupon table (-want +got):\n%s", d)

@@ -60,6 +60,8 @@ Try:
   curl -s -H 'Authorization: Bearer %[4]s' '%[1]s/v1/coupons?limit=5'
   curl -s -H 'Authorization: Bearer %[4]s' '%[1]s/v1/coupons?acceptance=reject'
   curl -s -H 'Authorization: Bearer %[4]s' %[1]s/v1/audit/verify
+  curl -s -H 'Authorization: Bearer %[4]s' '%[1]s/v1/flags?limit=5'
+  curl -s -H 'Authorization: Bearer %[4]s' '%[1]s/v1/production-records?flagged=true'
 
 CAUTION: predictions are estimates for planning and never replace qualification testing;
 qualification follows the governing code. Defer to local codes, the code of record and
