@@ -25,7 +25,18 @@ func TestMigrateDownUp(t *testing.T) {
 	if _, err := admin.Exec(ctx, "CREATE DATABASE "+name); err != nil {
 		t.Fatal(err)
 	}
-	t.Cleanup(func() { _, _ = admin.Exec(context.Background(), "DROP DATABASE IF EXISTS "+name+" WITH (FORCE)") })
+	t.Cleanup(func() { // admin is closed by then: drop through a connection of its own
+		ctx := context.Background()
+		c, err := pgx.Connect(ctx, dbtest.URL(t))
+		if err != nil {
+			t.Errorf("drop %s: %v", name, err)
+			return
+		}
+		defer c.Close(ctx)
+		if _, err := c.Exec(ctx, "DROP DATABASE IF EXISTS "+name+" WITH (FORCE)"); err != nil {
+			t.Errorf("drop %s: %v", name, err)
+		}
+	})
 	u, _ := url.Parse(dbtest.URL(t))
 	u.Path = "/" + name
 	for _, dir := range []string{"up", "down", "up"} {
