@@ -22,6 +22,8 @@ import (
 func afterWrite(ctx context.Context, tx pgx.Tx, t table, m Meta) error {
 	id := m.ID
 	switch t.name {
+	case procedures.name:
+		return procedureChanged(ctx, tx, m)
 	case coupons.name:
 	case measurements.name: // a section changes the coupon's measured penetration
 		var err error
@@ -32,6 +34,29 @@ func afterWrite(ctx context.Context, tx pgx.Tx, t table, m Meta) error {
 		return nil
 	}
 	_, err := recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, id)
+	return err
+}
+
+// procedureChanged keeps a procedure's flags in step with its latest
+// revision: a void removes them (its records no longer answer to it), a
+// correction re-evaluates them, since model flags read the procedure's
+// required minimum penetration.
+func procedureChanged(ctx context.Context, tx pgx.Tx, m Meta) error {
+	if m.Revision == 1 { // a new procedure has no coupons or production records yet
+		return nil
+	}
+	if m.Voided {
+		_, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2`, m.Site, m.ID)
+		return err
+	}
+	pr, err := latestRanges(ctx, tx, m.Site, m.ID, 0)
+	if errors.Is(err, ErrNotFound) { // no ranges yet: model flags only, as for a coupon write
+		pr, err = ProcedureRanges{Site: m.Site, ProcedureID: m.ID}, nil
+	}
+	if err != nil {
+		return err
+	}
+	_, err = recomputeProcedure(ctx, tx, m.CreatedAt, pr)
 	return err
 }
 

@@ -170,3 +170,38 @@ func TestProductionBatch(t *testing.T) {
 		t.Fatalf("after the refused batch: %d records on the first page (next %q), %v; want the 500 of the good batch only", len(all.Items), all.Next, err)
 	}
 }
+
+// TestProcedureWritesKeepFlags: correcting a procedure re-evaluates its
+// records' flags (unchanged here: the ranges did not change) and voiding it
+// removes them, in the writing transaction.
+func TestProcedureWritesKeepFlags(t *testing.T) {
+	t.Parallel()
+	s, site := dbtest.Store(t), dbtest.Site(t)
+	a, ctx := actor(site), context.Background()
+	p := rangesProcedure(t, s, a)
+	if _, err := s.DeriveRanges(ctx, a, p.ID, "structural-style-gmaw", 0); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := s.CreateCoupon(ctx, a, rangesCoupon(p.ID, "P-"+p.Code, 231, 24)); err != nil {
+		t.Fatal(err)
+	}
+	before := procedureFlags(t, s, site, p.ID)
+	if len(before) != 1 {
+		t.Fatalf("coupon at 231 A: %d flags, want 1", len(before))
+	}
+	fixed := p.ProcedureData
+	fixed.Title += " (title corrected)"
+	if _, err := s.CorrectProcedure(ctx, a, p.ID, db.Change{BaseRevision: 1, Reason: "typo in title"}, fixed); err != nil {
+		t.Fatal(err)
+	}
+	after := procedureFlags(t, s, site, p.ID)
+	if len(after) != 1 || after[0].Variable != before[0].Variable || *after[0].Excess != *before[0].Excess {
+		t.Errorf("after a title correction: %+v, want the same flag as before %+v", after, before)
+	}
+	if _, err := s.VoidProcedure(ctx, a, p.ID, db.Change{BaseRevision: 2, Reason: "entered twice"}); err != nil {
+		t.Fatal(err)
+	}
+	if got := procedureFlags(t, s, site, p.ID); len(got) != 0 {
+		t.Errorf("after voiding the procedure: %d flags, want 0", len(got))
+	}
+}
