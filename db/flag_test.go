@@ -198,6 +198,11 @@ func TestProcedureWritesKeepFlags(t *testing.T) {
 	if len(after) != 1 || after[0].Variable != before[0].Variable || *after[0].Excess != *before[0].Excess {
 		t.Errorf("after a title correction: %+v, want the same flag as before %+v", after, before)
 	}
+	pr, err := s.ProcedureRanges(ctx, site, p.ID, 0)
+	if err != nil || !pr.DerivedFromOlderRevision || pr.ProcedureRevision != 1 || pr.CurrentProcedureRevision != 2 {
+		t.Errorf("ranges after the correction: from revision %d, current %d, older %v (err %v); want 1, 2, true",
+			pr.ProcedureRevision, pr.CurrentProcedureRevision, pr.DerivedFromOlderRevision, err)
+	}
 	if _, err := s.VoidProcedure(ctx, a, p.ID, db.Change{BaseRevision: 2, Reason: "entered twice"}); err != nil {
 		t.Fatal(err)
 	}

@@ -31,6 +31,11 @@ type ProcedureRanges struct {
 	CreatedAt         time.Time               `db:"created_at" json:"created_at"`
 	CreatedBy         string                  `db:"created_by" json:"created_by"`
 	FlagsWritten      int                     `db:"-" json:"flags_written"`
+	// CurrentProcedureRevision (not stored, filled on read) is the procedure's
+	// latest revision; when it is newer than ProcedureRevision the ranges were
+	// derived from an older revision and may need deriving again.
+	CurrentProcedureRevision int  `db:"-" json:"current_procedure_revision,omitempty"`
+	DerivedFromOlderRevision bool `db:"-" json:"derived_from_older_revision"`
 }
 
 var rangesTable = table{name: "procedure_ranges", entity: "procedure_ranges"}
@@ -141,6 +146,12 @@ func (s *Store) ProcedureRanges(ctx context.Context, site string, procedureID uu
 	if err != nil {
 		return ProcedureRanges{}, fmt.Errorf("db: %w", err)
 	}
+	p, err := readOne[Procedure](ctx, s, procedures, site, procedureID, 0)
+	if err != nil {
+		return ProcedureRanges{}, err
+	}
+	pr.CurrentProcedureRevision = p.Revision
+	pr.DerivedFromOlderRevision = p.Revision > pr.ProcedureRevision
 	return pr, nil
 }
 
