@@ -11,8 +11,9 @@ import (
 )
 
 // penetrationInverseIn asks for the current, voltage or travel speed that
-// gives a target Jackson penetration with the other two given. K is the
-// group's active jackson_fixed calibration's, else the caller's.
+// gives a target Jackson penetration with the other two given. The model is
+// the group's active jackson_free calibration (its own exponents), else K of
+// its active jackson_fixed calibration, else the caller's K.
 type penetrationInverseIn struct {
 	groupFields
 	SolveFor            string      `json:"solve_for"`
@@ -84,6 +85,17 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 	if err != nil {
 		return err
 	}
+	free, err := s.activeCalibration(c, g, db.CalibrationJacksonFree)
+	if err != nil {
+		return err
+	}
+	if free != nil && free.Fit.Penetration != nil {
+		out, err := inverseFree(*free, q)
+		if err != nil {
+			return err
+		}
+		return c.JSON(http.StatusOK, out)
+	}
 	k, cal, err := s.jacksonKFor(c, g, q.JacksonK)
 	if err != nil {
 		return err
@@ -109,6 +121,57 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 		return err
 	}
 	po.PenetrationMM, po.PenetrationIn = &p, ptrTo(predict.MMToInch(p))
+	finishInverse(&out)
+	return c.JSON(http.StatusOK, out)
+}
+
+// inverseFree solves with the shop's own exponents of an active jackson_free
+// calibration; the penetration reported is the fit's median at the solution,
+// with its intervals at the default level.
+func inverseFree(cal db.Calibration, q penetrationInverse) (penetrationInverseOut, error) {
+	fit := *cal.Fit.Penetration
+	out := penetrationInverseOut{SolveFor: q.SolveFor, Notes: []string{}, Caution: predictionCaution}
+	var err error
+	switch q.SolveFor {
+	case "current":
+		out.VoltageV, out.TravelSpeedMMPerS = *q.VoltageV, *q.TravelSpeedMMPerS
+		out.CurrentA, err = fit.CurrentForPenetrationA(q.PenetrationMM, out.TravelSpeedMMPerS, out.VoltageV)
+	case "voltage":
+		out.CurrentA, out.TravelSpeedMMPerS = *q.CurrentA, *q.TravelSpeedMMPerS
+		out.VoltageV, err = fit.VoltageForPenetrationV(q.PenetrationMM, out.CurrentA, out.TravelSpeedMMPerS)
+	default:
+		out.CurrentA, out.VoltageV = *q.CurrentA, *q.VoltageV
+		out.TravelSpeedMMPerS, err = fit.TravelSpeedForPenetrationMMPerS(q.PenetrationMM, out.CurrentA, out.VoltageV)
+	}
+	if err != nil {
+		return out, renamed(err, freeFieldNames)
+	}
+	iv, err := fit.Predict(out.CurrentA, out.VoltageV, out.TravelSpeedMMPerS, defaultLevel)
+	if err != nil {
+		return out, err
+	}
+	po := &out.Penetration
+	po.Source, po.Model, po.CalibrationID = sourceCalibration, string(cal.Model), &cal.ID
+	po.Exponents = &exponentsOut{fit.Coef[1], fit.Coef[2], fit.Coef[3]}
+	po.PenetrationMM, po.PenetrationIn, po.Interval = &iv.MedianMM, ptrTo(predict.MMToInch(iv.MedianMM)), &iv
+	if q.JacksonK != nil {
+		out.Notes = append(out.Notes, "jackson_k was not used: the group has an active jackson_free calibration")
+	}
+	finishInverse(&out)
+	return out, nil
+}
+
+// freeFieldNames maps a jackson_free inverse's refusals to request fields:
+// an exponent of about zero makes solve_for unanswerable, an unreachable
+// target is the penetration's fault.
+var freeFieldNames = map[string]string{
+	"jackson_free current exponent": "solve_for", "jackson_free voltage exponent": "solve_for",
+	"jackson_free travel speed exponent": "solve_for", "penetration mm": "penetration_mm",
+}
+
+// finishInverse adds the inch travel speed and flags a setting outside the
+// plausible bounds.
+func finishInverse(out *penetrationInverseOut) {
 	out.TravelSpeedInPerMin = predict.MMPerSToInPerMin(out.TravelSpeedMMPerS)
 	for _, b := range []struct {
 		name   string
@@ -119,7 +182,6 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 			out.Notes = append(out.Notes, fmt.Sprintf("%s = %.4g is outside its plausible range %g–%g: no usual weld gives this penetration with the other two held", b.name, b.v, b.lo, b.hi))
 		}
 	}
-	return c.JSON(http.StatusOK, out)
 }
 
 // solveJackson fills the setting with the quantity q solves for.
