@@ -63,20 +63,26 @@ func JacksonTravelSpeedMMPerS(k JacksonK, penetrationMM, currentA, voltageV floa
 	return r * r * (km / penetrationMM), nil
 }
 
+// holdInputs checks the five positive inputs of a hold-penetration solve.
+func holdInputs(currentA, travelSpeed1, travelSpeed2, voltage1V, voltage2V float64) error {
+	for _, q := range []struct {
+		name string
+		v    float64
+	}{{"current A", currentA}, {"travel speed 1", travelSpeed1}, {"travel speed 2", travelSpeed2},
+		{"arc voltage 1 V", voltage1V}, {"arc voltage 2 V", voltage2V}} {
+		if err := mustBePositive(q.name, q.v); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
 // HoldPenetrationCurrentA returns the current I₂ (A) that keeps Jackson
 // penetration unchanged when travel speed goes from S₁ to S₂ (any one unit)
 // and voltage from V₁ to V₂: I₂ = I₁·(S₂/S₁)^(1/4)·(V₂/V₁)^(1/2). K cancels.
 func HoldPenetrationCurrentA(currentA, travelSpeed1, travelSpeed2, voltage1V, voltage2V float64) (float64, error) {
-	if err := mustBePositive("current A", currentA); err != nil {
+	if err := holdInputs(currentA, travelSpeed1, travelSpeed2, voltage1V, voltage2V); err != nil {
 		return 0, err
-	}
-	for _, q := range []struct {
-		name string
-		v    float64
-	}{{"travel speed 1", travelSpeed1}, {"travel speed 2", travelSpeed2}, {"arc voltage 1 V", voltage1V}, {"arc voltage 2 V", voltage2V}} {
-		if err := mustBePositive(q.name, q.v); err != nil {
-			return 0, err
-		}
 	}
 	return currentA * math.Sqrt(math.Sqrt(travelSpeed2/travelSpeed1)) * math.Sqrt(voltage2V/voltage1V), nil
 }

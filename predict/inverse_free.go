@@ -124,16 +124,8 @@ func (f PenetrationFit) HoldPenetrationCurrentA(currentA, travelSpeed1, travelSp
 	if err != nil {
 		return 0, err
 	}
-	if err := mustBePositive("current A", currentA); err != nil {
+	if err := holdInputs(currentA, travelSpeed1, travelSpeed2, voltage1V, voltage2V); err != nil {
 		return 0, err
-	}
-	for _, q := range []struct {
-		name string
-		v    float64
-	}{{"travel speed 1", travelSpeed1}, {"travel speed 2", travelSpeed2}, {"arc voltage 1 V", voltage1V}, {"arc voltage 2 V", voltage2V}} {
-		if err := mustBePositive(q.name, q.v); err != nil {
-			return 0, err
-		}
 	}
 	if err := solvableExponent("current", a); err != nil {
 		return 0, err
