@@ -3,14 +3,18 @@ package api
 import (
 	"net/http"
 
+	"github.com/google/uuid"
 	"github.com/labstack/echo/v4"
 
+	"etchlog/db"
 	"etchlog/predict"
 )
 
 // holdIn asks for the current that keeps Jackson penetration unchanged when
-// travel speed and/or voltage change (K cancels, so none is needed).
+// travel speed and/or voltage change (K cancels, so none is needed). With a
+// group that has an active jackson_free calibration, its exponents are used.
 type holdIn struct {
+	groupFields
 	CurrentA               float64  `json:"current_a"`
 	VoltageV               float64  `json:"voltage_v"`
 	NewVoltageV            *float64 `json:"new_voltage_v"`
@@ -20,6 +24,8 @@ type holdIn struct {
 	NewTravelSpeedMMPerS   *float64 `json:"new_travel_speed_mm_s"`
 	NewTravelSpeedMMPerMin *float64 `json:"new_travel_speed_mm_min"`
 	NewTravelSpeedInPerMin *float64 `json:"new_travel_speed_in_min"`
+	WireDiameterMM         *float64 `json:"wire_diameter_mm"`
+	WireDiameterIn         *float64 `json:"wire_diameter_in"`
 }
 
 // hold is the request in metric units, validated; it is also the answer's echo.
@@ -28,7 +34,8 @@ type hold struct {
 	VoltageV             float64 `json:"voltage_v" validate:"required,gte=5,lte=60"`
 	NewVoltageV          float64 `json:"new_voltage_v" validate:"required,gte=5,lte=60"`
 	TravelSpeedMMPerS    float64 `json:"travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
-	NewTravelSpeedMMPerS float64 `json:"new_travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
+	NewTravelSpeedMMPerS float64  `json:"new_travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
+	WireDiameterMM       *float64 `json:"wire_diameter_mm,omitempty" validate:"omitempty,gte=0.6,lte=4"`
 }
 
 func (in holdIn) metric() (hold, error) {
@@ -37,6 +44,7 @@ func (in holdIn) metric() (hold, error) {
 		TravelSpeedMMPerS: u.req(mmPerS("travel_speed_mm_s", in.TravelSpeedMMPerS),
 			mmPerMin("travel_speed_mm_min", in.TravelSpeedMMPerMin), inPerMin("travel_speed_in_min", in.TravelSpeedInPerMin))}
 	h.NewTravelSpeedMMPerS = h.TravelSpeedMMPerS
+	h.WireDiameterMM = u.opt(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn))
 	if s := u.opt(mmPerS("new_travel_speed_mm_s", in.NewTravelSpeedMMPerS),
 		mmPerMin("new_travel_speed_mm_min", in.NewTravelSpeedMMPerMin), inPerMin("new_travel_speed_in_min", in.NewTravelSpeedInPerMin)); s != nil {
 		h.NewTravelSpeedMMPerS = *s
@@ -49,32 +57,67 @@ func (in holdIn) metric() (hold, error) {
 	return h, u.err()
 }
 
-// holdOut is the current that holds penetration, and the arc energy before
-// and after (penetration held does not mean heat input held).
+// holdOut is the current that holds penetration, the model that held it,
+// and the arc energy before and after (penetration held does not mean heat
+// input held).
 type holdOut struct {
 	hold
-	NewCurrentA       float64 `json:"new_current_a"`
-	NewTravelSpeedIPM float64 `json:"new_travel_speed_in_min"`
-	ArcEnergyJMM      float64 `json:"arc_energy_j_mm"`
-	NewArcEnergyJMM   float64 `json:"new_arc_energy_j_mm"`
-	Note              string  `json:"note"`
-	Caution           string  `json:"caution"`
+	NewCurrentA              float64      `json:"new_current_a"`
+	NewTravelSpeedIPM        float64      `json:"new_travel_speed_in_min"`
+	ArcEnergyJMM             float64      `json:"arc_energy_j_mm"`
+	NewArcEnergyJMM          float64      `json:"new_arc_energy_j_mm"`
+	PenetrationSource        string       `json:"penetration_source"`
+	PenetrationModel         string       `json:"penetration_model"`
+	PenetrationCalibrationID *uuid.UUID   `json:"penetration_calibration_id,omitempty"`
+	Exponents                exponentsOut `json:"exponents"`
+	Note                     string       `json:"note"`
+	Caution                  string       `json:"caution"`
 }
 
-const holdNote = "holds Jackson penetration P = K·I^(4/3)·S^(−1/3)·V^(−2/3) with the published exponents; K cancels"
+const (
+	holdNote     = "holds Jackson penetration P = K·I^(4/3)·S^(−1/3)·V^(−2/3) with the published exponents; K cancels"
+	holdFreeNote = "holds the median penetration ln P = c0 + a·ln I + b·ln S + c·ln V of the group's active jackson_free calibration; c0 cancels"
+)
+
+// sourcePublished reports a hold made with the published exponents alone:
+// K cancels, so neither a calibration nor the caller supplies a coefficient.
+const sourcePublished = "published"
+
+// holdFieldNames maps a jackson_free hold's refusals to request fields.
+var holdFieldNames = map[string]string{"jackson_free current exponent": "current_a", "current A": "current_a"}
 
 // handleInverseHold answers POST /v1/inverse/hold-penetration.
 func (s *Server) handleInverseHold(c echo.Context) error {
-	_, h, err := bindMetric[hold, holdIn](s, c)
+	in, h, err := bindMetric[hold, holdIn](s, c)
 	if err != nil {
 		return err
 	}
-	i2, err := predict.HoldPenetrationCurrentA(h.CurrentA, h.TravelSpeedMMPerS, h.NewTravelSpeedMMPerS, h.VoltageV, h.NewVoltageV)
+	g, err := s.calibrationGroup(in.groupFields, h.WireDiameterMM)
 	if err != nil {
 		return err
 	}
-	out := holdOut{hold: h, NewCurrentA: i2, NewTravelSpeedIPM: predict.MMPerSToInPerMin(h.NewTravelSpeedMMPerS),
-		Note: holdNote, Caution: predictionCaution}
+	free, err := s.activeCalibration(c, g, db.CalibrationJacksonFree)
+	if err != nil {
+		return err
+	}
+	out := holdOut{hold: h, NewTravelSpeedIPM: predict.MMPerSToInPerMin(h.NewTravelSpeedMMPerS), Caution: predictionCaution,
+		PenetrationSource: sourceCalibration, PenetrationModel: "jackson", Note: holdNote,
+		Exponents: exponentsOut{predict.JacksonCurrentExponent, predict.JacksonTravelExponent, predict.JacksonVoltageExponent}}
+	var i2 float64
+	if free != nil && free.Fit.Penetration != nil {
+		fit := free.Fit.Penetration
+		if i2, err = fit.HoldPenetrationCurrentA(h.CurrentA, h.TravelSpeedMMPerS, h.NewTravelSpeedMMPerS, h.VoltageV, h.NewVoltageV); err != nil {
+			return renamed(err, holdFieldNames)
+		}
+		out.PenetrationModel, out.PenetrationCalibrationID, out.Note = string(free.Model), &free.ID, holdFreeNote
+		out.Exponents = exponentsOut{fit.Coef[1], fit.Coef[2], fit.Coef[3]}
+	} else {
+		out.PenetrationSource = sourcePublished
+		if i2, err = predict.HoldPenetrationCurrentA(h.CurrentA, h.TravelSpeedMMPerS, h.NewTravelSpeedMMPerS, h.VoltageV, h.NewVoltageV); err != nil {
+			return err
+		}
+	}
+	out.NewCurrentA = i2
 	if out.ArcEnergyJMM, err = predict.ArcEnergyJPerMM(h.VoltageV, h.CurrentA, h.TravelSpeedMMPerS); err != nil {
 		return err
 	}

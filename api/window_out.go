@@ -21,6 +21,7 @@ var windowFieldNames = map[string]string{
 	"jackson K": "jackson_k.value", "jackson K units": "jackson_k.units",
 	"lesnewich alpha kg/(h·A)": "lesnewich.alpha_kg_h_a", "lesnewich beta kg/(h·A²·mm)": "lesnewich.beta_kg_h_a2_mm",
 	"lesnewich coefficients": "lesnewich", "heat input form": "heat_input_form",
+	"jackson_free current exponent": "min_penetration_mm",
 }
 
 // windowOut is the feasible region: every grid point with its exact current
@@ -37,6 +38,7 @@ type windowOut struct {
 	FeasibleCells            int             `json:"feasible_cells"`
 	Cells                    []windowCellOut `json:"cells"`
 	PenetrationSource        string          `json:"penetration_source"`
+	PenetrationModel         string          `json:"penetration_model,omitempty"`
 	PenetrationCalibrationID *uuid.UUID      `json:"penetration_calibration_id,omitempty"`
 	LesnewichSource          string          `json:"lesnewich_source"`
 	LesnewichCalibrationID   *uuid.UUID      `json:"lesnewich_calibration_id,omitempty"`
@@ -98,17 +100,8 @@ type windowCellOut struct {
 func (s *Server) windowTargets(c echo.Context, g *db.CalibrationGroup, in windowIn, w *window, out *windowOut) error {
 	out.PenetrationSource, out.LesnewichSource = sourceNone, sourceNone
 	if w.MinPenetrationMM != nil {
-		k, cal, err := s.jacksonKFor(c, g, w.JacksonK)
-		if err != nil {
+		if err := s.windowPenetration(c, g, w, out); err != nil {
 			return err
-		}
-		if k == nil {
-			return unprocessable(FieldIssue{"jackson_k", "is required with min_penetration: give it, or the group of an active jackson_fixed calibration"})
-		}
-		w.in.Penetration = &predict.PenetrationTarget{MinMM: *w.MinPenetrationMM, K: *k}
-		out.PenetrationSource, out.PenetrationCalibrationID = sourceRequest, nil
-		if cal != nil {
-			out.PenetrationSource, out.PenetrationCalibrationID = sourceCalibration, &cal.ID
 		}
 	}
 	if w.Deposition != nil {
@@ -139,6 +132,34 @@ func (s *Server) windowTargets(c echo.Context, g *db.CalibrationGroup, in window
 			return renamed(err, windowFieldNames)
 		}
 		out.HeatInputForm, out.HeatInputFactor = string(rule.Form), &f
+	}
+	return nil
+}
+
+// windowPenetration sets the minimum penetration target from the group's
+// active jackson_free calibration (its own exponents), else K of its active
+// jackson_fixed calibration, else the caller's K.
+func (s *Server) windowPenetration(c echo.Context, g *db.CalibrationGroup, w *window, out *windowOut) error {
+	free, err := s.activeCalibration(c, g, db.CalibrationJacksonFree)
+	if err != nil {
+		return err
+	}
+	if free != nil && free.Fit.Penetration != nil {
+		w.in.Penetration = &predict.PenetrationTarget{MinMM: *w.MinPenetrationMM, Fit: free.Fit.Penetration}
+		out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceCalibration, string(free.Model), &free.ID
+		return nil
+	}
+	k, cal, err := s.jacksonKFor(c, g, w.JacksonK)
+	if err != nil {
+		return err
+	}
+	if k == nil {
+		return unprocessable(FieldIssue{"jackson_k", "is required with min_penetration: give it, or the group of an active jackson_free or jackson_fixed calibration"})
+	}
+	w.in.Penetration = &predict.PenetrationTarget{MinMM: *w.MinPenetrationMM, K: *k}
+	out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceRequest, "jackson", nil
+	if cal != nil {
+		out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceCalibration, string(cal.Model), &cal.ID
 	}
 	return nil
 }

@@ -123,9 +123,12 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 		where = strings.Join(f.conds, " AND ")
 	}
 	f.args = append(f.args, limit+1)
-	sql := "SELECT " + t.columns() + " FROM (SELECT DISTINCT ON (id) " + t.columns() + " FROM " + t.name +
-		" WHERE site = $1 AND id > $2 ORDER BY id, revision DESC) cur WHERE " + where +
-		" ORDER BY id LIMIT $" + strconv.Itoa(len(f.args))
+	// "cur" is a revision with no later one. Written as an anti-join rather than
+	// DISTINCT ON so the planner walks the primary key in id order and stops at
+	// the limit instead of sorting every revision of the site for each page.
+	sql := "SELECT " + t.columns() + " FROM " + t.name + " cur WHERE site = $1 AND id > $2" +
+		" AND NOT EXISTS (SELECT 1 FROM " + t.name + " later WHERE later.id = cur.id AND later.revision > cur.revision)" +
+		" AND " + where + " ORDER BY id LIMIT $" + strconv.Itoa(len(f.args))
 	rows, _ := s.pool.Query(ctx, sql, f.args...)
 	items, err := pgx.CollectRows(rows, pgx.RowToStructByName[T])
 	if err != nil {

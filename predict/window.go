@@ -69,10 +69,13 @@ func (iv *LimitedInterval) lower(v float64, lim Limit) {
 	}
 }
 
-// PenetrationTarget asks for Jackson penetration of at least MinMM.
+// PenetrationTarget asks for Jackson penetration of at least MinMM, with the
+// published exponents and K, or, when Fit is set, with the median of a
+// free-exponent fit (ModelJacksonFree; K is then not used).
 type PenetrationTarget struct {
 	MinMM float64
 	K     JacksonK
+	Fit   *PenetrationFit
 }
 
 // DepositionTarget asks for a deposition rate in [MinKgPerH, MaxKgPerH] at
@@ -185,7 +188,8 @@ type Window struct {
 // the numbers the grid loop needs.
 type windowModel struct {
 	in               WindowInput
-	km               float64 // metric Jackson K; 0 without a penetration target
+	km               float64 // metric Jackson K; 0 without a penetration target or with a fit
+	free             *freePenetration
 	heatFactor       float64 // F in H = F·V·I/S; 0 without a heat input target
 	les              *Lesnewich
 	depLoMR, depHiMR float64 // melting rate band (kg/h) from the deposition band
@@ -194,8 +198,8 @@ type windowModel struct {
 	unchecked        []Limit
 }
 
-func newWindowModel(in WindowInput) (windowModel, error) {
-	m := windowModel{in: in}
+func newWindowModel(in WindowInput) (m windowModel, err error) {
+	m.in = in
 	for _, r := range []struct {
 		name string
 		r    *Range
@@ -211,11 +215,15 @@ func newWindowModel(in WindowInput) (windowModel, error) {
 		if err := mustBePositive("minimum penetration mm", p.MinMM); err != nil {
 			return m, err
 		}
-		km, err := metricK(p.K)
-		if err != nil {
+		if p.Fit != nil {
+			fp, err := newFreePenetration(*p.Fit)
+			if err != nil {
+				return m, err
+			}
+			m.free = &fp
+		} else if m.km, err = metricK(p.K); err != nil {
 			return m, err
 		}
-		m.km = km
 	}
 	if h := in.HeatInput; h != nil {
 		if err := mustBePositive("maximum heat input J/mm", h.MaxJPerMM); err != nil {
@@ -288,6 +296,9 @@ func (m *windowModel) cell(v, s, l float64) WindowCell {
 	iv := LimitedInterval{m.in.CurrentA.Min, m.in.CurrentA.Max, LimitCurrentMin, LimitCurrentMax}
 	if m.km > 0 { // P(I) ≥ Pmin ⇔ I ≥ (Pmin/K)^(3/4)·(S·V²)^(1/4)
 		iv.raise(jacksonCurrent(m.km, m.in.Penetration.MinMM, s, v), LimitPenetrationMin)
+	}
+	if m.free != nil {
+		m.free.bound(&iv, m.in.Penetration.MinMM, s, v)
 	}
 	if m.heatFactor > 0 { // F·V·I/S ≤ Hmax ⇔ I ≤ Hmax·S/(F·V)
 		iv.lower(m.in.HeatInput.MaxJPerMM*s/(m.heatFactor*v), LimitHeatInputMax)
@@ -452,6 +463,9 @@ func (m *windowModel) nominal(c WindowCell) WindowPoint {
 	p.ArcEnergyJPerMM = c.VoltageV * i / c.TravelSpeedMMPerS
 	if m.km > 0 {
 		p.PenetrationMM = m.km * jacksonGroup(i, c.TravelSpeedMMPerS, c.VoltageV)
+	}
+	if m.free != nil {
+		p.PenetrationMM = m.free.medianMM(i, c.TravelSpeedMMPerS, c.VoltageV)
 	}
 	if m.heatFactor > 0 {
 		p.HeatInputJPerMM = m.heatFactor * p.ArcEnergyJPerMM
