@@ -62,7 +62,7 @@ func TestFailedWritesLeaveNothing(t *testing.T) {
 		{"OutOfRange", http.MethodPost, "/v1/coupons", "technician", hot, 422},
 		{"DuplicateMark", http.MethodPost, "/v1/coupons", "technician", coupon, 409},
 		{"VoidedProcedure", http.MethodPost, "/v1/coupons", "technician", onVoided, 422},
-		{"UnknownCoupon", http.MethodPost, "/v1/coupons/" + uuid.NewString() + "/measurements", "technician", measurementBody("A"), 422},
+		{"UnknownCoupon", http.MethodPost, "/v1/coupons/" + uuid.NewString() + "/measurements", "technician", measurementBody("A"), 404},
 		{"StaleBase", http.MethodPut, "/v1/coupons/" + cid, "technician", withRevision(coupon, 2, "fix"), 409},
 		{"BlankReason", http.MethodPut, "/v1/coupons/" + cid, "technician", withRevision(coupon, 1, "   "), 422},
 		{"CodeChange", http.MethodPut, "/v1/procedures/" + pid, "engineer", renamed, 422},

@@ -1,6 +1,7 @@
 package api
 
 import (
+	"github.com/google/uuid"
 	"net/http"
 
 	"github.com/labstack/echo/v4"
@@ -60,6 +61,9 @@ func (in measurementIn) data(c echo.Context, s *Server) (db.MeasurementData, err
 		return d, err
 	}
 	if c.Path() == couponMeasurementsPath { // create: the path names the coupon
+		if err := s.couponExists(c, id); err != nil {
+			return d, err
+		}
 		d.CouponID = id
 		return d, nil
 	}
@@ -90,6 +94,9 @@ func (s *Server) handleMeasurementList(c echo.Context) error {
 		if err != nil {
 			return err
 		}
+		if err := s.couponExists(c, id); err != nil {
+			return err
+		}
 		f.CouponID = &id
 	} else if f.CouponID, err = queryUUID(c, "coupon_id"); err != nil {
 		return err
@@ -99,4 +106,12 @@ func (s *Server) handleMeasurementList(c echo.Context) error {
 		return err
 	}
 	return c.JSON(http.StatusOK, pageOf(p))
+}
+
+// couponExists answers 404 when the coupon named by the path is not at the
+// caller's site (a voided coupon exists: its sections stay readable, and the
+// store refuses new ones).
+func (s *Server) couponExists(c echo.Context, id uuid.UUID) error {
+	_, err := s.store.Coupon(c.Request().Context(), actorOf(c).Site, id, 0)
+	return err
 }

@@ -105,12 +105,17 @@ func TestLinks(t *testing.T) {
 		{"CouponVoidedProcedure", "/v1/coupons", "technician", couponBody(voidedProc, "", uniq("C")), "procedure_id"},
 		{"CouponUnknownRecord", "/v1/coupons", "technician", couponBody(e.procedure(), uuid.NewString(), uniq("C")), "qualification_record_id"},
 		{"ProcedureUnknownRecord", "/v1/procedures", "engineer", procedureBody(uniq("WPS"), e.pqr(), uuid.NewString()), "supporting_record_ids"},
-		// The coupon is named by the path; the refusal names the stored field.
-		{"MeasurementUnknownCoupon", "/v1/coupons/" + uuid.NewString() + "/measurements", "technician", measurementBody("A"), "coupon_id"},
+		// The voided coupon is named by the path; the refusal names the stored field.
 		{"MeasurementVoidedCoupon", "/v1/coupons/" + voidedCoupon + "/measurements", "technician", measurementBody("A"), "coupon_id"},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			wantProblem(t, c.name, e.do(http.MethodPost, c.path, c.role, c.body), http.StatusUnprocessableEntity, c.field)
 		})
 	}
+	// A coupon named by the path that is not at the site is a missing resource.
+	unknown := "/v1/coupons/" + uuid.NewString() + "/measurements"
+	t.Run("MeasurementUnknownCoupon", func(t *testing.T) {
+		wantProblem(t, "POST "+unknown, e.do(http.MethodPost, unknown, "technician", measurementBody("A")), http.StatusNotFound, "")
+		wantProblem(t, "GET "+unknown, e.do(http.MethodGet, unknown, "auditor", nil), http.StatusNotFound, "")
+	})
 }
