@@ -112,8 +112,8 @@ func (s *Server) handleCouponModel(c echo.Context) error {
 	}
 	out.Deposit = &couponDepositOut{DepositionEfficiency: eff, DepositAreaMM2: a, FusedAreaSections: len(d.FusedAreasMM2)}
 	if len(d.FusedAreasMM2) > 0 {
-		m := db.SectionMean(d.FusedAreasMM2)
-		out.Deposit.MeasuredFusedAreaMM2, out.Deposit.DepositToFusedAreaRatio = &m, ptrTo(a/m)
+		m := predict.SectionMean(d.FusedAreasMM2)
+		out.Deposit.MeasuredFusedAreaMM2, out.Deposit.DepositToFusedAreaRatio = m, ptrTo(a / *m)
 	}
 	return c.JSON(http.StatusOK, out)
 }
@@ -123,7 +123,7 @@ func (s *Server) couponPenetration(c echo.Context, d db.CouponModelData, out *co
 	po := &out.Penetration
 	po.Source, po.Sections = sourceNone, len(d.PenetrationsMM)
 	if po.Sections > 0 {
-		po.MeasuredMeanMM = ptrTo(db.SectionMean(d.PenetrationsMM))
+		po.MeasuredMeanMM = predict.SectionMean(d.PenetrationsMM)
 	} else {
 		out.Notes = append(out.Notes, "the coupon has no current macro-etch section")
 	}

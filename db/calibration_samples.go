@@ -72,16 +72,6 @@ func groupCoupons(ctx context.Context, q querier, site string, f SampleFilter) (
 	return cs, nil
 }
 
-// SectionMean is the arithmetic mean of a coupon's section values: their plain sum
-// in the given order divided by their number.
-func SectionMean(v []float64) float64 {
-	sum := 0.0
-	for _, x := range v {
-		sum += x
-	}
-	return sum / float64(len(v))
-}
-
 // penetrationSamples gives one Jackson sample per measured coupon: the
 // coupon is the experimental unit (its sections share one current, voltage
 // and travel speed), so its penetration is the mean of its current,
@@ -97,7 +87,7 @@ func penetrationSamples(ctx context.Context, q querier, site string, f SampleFil
 			continue
 		}
 		out = append(out, predict.PenetrationSample{ID: c.ID.String(), CurrentA: c.CurrentA, VoltageV: c.VoltageV,
-			TravelSpeedMMPerS: c.TravelSpeedMMPerS, PenetrationMM: SectionMean(c.PenetrationsMM)})
+			TravelSpeedMMPerS: c.TravelSpeedMMPerS, PenetrationMM: *predict.SectionMean(c.PenetrationsMM)})
 	}
 	return out, nil
 }

@@ -74,7 +74,7 @@ func couponSubject(ctx context.Context, q querier, site string, c Coupon, p Proc
 	if err != nil {
 		return nil, err
 	}
-	s.model, s.measuredMM = check, predict.MeanSectionMM(pens)
+	s.model, s.measuredMM = check, predict.SectionMean(pens)
 	return s, nil
 }
 

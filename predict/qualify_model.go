@@ -2,7 +2,6 @@ package predict
 
 import (
 	"fmt"
-	"math"
 )
 
 // Variables of the model flags (never rule variables).
@@ -67,24 +66,17 @@ func (p PenetrationCheck) Evaluate(o *Observation, measuredMM *float64, dst []Fl
 	return dst
 }
 
-// meanOf is the plain mean of section values, NaN for none.
-func meanOf(v []float64) float64 {
-	if len(v) == 0 {
-		return math.NaN()
-	}
-	s := 0.0
-	for _, x := range v {
-		s += x
-	}
-	return s / float64(len(v))
-}
-
-// MeanSectionMM returns the mean of a coupon's section penetrations, or nil
-// when it has none.
-func MeanSectionMM(sections []float64) *float64 {
+// SectionMean returns the arithmetic mean of a coupon's per-section values
+// (penetration, fused area…, in their own unit): their plain sum in the given
+// order divided by their number, or nil when there are none.
+func SectionMean(sections []float64) *float64 {
 	if len(sections) == 0 {
 		return nil
 	}
-	m := meanOf(sections)
+	sum := 0.0
+	for _, x := range sections {
+		sum += x
+	}
+	m := sum / float64(len(sections))
 	return &m
 }
