@@ -38,7 +38,7 @@ type QualificationRecordData struct {
 	Remarks              string   `db:"remarks" json:"remarks" validate:"max=2000"`
 	// MinPenetrationMM is the record's own acceptance criterion, when it
 	// states one: the least penetration a macro-etch section must show.
-	MinPenetrationMM *float64 `db:"min_penetration_mm" json:"min_penetration_mm,omitempty" validate:"omitempty,gt=0,lte=50"`
+	MinPenetrationMM *float64 `db:"min_penetration_mm" json:"min_penetration_mm,omitempty" validate:"omitempty,quantity"`
 }
 
 // QualificationRecord is one stored revision of a PQR.
