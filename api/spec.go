@@ -50,10 +50,13 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 	route := &routers.Route{Spec: s.spec, Path: sp, PathItem: item, Method: method, Operation: item.GetOperation(method)}
 	opts := &openapi3filter.Options{MultiError: true, AuthenticationFunc: openapi3filter.NoopAuthenticationFunc, ExcludeResponseBody: true}
 	known := queryNames(item, route.Operation)
+	api := strings.HasPrefix(sp, "/v1/") // the page, probes and the document ignore stray parameters
 	return func(next echo.HandlerFunc) echo.HandlerFunc {
 		return func(c echo.Context) error {
-			if err := unknownQuery(c, known); err != nil {
-				return err
+			if api {
+				if err := unknownQuery(c, known); err != nil {
+					return err
+				}
 			}
 			params := map[string]string{}
 			for _, n := range c.ParamNames() {
