@@ -83,11 +83,14 @@ func (s *Store) PutUser(ctx context.Context, u User, token string) error {
 			}
 		}
 		m.Site, m.Revision, m.CreatedAt, m.CreatedBy, m.Voided = u.Site, m.Revision+1, s.now(), UserAdmin, false
-		action := "create"
+		action := actionCreate
 		if m.Revision > 1 {
-			action = "correct"
+			action = actionCorrect
 		}
-		return users.insert(ctx, tx, m, action, []any{u.Name, u.Role, digest})
+		if err := users.writeRevision(ctx, m, []any{u.Name, u.Role, digest})(tx); err != nil {
+			return err
+		}
+		return logged(ctx, users, m, action)(tx)
 	})
 	if err != nil {
 		return fmt.Errorf("db: put user %s: %w", u.Name, mapError(err))
