@@ -145,7 +145,7 @@ func TestSuspectUnitsFlag(t *testing.T) {
 	e := newEnv(t)
 	e.storeFitCoupons(6, 0)
 	cal := e.fit(calibrationBody("jackson_fixed", nil))
-	e.ok("/v1/calibrations/"+cal.ID+"/activate", "engineer", map[string]any{"reason": "shop fit"})
+	e.create("/v1/calibrations/"+cal.ID+"/activate", "engineer", map[string]any{"reason": "shop fit"})
 	c := e.mustCoupon(e.mustProcedure())
 	if r := e.section(c, "A", 0.075); r.status != http.StatusCreated {
 		t.Fatalf("0.075 mm refused: %d %s", r.status, r.body)
