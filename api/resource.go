@@ -2,6 +2,7 @@ package api
 
 import (
 	"context"
+	"math"
 	"net/http"
 	"strconv"
 
@@ -152,7 +153,7 @@ func handleRevisions[In input[D], D any, R any](r resource[In, D, R]) echo.Handl
 // change checks a correction's base revision and reason.
 func change(f changeFields) (db.Change, error) {
 	var issues []FieldIssue
-	if f.BaseRevision == nil || *f.BaseRevision < 1 {
+	if f.BaseRevision == nil || *f.BaseRevision < 1 || *f.BaseRevision >= math.MaxInt32 {
 		issues = append(issues, FieldIssue{"base_revision", "is required: the revision this change is based on (1 or more)"})
 	}
 	if f.Reason == nil || *f.Reason == "" {
@@ -183,8 +184,8 @@ func queryInt(c echo.Context, name string) (int, error) {
 		return 0, nil
 	}
 	n, err := strconv.Atoi(s)
-	if err != nil || n < 0 {
-		return 0, badRequest(name, "want a whole number")
+	if err != nil || n < 0 || n > math.MaxInt32 {
+		return 0, badRequest(name, "want a whole number from 0 to 2147483647")
 	}
 	return n, nil
 }

@@ -16,7 +16,7 @@ type CouponData struct {
 	WelderID              string     `db:"welder_id" json:"welder_id" validate:"required,max=64"`
 	PowerSourceID         string     `db:"power_source_id" json:"power_source_id" validate:"max=64"`
 	FillerLot             string     `db:"filler_lot" json:"filler_lot" validate:"max=64"`
-	WeldedOn              Date       `db:"welded_on" json:"welded_on" validate:"required"`
+	WeldedOn              Date       `db:"welded_on" json:"welded_on" validate:"required,plausible_day"`
 	JointType             string     `db:"joint_type" json:"joint_type" validate:"required,oneof=bead_on_plate butt fillet lap corner edge"`
 	ThicknessMM           float64    `db:"thickness_mm" json:"thickness_mm" validate:"required,gte=0.5,lte=300"`
 	PassNumber            int        `db:"pass_number" json:"pass_number" validate:"required,gte=1,lte=500"`
@@ -74,7 +74,10 @@ func (c CouponData) checkLinks(ctx context.Context, site string) func(pgx.Tx) er
 // CreateCoupon stores revision 1 of a new coupon.
 func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon, error) {
 	m, err := s.create(ctx, a, coupons, c.checkLinks(ctx, a.Site), c.values())
-	return Coupon{m, c}, err
+	if err != nil {
+		return Coupon{}, s.duplicateMark(ctx, a.Site, c.CouponMark, err)
+	}
+	return Coupon{m, c}, nil
 }
 
 // CorrectCoupon stores the next revision of a coupon.
@@ -107,6 +110,7 @@ type CouponFilter struct {
 	ProcedureID           *uuid.UUID
 	QualificationRecordID *uuid.UUID
 	WelderID              string
+	CouponMark            string
 	WeldedFrom            *Date
 	WeldedTo              *Date
 	Acceptance            string
@@ -132,6 +136,9 @@ func (s *Store) Coupons(ctx context.Context, site string, cf CouponFilter, curso
 	}
 	if cf.WelderID != "" {
 		f.add("welder_id = ?", cf.WelderID)
+	}
+	if cf.CouponMark != "" {
+		f.add("coupon_mark = ?", cf.CouponMark)
 	}
 	if cf.WeldedFrom != nil {
 		f.add("welded_on >= ?", *cf.WeldedFrom)

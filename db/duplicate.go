@@ -1,0 +1,80 @@
+package db
+
+import (
+	"context"
+	"errors"
+	"fmt"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// DuplicateError is a create refused because a stored record already holds
+// the same key (a coupon mark at the site, a weld id within a procedure). It
+// names that record, so a client retrying a write it thinks was lost can find it.
+type DuplicateError struct {
+	Entity     string    // the stored record's kind, e.g. "coupon"
+	Field      string    // the request field holding the key, e.g. "coupon_mark"
+	Value      string    // the key
+	ExistingID uuid.UUID // the stored record holding it
+}
+
+// Error says which record already holds the key.
+func (e *DuplicateError) Error() string { return ErrConflict.Error() + ": " + e.Reason() }
+
+// Reason is the refusal in words, for the field issue.
+func (e *DuplicateError) Reason() string {
+	return fmt.Sprintf("%q is already held by %s %s", e.Value, e.Entity, e.ExistingID)
+}
+
+// Is lets errors.Is(err, ErrConflict) match a DuplicateError.
+func (e *DuplicateError) Is(target error) bool { return target == ErrConflict }
+
+// couponByMark returns the id of the coupon created with mark at the site.
+func couponByMark(ctx context.Context, q querier, site, mark string) (uuid.UUID, error) {
+	var id uuid.UUID
+	err := q.QueryRow(ctx, `SELECT id FROM coupons WHERE site = $1 AND coupon_mark = $2 AND revision = 1`, site, mark).Scan(&id)
+	if errors.Is(err, pgx.ErrNoRows) {
+		return uuid.Nil, ErrNotFound
+	}
+	return id, err
+}
+
+// duplicateMark turns a failed coupon create into a DuplicateError naming the
+// coupon that holds the mark, when that is why it failed.
+func (s *Store) duplicateMark(ctx context.Context, site, mark string, err error) error {
+	if !errors.Is(err, ErrConflict) {
+		return err
+	}
+	id, lerr := couponByMark(ctx, s.pool, site, mark)
+	if lerr != nil {
+		return err
+	}
+	return fmt.Errorf("db: create coupon: %w", &DuplicateError{Entity: "coupon", Field: "coupon_mark", Value: mark, ExistingID: id})
+}
+
+// earlierWeld finds a stored production record of the same procedure with
+// one of the batch's weld ids; it returns the batch index it collides with.
+func earlierWeld(ctx context.Context, q querier, site string, recs []ProductionRecordData) (int, uuid.UUID, error) {
+	procs := make([]uuid.UUID, len(recs))
+	welds := make([]string, len(recs))
+	for i, r := range recs {
+		procs[i], welds[i] = r.ProcedureID, r.WeldID
+	}
+	var ord int
+	var id uuid.UUID
+	err := q.QueryRow(ctx, `
+		SELECT b.ord - 1, p.id
+		FROM unnest($2::uuid[], $3::text[]) WITH ORDINALITY AS b(procedure_id, weld_id, ord)
+		JOIN production_records p ON p.site = $1 AND p.procedure_id = b.procedure_id AND p.weld_id = b.weld_id
+		ORDER BY b.ord LIMIT 1`, site, procs, welds).Scan(&ord, &id)
+	if errors.Is(err, pgx.ErrNoRows) {
+		return -1, uuid.Nil, nil
+	}
+	return ord, id, err
+}
+
+// duplicateWeld is the refusal of a batch whose row i repeats a stored weld id.
+func duplicateWeld(recs []ProductionRecordData, i int, id uuid.UUID) error {
+	return &DuplicateError{Entity: "production record", Field: fmt.Sprintf("records[%d].weld_id", i), Value: recs[i].WeldID, ExistingID: id}
+}
