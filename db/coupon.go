@@ -71,24 +71,47 @@ func (c CouponData) checkLinks(ctx context.Context, site string) func(pgx.Tx) er
 	}
 }
 
-// CreateCoupon stores revision 1 of a new coupon.
+// CreateCoupon stores revision 1 of a new coupon and its flags.
 func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon, error) {
-	m, err := s.create(ctx, a, coupons, c.checkLinks(ctx, a.Site), c.values())
+	m, err := s.newRecord(a)
 	if err != nil {
+		return Coupon{}, err
+	}
+	if err := s.write(ctx, "create coupon",
+		c.checkLinks(ctx, a.Site),
+		coupons.writeRevision(ctx, m, c.values()),
+		logged(ctx, coupons, m, actionCreate),
+		couponFlags(ctx, m),
+	); err != nil {
 		return Coupon{}, s.duplicateMark(ctx, a.Site, c.CouponMark, err)
 	}
 	return Coupon{m, c}, nil
 }
 
-// CorrectCoupon stores the next revision of a coupon.
+// CorrectCoupon stores the next revision of a coupon and rewrites its flags.
 func (s *Store) CorrectCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Change, c CouponData) (Coupon, error) {
-	m, err := s.correct(ctx, a, coupons, id, ch, c.checkLinks(ctx, a.Site), c.values())
-	return Coupon{m, c}, err
+	m := s.nextRevision(a, id, ch, false)
+	if err := s.write(ctx, "correct coupon "+id.String(),
+		coupons.baseIs(ctx, a.Site, id, ch),
+		c.checkLinks(ctx, a.Site),
+		coupons.writeRevision(ctx, m, c.values()),
+		logged(ctx, coupons, m, actionCorrect),
+		couponFlags(ctx, m),
+	); err != nil {
+		return Coupon{}, err
+	}
+	return Coupon{m, c}, nil
 }
 
-// VoidCoupon voids a coupon with a reason.
+// VoidCoupon voids a coupon with a reason; a voided coupon has no flags.
 func (s *Store) VoidCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Change) (Coupon, error) {
-	if _, err := s.void(ctx, a, coupons, id, ch); err != nil {
+	m := s.nextRevision(a, id, ch, true)
+	if err := s.write(ctx, "void coupon "+id.String(),
+		coupons.baseIs(ctx, a.Site, id, ch),
+		coupons.voidLatest(ctx, m),
+		logged(ctx, coupons, m, actionVoid),
+		couponFlags(ctx, m),
+	); err != nil {
 		return Coupon{}, err
 	}
 	return s.Coupon(ctx, a.Site, id, 0)

@@ -44,21 +44,50 @@ func (d MeasurementData) checkCoupon(ctx context.Context, site string) func(pgx.
 	return func(tx pgx.Tx) error { return exists(ctx, tx, coupons, site, d.CouponID, "coupon_id") }
 }
 
-// CreateMeasurement stores revision 1 of a new measurement on an existing coupon.
+// CreateMeasurement stores revision 1 of a new measurement on an existing
+// coupon and rewrites the coupon's flags.
 func (s *Store) CreateMeasurement(ctx context.Context, a Actor, d MeasurementData) (Measurement, error) {
-	m, err := s.create(ctx, a, measurements, d.checkCoupon(ctx, a.Site), d.values())
-	return Measurement{m, d}, err
+	m, err := s.newRecord(a)
+	if err != nil {
+		return Measurement{}, err
+	}
+	if err := s.write(ctx, "create measurement",
+		d.checkCoupon(ctx, a.Site),
+		measurements.writeRevision(ctx, m, d.values()),
+		logged(ctx, measurements, m, actionCreate),
+		measuredCouponFlags(ctx, m),
+	); err != nil {
+		return Measurement{}, err
+	}
+	return Measurement{m, d}, nil
 }
 
-// CorrectMeasurement stores the next revision of a measurement.
+// CorrectMeasurement stores the next revision of a measurement and rewrites
+// the coupon's flags.
 func (s *Store) CorrectMeasurement(ctx context.Context, a Actor, id uuid.UUID, ch Change, d MeasurementData) (Measurement, error) {
-	m, err := s.correct(ctx, a, measurements, id, ch, d.checkCoupon(ctx, a.Site), d.values())
-	return Measurement{m, d}, err
+	m := s.nextRevision(a, id, ch, false)
+	if err := s.write(ctx, "correct measurement "+id.String(),
+		measurements.baseIs(ctx, a.Site, id, ch),
+		d.checkCoupon(ctx, a.Site),
+		measurements.writeRevision(ctx, m, d.values()),
+		logged(ctx, measurements, m, actionCorrect),
+		measuredCouponFlags(ctx, m),
+	); err != nil {
+		return Measurement{}, err
+	}
+	return Measurement{m, d}, nil
 }
 
-// VoidMeasurement voids a measurement with a reason.
+// VoidMeasurement voids a measurement with a reason and rewrites the
+// coupon's flags without it.
 func (s *Store) VoidMeasurement(ctx context.Context, a Actor, id uuid.UUID, ch Change) (Measurement, error) {
-	if _, err := s.void(ctx, a, measurements, id, ch); err != nil {
+	m := s.nextRevision(a, id, ch, true)
+	if err := s.write(ctx, "void measurement "+id.String(),
+		measurements.baseIs(ctx, a.Site, id, ch),
+		measurements.voidLatest(ctx, m),
+		logged(ctx, measurements, m, actionVoid),
+		measuredCouponFlags(ctx, m),
+	); err != nil {
 		return Measurement{}, err
 	}
 	return s.Measurement(ctx, a.Site, id, 0)

@@ -67,34 +67,66 @@ func (p ProcedureData) checkSupport(ctx context.Context, site string) func(pgx.T
 	}
 }
 
-// CreateProcedure stores revision 1 of a new procedure.
+// CreateProcedure stores revision 1 of a new procedure. A new procedure has
+// no coupons or production records yet, so there are no flags to compute.
 func (s *Store) CreateProcedure(ctx context.Context, a Actor, p ProcedureData) (Procedure, error) {
 	p.SupportingRecordIDs = p.supportingIDs()
-	m, err := s.create(ctx, a, procedures, p.checkSupport(ctx, a.Site), p.values())
-	return Procedure{m, p}, err
+	m, err := s.newRecord(a)
+	if err != nil {
+		return Procedure{}, err
+	}
+	if err := s.write(ctx, "create procedure",
+		p.checkSupport(ctx, a.Site),
+		procedures.writeRevision(ctx, m, p.values()),
+		logged(ctx, procedures, m, actionCreate),
+	); err != nil {
+		return Procedure{}, err
+	}
+	return Procedure{m, p}, nil
 }
 
-// CorrectProcedure stores the next revision of a procedure. The code is the
-// procedure's identity and cannot change; void it and create another instead.
+// CorrectProcedure stores the next revision of a procedure and re-evaluates
+// its flags. The code is the procedure's identity and cannot change; void it
+// and create another instead.
 func (s *Store) CorrectProcedure(ctx context.Context, a Actor, id uuid.UUID, ch Change, p ProcedureData) (Procedure, error) {
 	p.SupportingRecordIDs = p.supportingIDs()
-	check := func(tx pgx.Tx) error {
-		old, err := getRecord[Procedure](ctx, tx, procedures, a.Site, id, 0)
+	m := s.nextRevision(a, id, ch, false)
+	if err := s.write(ctx, "correct procedure "+id.String(),
+		procedures.baseIs(ctx, a.Site, id, ch),
+		p.checkCorrection(ctx, a.Site, id),
+		procedures.writeRevision(ctx, m, p.values()),
+		logged(ctx, procedures, m, actionCorrect),
+		procedureFlags(ctx, m),
+	); err != nil {
+		return Procedure{}, err
+	}
+	return Procedure{m, p}, nil
+}
+
+// checkCorrection verifies that a correction keeps the procedure's code and
+// that its supporting records exist.
+func (p ProcedureData) checkCorrection(ctx context.Context, site string, id uuid.UUID) func(pgx.Tx) error {
+	return func(tx pgx.Tx) error {
+		old, err := getRecord[Procedure](ctx, tx, procedures, site, id, 0)
 		if err != nil {
 			return err
 		}
 		if old.Code != p.Code {
 			return &FieldError{Field: "code", Reason: fmt.Sprintf("the code %q cannot change; void this procedure and create a new one", old.Code)}
 		}
-		return p.checkSupport(ctx, a.Site)(tx)
+		return p.checkSupport(ctx, site)(tx)
 	}
-	m, err := s.correct(ctx, a, procedures, id, ch, check, p.values())
-	return Procedure{m, p}, err
 }
 
-// VoidProcedure voids a procedure with a reason.
+// VoidProcedure voids a procedure with a reason and removes its flags.
 func (s *Store) VoidProcedure(ctx context.Context, a Actor, id uuid.UUID, ch Change) (Procedure, error) {
-	if _, err := s.void(ctx, a, procedures, id, ch); err != nil {
+	m := s.nextRevision(a, id, ch, true)
+	if err := s.write(ctx, "void procedure "+id.String(),
+		procedures.baseIs(ctx, a.Site, id, ch),
+		procedures.voidLatest(ctx, m),
+		logged(ctx, procedures, m, actionVoid),
+		dropProcedureFlags(ctx, m),
+	); err != nil {
 		return Procedure{}, err
 	}
 	return s.Procedure(ctx, a.Site, id, 0)

@@ -60,21 +60,46 @@ func (q QualificationRecordData) values() []any {
 		q.TensileStrengthMPa, q.Outcome, q.Remarks}
 }
 
+// No flag derives from a PQR directly: its values reach flags only through
+// ranges derived from it (DeriveRanges), so PQR writes have no flag step.
+
 // CreateQualificationRecord stores revision 1 of a new PQR.
 func (s *Store) CreateQualificationRecord(ctx context.Context, a Actor, q QualificationRecordData) (QualificationRecord, error) {
-	m, err := s.create(ctx, a, qualificationRecords, nil, q.values())
-	return QualificationRecord{m, q}, err
+	m, err := s.newRecord(a)
+	if err != nil {
+		return QualificationRecord{}, err
+	}
+	if err := s.write(ctx, "create qualification_record",
+		noCheck,
+		qualificationRecords.writeRevision(ctx, m, q.values()),
+		logged(ctx, qualificationRecords, m, actionCreate),
+	); err != nil {
+		return QualificationRecord{}, err
+	}
+	return QualificationRecord{m, q}, nil
 }
 
 // CorrectQualificationRecord stores the next revision of a PQR.
 func (s *Store) CorrectQualificationRecord(ctx context.Context, a Actor, id uuid.UUID, ch Change, q QualificationRecordData) (QualificationRecord, error) {
-	m, err := s.correct(ctx, a, qualificationRecords, id, ch, nil, q.values())
-	return QualificationRecord{m, q}, err
+	m := s.nextRevision(a, id, ch, false)
+	if err := s.write(ctx, "correct qualification_record "+id.String(),
+		qualificationRecords.baseIs(ctx, a.Site, id, ch),
+		qualificationRecords.writeRevision(ctx, m, q.values()),
+		logged(ctx, qualificationRecords, m, actionCorrect),
+	); err != nil {
+		return QualificationRecord{}, err
+	}
+	return QualificationRecord{m, q}, nil
 }
 
 // VoidQualificationRecord voids a PQR with a reason.
 func (s *Store) VoidQualificationRecord(ctx context.Context, a Actor, id uuid.UUID, ch Change) (QualificationRecord, error) {
-	if _, err := s.void(ctx, a, qualificationRecords, id, ch); err != nil {
+	m := s.nextRevision(a, id, ch, true)
+	if err := s.write(ctx, "void qualification_record "+id.String(),
+		qualificationRecords.baseIs(ctx, a.Site, id, ch),
+		qualificationRecords.voidLatest(ctx, m),
+		logged(ctx, qualificationRecords, m, actionVoid),
+	); err != nil {
 		return QualificationRecord{}, err
 	}
 	return s.QualificationRecord(ctx, a.Site, id, 0)
