@@ -15,6 +15,7 @@ import (
 	"etchlog/api"
 	"etchlog/db"
 	"etchlog/db/dbtest"
+	"etchlog/openapi/spectest"
 )
 
 // testEnv is the whole API over the package's test database, with one user
@@ -100,7 +101,8 @@ type reply struct {
 
 // do sends a request as the user holding role ("" sends no token). body is
 // nil (no body), a string or []byte (sent as is) or any value (sent as JSON).
-// Any 5xx answer fails the test: bad input must never cause one.
+// Any 5xx answer fails the test: bad input must never cause one. Every
+// answer is checked against openapi/openapi.yaml; a mismatch fails the test.
 func (e *testEnv) do(method, path, role string, body any) reply {
 	e.t.Helper()
 	auth := ""
@@ -147,6 +149,9 @@ func (e *testEnv) doAuth(method, path, auth string, body any) reply {
 		e.t.Fatalf("%s %s: read body: %v", method, path, err)
 	}
 	r := reply{status: res.StatusCode, header: res.Header, body: b}
+	if err := spectest.Default.Check(req, r.status, r.header, b); err != nil {
+		e.t.Errorf("answer does not match the spec: %v (body %.300s)", err, b)
+	}
 	if r.status >= 500 {
 		e.t.Errorf("%s %s = %d %s, want no server error", method, path, r.status, b)
 	}

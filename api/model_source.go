@@ -47,9 +47,9 @@ func (l lesnewichIn) lesnewich() predict.Lesnewich {
 // groupFields are the optional calibration-group fields of a request; with
 // them the group's active calibrations are used.
 type groupFields struct {
-	Process      *string `json:"process" validate:"omitempty,oneof=GMAW FCAW GTAW SMAW SAW"`
+	Process      *string `json:"process" validate:"omitempty,enum"`
 	ShieldingGas *string `json:"shielding_gas" validate:"omitempty,max=64"`
-	JointType    *string `json:"joint_type" validate:"omitempty,oneof=bead_on_plate butt fillet lap corner edge"`
+	JointType    *string `json:"joint_type" validate:"omitempty,enum"`
 }
 
 // metricInput is a request body that converts into metric values Q.

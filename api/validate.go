@@ -18,6 +18,7 @@ import (
 	"github.com/labstack/echo/v4"
 
 	"etchlog/db"
+	"etchlog/predict"
 )
 
 // The OpenAPI document marks record ids with format uuid; kin-openapi leaves
@@ -41,7 +42,7 @@ func newValidator() *validator.Validate {
 		return name
 	})
 	// plausible_day: a weld date from 1900-01-01 to one day after today (UTC).
-	_ = v.RegisterValidation("plausible_day", func(fl validator.FieldLevel) bool {
+	mustRegister(v, "plausible_day", func(fl validator.FieldLevel) bool {
 		switch t := fl.Field().Interface().(type) {
 		case db.Date:
 			return t.IsZero() || db.PlausibleDay(t.Time, time.Now())
@@ -50,7 +51,36 @@ func newValidator() *validator.Validate {
 		}
 		return false
 	})
+	// quantity and enum take a field's bounds and allowed words from the
+	// registry (predict/quantity_table.go), found by the field's JSON name.
+	mustRegister(v, "quantity", func(fl validator.FieldLevel) bool {
+		q, ok := predict.LookupQuantity(fl.FieldName())
+		f, isNum := number(fl.Field())
+		return ok && isNum && q.Inside(f)
+	})
+	mustRegister(v, "enum", func(fl validator.FieldLevel) bool {
+		e, ok := predict.LookupEnum(fl.FieldName())
+		return ok && fl.Field().Kind() == reflect.String && e.Allows(fl.Field().String())
+	})
 	return v
+}
+
+func mustRegister(v *validator.Validate, tag string, fn validator.Func) {
+	if err := v.RegisterValidation(tag, fn); err != nil {
+		panic(err)
+	}
+}
+
+// number returns the value of a numeric field (through a pointer).
+func number(f reflect.Value) (float64, bool) {
+	f = reflect.Indirect(f)
+	switch f.Kind() {
+	case reflect.Float32, reflect.Float64:
+		return f.Float(), true
+	case reflect.Int, reflect.Int32, reflect.Int64:
+		return float64(f.Int()), true
+	}
+	return 0, false
 }
 
 // check validates v and turns each failed rule into a field issue: 422 for
@@ -133,6 +163,19 @@ func ruleReason(fe validator.FieldError, name func(string) string) string {
 			got = t.Format(time.RFC3339)
 		}
 		return fmt.Sprintf("must fall between %s and %s, one day after today (UTC) (got %s)", db.EarliestDay, db.LatestDay(time.Now()), got)
+	case "quantity":
+		q, ok := predict.LookupQuantity(fe.Field())
+		v, isNum := number(reflect.ValueOf(fe.Value()))
+		if !ok || !isNum {
+			return "is not a registered quantity"
+		}
+		return q.Refusal(v)
+	case "enum":
+		e, ok := predict.LookupEnum(fe.Field())
+		if !ok {
+			return "is not a registered enumeration"
+		}
+		return fmt.Sprintf("must be one of: %s (got %v)", strings.Join(e.Values, " "), fe.Value())
 	case "gtefield":
 		return "must not be less than " + name(fe.Param())
 	}

@@ -17,20 +17,20 @@ type CouponData struct {
 	PowerSourceID         string     `db:"power_source_id" json:"power_source_id" validate:"max=64"`
 	FillerLot             string     `db:"filler_lot" json:"filler_lot" validate:"max=64"`
 	WeldedOn              Date       `db:"welded_on" json:"welded_on" validate:"required,plausible_day"`
-	JointType             string     `db:"joint_type" json:"joint_type" validate:"required,oneof=bead_on_plate butt fillet lap corner edge"`
-	ThicknessMM           float64    `db:"thickness_mm" json:"thickness_mm" validate:"required,gte=0.5,lte=300"`
-	PassNumber            int        `db:"pass_number" json:"pass_number" validate:"required,gte=1,lte=500"`
-	CurrentA              float64    `db:"current_a" json:"current_a" validate:"required,gte=10,lte=1000"`
-	VoltageV              float64    `db:"voltage_v" json:"voltage_v" validate:"required,gte=5,lte=60"`
-	TravelSpeedMMPerS     float64    `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
-	WireFeedSpeedMPerMin  *float64   `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min,omitempty" validate:"omitempty,gte=0.5,lte=30"`
-	CTWDMM                *float64   `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,gte=3,lte=50"`
-	WireDiameterMM        float64    `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,gte=0.6,lte=4"`
+	JointType             string     `db:"joint_type" json:"joint_type" validate:"required,enum"`
+	ThicknessMM           float64    `db:"thickness_mm" json:"thickness_mm" validate:"required,quantity"`
+	PassNumber            int        `db:"pass_number" json:"pass_number" validate:"required,quantity"`
+	CurrentA              float64    `db:"current_a" json:"current_a" validate:"required,quantity"`
+	VoltageV              float64    `db:"voltage_v" json:"voltage_v" validate:"required,quantity"`
+	TravelSpeedMMPerS     float64    `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,quantity"`
+	WireFeedSpeedMPerMin  *float64   `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min,omitempty" validate:"omitempty,quantity"`
+	CTWDMM                *float64   `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,quantity"`
+	WireDiameterMM        float64    `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,quantity"`
 	ShieldingGas          string     `db:"shielding_gas" json:"shielding_gas" validate:"max=64"`
-	Polarity              string     `db:"polarity" json:"polarity" validate:"required,oneof=DCEP DCEN AC"`
+	Polarity              string     `db:"polarity" json:"polarity" validate:"required,enum"`
 	Position              string     `db:"position" json:"position" validate:"required,max=8"`
-	PreheatC              *float64   `db:"preheat_c" json:"preheat_c,omitempty" validate:"omitempty,gte=-20,lte=350"`
-	InterpassC            *float64   `db:"interpass_c" json:"interpass_c,omitempty" validate:"omitempty,gte=-20,lte=350"`
+	PreheatC              *float64   `db:"preheat_c" json:"preheat_c,omitempty" validate:"omitempty,quantity"`
+	InterpassC            *float64   `db:"interpass_c" json:"interpass_c,omitempty" validate:"omitempty,quantity"`
 }
 
 // Coupon is one stored revision of a coupon.

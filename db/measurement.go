@@ -12,14 +12,14 @@ import (
 type MeasurementData struct {
 	CouponID        uuid.UUID `db:"coupon_id" json:"coupon_id"`
 	Section         string    `db:"section" json:"section" validate:"required,max=32"`
-	PenetrationMM   float64   `db:"penetration_mm" json:"penetration_mm" validate:"gte=0,lte=50"`
-	BeadWidthMM     float64   `db:"bead_width_mm" json:"bead_width_mm" validate:"required,gt=0,lte=100"`
-	ReinforcementMM float64   `db:"reinforcement_mm" json:"reinforcement_mm" validate:"gte=-10,lte=30"`
-	Leg1MM          *float64  `db:"leg1_mm" json:"leg1_mm,omitempty" validate:"omitempty,gt=0,lte=100"`
-	Leg2MM          *float64  `db:"leg2_mm" json:"leg2_mm,omitempty" validate:"omitempty,gt=0,lte=100"`
-	ThroatMM        *float64  `db:"throat_mm" json:"throat_mm,omitempty" validate:"omitempty,gt=0,lte=100"`
-	FusedAreaMM2    *float64  `db:"fused_area_mm2" json:"fused_area_mm2,omitempty" validate:"omitempty,gt=0,lte=10000"`
-	Acceptance      string    `db:"acceptance" json:"acceptance" validate:"required,oneof=accept reject"`
+	PenetrationMM   float64   `db:"penetration_mm" json:"penetration_mm" validate:"quantity"`
+	BeadWidthMM     float64   `db:"bead_width_mm" json:"bead_width_mm" validate:"required,quantity"`
+	ReinforcementMM float64   `db:"reinforcement_mm" json:"reinforcement_mm" validate:"quantity"`
+	Leg1MM          *float64  `db:"leg1_mm" json:"leg1_mm,omitempty" validate:"omitempty,quantity"`
+	Leg2MM          *float64  `db:"leg2_mm" json:"leg2_mm,omitempty" validate:"omitempty,quantity"`
+	ThroatMM        *float64  `db:"throat_mm" json:"throat_mm,omitempty" validate:"omitempty,quantity"`
+	FusedAreaMM2    *float64  `db:"fused_area_mm2" json:"fused_area_mm2,omitempty" validate:"omitempty,quantity"`
+	Acceptance      string    `db:"acceptance" json:"acceptance" validate:"required,enum"`
 	Inspector       string    `db:"inspector" json:"inspector" validate:"required,max=64"`
 	Remark          string    `db:"remark" json:"remark" validate:"max=2000"`
 }

@@ -20,11 +20,11 @@ type ProductionRecordData struct {
 	WeldID               string    `db:"weld_id" json:"weld_id" validate:"required,max=64"`
 	WelderID             string    `db:"welder_id" json:"welder_id" validate:"required,max=64"`
 	RecordedAt           time.Time `db:"recorded_at" json:"recorded_at" validate:"required,plausible_day"`
-	CurrentA             float64   `db:"current_a" json:"current_a" validate:"required,gte=10,lte=1000"`
-	VoltageV             float64   `db:"voltage_v" json:"voltage_v" validate:"required,gte=5,lte=60"`
-	TravelSpeedMMPerS    float64   `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
-	WireFeedSpeedMPerMin float64   `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min" validate:"required,gte=0.5,lte=30"`
-	CTWDMM               *float64  `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,gte=3,lte=50"`
+	CurrentA             float64   `db:"current_a" json:"current_a" validate:"required,quantity"`
+	VoltageV             float64   `db:"voltage_v" json:"voltage_v" validate:"required,quantity"`
+	TravelSpeedMMPerS    float64   `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,quantity"`
+	WireFeedSpeedMPerMin float64   `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min" validate:"required,quantity"`
+	CTWDMM               *float64  `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,quantity"`
 }
 
 // ProductionRecord is one stored production record with its current flags.

@@ -56,20 +56,29 @@ type MeltingSample struct {
 	MeltingRateKgPerH float64 `json:"melting_rate_kg_per_h"`
 }
 
-// calBound is a plausible range for a recorded quantity (domain primer
-// bounds: outside them the value is a typing error, not a weld).
+// calBound is a plausible range for a recorded quantity, taken from the
+// quantity registry (quantity_table.go): outside it the value is a typing
+// error, not a weld.
 type calBound struct {
 	field  string
 	lo, hi float64
 }
 
+// registered is the calibration bound of the registry's quantity name.
+func registered(field, name string) calBound {
+	q := MustQuantity(name)
+	return calBound{field, q.Min, q.Max}
+}
+
 var (
-	calCurrent     = calBound{"current A", 10, 1000}
-	calVoltage     = calBound{"arc voltage V", 5, 60}
-	calTravel      = calBound{"travel speed mm/s", 0.5, 30}
-	calPenetration = calBound{"penetration mm", 0, 50}
-	calExtension   = calBound{"electrode extension mm", 0, 50}
-	calMelting     = calBound{"melting rate kg/h", 0, math.Inf(1)}
+	calCurrent     = registered("current A", "current_a")
+	calVoltage     = registered("arc voltage V", "voltage_v")
+	calTravel      = registered("travel speed mm/s", "travel_speed_mm_s")
+	calPenetration = registered("penetration mm", "penetration_mm")
+	calExtension   = registered("electrode extension mm", "extension_mm")
+	// A melting rate is derived from wire feed speed and diameter, not typed,
+	// so it has no upper plausible bound.
+	calMelting = calBound{"melting rate kg/h", 0, math.Inf(1)}
 )
 
 // check returns an *InputError for sample id unless v > 0 and lo ≤ v ≤ hi.

@@ -19,6 +19,7 @@ import (
 	"etchlog/db"
 	"etchlog/db/dbtest"
 	"etchlog/openapi"
+	"etchlog/openapi/spectest"
 )
 
 func TestMain(m *testing.M) { dbtest.Main(m) }
@@ -103,7 +104,8 @@ func (r *running) stop(t *testing.T) error {
 	}
 }
 
-// get fetches base+path with an optional bearer token and returns status, Content-Type and body.
+// get fetches base+path with an optional bearer token and returns status,
+// Content-Type and body; an answer that does not match openapi.yaml fails the test.
 func get(t *testing.T, base, path, token string) (int, string, []byte) {
 	t.Helper()
 	req, _ := http.NewRequest(http.MethodGet, base+path, nil)
@@ -116,6 +118,9 @@ func get(t *testing.T, base, path, token string) (int, string, []byte) {
 	}
 	defer res.Body.Close()
 	b, _ := io.ReadAll(res.Body)
+	if err := spectest.Default.Check(req, res.StatusCode, res.Header, b); err != nil {
+		t.Errorf("answer does not match the spec: %v", err)
+	}
 	return res.StatusCode, res.Header.Get("Content-Type"), b
 }
 
@@ -195,7 +200,7 @@ func TestServe(t *testing.T) {
 	req = req.WithContext(httptrace.WithClientTrace(context.Background(), &httptrace.ClientTrace{WroteHeaders: func() { close(wrote) }}))
 	answer := make(chan int, 1)
 	go func() {
-		res, err := (&http.Client{Transport: &http.Transport{DisableKeepAlives: true}}).Do(req)
+		res, err := (&http.Client{Transport: &spectest.Transport{Base: &http.Transport{DisableKeepAlives: true}, Checker: spectest.Default, Fail: t.Errorf}}).Do(req)
 		if err != nil {
 			t.Errorf("in-flight POST: %v", err)
 			answer <- 0

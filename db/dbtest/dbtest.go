@@ -93,8 +93,9 @@ func Site(tb testing.TB) string {
 	return tb.Name() + "-" + hex.EncodeToString(b)
 }
 
-// Main runs the package's tests and then drops the test database.
-func Main(m *testing.M) {
+// Main runs the package's tests (a *testing.M, or a wrapper around one) and
+// then drops the test database.
+func Main(m interface{ Run() int }) {
 	code := m.Run()
 	if store != nil {
 		store.Close()
