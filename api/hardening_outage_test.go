@@ -19,6 +19,7 @@ import (
 	"etchlog/api"
 	"etchlog/db"
 	"etchlog/db/dbtest"
+	"etchlog/openapi/spectest"
 )
 
 // lockedBuffer is a log sink safe for concurrent writers.
@@ -87,8 +88,13 @@ func (e *testEnv) send(method, path, role string, body any) (int, http.Header, [
 	}
 	defer res.Body.Close()
 	var b bytes.Buffer
-	_, err = b.ReadFrom(res.Body)
-	return res.StatusCode, res.Header, b.Bytes(), err
+	if _, err = b.ReadFrom(res.Body); err != nil {
+		return 0, nil, nil, err
+	}
+	if err := spectest.Default.Check(req, res.StatusCode, res.Header, b.Bytes()); err != nil {
+		e.t.Errorf("answer does not match the spec: %v (body %.300s)", err, b.Bytes())
+	}
+	return res.StatusCode, res.Header, b.Bytes(), nil
 }
 
 // TestDatabaseOutage cuts the server off its database while eight writers
