@@ -47,11 +47,20 @@ func freshEnv(t *testing.T) (*testEnv, string, *pgx.Conn, *lockedBuffer) {
 	t.Helper()
 	url, name, admin := dbtest.Fresh(t)
 	ctx := context.Background()
-	store, err := db.Open(ctx, url)
+	appURL, err := db.AppURL(url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	store, err := db.Open(ctx, appURL)
 	if err != nil {
 		t.Fatal(err)
 	}
 	t.Cleanup(store.Close)
+	owner, err := db.OpenOwner(ctx, url)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(owner.Close)
 	logs := &lockedBuffer{}
 	srv, err := api.New(store, api.Options{Logger: slog.New(slog.NewJSONHandler(logs, nil))})
 	if err != nil {
@@ -62,7 +71,7 @@ func freshEnv(t *testing.T) (*testEnv, string, *pgx.Conn, *lockedBuffer) {
 	e := &testEnv{t: t, srv: srv, url: ts.URL, store: store, site: "outage", tokens: map[string]string{}, cache: map[string]string{}}
 	for _, role := range []string{db.RoleTechnician, db.RoleEngineer, db.RoleAuditor} {
 		tok, _ := db.NewToken()
-		if err := store.PutUser(ctx, db.User{Site: e.site, Name: userName(role), Role: role}, tok); err != nil {
+		if err := owner.PutUser(ctx, db.User{Site: e.site, Name: userName(role), Role: role}, tok); err != nil {
 			t.Fatal(err)
 		}
 		e.tokens[role] = tok

@@ -52,7 +52,7 @@ func newEnv(tb testing.TB) *testEnv {
 		if err != nil {
 			tb.Fatal(err)
 		}
-		if err := store.PutUser(context.Background(), db.User{Site: e.site, Name: userName(role), Role: role}, tok); err != nil {
+		if err := dbtest.Owner(tb).PutUser(context.Background(), db.User{Site: e.site, Name: userName(role), Role: role}, tok); err != nil {
 			tb.Fatalf("PutUser(%s): %v", role, err)
 		}
 		e.tokens[role] = tok

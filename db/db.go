@@ -47,14 +47,25 @@ type Store struct {
 	now  func() time.Time
 }
 
-// Open connects to the database at url and checks that it answers.
+// Open connects the service to the database at url and checks that it
+// answers. It refuses a login that is a superuser or can act as the tables'
+// owner (ErrPrivilegedLogin): the service connects as AppRole.
 func Open(ctx context.Context, url string) (*Store, error) {
+	return open(ctx, url, "", true)
+}
+
+// open connects, optionally becoming role for the session, and refuses a
+// privileged login when unprivileged is set.
+func open(ctx context.Context, url, role string, unprivileged bool) (*Store, error) {
 	cfg, err := pgxpool.ParseConfig(url)
 	if err != nil {
 		return nil, fmt.Errorf("db: parse url: %w", err)
 	}
 	// Audit payloads render timestamps as text; a fixed zone keeps them comparable.
 	cfg.ConnConfig.RuntimeParams["timezone"] = "UTC"
+	if role != "" {
+		cfg.ConnConfig.RuntimeParams["role"] = role
+	}
 	pool, err := pgxpool.NewWithConfig(ctx, cfg)
 	if err != nil {
 		return nil, fmt.Errorf("db: connect: %w", err)
@@ -62,6 +73,16 @@ func Open(ctx context.Context, url string) (*Store, error) {
 	if err := pool.Ping(ctx); err != nil {
 		pool.Close()
 		return nil, fmt.Errorf("db: ping: %w", err)
+	}
+	if unprivileged {
+		p, err := privileged(ctx, pool)
+		if err == nil && p {
+			err = fmt.Errorf("%w: connect as %s (login %s)", ErrPrivilegedLogin, AppRole, cfg.ConnConfig.User)
+		}
+		if err != nil {
+			pool.Close()
+			return nil, fmt.Errorf("db: open: %w", err)
+		}
 	}
 	return &Store{pool: pool, now: func() time.Time { return time.Now().UTC().Truncate(time.Microsecond) }}, nil
 }

@@ -161,7 +161,7 @@ func TestServe(t *testing.T) {
 	ctx, cancel := context.WithCancel(context.Background())
 	defer cancel()
 	token, _ := db.NewToken()
-	if err := store.PutUser(ctx, db.User{Site: site, Name: "tech", Role: db.RoleTechnician}, token); err != nil {
+	if err := dbtest.Owner(t).PutUser(ctx, db.User{Site: site, Name: "tech", Role: db.RoleTechnician}, token); err != nil {
 		t.Fatal(err)
 	}
 	proc, err := store.CreateProcedure(ctx, db.Actor{Site: site, Name: "eng", Role: db.RoleEngineer}, db.ProcedureData{

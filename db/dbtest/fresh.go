@@ -17,7 +17,8 @@ import (
 // Fresh creates and migrates a database of the calling test's own, for tests
 // that stop or block the database (outages, crashes) and so cannot share the
 // package's. It returns its URL and an admin connection to the server, and
-// drops the database when the test ends.
+// drops the database when the test ends. dbURL is the superuser's; the
+// service logs in with db.AppURL(dbURL).
 func Fresh(tb testing.TB) (dbURL, name string, admin *pgx.Conn) {
 	tb.Helper()
 	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
@@ -44,7 +45,7 @@ func Fresh(tb testing.TB) (dbURL, name string, admin *pgx.Conn) {
 	})
 	u, _ := url.Parse(serverURL())
 	u.Path = "/" + name
-	if err := db.Migrate(u.String(), "up"); err != nil {
+	if err := db.Setup(ctx, u.String()); err != nil {
 		tb.Fatalf("dbtest: migrate %s: %v", name, err)
 	}
 	return u.String(), name, admin

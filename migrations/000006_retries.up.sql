@@ -20,3 +20,7 @@ CREATE INDEX idempotency_keys_created ON idempotency_keys (created_at);
 
 -- A production weld is logged once per procedure; a repeat names the earlier record.
 CREATE UNIQUE INDEX production_records_weld_key ON production_records (site, procedure_id, weld_id);
+
+-- The service records a key, then its answer, and forgets keys past 24 hours:
+-- bookkeeping it may rewrite, unlike a record.
+GRANT UPDATE, DELETE ON idempotency_keys TO etchlog_app;
