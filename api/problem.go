@@ -29,7 +29,7 @@ type Problem struct {
 	Errors    []FieldIssue `json:"errors,omitempty"`
 	// ErrorsOmitted counts refused fields beyond the first maxIssues listed.
 	ErrorsOmitted int `json:"errors_omitted,omitempty"`
-	// ExistingID names the stored record a conflicting write collided with.
+	// ExistingID names the stored record a duplicate collides with.
 	ExistingID string `json:"existing_id,omitempty"`
 }
 
@@ -100,6 +100,7 @@ func problemFor(err error) Problem {
 	var pe *predict.InputError
 	var he *echo.HTTPError
 	var re *openapi3filter.RequestError
+	var dup *db.DuplicateError
 	switch {
 	case errors.As(err, &inv):
 		title := "The request is malformed"
@@ -123,16 +124,13 @@ func problemFor(err error) Problem {
 	case errors.Is(err, predict.ErrTooFewSamples), errors.Is(err, predict.ErrDegenerate):
 		return Problem{Type: "urn:etchlog:problem:fit-refused", Title: "The selected coupons cannot support this fit",
 			Status: http.StatusUnprocessableEntity, Detail: err.Error(), Errors: []FieldIssue{{"coupons", fitRefusal(err)}}}
+	case errors.As(err, &dup):
+		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict,
+			Detail: dup.Error(), Errors: []FieldIssue{{dup.Field, dup.Reason}}, ExistingID: dup.ExistingID.String()}
 	case errors.Is(err, db.ErrNotFound):
 		return Problem{Type: "urn:etchlog:problem:not-found", Title: "No such record", Status: http.StatusNotFound, Detail: err.Error()}
 	case errors.Is(err, db.ErrConflict):
-		p := Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict, Detail: err.Error()}
-		var dup *db.DuplicateError
-		if errors.As(err, &dup) {
-			p.ExistingID = dup.ExistingID.String()
-			p.Errors = []FieldIssue{{dup.Field, dup.Reason()}}
-		}
-		return p
+		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict, Detail: err.Error()}
 	case db.Unavailable(err):
 		return Problem{Type: "urn:etchlog:problem:unavailable", Title: "The database is out of reach", Status: http.StatusServiceUnavailable,
 			Detail: "the record store did not answer; retry later (a retried write is safe under the same Idempotency-Key)"}

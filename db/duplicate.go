@@ -9,27 +9,6 @@ import (
 	"github.com/jackc/pgx/v5"
 )
 
-// DuplicateError is a create refused because a stored record already holds
-// the same key (a coupon mark at the site, a weld id within a procedure). It
-// names that record, so a client retrying a write it thinks was lost can find it.
-type DuplicateError struct {
-	Entity     string    // the stored record's kind, e.g. "coupon"
-	Field      string    // the request field holding the key, e.g. "coupon_mark"
-	Value      string    // the key
-	ExistingID uuid.UUID // the stored record holding it
-}
-
-// Error says which record already holds the key.
-func (e *DuplicateError) Error() string { return ErrConflict.Error() + ": " + e.Reason() }
-
-// Reason is the refusal in words, for the field issue.
-func (e *DuplicateError) Reason() string {
-	return fmt.Sprintf("%q is already held by %s %s", e.Value, e.Entity, e.ExistingID)
-}
-
-// Is lets errors.Is(err, ErrConflict) match a DuplicateError.
-func (e *DuplicateError) Is(target error) bool { return target == ErrConflict }
-
 // couponByMark returns the id of the coupon created with mark at the site.
 func couponByMark(ctx context.Context, q querier, site, mark string) (uuid.UUID, error) {
 	var id uuid.UUID
@@ -50,7 +29,8 @@ func (s *Store) duplicateMark(ctx context.Context, site, mark string, err error)
 	if lerr != nil {
 		return err
 	}
-	return fmt.Errorf("db: create coupon: %w", &DuplicateError{Entity: "coupon", Field: "coupon_mark", Value: mark, ExistingID: id})
+	return fmt.Errorf("db: create coupon: %w", &DuplicateError{Field: "coupon_mark", ExistingID: id,
+		Reason: fmt.Sprintf("coupon %s already has the mark %q; a retried create finds it with GET /v1/coupons?coupon_mark=", id, mark)})
 }
 
 // earlierWeld finds a stored production record of the same procedure with
@@ -76,5 +56,6 @@ func earlierWeld(ctx context.Context, q querier, site string, recs []ProductionR
 
 // duplicateWeld is the refusal of a batch whose row i repeats a stored weld id.
 func duplicateWeld(recs []ProductionRecordData, i int, id uuid.UUID) error {
-	return &DuplicateError{Entity: "production record", Field: fmt.Sprintf("records[%d].weld_id", i), Value: recs[i].WeldID, ExistingID: id}
+	return &DuplicateError{Field: fmt.Sprintf("records[%d].weld_id", i), ExistingID: id,
+		Reason: fmt.Sprintf("weld %q of this procedure is already logged as production record %s", recs[i].WeldID, id)}
 }
