@@ -4,8 +4,11 @@ import (
 	"encoding/base64"
 	"io"
 	"net/http"
+	"slices"
+	"strconv"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/google/uuid"
 )
@@ -184,5 +187,74 @@ func TestConventionCreated(t *testing.T) {
 	r := e.do(http.MethodPost, "/v1/calibrations/"+cal.ID+"/activate", "engineer", map[string]any{"reason": "convention"})
 	if r.status != http.StatusCreated || r.header.Get("Location") != "/v1/calibrations/"+cal.ID {
 		t.Errorf("activate = %d, Location %q: want 201 and the calibration's path", r.status, r.header.Get("Location"))
+	}
+}
+
+// TestConventionTimeFilters: every date or time filter is half-open
+// [from, to) and takes a day (YYYY-MM-DD, its midnight UTC) or an RFC 3339 time.
+func TestConventionTimeFilters(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	proc := e.rangedProcedure()
+	coupons, pqrs := map[string]string{}, map[string]string{}
+	for _, day := range []string{"2026-11-03", "2026-11-04", "2026-11-05"} {
+		b := couponBody(proc, "", uniq("C-DAY"))
+		b["welded_on"] = day
+		coupons[e.create("/v1/coupons", "technician", b)["id"].(string)] = day
+		q := qualificationRecordBody(uniq("PQR-DAY"))
+		q["welded_on"] = day
+		pqrs[e.create("/v1/qualification-records", "engineer", q)["id"].(string)] = day
+	}
+	// 320 A is above the derived current range: the record carries one flag at its recorded_at.
+	e.create("/v1/production-records", "technician", map[string]any{"records": []any{productionBody(proc, "TF-1", 320)}})
+	today := time.Now().UTC().Format(time.DateOnly)
+	tomorrow := time.Now().UTC().AddDate(0, 0, 1).Format(time.DateOnly)
+	for _, c := range []struct {
+		name, list string
+		kv         []string
+		want       []string // days of the fixture records listed, or the count of other items as "n=…"
+	}{
+		{"WeldedDays", "/v1/coupons", []string{"welded_from", "2026-11-04", "welded_to", "2026-11-05"}, []string{"2026-11-04"}},
+		{"WeldedToTime", "/v1/coupons", []string{"welded_from", "2026-11-03", "welded_to", "2026-11-04T12:00:00Z"}, []string{"2026-11-03", "2026-11-04"}},
+		{"WeldedToMidnight", "/v1/coupons", []string{"welded_to", "2026-11-04T00:00:00Z"}, []string{"2026-11-03"}},
+		{"WeldedFromOffset", "/v1/coupons", []string{"welded_from", "2026-11-05T00:30:00+02:00"}, []string{"2026-11-05"}},
+		{"PQRDays", "/v1/qualification-records", []string{"welded_from", "2026-11-04", "welded_to", "2026-11-05"}, []string{"2026-11-04"}},
+		{"AuditDays", "/v1/audit/events", []string{"from", today, "to", tomorrow, "entity", "coupon"}, []string{"n=3"}},
+		{"AuditToToday", "/v1/audit/events", []string{"to", today}, []string{"n=0"}},
+		{"RecordedToExclusive", "/v1/production-records", []string{"recorded_from", "2026-11-20", "recorded_to", "2026-11-20T09:30:00Z"}, []string{"n=0"}},
+		{"RecordedFromInclusive", "/v1/production-records", []string{"recorded_from", "2026-11-20T09:30:00Z", "recorded_to", "2026-11-21"}, []string{"n=1"}},
+		{"FlagsToExclusive", "/v1/flags", []string{"subject_kind", "production_record", "from", "2026-11-20", "to", "2026-11-20T09:30:00Z"}, []string{"n=0"}},
+		{"FlagsFromInclusive", "/v1/flags", []string{"subject_kind", "production_record", "from", "2026-11-20T09:30:00Z", "to", "2026-11-21"}, []string{"n=1"}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			r := e.do(http.MethodGet, withQuery(c.list, c.kv...), "auditor", nil)
+			if r.status != http.StatusOK {
+				t.Fatalf("GET %s = %d %s", withQuery(c.list, c.kv...), r.status, r.body)
+			}
+			items := r.items(t)
+			var got []string
+			if strings.HasPrefix(c.want[0], "n=") {
+				got = []string{"n=" + strconv.Itoa(len(items))}
+			} else {
+				days := coupons
+				if c.list == "/v1/qualification-records" {
+					days = pqrs
+				}
+				for _, it := range items {
+					if d, ok := days[it["id"].(string)]; ok {
+						got = append(got, d)
+					}
+				}
+				slices.Sort(got)
+			}
+			if !slices.Equal(got, c.want) {
+				t.Errorf("GET %s: %v, want %v", withQuery(c.list, c.kv...), got, c.want)
+			}
+		})
+	}
+	for _, q := range []string{"/v1/coupons?welded_to=11/03/2026", "/v1/audit/events?from=yesterday", "/v1/flags?to=2026-13-01"} {
+		r := e.do(http.MethodGet, q, "auditor", nil)
+		field := strings.SplitN(strings.SplitN(q, "?", 2)[1], "=", 2)[0]
+		wantProblem(t, q, r, http.StatusBadRequest, field)
 	}
 }
