@@ -9,6 +9,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"github.com/google/uuid"
 	"time"
 
 	"github.com/jackc/pgx/v5/pgconn"
@@ -40,6 +41,22 @@ func (e *FieldError) Error() string { return e.Field + ": " + e.Reason }
 
 // Is lets errors.Is(err, ErrInvalid) match a FieldError.
 func (e *FieldError) Is(target error) bool { return target == ErrInvalid }
+
+// DuplicateError is a write refused because a record with the same key
+// exists; ExistingID names it so the caller can correct that one instead.
+type DuplicateError struct {
+	Field      string
+	ExistingID uuid.UUID
+	Reason     string
+}
+
+// Error names the field, the reason and the existing record.
+func (e *DuplicateError) Error() string {
+	return fmt.Sprintf("%s: %s (existing %s)", e.Field, e.Reason, e.ExistingID)
+}
+
+// Is lets errors.Is(err, ErrConflict) match a DuplicateError.
+func (e *DuplicateError) Is(target error) bool { return target == ErrConflict }
 
 // Store is the PostgreSQL-backed record store.
 type Store struct {
@@ -104,6 +121,12 @@ func mapError(err error) error {
 	}
 	switch pg.Code {
 	case "23505": // unique_violation
+		if pg.ConstraintName == "measurements_section_per_coupon" { // the trigger names the existing section
+			if id, err := uuid.Parse(pg.Detail); err == nil {
+				return &DuplicateError{Field: "section", ExistingID: id,
+					Reason: "this coupon already has a current section with this label; correct that one or choose another label"}
+			}
+		}
 		return fmt.Errorf("%w: %s", ErrConflict, pg.ConstraintName)
 	case "23514", "23502", "23503", "22007", "22008", "22P02": // check, not null, fk, bad date/time/text
 		field := pg.ColumnName
