@@ -67,6 +67,7 @@ func problemFor(err error) Problem {
 	var pe *predict.InputError
 	var he *echo.HTTPError
 	var re *openapi3filter.RequestError
+	var mt *db.MarkTakenError
 	switch {
 	case errors.As(err, &inv):
 		title := "The request is malformed"
@@ -92,6 +93,9 @@ func problemFor(err error) Problem {
 			Status: http.StatusUnprocessableEntity, Detail: err.Error(), Errors: []FieldIssue{{"coupons", fitRefusal(err)}}}
 	case errors.Is(err, db.ErrNotFound):
 		return Problem{Type: "urn:etchlog:problem:not-found", Title: "No such record", Status: http.StatusNotFound, Detail: err.Error()}
+	case errors.As(err, &mt):
+		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict,
+			Detail: mt.Error(), Errors: []FieldIssue{{mt.Field, mt.Error()}}}
 	case errors.Is(err, db.ErrConflict):
 		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict, Detail: err.Error()}
 	case errors.Is(err, db.ErrVoided):

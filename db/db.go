@@ -103,6 +103,8 @@ func mapError(err error) error {
 		return err
 	}
 	switch pg.Code {
+	case "40P01", "40001": // deadlock or serialization failure: two writes crossed; the client may retry
+		return fmt.Errorf("%w: a concurrent write got in the way; retry", ErrConflict)
 	case "23505": // unique_violation
 		return fmt.Errorf("%w: %s", ErrConflict, pg.ConstraintName)
 	case "23514", "23502", "23503", "22007", "22008", "22P02": // check, not null, fk, bad date/time/text

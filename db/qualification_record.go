@@ -70,7 +70,7 @@ func (s *Store) CreateQualificationRecord(ctx context.Context, a Actor, q Qualif
 		return QualificationRecord{}, err
 	}
 	if err := s.write(ctx, "create qualification_record",
-		noCheck,
+		claimMark(ctx, recordNumber, a.Site, m.ID, q.RecordNumber),
 		qualificationRecords.writeRevision(ctx, m, q.values()),
 		logged(ctx, qualificationRecords, m, actionCreate),
 	); err != nil {
@@ -84,6 +84,7 @@ func (s *Store) CorrectQualificationRecord(ctx context.Context, a Actor, id uuid
 	m := s.nextRevision(a, id, ch, false)
 	if err := s.write(ctx, "correct qualification_record "+id.String(),
 		qualificationRecords.baseIs(ctx, a.Site, id, ch),
+		claimMark(ctx, recordNumber, a.Site, m.ID, q.RecordNumber),
 		qualificationRecords.writeRevision(ctx, m, q.values()),
 		logged(ctx, qualificationRecords, m, actionCorrect),
 	); err != nil {
@@ -98,6 +99,7 @@ func (s *Store) VoidQualificationRecord(ctx context.Context, a Actor, id uuid.UU
 	if err := s.write(ctx, "void qualification_record "+id.String(),
 		qualificationRecords.baseIs(ctx, a.Site, id, ch),
 		qualificationRecords.voidLatest(ctx, m),
+		releaseMark(ctx, recordNumber, id),
 		logged(ctx, qualificationRecords, m, actionVoid),
 	); err != nil {
 		return QualificationRecord{}, err

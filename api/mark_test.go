@@ -1,0 +1,41 @@
+package api_test
+
+import (
+	"net/http"
+	"strings"
+	"testing"
+)
+
+// TestMarkConflict: correcting a coupon's mark or a PQR's number to one a
+// current record holds is a 409 problem naming the field, the mark and the
+// holder's id; once the holder moves on, the mark can be taken.
+func TestMarkConflict(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	for _, k := range []struct {
+		name, path, field string
+		body              func(mark string) map[string]any
+	}{
+		{"Coupon", "/v1/coupons", "coupon_mark", func(m string) map[string]any { return couponBody(e.procedure(), "", m) }},
+		{"QualificationRecord", "/v1/qualification-records", "record_number", qualificationRecordBody},
+	} {
+		t.Run(k.name, func(t *testing.T) {
+			markA, markB := uniq("M"), uniq("M")
+			a := e.create(k.path, "engineer", k.body(markA))
+			b := e.create(k.path, "engineer", k.body(markB))
+			fix := withRevision(k.body(markA), 1, "mark mistyped")
+			r := e.do(http.MethodPut, k.path+"/"+b["id"].(string), "engineer", fix)
+			p := wantProblem(t, "correction to a held mark", r, http.StatusConflict, k.field)
+			if !strings.Contains(p.Detail, markA) || !strings.Contains(p.Detail, a["id"].(string)) {
+				t.Errorf("409 detail %q: want the mark %s and the holder %s", p.Detail, markA, a["id"])
+			}
+			r = e.do(http.MethodPost, k.path+"/"+a["id"].(string)+"/void", "engineer", map[string]any{"base_revision": 1, "reason": "entered twice"})
+			if r.status != http.StatusOK {
+				t.Fatalf("void = %d %s", r.status, r.body)
+			}
+			if r = e.do(http.MethodPut, k.path+"/"+b["id"].(string), "engineer", fix); r.status != http.StatusOK {
+				t.Errorf("correction to a mark freed by a void = %d %s, want 200", r.status, r.body)
+			}
+		})
+	}
+}
