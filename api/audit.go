@@ -2,7 +2,6 @@ package api
 
 import (
 	"net/http"
-	"strconv"
 	"time"
 
 	"github.com/labstack/echo/v4"
@@ -16,11 +15,9 @@ func (s *Server) handleAuditEvents(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	var after int64
-	if a := c.QueryParam("cursor"); a != "" {
-		if after, err = strconv.ParseInt(a, 10, 64); err != nil || after < 0 {
-			return badRequest("cursor", "not a cursor returned by this list")
-		}
+	after, err := db.AfterSeq("audit_events", c.QueryParam("cursor"))
+	if err != nil {
+		return err
 	}
 	f := db.AuditFilter{Entity: c.QueryParam("entity"), Actor: c.QueryParam("actor")}
 	if f.EntityID, err = queryUUID(c, "entity_id"); err != nil {
@@ -47,7 +44,7 @@ func (s *Server) handleAuditEvents(c echo.Context) error {
 		page.Items = []db.AuditEvent{}
 	}
 	if len(ev) == limit {
-		page.Next = strconv.FormatInt(ev[len(ev)-1].Seq, 10)
+		page.Next = db.SeqCursor("audit_events", ev[len(ev)-1].Seq)
 	}
 	return c.JSON(http.StatusOK, page)
 }

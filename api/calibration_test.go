@@ -126,7 +126,7 @@ func TestActivationSwitchesCouponModel(t *testing.T) {
 	})
 	for _, cal := range []calibrationReply{all, early, all} {
 		act := decode[map[string]any](t, "activate", e.do(http.MethodPost, "/v1/calibrations/"+cal.ID+"/activate", "engineer",
-			map[string]any{"reason": "use the fixture fit"}), http.StatusOK)
+			map[string]any{"reason": "use the fixture fit"}), http.StatusCreated)
 		if act["calibration_id"] != cal.ID || act["activated_by"] != "test-engineer" {
 			t.Errorf("activation = %v, want calibration %s by test-engineer", act, cal.ID)
 		}

@@ -76,7 +76,7 @@ func (s *Server) handleCouponList(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	f := db.CouponFilter{WelderID: c.QueryParam("welder_id"), Acceptance: c.QueryParam("acceptance"),
+	f := db.CouponFilter{WelderID: c.QueryParam("welder_id"), CouponMark: c.QueryParam("coupon_mark"), Acceptance: c.QueryParam("acceptance"),
 		IncludeVoided: c.QueryParam("include_voided") == "true"}
 	if f.ProcedureID, err = queryUUID(c, "procedure_id"); err != nil {
 		return err

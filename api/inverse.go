@@ -104,7 +104,7 @@ func (s *Server) handleInverseDeposition(c echo.Context) error {
 		return err
 	}
 	if les == nil {
-		return unprocessable(FieldIssue{"lesnewich", "is required: give the coefficients, or the group of an active lesnewich calibration"})
+		return badRequest("lesnewich", "is required: give the coefficients, or the group of an active lesnewich calibration")
 	}
 	var i float64
 	if q.MeltingRateKgH != nil {

@@ -101,7 +101,7 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 		return err
 	}
 	if k == nil {
-		return unprocessable(FieldIssue{"jackson_k", "is required: give it, or the group of an active jackson_fixed calibration"})
+		return badRequest("jackson_k", "is required: give it, or the group of an active jackson_fixed calibration")
 	}
 	out := penetrationInverseOut{SolveFor: q.SolveFor, Notes: []string{}, Caution: predictionCaution}
 	if err := solveJackson(*k, q, &out); err != nil {

@@ -84,19 +84,19 @@ func (g groupFields) group(wireDiameterMM *float64) (*db.CalibrationGroup, error
 	if g.Process == nil && g.ShieldingGas == nil && g.JointType == nil {
 		return nil, nil
 	}
-	var issues []FieldIssue
+	var v issues // fields the group needs are required once any is given: left out is 400
 	why := "is required to look up the group's active calibration"
 	if g.Process == nil {
-		issues = append(issues, FieldIssue{"process", why})
+		v.missing("process", why)
 	}
 	if g.JointType == nil {
-		issues = append(issues, FieldIssue{"joint_type", why})
+		v.missing("joint_type", why)
 	}
 	if wireDiameterMM == nil {
-		issues = append(issues, FieldIssue{"wire_diameter_mm", why + " (or give wire_diameter_in)"})
+		v.missing("wire_diameter_mm", why+" (or give wire_diameter_in)")
 	}
-	if issues != nil {
-		return nil, unprocessable(issues...)
+	if err := v.err(); err != nil {
+		return nil, err
 	}
 	gr := db.CalibrationGroup{Process: *g.Process, WireDiameterMM: *wireDiameterMM, JointType: *g.JointType}
 	if g.ShieldingGas != nil {

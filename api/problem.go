@@ -59,6 +59,33 @@ func unprocessable(issues ...FieldIssue) error {
 	return &invalidError{status: http.StatusUnprocessableEntity, issues: issues}
 }
 
+// issues collects refused fields and applies the status rule: 400 when any
+// issue is about the request's shape (a field left out, unknown or of the
+// wrong type), else 422 (values refused).
+type issues struct {
+	list  []FieldIssue
+	shape bool
+}
+
+// missing records a required field left out (the request's shape).
+func (v *issues) missing(field, reason string) {
+	v.list, v.shape = append(v.list, FieldIssue{field, reason}), true
+}
+
+// refused records a value given but refused.
+func (v *issues) refused(field, reason string) { v.list = append(v.list, FieldIssue{field, reason}) }
+
+// err returns the collected issues as one error, or nil.
+func (v *issues) err() error {
+	if len(v.list) == 0 {
+		return nil
+	}
+	if v.shape {
+		return &invalidError{status: http.StatusBadRequest, issues: v.list}
+	}
+	return unprocessable(v.list...)
+}
+
 // problemFor maps any handler error to its problem body. It is the only place
 // where errors become HTTP.
 func problemFor(err error) Problem {
@@ -108,11 +135,11 @@ func problemFor(err error) Problem {
 }
 
 // rangeKeywords are the schema keywords whose failure means a well-formed
-// value outside its allowed range or length: refused (422) like the
-// validator's bounds, not malformed (400).
+// value that is refused (outside its range or length, not one of the
+// allowed words): 422 like the validator's rules, not malformed (400).
 var rangeKeywords = map[string]bool{
 	"minimum": true, "maximum": true, "exclusiveMinimum": true, "exclusiveMaximum": true,
-	"minLength": true, "maxLength": true, "minItems": true, "maxItems": true,
+	"minLength": true, "maxLength": true, "minItems": true, "maxItems": true, "enum": true, "pattern": true,
 }
 
 // requestStatus is the status for an OpenAPI request validation error: 422
@@ -133,7 +160,7 @@ func requestStatus(err error) int {
 			walk(re.Err)
 		case errors.As(err, &se):
 			leaves++
-			if rangeKeywords[se.SchemaField] {
+			if rangeKeywords[se.SchemaField] && rightType(se) {
 				refused++
 			}
 		default:
@@ -145,6 +172,27 @@ func requestStatus(err error) int {
 		return http.StatusUnprocessableEntity
 	}
 	return http.StatusBadRequest
+}
+
+// rightType reports whether a refused value has its schema's type: 12 for
+// an enum of words is a wrong type (400), "DC+" a refused word (422).
+func rightType(se *openapi3.SchemaError) bool {
+	if se.Schema == nil || se.Schema.Type == nil {
+		return true
+	}
+	switch se.Value.(type) {
+	case string:
+		return se.Schema.Type.Permits(openapi3.TypeString)
+	case float64, int, int64, json.Number:
+		return se.Schema.Type.Permits(openapi3.TypeNumber) || se.Schema.Type.Permits(openapi3.TypeInteger)
+	case []any:
+		return se.Schema.Type.Permits(openapi3.TypeArray)
+	case map[string]any:
+		return se.Schema.Type.Permits(openapi3.TypeObject)
+	case bool:
+		return se.Schema.Type.Permits(openapi3.TypeBoolean)
+	}
+	return false
 }
 
 var unsupportedProperty = regexp.MustCompile(`^property "([^"]+)" is unsupported`)
@@ -192,9 +240,20 @@ func requestIssues(re *openapi3filter.RequestError) []FieldIssue {
 	if re.Parameter != nil {
 		param = re.Parameter.Name
 	}
-	if re.Err != nil {
+	switch {
+	case re.Err != nil:
 		walk(re.Err, param)
-	} else {
+	case re.Parameter == nil && re.RequestBody != nil: // the only body check without an error: its media type
+		got := ""
+		if re.Input != nil && re.Input.Request != nil {
+			got = re.Input.Request.Header.Get(echo.HeaderContentType)
+		}
+		reason := "header is required: send Content-Type: application/json with the body"
+		if got != "" {
+			reason = fmt.Sprintf("header must be application/json (got %q)", got)
+		}
+		issues = append(issues, FieldIssue{Field: echo.HeaderContentType, Reason: reason})
+	default:
 		issues = append(issues, FieldIssue{Field: param, Reason: re.Reason})
 	}
 	return issues

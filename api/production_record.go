@@ -58,7 +58,7 @@ func (s *Server) productionRecords(in productionBatchIn) ([]db.ProductionRecordD
 		return nil, unprocessable(FieldIssue{"records", fmt.Sprintf("give 1 to %d records (got %d)", db.MaxProductionBatch, len(in.Records))})
 	}
 	out := make([]db.ProductionRecordData, len(in.Records))
-	status := http.StatusBadRequest
+	status := http.StatusUnprocessableEntity
 	var issues []FieldIssue
 	for i, r := range in.Records {
 		d, err := r.data()
@@ -67,7 +67,7 @@ func (s *Server) productionRecords(in productionBatchIn) ([]db.ProductionRecordD
 		}
 		var inv *invalidError
 		if errors.As(err, &inv) {
-			if inv.status == http.StatusUnprocessableEntity {
+			if inv.status == http.StatusBadRequest { // any shape issue makes the batch 400
 				status = inv.status
 			}
 			for _, is := range inv.issues {

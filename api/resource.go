@@ -2,8 +2,10 @@ package api
 
 import (
 	"context"
+	"fmt"
 	"net/http"
 	"strconv"
+	"strings"
 
 	"github.com/google/uuid"
 	"github.com/labstack/echo/v4"
@@ -149,17 +151,24 @@ func handleRevisions[In input[D], D any, R any](r resource[In, D, R]) echo.Handl
 	}
 }
 
-// change checks a correction's base revision and reason.
+// change checks a correction's base revision and reason: a field left out
+// is the request's shape (400), a value given but refused is 422.
 func change(f changeFields) (db.Change, error) {
-	var issues []FieldIssue
-	if f.BaseRevision == nil || *f.BaseRevision < 1 {
-		issues = append(issues, FieldIssue{"base_revision", "is required: the revision this change is based on (1 or more)"})
+	var v issues
+	switch {
+	case f.BaseRevision == nil:
+		v.missing("base_revision", "is required: the revision this change is based on (1 or more)")
+	case *f.BaseRevision < 1:
+		v.refused("base_revision", fmt.Sprintf("%d is not a revision: revisions count from 1", *f.BaseRevision))
 	}
-	if f.Reason == nil || *f.Reason == "" {
-		issues = append(issues, FieldIssue{"reason", "is required: say why the record is changed"})
+	switch {
+	case f.Reason == nil:
+		v.missing("reason", "is required: say why the record is changed")
+	case strings.TrimSpace(*f.Reason) == "":
+		v.refused("reason", "is blank: say why the record is changed")
 	}
-	if issues != nil {
-		return db.Change{}, unprocessable(issues...)
+	if err := v.err(); err != nil {
+		return db.Change{}, err
 	}
 	return db.Change{BaseRevision: *f.BaseRevision, Reason: *f.Reason}, nil
 }

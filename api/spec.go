@@ -3,6 +3,8 @@ package api
 import (
 	"context"
 	"fmt"
+	"net/http"
+	"slices"
 	"strings"
 
 	"github.com/getkin/kin-openapi/openapi3"
@@ -47,8 +49,15 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 	}
 	route := &routers.Route{Spec: s.spec, Path: sp, PathItem: item, Method: method, Operation: item.GetOperation(method)}
 	opts := &openapi3filter.Options{MultiError: true, AuthenticationFunc: openapi3filter.NoopAuthenticationFunc, ExcludeResponseBody: true}
+	known := queryNames(item, route.Operation)
+	api := strings.HasPrefix(sp, "/v1/") // the page, probes and the document ignore stray parameters
 	return func(next echo.HandlerFunc) echo.HandlerFunc {
 		return func(c echo.Context) error {
+			if api {
+				if err := unknownQuery(c, known); err != nil {
+					return err
+				}
+			}
 			params := map[string]string{}
 			for _, n := range c.ParamNames() {
 				params[n] = c.Param(n)
@@ -76,4 +85,40 @@ func asRequestError(err error) error {
 		return &invalidError{status: requestStatus(multi), issues: issues}
 	}
 	return err
+}
+
+// queryNames lists the query parameters an operation takes, its path's included.
+func queryNames(item *openapi3.PathItem, op *openapi3.Operation) []string {
+	var names []string
+	for _, ps := range []openapi3.Parameters{item.Parameters, op.Parameters} {
+		for _, p := range ps {
+			if p.Value != nil && p.Value.In == openapi3.ParameterInQuery {
+				names = append(names, p.Value.Name)
+			}
+		}
+	}
+	slices.Sort(names)
+	return names
+}
+
+// unknownQuery refuses (400) every query parameter the operation does not
+// take, naming it: a misspelt filter (welder=) must not return the
+// unfiltered list as if it had been applied.
+func unknownQuery(c echo.Context, known []string) error {
+	var issues []FieldIssue
+	for name := range c.QueryParams() {
+		if slices.Contains(known, name) {
+			continue
+		}
+		reason := "unknown query parameter; this operation takes none"
+		if len(known) > 0 {
+			reason = "unknown query parameter; this operation takes " + strings.Join(known, ", ")
+		}
+		issues = append(issues, FieldIssue{name, reason})
+	}
+	if issues == nil {
+		return nil
+	}
+	slices.SortFunc(issues, func(a, b FieldIssue) int { return strings.Compare(a.Field, b.Field) })
+	return &invalidError{status: http.StatusBadRequest, issues: issues}
 }

@@ -72,7 +72,8 @@ func number(f reflect.Value) (float64, bool) {
 }
 
 // check validates v and turns each failed rule into a field issue: 422 for
-// refused values, 400 when every failure is a field left out.
+// refused values, 400 when any failure is a field left out (the shape rule
+// of issues).
 func (s *Server) check(v any) error {
 	err := s.validate.Struct(v)
 	var ve validator.ValidationErrors
@@ -87,7 +88,7 @@ func (s *Server) check(v any) error {
 			absent++
 		}
 	}
-	if absent == len(issues) {
+	if absent > 0 {
 		return &invalidError{status: http.StatusBadRequest, issues: issues}
 	}
 	return unprocessable(issues...)

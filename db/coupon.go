@@ -136,6 +136,7 @@ type CouponFilter struct {
 	ProcedureID           *uuid.UUID
 	QualificationRecordID *uuid.UUID
 	WelderID              string
+	CouponMark            string
 	WeldedFrom            *Date
 	WeldedTo              *Date
 	Acceptance            string
@@ -161,6 +162,9 @@ func (s *Store) Coupons(ctx context.Context, site string, cf CouponFilter, curso
 	}
 	if cf.WelderID != "" {
 		f.add("welder_id = ?", cf.WelderID)
+	}
+	if cf.CouponMark != "" {
+		f.add("coupon_mark = ?", cf.CouponMark)
 	}
 	if cf.WeldedFrom != nil {
 		f.add("welded_on >= ?", *cf.WeldedFrom)

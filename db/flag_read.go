@@ -2,7 +2,6 @@ package db
 
 import (
 	"context"
-	"encoding/base64"
 	"fmt"
 	"strings"
 	"time"
@@ -31,22 +30,17 @@ type flagCursor struct {
 }
 
 func (c flagCursor) String() string {
-	return base64.RawURLEncoding.EncodeToString([]byte(c.subject.String() + "|" + c.variable + "|" + c.kind))
+	return EncodeCursor("flags", c.subject.String(), c.variable, c.kind)
 }
 
 func parseFlagCursor(s string) (flagCursor, error) {
-	bad := fmt.Errorf("db: list flags: cursor %q: %w", s, ErrBadCursor)
-	b, err := base64.RawURLEncoding.DecodeString(s)
+	parts, err := DecodeCursor(s, "flags", 3)
 	if err != nil {
-		return flagCursor{}, bad
-	}
-	parts := strings.Split(string(b), "|")
-	if len(parts) != 3 {
-		return flagCursor{}, bad
+		return flagCursor{}, fmt.Errorf("db: list flags: %w", err)
 	}
 	id, err := uuid.Parse(parts[0])
 	if err != nil {
-		return flagCursor{}, bad
+		return flagCursor{}, fmt.Errorf("db: list flags: cursor %q: %w", s, ErrBadCursor)
 	}
 	return flagCursor{id, parts[1], parts[2]}, nil
 }
