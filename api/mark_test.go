@@ -8,7 +8,7 @@ import (
 
 // TestMarkConflict: correcting a coupon's mark or a PQR's number to one a
 // current record holds is a 409 problem naming the field, the mark and the
-// holder's id; once the holder moves on, the mark can be taken.
+// holder's id; once the holder is corrected to another mark, it can be taken.
 func TestMarkConflict(t *testing.T) {
 	t.Parallel()
 	e := newEnv(t)
@@ -29,12 +29,12 @@ func TestMarkConflict(t *testing.T) {
 			if !strings.Contains(p.Detail, markA) || !strings.Contains(p.Detail, a["id"].(string)) {
 				t.Errorf("409 detail %q: want the mark %s and the holder %s", p.Detail, markA, a["id"])
 			}
-			r = e.do(http.MethodPost, k.path+"/"+a["id"].(string)+"/void", "engineer", map[string]any{"base_revision": 1, "reason": "entered twice"})
+			r = e.do(http.MethodPut, k.path+"/"+a["id"].(string), "engineer", withRevision(k.body(uniq("M")), 1, "mark re-stamped"))
 			if r.status != http.StatusOK {
-				t.Fatalf("void = %d %s", r.status, r.body)
+				t.Fatalf("correcting the holder's mark = %d %s", r.status, r.body)
 			}
 			if r = e.do(http.MethodPut, k.path+"/"+b["id"].(string), "engineer", fix); r.status != http.StatusOK {
-				t.Errorf("correction to a mark freed by a void = %d %s, want 200", r.status, r.body)
+				t.Errorf("correction to a mark freed by a correction = %d %s, want 200", r.status, r.body)
 			}
 		})
 	}

@@ -111,7 +111,6 @@ func (s *Store) VoidCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Change
 	if err := s.write(ctx, "void coupon "+id.String(),
 		coupons.baseIs(ctx, a.Site, id, ch),
 		coupons.voidLatest(ctx, m),
-		releaseMark(ctx, couponMark, id),
 		logged(ctx, coupons, m, actionVoid),
 		couponFlags(ctx, m),
 	); err != nil {

@@ -8,11 +8,13 @@ import (
 	"github.com/jackc/pgx/v5"
 )
 
-// Marks are unique among a site's current, non-voided records: a coupon's
-// mark and a qualification record's number. A correction may change a mark;
-// the old one is then free for another record, as is a voided record's.
-// The rule lives in the database (current_marks, whose primary key is the
-// mark), maintained by the steps below in the writing transaction.
+// Marks are unique among a site's current records: a coupon's mark and a
+// qualification record's number. A correction may change a mark (a coupon
+// stamped or typed wrong keeps its measurements); the old mark is then free
+// for another record. A void keeps the mark: the voided record still answers
+// to it in the history, and a physical coupon may still carry it. The rule
+// lives in the database (current_marks, whose primary key is the mark),
+// maintained by claimMark in the writing transaction.
 
 // markKind names what a mark marks; it is also the field the API names.
 type markKind struct {
@@ -68,24 +70,16 @@ func claimMark(ctx context.Context, k markKind, site string, id uuid.UUID, mark 
 	}
 }
 
-// releaseMark is the step that frees a voided record's mark.
-func releaseMark(ctx context.Context, k markKind, id uuid.UUID) step {
-	return func(tx pgx.Tx) error {
-		_, err := tx.Exec(ctx, `DELETE FROM current_marks WHERE kind = $1 AND record_id = $2`, k.kind, id)
-		return err
-	}
-}
-
-// RecheckMarks compares current_marks with the marks of the site's current,
-// non-voided records and returns each difference; none means it is derived
-// exactly from the records.
+// RecheckMarks compares current_marks with the marks of the site's current
+// records (voided ones included) and returns each difference; none means it
+// is derived exactly from the records.
 func (s *Store) RecheckMarks(ctx context.Context, site string) ([]string, error) {
 	rows, _ := s.pool.Query(ctx, `
 		WITH want AS (
-			SELECT 'coupon_mark' AS kind, coupon_mark AS mark, id FROM coupons cur WHERE site = $1 AND NOT voided
+			SELECT 'coupon_mark' AS kind, coupon_mark AS mark, id FROM coupons cur WHERE site = $1
 			  AND NOT EXISTS (SELECT 1 FROM coupons l WHERE l.id = cur.id AND l.revision > cur.revision)
 			UNION ALL
-			SELECT 'record_number', record_number, id FROM qualification_records cur WHERE site = $1 AND NOT voided
+			SELECT 'record_number', record_number, id FROM qualification_records cur WHERE site = $1
 			  AND NOT EXISTS (SELECT 1 FROM qualification_records l WHERE l.id = cur.id AND l.revision > cur.revision)),
 		have AS (SELECT kind, mark, record_id AS id FROM current_marks WHERE site = $1)
 		SELECT format('%s %s %s: %s', coalesce(w.kind, h.kind), coalesce(w.mark, h.mark), coalesce(w.id, h.id),

@@ -15,8 +15,9 @@ import (
 
 // TestMarksStayUnique: a correction cannot give a coupon another current
 // coupon's mark, nor a PQR another's number (the refusal names the mark and
-// the record holding it); a mark freed by a correction or a void can be used
-// again; current_marks stays exactly the marks of the current records.
+// the record holding it); a mark freed by a correction can be used again, a
+// voided record's cannot; current_marks stays exactly the marks of the
+// current records.
 func TestMarksStayUnique(t *testing.T) {
 	t.Parallel()
 	s, site, ctx := dbtest.Store(t), dbtest.Site(t), context.Background()
@@ -59,9 +60,8 @@ func TestMarksStayUnique(t *testing.T) {
 	if _, err := s.VoidCoupon(ctx, a, cb.ID, db.Change{BaseRevision: 2, Reason: "cut from scrap"}); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := s.CreateCoupon(ctx, a, couponData(p.ID, "C-A")); err != nil {
-		t.Fatalf("a new coupon takes the voided coupon's C-A: %v", err)
-	}
+	_, err = s.CreateCoupon(ctx, a, couponData(p.ID, "C-A"))
+	wantTaken("create with the voided coupon's C-A", err, "C-A", cb.ID)
 
 	qa, err := s.CreateQualificationRecord(ctx, a, rangesPQRData("PQR-A"))
 	if err != nil {

@@ -99,7 +99,6 @@ func (s *Store) VoidQualificationRecord(ctx context.Context, a Actor, id uuid.UU
 	if err := s.write(ctx, "void qualification_record "+id.String(),
 		qualificationRecords.baseIs(ctx, a.Site, id, ch),
 		qualificationRecords.voidLatest(ctx, m),
-		releaseMark(ctx, recordNumber, id),
 		logged(ctx, qualificationRecords, m, actionVoid),
 	); err != nil {
 		return QualificationRecord{}, err
