@@ -61,6 +61,9 @@ var predictModels = map[db.CalibrationModel]predict.ModelKind{
 
 // withDiagnostics adds the diagnostics of cal's fit.
 func withDiagnostics(cal db.Calibration, acts []db.CalibrationActivation) (calibrationOut, error) {
+	if cal.Fit.Melting != nil { // both coefficient forms, also for fits stored before the inch-pound one
+		cal.Fit.Melting.WithInchPound()
+	}
 	out := calibrationOut{Calibration: cal, Activations: acts, Caution: predictionCaution}
 	if out.Activations == nil {
 		out.Activations = []db.CalibrationActivation{}

@@ -26,8 +26,8 @@ func TestMarkConflict(t *testing.T) {
 			fix := withRevision(k.body(markA), 1, "mark mistyped")
 			r := e.do(http.MethodPut, k.path+"/"+b["id"].(string), "engineer", fix)
 			p := wantProblem(t, "correction to a held mark", r, http.StatusConflict, k.field)
-			if !strings.Contains(p.Detail, markA) || !strings.Contains(p.Detail, a["id"].(string)) {
-				t.Errorf("409 detail %q: want the mark %s and the holder %s", p.Detail, markA, a["id"])
+			if !strings.Contains(p.Detail, markA) || p.ExistingID != a["id"] {
+				t.Errorf("409 detail %q existing_id %q: want the mark %s and the holder %s", p.Detail, p.ExistingID, markA, a["id"])
 			}
 			r = e.do(http.MethodPut, k.path+"/"+a["id"].(string), "engineer", withRevision(k.body(uniq("M")), 1, "mark re-stamped"))
 			if r.status != http.StatusOK {

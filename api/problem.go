@@ -26,6 +26,8 @@ type Problem struct {
 	Instance  string       `json:"instance,omitempty"`
 	RequestID string       `json:"request_id,omitempty"`
 	Errors    []FieldIssue `json:"errors,omitempty"`
+	// ExistingID names the stored record a duplicate collides with.
+	ExistingID string `json:"existing_id,omitempty"`
 }
 
 // FieldIssue names one refused request field and the reason.
@@ -94,7 +96,7 @@ func problemFor(err error) Problem {
 	var pe *predict.InputError
 	var he *echo.HTTPError
 	var re *openapi3filter.RequestError
-	var mt *db.MarkTakenError
+	var dup *db.DuplicateError
 	switch {
 	case errors.As(err, &inv):
 		title := "The request is malformed"
@@ -118,11 +120,11 @@ func problemFor(err error) Problem {
 	case errors.Is(err, predict.ErrTooFewSamples), errors.Is(err, predict.ErrDegenerate):
 		return Problem{Type: "urn:etchlog:problem:fit-refused", Title: "The selected coupons cannot support this fit",
 			Status: http.StatusUnprocessableEntity, Detail: err.Error(), Errors: []FieldIssue{{"coupons", fitRefusal(err)}}}
+	case errors.As(err, &dup):
+		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict,
+			Detail: dup.Error(), Errors: []FieldIssue{{dup.Field, dup.Reason}}, ExistingID: dup.ExistingID.String()}
 	case errors.Is(err, db.ErrNotFound):
 		return Problem{Type: "urn:etchlog:problem:not-found", Title: "No such record", Status: http.StatusNotFound, Detail: err.Error()}
-	case errors.As(err, &mt):
-		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict,
-			Detail: mt.Error(), Errors: []FieldIssue{{mt.Field, mt.Error()}}}
 	case errors.Is(err, db.ErrConflict):
 		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict, Detail: err.Error()}
 	case errors.Is(err, db.ErrVoided):

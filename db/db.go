@@ -9,6 +9,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"github.com/google/uuid"
 	"time"
 
 	"github.com/jackc/pgx/v5/pgconn"
@@ -40,6 +41,22 @@ func (e *FieldError) Error() string { return e.Field + ": " + e.Reason }
 
 // Is lets errors.Is(err, ErrInvalid) match a FieldError.
 func (e *FieldError) Is(target error) bool { return target == ErrInvalid }
+
+// DuplicateError is a write refused because a record with the same key
+// exists; ExistingID names it so the caller can correct that one instead.
+type DuplicateError struct {
+	Field      string
+	ExistingID uuid.UUID
+	Reason     string
+}
+
+// Error names the field, the reason and the existing record.
+func (e *DuplicateError) Error() string {
+	return fmt.Sprintf("%s: %s (existing %s)", e.Field, e.Reason, e.ExistingID)
+}
+
+// Is lets errors.Is(err, ErrConflict) match a DuplicateError.
+func (e *DuplicateError) Is(target error) bool { return target == ErrConflict }
 
 // Store is the PostgreSQL-backed record store.
 type Store struct {
@@ -106,6 +123,12 @@ func mapError(err error) error {
 	case "40P01", "40001": // deadlock or serialization failure: two writes crossed; the client may retry
 		return fmt.Errorf("%w: a concurrent write got in the way; retry", ErrConflict)
 	case "23505": // unique_violation
+		if pg.ConstraintName == "measurements_section_per_coupon" { // the trigger names the existing section
+			if id, err := uuid.Parse(pg.Detail); err == nil {
+				return &DuplicateError{Field: "section", ExistingID: id,
+					Reason: "this coupon already has a current section with this label; correct that one or choose another label"}
+			}
+		}
 		return fmt.Errorf("%w: %s", ErrConflict, pg.ConstraintName)
 	case "23514", "23502", "23503", "22007", "22008", "22P02": // check, not null, fk, bad date/time/text
 		field := pg.ColumnName

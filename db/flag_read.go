@@ -103,8 +103,8 @@ type FlagCount struct {
 	Count    int    `db:"count" json:"count"`
 }
 
-// FlagSummary sums up a procedure's current flags: per variable and kind,
-// and how many coupons and production records carry at least one.
+// FlagSummary sums up a procedure's current flags: per variable and kind
+// (requirement flags first: they are findings, the rest estimates), and how many coupons and production records carry at least one.
 type FlagSummary struct {
 	ProcedureID           uuid.UUID   `json:"procedure_id"`
 	RangesVersion         *int        `json:"ranges_version,omitempty"`
@@ -124,7 +124,7 @@ func (s *Store) FlagSummary(ctx context.Context, site string, procedureID uuid.U
 		sum.RangesVersion = &pr.Version
 	}
 	rows, _ := s.pool.Query(ctx, `SELECT variable, kind, count(*)::int AS count FROM flags
-		WHERE site = $1 AND procedure_id = $2 GROUP BY variable, kind ORDER BY variable, kind`, site, procedureID)
+		WHERE site = $1 AND procedure_id = $2 GROUP BY variable, kind ORDER BY kind <> 'requirement', variable, kind`, site, procedureID)
 	counts, err := pgx.CollectRows(rows, pgx.RowToStructByName[FlagCount])
 	if err != nil {
 		return sum, fmt.Errorf("db: flag summary: %w", err)

@@ -28,25 +28,9 @@ var (
 	recordNumber = markKind{kind: "record_number", field: "record_number", entity: "qualification_record"}
 )
 
-// MarkTakenError is a write refused because another current record holds the mark.
-type MarkTakenError struct {
-	Field    string    // coupon_mark or record_number
-	Mark     string    // the mark asked for
-	Entity   string    // coupon or qualification_record
-	HolderID uuid.UUID // the record that holds it
-}
-
-// Error names the mark and the record holding it.
-func (e *MarkTakenError) Error() string {
-	return fmt.Sprintf("%s %q is already used by %s %s", e.Field, e.Mark, e.Entity, e.HolderID)
-}
-
-// Is lets errors.Is(err, ErrConflict) match.
-func (e *MarkTakenError) Is(target error) bool { return target == ErrConflict }
-
 // claimMark is the step that gives record id the mark: it releases the
 // record's previous mark if it differs and claims this one, or refuses with
-// MarkTakenError. A concurrent claim of the same mark waits for the other
+// DuplicateError naming the holder. A concurrent claim of the same mark waits for the other
 // transaction and then sees its outcome, so of two racing claims one wins.
 func claimMark(ctx context.Context, k markKind, site string, id uuid.UUID, mark string) step {
 	return func(tx pgx.Tx) error {
@@ -64,7 +48,8 @@ func claimMark(ctx context.Context, k markKind, site string, id uuid.UUID, mark 
 			return err
 		}
 		if holder != id {
-			return &MarkTakenError{Field: k.field, Mark: mark, Entity: k.entity, HolderID: holder}
+			return &DuplicateError{Field: k.field, ExistingID: holder,
+				Reason: fmt.Sprintf("%q is already the mark of %s %s; correct that one first or choose another", mark, k.entity, holder)}
 		}
 		return nil
 	}

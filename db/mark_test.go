@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strings"
 	"sync"
 	"testing"
 
@@ -33,9 +34,9 @@ func TestMarksStayUnique(t *testing.T) {
 	}
 	wantTaken := func(what string, err error, mark string, holder uuid.UUID) {
 		t.Helper()
-		var mt *db.MarkTakenError
-		if !errors.As(err, &mt) || !errors.Is(err, db.ErrConflict) || mt.Mark != mark || mt.HolderID != holder {
-			t.Errorf("%s: err = %v, want MarkTakenError for %q held by %s", what, err, mark, holder)
+		var dup *db.DuplicateError
+		if !errors.As(err, &dup) || !errors.Is(err, db.ErrConflict) || !strings.Contains(dup.Reason, mark) || dup.ExistingID != holder {
+			t.Errorf("%s: err = %v, want DuplicateError for %q held by %s", what, err, mark, holder)
 		}
 	}
 	_, err = s.CreateCoupon(ctx, a, couponData(p.ID, "C-A"))
@@ -141,9 +142,9 @@ func TestMarkRace(t *testing.T) {
 			t.Fatalf("round %d: %d writers won mark %s, want exactly 1", round, len(winners), mark)
 		}
 		for err := range lost {
-			var mt *db.MarkTakenError
-			if !errors.As(err, &mt) || mt.HolderID != winners[0] {
-				t.Errorf("round %d: loser err = %v, want MarkTakenError naming %s", round, err, winners[0])
+			var dup *db.DuplicateError
+			if !errors.As(err, &dup) || dup.ExistingID != winners[0] {
+				t.Errorf("round %d: loser err = %v, want DuplicateError naming %s", round, err, winners[0])
 			}
 		}
 	}

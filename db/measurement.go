@@ -2,6 +2,7 @@ package db
 
 import (
 	"context"
+	"fmt"
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
@@ -40,8 +41,25 @@ func (d MeasurementData) values() []any {
 		d.Leg2MM, d.ThroatMM, d.FusedAreaMM2, d.Acceptance, d.Inspector, d.Remark}
 }
 
+// checkCoupon verifies that the coupon exists and is not voided, and that
+// the section's penetration is not deeper than the coupon's base metal is
+// thick (a typing error, not a weld).
 func (d MeasurementData) checkCoupon(ctx context.Context, site string) func(pgx.Tx) error {
-	return func(tx pgx.Tx) error { return exists(ctx, tx, coupons, site, d.CouponID, "coupon_id") }
+	return func(tx pgx.Tx) error {
+		if err := exists(ctx, tx, coupons, site, d.CouponID, "coupon_id"); err != nil {
+			return err
+		}
+		c, err := getRecord[Coupon](ctx, tx, coupons, site, d.CouponID, 0)
+		if err != nil {
+			return err
+		}
+		if d.PenetrationMM > c.ThicknessMM {
+			return &FieldError{Field: "penetration_mm", Reason: fmt.Sprintf(
+				"penetration %g mm is greater than the coupon's base-metal thickness %g mm (thickness_mm of coupon %s); check both values",
+				d.PenetrationMM, c.ThicknessMM, c.CouponMark)}
+		}
+		return nil
+	}
 }
 
 // CreateMeasurement stores revision 1 of a new measurement on an existing

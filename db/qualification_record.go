@@ -36,6 +36,9 @@ type QualificationRecordData struct {
 	TensileStrengthMPa   *float64 `db:"tensile_strength_mpa" json:"tensile_strength_mpa,omitempty" validate:"omitempty,quantity"`
 	Outcome              string   `db:"outcome" json:"outcome" validate:"required,enum"`
 	Remarks              string   `db:"remarks" json:"remarks" validate:"max=2000"`
+	// MinPenetrationMM is the record's own acceptance criterion, when it
+	// states one: the least penetration a macro-etch section must show.
+	MinPenetrationMM *float64 `db:"min_penetration_mm" json:"min_penetration_mm,omitempty" validate:"omitempty,quantity"`
 }
 
 // QualificationRecord is one stored revision of a PQR.
@@ -49,7 +52,7 @@ var qualificationRecords = table{name: "qualification_records", entity: "qualifi
 	"shielding_gas", "polarity", "transfer_mode", "position", "base_metal_group", "thickness_mm",
 	"current_a", "voltage_v", "travel_speed_mm_s", "wire_feed_speed_m_min", "ctwd_mm", "preheat_c",
 	"interpass_c", "visual_result", "bend_result", "tensile_result", "macro_result",
-	"tensile_strength_mpa", "outcome", "remarks",
+	"tensile_strength_mpa", "outcome", "remarks", "min_penetration_mm",
 }}
 
 func (q QualificationRecordData) values() []any {
@@ -57,7 +60,7 @@ func (q QualificationRecordData) values() []any {
 		q.ShieldingGas, q.Polarity, q.TransferMode, q.Position, q.BaseMetalGroup, q.ThicknessMM,
 		q.CurrentA, q.VoltageV, q.TravelSpeedMMPerS, q.WireFeedSpeedMPerMin, q.CTWDMM, q.PreheatC,
 		q.InterpassC, q.VisualResult, q.BendResult, q.TensileResult, q.MacroResult,
-		q.TensileStrengthMPa, q.Outcome, q.Remarks}
+		q.TensileStrengthMPa, q.Outcome, q.Remarks, q.MinPenetrationMM}
 }
 
 // No flag derives from a PQR directly: its values reach flags only through
