@@ -1,6 +1,7 @@
 package api
 
 import (
+	"context"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -26,6 +27,8 @@ type Problem struct {
 	Instance  string       `json:"instance,omitempty"`
 	RequestID string       `json:"request_id,omitempty"`
 	Errors    []FieldIssue `json:"errors,omitempty"`
+	// ErrorsOmitted counts refused fields beyond the first maxIssues listed.
+	ErrorsOmitted int `json:"errors_omitted,omitempty"`
 	// ExistingID names the stored record a duplicate collides with.
 	ExistingID string `json:"existing_id,omitempty"`
 }
@@ -38,8 +41,9 @@ type FieldIssue struct {
 
 // invalidError is a request that failed validation, with the HTTP status to send.
 type invalidError struct {
-	status int
-	issues []FieldIssue
+	status  int
+	issues  []FieldIssue
+	omitted int // issues counted but not listed
 }
 
 func (e *invalidError) Error() string {
@@ -103,11 +107,11 @@ func problemFor(err error) Problem {
 		if inv.status == http.StatusUnprocessableEntity {
 			title = "The request has values that are refused"
 		}
-		return Problem{Type: "urn:etchlog:problem:invalid", Title: title, Status: inv.status, Detail: inv.Error(), Errors: inv.issues}
+		return Problem{Type: "urn:etchlog:problem:invalid", Title: title, Status: inv.status, Errors: inv.issues, ErrorsOmitted: inv.omitted}
 	case errors.As(err, &re):
 		issues := requestIssues(re)
 		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request does not match the API description",
-			Status: requestStatus(re), Detail: (&invalidError{issues: issues}).Error(), Errors: issues}
+			Status: requestStatus(re), Errors: issues}
 	case errors.Is(err, db.ErrBadCursor):
 		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request is malformed", Status: http.StatusBadRequest,
 			Detail: err.Error(), Errors: []FieldIssue{{"cursor", db.ErrBadCursor.Error()}}}
@@ -127,6 +131,9 @@ func problemFor(err error) Problem {
 		return Problem{Type: "urn:etchlog:problem:not-found", Title: "No such record", Status: http.StatusNotFound, Detail: err.Error()}
 	case errors.Is(err, db.ErrConflict):
 		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict, Detail: err.Error()}
+	case db.Unavailable(err):
+		return Problem{Type: "urn:etchlog:problem:unavailable", Title: "The database is out of reach", Status: http.StatusServiceUnavailable,
+			Detail: "the record store did not answer; retry later (a retried write is safe under the same Idempotency-Key)"}
 	case errors.Is(err, db.ErrVoided):
 		return Problem{Type: "urn:etchlog:problem:voided", Title: "The record is voided", Status: http.StatusConflict, Detail: err.Error()}
 	case errors.As(err, &he):
@@ -261,16 +268,64 @@ func requestIssues(re *openapi3filter.RequestError) []FieldIssue {
 	return issues
 }
 
+// statusClientClosed is logged (never sent) for a request whose client went
+// away before the answer; the number follows a common proxy convention.
+const statusClientClosed = 499
+
+// retryAfterSeconds is what a 503 or 429 answer asks the client to wait.
+const retryAfterSeconds = "2"
+
+// bound lists each refused field once and at most maxIssues of them, counting
+// the rest, and sums them up in Detail, so an answer's size does not grow
+// with the request.
+func (p *Problem) bound() {
+	if len(p.Errors) == 0 {
+		return
+	}
+	seen := make(map[FieldIssue]bool, min(len(p.Errors), maxIssues))
+	out := make([]FieldIssue, 0, min(len(p.Errors), maxIssues))
+	for _, is := range p.Errors {
+		if seen[is] {
+			continue
+		}
+		if len(out) == maxIssues {
+			p.ErrorsOmitted++
+			continue
+		}
+		seen[is] = true
+		out = append(out, is)
+	}
+	p.Errors = out
+	if p.Detail == "" {
+		p.Detail = out[0].Field + ": " + out[0].Reason
+		if more := len(out) - 1 + p.ErrorsOmitted; more > 0 {
+			p.Detail += fmt.Sprintf(" (and %d more refused field(s); see errors)", more)
+		}
+	}
+}
+
 // errorHandler writes every error as problem+json and logs the unexpected ones.
 func errorHandler(log *slog.Logger) echo.HTTPErrorHandler {
 	return func(err error, c echo.Context) {
 		if c.Response().Committed {
 			return
 		}
+		if c.Request().Context().Err() != nil && (errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded) || db.Unavailable(err)) {
+			// Nobody reads this answer; the access log records 499.
+			log.Info("client closed request", "request_id", c.Response().Header().Get(echo.HeaderXRequestID),
+				"method", c.Request().Method, "path", c.Request().URL.Path)
+			c.Response().Status = statusClientClosed
+			return
+		}
 		p := problemFor(err)
+		p.bound()
 		p.Instance = c.Request().URL.Path
 		p.RequestID = c.Response().Header().Get(echo.HeaderXRequestID)
-		if p.Status >= 500 {
+		switch {
+		case p.Status == http.StatusServiceUnavailable || p.Status == http.StatusTooManyRequests:
+			c.Response().Header().Set("Retry-After", retryAfterSeconds)
+			log.Warn("request refused", "request_id", p.RequestID, "method", c.Request().Method, "path", p.Instance, "status", p.Status, "err", err)
+		case p.Status >= 500:
 			log.Error("request failed", "request_id", p.RequestID, "method", c.Request().Method, "path", p.Instance, "err", err)
 		}
 		c.Response().Header().Set(echo.HeaderContentType, "application/problem+json")

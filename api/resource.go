@@ -3,6 +3,7 @@ package api
 import (
 	"context"
 	"fmt"
+	"math"
 	"net/http"
 	"strconv"
 	"strings"
@@ -160,6 +161,8 @@ func change(f changeFields) (db.Change, error) {
 		v.missing("base_revision", "is required: the revision this change is based on (1 or more)")
 	case *f.BaseRevision < 1:
 		v.refused("base_revision", fmt.Sprintf("%d is not a revision: revisions count from 1", *f.BaseRevision))
+	case *f.BaseRevision >= math.MaxInt32:
+		v.refused("base_revision", fmt.Sprintf("%d is past the last revision a record can have (2147483646)", *f.BaseRevision))
 	}
 	switch {
 	case f.Reason == nil:
@@ -192,8 +195,8 @@ func queryInt(c echo.Context, name string) (int, error) {
 		return 0, nil
 	}
 	n, err := strconv.Atoi(s)
-	if err != nil || n < 0 {
-		return 0, badRequest(name, "want a whole number")
+	if err != nil || n < 0 || n > math.MaxInt32 {
+		return 0, badRequest(name, "want a whole number from 0 to 2147483647")
 	}
 	return n, nil
 }

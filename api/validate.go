@@ -10,12 +10,14 @@ import (
 	"reflect"
 	"slices"
 	"strings"
+	"time"
 
 	"github.com/getkin/kin-openapi/openapi3"
 	"github.com/go-playground/validator/v10"
 	"github.com/google/uuid"
 	"github.com/labstack/echo/v4"
 
+	"etchlog/db"
 	"etchlog/predict"
 )
 
@@ -38,6 +40,16 @@ func newValidator() *validator.Validate {
 			return ""
 		}
 		return name
+	})
+	// plausible_day: a weld date from 1900-01-01 to one day after today (UTC).
+	mustRegister(v, "plausible_day", func(fl validator.FieldLevel) bool {
+		switch t := fl.Field().Interface().(type) {
+		case db.Date:
+			return t.IsZero() || db.PlausibleDay(t.Time, time.Now())
+		case time.Time:
+			return t.IsZero() || db.PlausibleDay(t, time.Now())
+		}
+		return false
 	})
 	// quantity and enum take a field's bounds and allowed words from the
 	// registry (predict/quantity_table.go), found by the field's JSON name.
@@ -143,6 +155,15 @@ func ruleReason(fe validator.FieldError, name func(string) string) string {
 		return "must have at most " + fe.Param() + " item(s) or characters"
 	case "oneof":
 		return fmt.Sprintf("must be one of: %s (got %v)", fe.Param(), fe.Value())
+	case "plausible_day":
+		got := fmt.Sprint(fe.Value())
+		switch t := fe.Value().(type) {
+		case db.Date:
+			got = t.String()
+		case time.Time:
+			got = t.Format(time.RFC3339)
+		}
+		return fmt.Sprintf("must fall between %s and %s, one day after today (UTC) (got %s)", db.EarliestDay, db.LatestDay(time.Now()), got)
 	case "quantity":
 		q, ok := predict.LookupQuantity(fe.Field())
 		v, isNum := number(reflect.ValueOf(fe.Value()))

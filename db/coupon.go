@@ -16,7 +16,7 @@ type CouponData struct {
 	WelderID              string     `db:"welder_id" json:"welder_id" validate:"required,max=64"`
 	PowerSourceID         string     `db:"power_source_id" json:"power_source_id" validate:"max=64"`
 	FillerLot             string     `db:"filler_lot" json:"filler_lot" validate:"max=64"`
-	WeldedOn              Date       `db:"welded_on" json:"welded_on" validate:"required"`
+	WeldedOn              Date       `db:"welded_on" json:"welded_on" validate:"required,plausible_day"`
 	JointType             string     `db:"joint_type" json:"joint_type" validate:"required,enum"`
 	ThicknessMM           float64    `db:"thickness_mm" json:"thickness_mm" validate:"required,quantity"`
 	PassNumber            int        `db:"pass_number" json:"pass_number" validate:"required,quantity"`
@@ -84,7 +84,7 @@ func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon
 		logged(ctx, coupons, m, actionCreate),
 		couponFlags(ctx, m),
 	); err != nil {
-		return Coupon{}, err
+		return Coupon{}, s.duplicateMark(ctx, a.Site, c.CouponMark, err)
 	}
 	return Coupon{m, c}, nil
 }

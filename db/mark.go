@@ -49,7 +49,7 @@ func claimMark(ctx context.Context, k markKind, site string, id uuid.UUID, mark 
 		}
 		if holder != id {
 			return &DuplicateError{Field: k.field, ExistingID: holder,
-				Reason: fmt.Sprintf("%q is already the mark of %s %s; correct that one first or choose another", mark, k.entity, holder)}
+				Reason: fmt.Sprintf("%s %s already has the mark %q; correct that one first or choose another", k.entity, holder, mark)}
 		}
 		return nil
 	}

@@ -12,7 +12,7 @@ import (
 type QualificationRecordData struct {
 	RecordNumber         string   `db:"record_number" json:"record_number" validate:"required,max=64"`
 	Process              string   `db:"process" json:"process" validate:"required,enum"`
-	WeldedOn             Date     `db:"welded_on" json:"welded_on" validate:"required"`
+	WeldedOn             Date     `db:"welded_on" json:"welded_on" validate:"required,plausible_day"`
 	WelderID             string   `db:"welder_id" json:"welder_id" validate:"required,max=64"`
 	FillerClassification string   `db:"filler_classification" json:"filler_classification" validate:"required,max=64"`
 	WireDiameterMM       float64  `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,quantity"`
