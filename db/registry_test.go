@@ -19,6 +19,11 @@ var missingChecks = map[string]string{
 	"calibrations.arc_length_mm": "the fit's arc length is validated by the API; adding a CHECK needs its own migration",
 }
 
+// otherMeanings are columns that share a registered name but hold something else.
+var otherMeanings = map[string]string{
+	"idempotency_keys.status": "the state of a retried request, not a procedure's status",
+}
+
 // copiedTables hold values copied from a row of another table whose CHECKs
 // already hold them.
 var copiedTables = map[string]string{
@@ -120,7 +125,7 @@ func TestChecksMatchRegistry(t *testing.T) {
 				t.Errorf("%s: CHECK upper bound %v (open %v), registry %v (open %v)", key, hi.v, hi.open, q.Max, q.MaxOpen)
 			}
 		}
-		if e, ok := predict.LookupEnum(col); ok {
+		if e, ok := predict.LookupEnum(col); ok && otherMeanings[key] == "" {
 			got := words[key]
 			if got == nil {
 				t.Errorf("%s: no CHECK; the registry allows %v", key, e.Values)
