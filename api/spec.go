@@ -13,6 +13,7 @@ import (
 	"github.com/labstack/echo/v4"
 
 	"etchlog/openapi"
+	"etchlog/predict"
 )
 
 func loadSpec() (*openapi3.T, error) {
@@ -24,7 +25,27 @@ func loadSpec() (*openapi3.T, error) {
 	if err := spec.Validate(context.Background()); err != nil {
 		return nil, fmt.Errorf("api: OpenAPI document is invalid: %w", err)
 	}
+	leaveBoundsToRegistry(spec)
 	return spec, nil
+}
+
+// leaveBoundsToRegistry drops, from the copy of the document that requests
+// are checked against, the bounds of every registered quantity: the
+// validator refuses those values from the registry, after converting the
+// spelling the client used, with one wording. The document still states the
+// same bounds (a test compares them with the registry).
+func leaveBoundsToRegistry(spec *openapi3.T) {
+	for _, ref := range spec.Components.Schemas {
+		if ref.Value == nil {
+			continue
+		}
+		for name, p := range ref.Value.Properties {
+			if _, ok := predict.LookupQuantity(name); ok && p.Ref == "" && p.Value != nil {
+				p.Value.Min, p.Value.Max = nil, nil
+				p.Value.ExclusiveMin, p.Value.ExclusiveMax = openapi3.ExclusiveBound{}, openapi3.ExclusiveBound{}
+			}
+		}
+	}
 }
 
 // specPath turns an echo path (/v1/coupons/:id) into an OpenAPI one (/v1/coupons/{id}).

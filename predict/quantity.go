@@ -123,15 +123,20 @@ func (q Quantity) BoundsText() string {
 
 func num(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
 
-// Enum is one enumerated word of the API and the values it allows.
+// Enum is one enumerated word of the API and the values it allows; with
+// Blank, the empty string (not given) is allowed too.
 type Enum struct {
 	Name        string
 	Values      []string
 	Description string
+	Blank       bool
 }
 
-// Allows reports whether v is one of e's values.
+// Allows reports whether v is one of e's values (or empty, when e allows a blank).
 func (e Enum) Allows(v string) bool {
+	if v == "" && e.Blank {
+		return true
+	}
 	for _, a := range e.Values {
 		if a == v {
 			return true

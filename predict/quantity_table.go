@@ -98,18 +98,18 @@ var quantities = []Quantity{
 
 // enums lists every enumerated word of the records.
 var enums = []Enum{
-	{"process", []string{string(ProcessGMAW), string(ProcessFCAW), string(ProcessGTAW), string(ProcessSMAW), string(ProcessSAW)}, "Arc welding process"},
-	{"polarity", []string{"DCEP", "DCEN", "AC"}, "Electrode polarity"},
-	{"transfer_mode", []string{"short_circuit", "globular", "spray", "pulsed_spray"}, "Metal transfer mode (may be left empty)"},
-	{"joint_type", []string{"bead_on_plate", "butt", "fillet", "lap", "corner", "edge"}, "Joint type"},
-	{"status", []string{"draft", "qualified", "superseded"}, "Procedure status"},
-	{"visual_result", testResults, "Visual examination result"},
-	{"bend_result", testResults, "Bend test result"},
-	{"tensile_result", testResults, "Tensile test result"},
-	{"macro_result", testResults, "Macro-etch test result"},
-	{"outcome", []string{"pending", "pass", "fail"}, "Qualification outcome"},
-	{"acceptance", []string{"accept", "reject"}, "Section accepted or rejected"},
-	{"model", []string{"jackson_fixed", "jackson_free", "lesnewich"}, "Calibrated model"},
+	{"process", []string{string(ProcessGMAW), string(ProcessFCAW), string(ProcessGTAW), string(ProcessSMAW), string(ProcessSAW)}, "Arc welding process", false},
+	{"polarity", []string{"DCEP", "DCEN", "AC"}, "Electrode polarity", false},
+	{"transfer_mode", []string{"short_circuit", "globular", "spray", "pulsed_spray"}, "Metal transfer mode (may be left empty)", true},
+	{"joint_type", []string{"bead_on_plate", "butt", "fillet", "lap", "corner", "edge"}, "Joint type", false},
+	{"status", []string{"draft", "qualified", "superseded"}, "Procedure status", false},
+	{"visual_result", testResults, "Visual examination result", false},
+	{"bend_result", testResults, "Bend test result", false},
+	{"tensile_result", testResults, "Tensile test result", false},
+	{"macro_result", testResults, "Macro-etch test result", false},
+	{"outcome", []string{"pending", "pass", "fail"}, "Qualification outcome", false},
+	{"acceptance", []string{"accept", "reject"}, "Section accepted or rejected", false},
+	{"model", []string{"jackson_fixed", "jackson_free", "lesnewich"}, "Calibrated model", false},
 }
 
 var testResults = []string{"pass", "fail", "not_tested"}
