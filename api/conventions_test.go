@@ -2,10 +2,14 @@ package api_test
 
 import (
 	"encoding/base64"
+	"fmt"
 	"io"
 	"net/http"
+	"slices"
+	"strconv"
 	"strings"
 	"testing"
+	"time"
 
 	"github.com/google/uuid"
 )
@@ -184,5 +188,174 @@ func TestConventionCreated(t *testing.T) {
 	r := e.do(http.MethodPost, "/v1/calibrations/"+cal.ID+"/activate", "engineer", map[string]any{"reason": "convention"})
 	if r.status != http.StatusCreated || r.header.Get("Location") != "/v1/calibrations/"+cal.ID {
 		t.Errorf("activate = %d, Location %q: want 201 and the calibration's path", r.status, r.header.Get("Location"))
+	}
+}
+
+// TestConventionTimeFilters: every date or time filter is half-open
+// [from, to) and takes a day (YYYY-MM-DD, its midnight UTC) or an RFC 3339 time.
+func TestConventionTimeFilters(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	proc := e.rangedProcedure()
+	coupons, pqrs := map[string]string{}, map[string]string{}
+	for _, day := range []string{"2026-11-03", "2026-11-04", "2026-11-05"} {
+		b := couponBody(proc, "", uniq("C-DAY"))
+		b["welded_on"] = day
+		coupons[e.create("/v1/coupons", "technician", b)["id"].(string)] = day
+		q := qualificationRecordBody(uniq("PQR-DAY"))
+		q["welded_on"] = day
+		pqrs[e.create("/v1/qualification-records", "engineer", q)["id"].(string)] = day
+	}
+	// 320 A is above the derived current range: the record carries one flag at its recorded_at.
+	e.create("/v1/production-records", "technician", map[string]any{"records": []any{productionBody(proc, "TF-1", 320)}})
+	today := time.Now().UTC().Format(time.DateOnly)
+	tomorrow := time.Now().UTC().AddDate(0, 0, 1).Format(time.DateOnly)
+	for _, c := range []struct {
+		name, list string
+		kv         []string
+		want       []string // days of the fixture records listed, or the count of other items as "n=…"
+	}{
+		{"WeldedDays", "/v1/coupons", []string{"welded_from", "2026-11-04", "welded_to", "2026-11-05"}, []string{"2026-11-04"}},
+		{"WeldedToTime", "/v1/coupons", []string{"welded_from", "2026-11-03", "welded_to", "2026-11-04T12:00:00Z"}, []string{"2026-11-03", "2026-11-04"}},
+		{"WeldedToMidnight", "/v1/coupons", []string{"welded_to", "2026-11-04T00:00:00Z"}, []string{"2026-11-03"}},
+		{"WeldedFromOffset", "/v1/coupons", []string{"welded_from", "2026-11-05T00:30:00+02:00"}, []string{"2026-11-05"}},
+		{"PQRDays", "/v1/qualification-records", []string{"welded_from", "2026-11-04", "welded_to", "2026-11-05"}, []string{"2026-11-04"}},
+		{"AuditDays", "/v1/audit/events", []string{"from", today, "to", tomorrow, "entity", "coupon"}, []string{"n=3"}},
+		{"AuditToToday", "/v1/audit/events", []string{"to", today}, []string{"n=0"}},
+		{"RecordedToExclusive", "/v1/production-records", []string{"recorded_from", "2026-11-20", "recorded_to", "2026-11-20T09:30:00Z"}, []string{"n=0"}},
+		{"RecordedFromInclusive", "/v1/production-records", []string{"recorded_from", "2026-11-20T09:30:00Z", "recorded_to", "2026-11-21"}, []string{"n=1"}},
+		{"FlagsToExclusive", "/v1/flags", []string{"subject_kind", "production_record", "from", "2026-11-20", "to", "2026-11-20T09:30:00Z"}, []string{"n=0"}},
+		{"FlagsFromInclusive", "/v1/flags", []string{"subject_kind", "production_record", "from", "2026-11-20T09:30:00Z", "to", "2026-11-21"}, []string{"n=1"}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			r := e.do(http.MethodGet, withQuery(c.list, c.kv...), "auditor", nil)
+			if r.status != http.StatusOK {
+				t.Fatalf("GET %s = %d %s", withQuery(c.list, c.kv...), r.status, r.body)
+			}
+			items := r.items(t)
+			var got []string
+			if strings.HasPrefix(c.want[0], "n=") {
+				got = []string{"n=" + strconv.Itoa(len(items))}
+			} else {
+				days := coupons
+				if c.list == "/v1/qualification-records" {
+					days = pqrs
+				}
+				for _, it := range items {
+					if d, ok := days[it["id"].(string)]; ok {
+						got = append(got, d)
+					}
+				}
+				slices.Sort(got)
+			}
+			if !slices.Equal(got, c.want) {
+				t.Errorf("GET %s: %v, want %v", withQuery(c.list, c.kv...), got, c.want)
+			}
+		})
+	}
+	for _, q := range []string{"/v1/coupons?welded_to=11/03/2026", "/v1/audit/events?from=yesterday", "/v1/flags?to=2026-13-01"} {
+		r := e.do(http.MethodGet, q, "auditor", nil)
+		field := strings.SplitN(strings.SplitN(q, "?", 2)[1], "=", 2)[0]
+		wantProblem(t, q, r, http.StatusBadRequest, field)
+	}
+}
+
+// TestConventionNames: one unit-suffix style and one model vocabulary. What
+// an answer returns can be sent back under the same name, and no name in the
+// document or in an answer spells a unit with "per" or a model otherwise.
+func TestConventionNames(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	e.storeFitCoupons(8, 0)
+	fixed := e.fit(calibrationBody("jackson_fixed", nil))
+	free := e.fit(calibrationBody("jackson_free", nil))
+	les := e.fit(calibrationBody("lesnewich", map[string]any{"arc_length_mm": 3.5}))
+	models := map[string]bool{"jackson_fixed": true, "jackson_free": true, "lesnewich": true}
+	for _, cal := range []calibrationReply{fixed, free, les} {
+		got := e.do(http.MethodGet, "/v1/calibrations/"+cal.ID, "auditor", nil).object(t)
+		fit, _ := got["fit"].(map[string]any)
+		var fitModel any
+		for _, part := range fit {
+			if m, ok := part.(map[string]any); ok {
+				fitModel = m["model"]
+			}
+		}
+		diag, _ := got["diagnostics"].(map[string]any)
+		if got["model"] != fitModel || !models[fmt.Sprint(got["model"])] || diag["model"] != got["model"] {
+			t.Errorf("calibration %s: model %v, fit model %v, diagnostics model %v; want one word of %v",
+				cal.ID, got["model"], fitModel, diag["model"], models)
+		}
+		if n := len(e.do(http.MethodGet, withQuery("/v1/calibrations", "model", fmt.Sprint(got["model"])), "auditor", nil).items(t)); n != 1 {
+			t.Errorf("calibrations ?model=%v: %d, want 1", got["model"], n)
+		}
+	}
+
+	// The Lesnewich fit's coefficients, pasted as they come into a prediction,
+	// in either unit set, give one melting rate.
+	lesRead := e.do(http.MethodGet, "/v1/calibrations/"+les.ID, "auditor", nil).object(t)
+	melting := lesRead["fit"].(map[string]any)["melting"].(map[string]any)
+	setting := map[string]any{"current_a": 180.0, "voltage_v": 21.0, "travel_speed_mm_s": 5.0, "ctwd_mm": 15.0, "arc_length_mm": 3.5}
+	rates := map[string]float64{}
+	for name, keys := range map[string][]string{"metric": {"alpha_kg_h_a", "beta_kg_h_a2_mm"}, "inch": {"alpha_lb_h_a", "beta_lb_h_a2_in"}} {
+		b := clone(setting)
+		b["lesnewich"] = map[string]any{keys[0]: melting[keys[0]], keys[1]: melting[keys[1]]}
+		p := e.predictAs(b)
+		if p.Lesnewich == nil {
+			t.Fatalf("prediction with the fit's %s coefficients has no Lesnewich answer", name)
+		}
+		rates[name] = p.Lesnewich.MeltingRateKgH
+	}
+	if !relClose(rates["inch"], rates["metric"], 1e-9) {
+		t.Errorf("melting rate from the fit's metric coefficients %v kg/h, from its inch ones %v kg/h; want equal", rates["metric"], rates["inch"])
+	}
+	// A stored sample's fields and a prediction's echoed inputs are request fields.
+	sample := e.do(http.MethodGet, "/v1/calibrations/"+fixed.ID, "auditor", nil).object(t)["samples"].(map[string]any)["penetration"].([]any)[0].(map[string]any)
+	b := map[string]any{}
+	for _, k := range []string{"current_a", "voltage_v", "travel_speed_mm_s"} {
+		b[k] = sample[k]
+	}
+	r := e.do(http.MethodPost, "/v1/predictions", "auditor", b)
+	if r.status != http.StatusOK {
+		t.Errorf("prediction from a stored sample's fields %v = %d %s", b, r.status, r.body)
+	}
+	inputs := r.object(t)["inputs"]
+	if back := e.do(http.MethodPost, "/v1/predictions", "auditor", inputs); back.status != http.StatusOK {
+		t.Errorf("prediction inputs %v sent back = %d %s", inputs, back.status, back.body)
+	}
+	// A request's K is the published-exponent law: jackson_fixed.
+	withK := clone(setting)
+	withK["jackson_k"] = map[string]any{"value": 0.025, "units": "metric"}
+	if p := e.predictAs(withK); p.Penetration.Model != "jackson_fixed" || p.Penetration.Source != "request" {
+		t.Errorf("prediction with a request K: model %q source %q, want jackson_fixed from the request", p.Penetration.Model, p.Penetration.Source)
+	}
+
+	// No name in the document, nor in these answers, uses another style.
+	var names []string
+	var walk func(v any)
+	walk = func(v any) {
+		switch x := v.(type) {
+		case map[string]any:
+			for k, c := range x {
+				names = append(names, k)
+				walk(c)
+			}
+		case []any:
+			for _, c := range x {
+				walk(c)
+			}
+		}
+	}
+	walk(lesRead)
+	walk(e.do(http.MethodGet, "/v1/calibrations/"+free.ID, "auditor", nil).object(t))
+	spec := loadSpec(t)
+	for name, s := range spec.Components.Schemas {
+		for prop := range s.Value.Properties {
+			names = append(names, name+"."+prop)
+		}
+	}
+	for _, n := range names {
+		if strings.Contains(n, "_per_") || strings.Contains(n, "_exponents") && !strings.HasSuffix(n, "exponents") {
+			t.Errorf("name %s spells a unit or model in another style (want e.g. alpha_kg_h_a, travel_speed_mm_s, jackson_fixed)", n)
+		}
 	}
 }

@@ -37,10 +37,10 @@ func (s *Server) handleCouponList(c echo.Context) error {
 	if f.QualificationRecordID, err = queryUUID(c, "qualification_record_id"); err != nil {
 		return err
 	}
-	if f.WeldedFrom, err = queryDate(c, "welded_from"); err != nil {
+	if f.WeldedFrom, err = queryDay(c, "welded_from"); err != nil {
 		return err
 	}
-	if f.WeldedTo, err = queryDate(c, "welded_to"); err != nil {
+	if f.WeldedTo, err = queryDay(c, "welded_to"); err != nil {
 		return err
 	}
 	p, err := s.store.Coupons(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)

@@ -102,7 +102,7 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 		return renamed(err, jacksonFieldNames)
 	}
 	po := &out.Penetration
-	po.Source, po.Model = sourceRequest, "jackson"
+	po.Source, po.Model = sourceRequest, string(predict.ModelJacksonFixed)
 	if cal != nil {
 		po.Source, po.Model, po.CalibrationID = sourceCalibration, string(db.CalibrationJacksonFixed), &cal.ID
 	}

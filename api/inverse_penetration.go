@@ -93,7 +93,7 @@ func (s *Server) handleInverseHold(c echo.Context) error {
 		return err
 	}
 	out := holdOut{hold: h, NewTravelSpeedIPM: predict.MMPerSToInPerMin(h.NewTravelSpeedMMPerS), Caution: predictionCaution,
-		PenetrationSource: sourceCalibration, PenetrationModel: "jackson", Note: holdNote,
+		PenetrationSource: sourceCalibration, PenetrationModel: string(predict.ModelJacksonFixed), Note: holdNote,
 		Exponents: exponentsOut{predict.JacksonCurrentExponent, predict.JacksonTravelExponent, predict.JacksonVoltageExponent}}
 	var i2 float64
 	if free != nil && free.Fit.Penetration != nil {

@@ -92,20 +92,3 @@ func (s *Server) handleProductionList(c echo.Context) error {
 	}
 	return c.JSON(http.StatusOK, pageOf(p))
 }
-
-// queryTime reads an optional time: a day (YYYY-MM-DD, midnight UTC) or an
-// RFC 3339 timestamp.
-func queryTime(c echo.Context, name string) (*time.Time, error) {
-	v := c.QueryParam(name)
-	if v == "" {
-		return nil, nil
-	}
-	if d, err := db.ParseDate(v); err == nil {
-		return &d.Time, nil
-	}
-	t, err := time.Parse(time.RFC3339, v)
-	if err != nil {
-		return nil, badRequest(name, "want a day YYYY-MM-DD or an RFC 3339 timestamp")
-	}
-	return &t, nil
-}

@@ -32,11 +32,11 @@ func (s *Server) handleQualificationRecordList(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	from, err := queryDate(c, "welded_from")
+	from, err := queryDay(c, "welded_from")
 	if err != nil {
 		return err
 	}
-	to, err := queryDate(c, "welded_to")
+	to, err := queryDay(c, "welded_to")
 	if err != nil {
 		return err
 	}

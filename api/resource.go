@@ -7,6 +7,7 @@ import (
 	"net/http"
 	"strconv"
 	"strings"
+	"time"
 
 	"github.com/google/uuid"
 	"github.com/labstack/echo/v4"
@@ -214,15 +215,35 @@ func queryUUID(c echo.Context, name string) (*uuid.UUID, error) {
 	return &id, nil
 }
 
-// queryDate reads an optional YYYY-MM-DD query parameter.
-func queryDate(c echo.Context, name string) (*db.Date, error) {
-	s := c.QueryParam(name)
-	if s == "" {
+// queryTime reads an optional time filter bound: a day (YYYY-MM-DD, its
+// midnight UTC) or an RFC 3339 time. Every time filter is half-open,
+// [from, to): from is included, to is not.
+func queryTime(c echo.Context, name string) (*time.Time, error) {
+	v := c.QueryParam(name)
+	if v == "" {
 		return nil, nil
 	}
-	d, err := db.ParseDate(s)
+	if d, err := db.ParseDate(v); err == nil {
+		return &d.Time, nil
+	}
+	t, err := time.Parse(time.RFC3339, v)
 	if err != nil {
-		return nil, badRequest(name, err.Error())
+		return nil, badRequest(name, fmt.Sprintf("%q is not a day YYYY-MM-DD or an RFC 3339 time (e.g. 2026-11-03 or 2026-11-03T08:00:00Z)", v))
+	}
+	return &t, nil
+}
+
+// queryDay reads a time filter bound on a column of days: a day counts from
+// its midnight UTC, so a bound inside a day moves to the next midnight
+// (welded_to=2026-11-03T12:00Z includes 2026-11-03, welded_to=2026-11-03 does not).
+func queryDay(c echo.Context, name string) (*db.Date, error) {
+	t, err := queryTime(c, name)
+	if t == nil || err != nil {
+		return nil, err
+	}
+	d := db.DateOf(t.UTC())
+	if d.Before(*t) {
+		d = db.Date{Time: d.AddDate(0, 0, 1)}
 	}
 	return &d, nil
 }

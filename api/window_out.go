@@ -157,7 +157,7 @@ func (s *Server) windowPenetration(c echo.Context, g *db.CalibrationGroup, w *wi
 		return badRequest("jackson_k", "is required with min_penetration: give it, or the group of an active jackson_free or jackson_fixed calibration")
 	}
 	w.in.Penetration = &predict.PenetrationTarget{MinMM: *w.MinPenetrationMM, K: *k}
-	out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceRequest, "jackson", nil
+	out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceRequest, string(predict.ModelJacksonFixed), nil
 	if cal != nil {
 		out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceCalibration, string(cal.Model), &cal.ID
 	}

@@ -129,6 +129,7 @@ func (s *Store) CouponRevisions(ctx context.Context, site string, id uuid.UUID) 
 
 // CouponFilter selects coupons in a list. Acceptance "reject" keeps coupons
 // with at least one rejected section; "accept" keeps measured coupons with none.
+// Welding days are half-open: WeldedFrom included, WeldedTo not.
 type CouponFilter struct {
 	ProcedureID           *uuid.UUID
 	QualificationRecordID *uuid.UUID
@@ -167,7 +168,7 @@ func (s *Store) Coupons(ctx context.Context, site string, cf CouponFilter, curso
 		f.add("welded_on >= ?", *cf.WeldedFrom)
 	}
 	if cf.WeldedTo != nil {
-		f.add("welded_on <= ?", *cf.WeldedTo)
+		f.add("welded_on < ?", *cf.WeldedTo)
 	}
 	switch cf.Acceptance {
 	case "reject":

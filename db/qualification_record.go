@@ -118,7 +118,8 @@ func (s *Store) QualificationRecordRevisions(ctx context.Context, site string, i
 	return revisions[QualificationRecord](ctx, s, qualificationRecords, site, id)
 }
 
-// QualificationRecordFilter selects PQRs in a list.
+// QualificationRecordFilter selects PQRs in a list; welding days are
+// half-open (WeldedFrom included, WeldedTo not).
 type QualificationRecordFilter struct {
 	Process       string
 	WelderID      string
@@ -147,7 +148,7 @@ func (s *Store) QualificationRecords(ctx context.Context, site string, qf Qualif
 		f.add("welded_on >= ?", *qf.WeldedFrom)
 	}
 	if qf.WeldedTo != nil {
-		f.add("welded_on <= ?", *qf.WeldedTo)
+		f.add("welded_on < ?", *qf.WeldedTo)
 	}
 	return listCurrent[QualificationRecord](ctx, s, qualificationRecords, site, f, cursor, limit)
 }

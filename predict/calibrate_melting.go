@@ -15,19 +15,19 @@ import (
 // of AlphaKgPerHA and BetaKgPerHA2MM.
 type MeltingFit struct {
 	Model                ModelKind `json:"model"`
-	AlphaKgPerHA         float64   `json:"alpha_kg_per_h_a"`
-	BetaKgPerHA2MM       float64   `json:"beta_kg_per_h_a2_mm"`
-	AlphaStdErrKgPerHA   float64   `json:"alpha_std_err_kg_per_h_a"`
-	BetaStdErrKgPerHA2MM float64   `json:"beta_std_err_kg_per_h_a2_mm"`
+	AlphaKgPerHA         float64   `json:"alpha_kg_h_a"`
+	BetaKgPerHA2MM       float64   `json:"beta_kg_h_a2_mm"`
+	AlphaStdErrKgPerHA   float64   `json:"alpha_std_err_kg_h_a"`
+	BetaStdErrKgPerHA2MM float64   `json:"beta_std_err_kg_h_a2_mm"`
 	// AlphaLbPerHA and BetaLbPerHA2In are α and β in inch-pound units
 	// (lb/(h·A), lb/(h·A²·in)), exact conversions of the two above; the
 	// standard errors convert by the same factors.
-	AlphaLbPerHA         float64     `json:"alpha_lb_per_h_a"`
-	BetaLbPerHA2In       float64     `json:"beta_lb_per_h_a2_in"`
-	AlphaStdErrLbPerHA   float64     `json:"alpha_std_err_lb_per_h_a"`
-	BetaStdErrLbPerHA2In float64     `json:"beta_std_err_lb_per_h_a2_in"`
+	AlphaLbPerHA         float64     `json:"alpha_lb_h_a"`
+	BetaLbPerHA2In       float64     `json:"beta_lb_h_a2_in"`
+	AlphaStdErrLbPerHA   float64     `json:"alpha_std_err_lb_h_a"`
+	BetaStdErrLbPerHA2In float64     `json:"beta_std_err_lb_h_a2_in"`
 	Cov                  [][]float64 `json:"cov"`
-	ResidualSDKgPerH     float64     `json:"residual_sd_kg_per_h"`
+	ResidualSDKgPerH     float64     `json:"residual_sd_kg_h"`
 	// R2Uncentered is 1 − RSS/Σ MRᵢ²: the model has no intercept.
 	R2Uncentered float64  `json:"r2_uncentered"`
 	N            int      `json:"n"`
@@ -40,11 +40,11 @@ type MeltingFit struct {
 // one new measurement, all in kg/h, at Level.
 type MeltingRateInterval struct {
 	Level          float64 `json:"level"`
-	MeanKgPerH     float64 `json:"mean_kg_per_h"`
-	MeanLowKgPerH  float64 `json:"mean_low_kg_per_h"`
-	MeanHighKgPerH float64 `json:"mean_high_kg_per_h"`
-	PredLowKgPerH  float64 `json:"pred_low_kg_per_h"`
-	PredHighKgPerH float64 `json:"pred_high_kg_per_h"`
+	MeanKgPerH     float64 `json:"mean_kg_h"`
+	MeanLowKgPerH  float64 `json:"mean_low_kg_h"`
+	MeanHighKgPerH float64 `json:"mean_high_kg_h"`
+	PredLowKgPerH  float64 `json:"pred_low_kg_h"`
+	PredHighKgPerH float64 `json:"pred_high_kg_h"`
 }
 
 // FitMeltingRate fits the Lesnewich coefficients α (kg/(h·A)) and β
