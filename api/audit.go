@@ -49,6 +49,8 @@ func (s *Server) handleAuditEvents(c echo.Context) error {
 	if len(ev) == limit {
 		page.Next = strconv.FormatInt(ev[len(ev)-1].Seq, 10)
 	}
+	// Payloads are the records exactly as stored and hashed: no rounding.
+	c.Set(ctxVerbatim, true)
 	return c.JSON(http.StatusOK, page)
 }
 

@@ -47,8 +47,14 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 	}
 	route := &routers.Route{Spec: s.spec, Path: sp, PathItem: item, Method: method, Operation: item.GetOperation(method)}
 	opts := &openapi3filter.Options{MultiError: true, AuthenticationFunc: openapi3filter.NoopAuthenticationFunc, ExcludeResponseBody: true}
+	units := item.Parameters.GetByInAndName(openapi3.ParameterInQuery, "units") != nil ||
+		route.Operation.Parameters.GetByInAndName(openapi3.ParameterInQuery, "units") != nil
 	return func(next echo.HandlerFunc) echo.HandlerFunc {
 		return func(c echo.Context) error {
+			if units {
+				// Checked against the parameter's enum below; read by jsonAnswer.
+				c.Set(ctxUnits, c.QueryParam("units"))
+			}
 			params := map[string]string{}
 			for _, n := range c.ParamNames() {
 				params[n] = c.Param(n)
