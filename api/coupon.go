@@ -76,7 +76,7 @@ func (s *Server) handleCouponList(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	f := db.CouponFilter{WelderID: c.QueryParam("welder_id"), Acceptance: c.QueryParam("acceptance"),
+	f := db.CouponFilter{WelderID: c.QueryParam("welder_id"), CouponMark: c.QueryParam("coupon_mark"), Acceptance: c.QueryParam("acceptance"),
 		IncludeVoided: c.QueryParam("include_voided") == "true"}
 	if f.ProcedureID, err = queryUUID(c, "procedure_id"); err != nil {
 		return err
@@ -84,10 +84,10 @@ func (s *Server) handleCouponList(c echo.Context) error {
 	if f.QualificationRecordID, err = queryUUID(c, "qualification_record_id"); err != nil {
 		return err
 	}
-	if f.WeldedFrom, err = queryDate(c, "welded_from"); err != nil {
+	if f.WeldedFrom, err = queryDay(c, "welded_from"); err != nil {
 		return err
 	}
-	if f.WeldedTo, err = queryDate(c, "welded_to"); err != nil {
+	if f.WeldedTo, err = queryDay(c, "welded_to"); err != nil {
 		return err
 	}
 	p, err := s.store.Coupons(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)

@@ -52,7 +52,7 @@ func newEnv(tb testing.TB) *testEnv {
 		if err != nil {
 			tb.Fatal(err)
 		}
-		if err := store.PutUser(context.Background(), db.User{Site: e.site, Name: userName(role), Role: role}, tok); err != nil {
+		if err := dbtest.Owner(tb).PutUser(context.Background(), db.User{Site: e.site, Name: userName(role), Role: role}, tok); err != nil {
 			tb.Fatalf("PutUser(%s): %v", role, err)
 		}
 		e.tokens[role] = tok
@@ -81,7 +81,13 @@ func (e *testEnv) pqr() string { return e.shared("pqr", e.mustQualificationRecor
 func (e *testEnv) procedure() string { return e.shared("procedure", e.mustProcedure) }
 
 func (e *testEnv) coupon() string {
-	return e.shared("coupon", func() string { return e.mustCoupon(e.procedure()) })
+	// 60 mm plate, so that every plausible penetration (up to 50 mm) fits
+	// under its base-metal thickness in the measurement validation tables.
+	return e.shared("coupon", func() string {
+		b := couponBody(e.procedure(), "", uniq("C"))
+		b["thickness_mm"] = 60.0
+		return e.create("/v1/coupons", "technician", b)["id"].(string)
+	})
 }
 
 // testWriter sends the server's error log lines to the test log.

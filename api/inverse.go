@@ -37,13 +37,13 @@ type depositionInverseIn struct {
 
 // depositionInverse is the request in metric units, validated.
 type depositionInverse struct {
-	MeltingRateKgH       *float64     `json:"melting_rate_kg_h" validate:"omitempty,gt=0,lte=100"`
-	DepositionRateKgH    *float64     `json:"deposition_rate_kg_h" validate:"omitempty,gt=0,lte=100"`
-	DepositionEfficiency *float64     `json:"deposition_efficiency" validate:"omitempty,gt=0,lte=1"`
-	ExtensionMM          float64      `json:"extension_mm" validate:"gt=0,lte=50"`
-	WireDiameterMM       *float64     `json:"wire_diameter_mm" validate:"omitempty,gte=0.6,lte=4"`
+	MeltingRateKgH       *float64     `json:"melting_rate_kg_h" validate:"omitempty,quantity"`
+	DepositionRateKgH    *float64     `json:"deposition_rate_kg_h" validate:"omitempty,quantity"`
+	DepositionEfficiency *float64     `json:"deposition_efficiency" validate:"omitempty,quantity"`
+	ExtensionMM          float64      `json:"extension_mm" validate:"quantity"`
+	WireDiameterMM       *float64     `json:"wire_diameter_mm" validate:"omitempty,quantity"`
 	Lesnewich            *lesnewichIn `json:"lesnewich"`
-	Level                float64      `json:"level" validate:"gt=0,lt=1"`
+	Level                float64      `json:"level" validate:"quantity"`
 }
 
 func (in depositionInverseIn) metric() (depositionInverse, error) {
@@ -104,7 +104,7 @@ func (s *Server) handleInverseDeposition(c echo.Context) error {
 		return err
 	}
 	if les == nil {
-		return unprocessable(FieldIssue{"lesnewich", "is required: give the coefficients, or the group of an active lesnewich calibration"})
+		return badRequest("lesnewich", "is required: give the coefficients, or the group of an active lesnewich calibration")
 	}
 	var i float64
 	if q.MeltingRateKgH != nil {

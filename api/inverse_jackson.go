@@ -32,11 +32,11 @@ type penetrationInverseIn struct {
 // penetrationInverse is the request in metric units, validated.
 type penetrationInverse struct {
 	SolveFor          string      `json:"solve_for" validate:"required,oneof=current voltage travel_speed"`
-	PenetrationMM     float64     `json:"penetration_mm" validate:"required,gt=0,lte=50"`
-	CurrentA          *float64    `json:"current_a" validate:"omitempty,gte=10,lte=1000"`
-	VoltageV          *float64    `json:"voltage_v" validate:"omitempty,gte=5,lte=60"`
-	TravelSpeedMMPerS *float64    `json:"travel_speed_mm_s" validate:"omitempty,gte=0.5,lte=30"`
-	WireDiameterMM    *float64    `json:"wire_diameter_mm" validate:"omitempty,gte=0.6,lte=4"`
+	PenetrationMM     float64     `json:"penetration_mm" validate:"required,quantity"`
+	CurrentA          *float64    `json:"current_a" validate:"omitempty,quantity"`
+	VoltageV          *float64    `json:"voltage_v" validate:"omitempty,quantity"`
+	TravelSpeedMMPerS *float64    `json:"travel_speed_mm_s" validate:"omitempty,quantity"`
+	WireDiameterMM    *float64    `json:"wire_diameter_mm" validate:"omitempty,quantity"`
 	JacksonK          *jacksonKIn `json:"jackson_k"`
 }
 
@@ -101,14 +101,14 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 		return err
 	}
 	if k == nil {
-		return unprocessable(FieldIssue{"jackson_k", "is required: give it, or the group of an active jackson_fixed calibration"})
+		return badRequest("jackson_k", "is required: give it, or the group of an active jackson_fixed calibration")
 	}
 	out := penetrationInverseOut{SolveFor: q.SolveFor, Notes: []string{}, Caution: predictionCaution}
 	if err := solveJackson(*k, q, &out); err != nil {
 		return renamed(err, jacksonFieldNames)
 	}
 	po := &out.Penetration
-	po.Source, po.Model = sourceRequest, "jackson"
+	po.Source, po.Model = sourceRequest, string(predict.ModelJacksonFixed)
 	if cal != nil {
 		po.Source, po.Model, po.CalibrationID = sourceCalibration, string(db.CalibrationJacksonFixed), &cal.ID
 	}
@@ -174,12 +174,11 @@ var freeFieldNames = map[string]string{
 func finishInverse(out *penetrationInverseOut) {
 	out.TravelSpeedInPerMin = predict.MMPerSToInPerMin(out.TravelSpeedMMPerS)
 	for _, b := range []struct {
-		name   string
-		v      float64
-		lo, hi float64
-	}{{"current_a", out.CurrentA, 10, 1000}, {"voltage_v", out.VoltageV, 5, 60}, {"travel_speed_mm_s", out.TravelSpeedMMPerS, 0.5, 30}} {
-		if b.v < b.lo || b.v > b.hi {
-			out.Notes = append(out.Notes, fmt.Sprintf("%s = %.4g is outside its plausible range %g–%g: no usual weld gives this penetration with the other two held", b.name, b.v, b.lo, b.hi))
+		name string
+		v    float64
+	}{{"current_a", out.CurrentA}, {"voltage_v", out.VoltageV}, {"travel_speed_mm_s", out.TravelSpeedMMPerS}} {
+		if q := predict.MustQuantity(b.name); !q.Inside(b.v) {
+			out.Notes = append(out.Notes, fmt.Sprintf("%s = %.4g is outside its plausible range %s: no usual weld gives this penetration with the other two held", b.name, b.v, q.BoundsText()))
 		}
 	}
 }

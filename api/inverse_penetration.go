@@ -30,12 +30,12 @@ type holdIn struct {
 
 // hold is the request in metric units, validated; it is also the answer's echo.
 type hold struct {
-	CurrentA             float64  `json:"current_a" validate:"required,gte=10,lte=1000"`
-	VoltageV             float64  `json:"voltage_v" validate:"required,gte=5,lte=60"`
-	NewVoltageV          float64  `json:"new_voltage_v" validate:"required,gte=5,lte=60"`
-	TravelSpeedMMPerS    float64  `json:"travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
-	NewTravelSpeedMMPerS float64  `json:"new_travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
-	WireDiameterMM       *float64 `json:"wire_diameter_mm,omitempty" validate:"omitempty,gte=0.6,lte=4"`
+	CurrentA             float64  `json:"current_a" validate:"required,quantity"`
+	VoltageV             float64  `json:"voltage_v" validate:"required,quantity"`
+	NewVoltageV          float64  `json:"new_voltage_v" validate:"required,quantity"`
+	TravelSpeedMMPerS    float64  `json:"travel_speed_mm_s" validate:"required,quantity"`
+	NewTravelSpeedMMPerS float64  `json:"new_travel_speed_mm_s" validate:"required,quantity"`
+	WireDiameterMM       *float64 `json:"wire_diameter_mm,omitempty" validate:"omitempty,quantity"`
 }
 
 func (in holdIn) metric() (hold, error) {
@@ -101,7 +101,7 @@ func (s *Server) handleInverseHold(c echo.Context) error {
 		return err
 	}
 	out := holdOut{hold: h, NewTravelSpeedIPM: predict.MMPerSToInPerMin(h.NewTravelSpeedMMPerS), Caution: predictionCaution,
-		PenetrationSource: sourceCalibration, PenetrationModel: "jackson", Note: holdNote,
+		PenetrationSource: sourceCalibration, PenetrationModel: string(predict.ModelJacksonFixed), Note: holdNote,
 		Exponents: exponentsOut{predict.JacksonCurrentExponent, predict.JacksonTravelExponent, predict.JacksonVoltageExponent}}
 	var i2 float64
 	if free != nil && free.Fit.Penetration != nil {

@@ -35,18 +35,18 @@ type predictionIn struct {
 // prediction is a what-if request in metric units, validated against the
 // plausible bounds of each quantity.
 type prediction struct {
-	CurrentA             float64      `json:"current_a" validate:"required,gte=10,lte=1000"`
-	VoltageV             float64      `json:"voltage_v" validate:"required,gte=5,lte=60"`
-	TravelSpeedMMPerS    float64      `json:"travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
-	WireFeedSpeedMPerMin *float64     `json:"wire_feed_speed_m_min,omitempty" validate:"omitempty,gte=0.5,lte=30"`
-	WireDiameterMM       *float64     `json:"wire_diameter_mm,omitempty" validate:"omitempty,gte=0.6,lte=4"`
-	CTWDMM               *float64     `json:"ctwd_mm,omitempty" validate:"omitempty,gte=3,lte=50"`
-	ArcLengthMM          *float64     `json:"arc_length_mm,omitempty" validate:"omitempty,gt=0,lte=50"`
-	DepositionEfficiency *float64     `json:"deposition_efficiency,omitempty" validate:"omitempty,gt=0,lte=1"`
+	CurrentA             float64      `json:"current_a" validate:"required,quantity"`
+	VoltageV             float64      `json:"voltage_v" validate:"required,quantity"`
+	TravelSpeedMMPerS    float64      `json:"travel_speed_mm_s" validate:"required,quantity"`
+	WireFeedSpeedMPerMin *float64     `json:"wire_feed_speed_m_min,omitempty" validate:"omitempty,quantity"`
+	WireDiameterMM       *float64     `json:"wire_diameter_mm,omitempty" validate:"omitempty,quantity"`
+	CTWDMM               *float64     `json:"ctwd_mm,omitempty" validate:"omitempty,quantity"`
+	ArcLengthMM          *float64     `json:"arc_length_mm,omitempty" validate:"omitempty,quantity"`
+	DepositionEfficiency *float64     `json:"deposition_efficiency,omitempty" validate:"omitempty,quantity"`
 	JacksonK             *jacksonKIn  `json:"jackson_k,omitempty"`
 	Lesnewich            *lesnewichIn `json:"lesnewich,omitempty"`
-	WaveformPowerRatio   *float64     `json:"waveform_power_ratio,omitempty" validate:"omitempty,gt=0,lte=10"`
-	Level                float64      `json:"level" validate:"gt=0,lt=1"`
+	WaveformPowerRatio   *float64     `json:"waveform_power_ratio,omitempty" validate:"omitempty,quantity"`
+	Level                float64      `json:"level" validate:"quantity"`
 }
 
 func (in predictionIn) metric() (prediction, error) {

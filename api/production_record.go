@@ -58,7 +58,7 @@ func (s *Server) productionRecords(in productionBatchIn) ([]db.ProductionRecordD
 		return nil, unprocessable(FieldIssue{"records", fmt.Sprintf("give 1 to %d records (got %d)", db.MaxProductionBatch, len(in.Records))})
 	}
 	out := make([]db.ProductionRecordData, len(in.Records))
-	status := http.StatusBadRequest
+	status := http.StatusUnprocessableEntity
 	var issues []FieldIssue
 	for i, r := range in.Records {
 		d, err := r.data()
@@ -67,7 +67,7 @@ func (s *Server) productionRecords(in productionBatchIn) ([]db.ProductionRecordD
 		}
 		var inv *invalidError
 		if errors.As(err, &inv) {
-			if inv.status == http.StatusUnprocessableEntity {
+			if inv.status == http.StatusBadRequest { // any shape issue makes the batch 400
 				status = inv.status
 			}
 			for _, is := range inv.issues {
@@ -124,21 +124,4 @@ func (s *Server) handleProductionList(c echo.Context) error {
 		return err
 	}
 	return c.JSON(http.StatusOK, pageOf(p))
-}
-
-// queryTime reads an optional time: a day (YYYY-MM-DD, midnight UTC) or an
-// RFC 3339 timestamp.
-func queryTime(c echo.Context, name string) (*time.Time, error) {
-	v := c.QueryParam(name)
-	if v == "" {
-		return nil, nil
-	}
-	if d, err := db.ParseDate(v); err == nil {
-		return &d.Time, nil
-	}
-	t, err := time.Parse(time.RFC3339, v)
-	if err != nil {
-		return nil, badRequest(name, "want a day YYYY-MM-DD or an RFC 3339 timestamp")
-	}
-	return &t, nil
 }

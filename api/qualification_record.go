@@ -45,6 +45,8 @@ type qualificationRecordIn struct {
 	TensileStrengthMPa    *float64 `json:"tensile_strength_mpa"`
 	Outcome               string   `json:"outcome"`
 	Remarks               string   `json:"remarks"`
+	MinPenetrationMM      *float64 `json:"min_penetration_mm"`
+	MinPenetrationIn      *float64 `json:"min_penetration_in"`
 }
 
 func (in qualificationRecordIn) data(echo.Context, *Server) (db.QualificationRecordData, error) {
@@ -66,6 +68,7 @@ func (in qualificationRecordIn) data(echo.Context, *Server) (db.QualificationRec
 		InterpassC:   u.opt(celsius("interpass_c", in.InterpassC), fahrenheit("interpass_f", in.InterpassF)),
 		VisualResult: in.VisualResult, BendResult: in.BendResult, TensileResult: in.TensileResult,
 		MacroResult: in.MacroResult, TensileStrengthMPa: in.TensileStrengthMPa, Outcome: in.Outcome, Remarks: in.Remarks,
+		MinPenetrationMM: u.opt(mm("min_penetration_mm", in.MinPenetrationMM), inch("min_penetration_in", in.MinPenetrationIn)),
 	}
 	return d, u.err()
 }
@@ -83,11 +86,11 @@ func (s *Server) handleQualificationRecordList(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	from, err := queryDate(c, "welded_from")
+	from, err := queryDay(c, "welded_from")
 	if err != nil {
 		return err
 	}
-	to, err := queryDate(c, "welded_to")
+	to, err := queryDay(c, "welded_to")
 	if err != nil {
 		return err
 	}

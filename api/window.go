@@ -74,18 +74,18 @@ type windowIn struct {
 // window is the request in metric units; ranges are checked by checkRanges.
 type window struct {
 	in                 predict.WindowInput
-	MinPenetrationMM   *float64    `json:"min_penetration_mm" validate:"omitempty,gt=0,lte=50"`
+	MinPenetrationMM   *float64    `json:"min_penetration_mm" validate:"omitempty,quantity"`
 	JacksonK           *jacksonKIn `json:"jackson_k"`
 	Deposition         *predict.Range
-	Efficiency         *float64     `json:"deposition_efficiency" validate:"omitempty,gt=0,lte=1"`
-	WireDiameterMM     *float64     `json:"wire_diameter_mm" validate:"omitempty,gte=0.6,lte=4"`
+	Efficiency         *float64     `json:"deposition_efficiency" validate:"omitempty,quantity"`
+	WireDiameterMM     *float64     `json:"wire_diameter_mm" validate:"omitempty,quantity"`
 	Lesnewich          *lesnewichIn `json:"lesnewich"`
-	MaxHeatInputJMM    *float64     `json:"max_heat_input_j_mm" validate:"omitempty,gt=0"`
-	ThermalEfficiency  *float64     `json:"thermal_efficiency" validate:"omitempty,gt=0,lte=1"`
-	WaveformPowerRatio *float64     `json:"waveform_power_ratio" validate:"omitempty,gt=0,lte=10"`
-	VoltageSteps       int          `json:"voltage_steps" validate:"gte=0,lte=25"`
-	TravelSpeedSteps   int          `json:"travel_speed_steps" validate:"gte=0,lte=25"`
-	ExtensionSteps     int          `json:"extension_steps" validate:"gte=0,lte=25"`
+	MaxHeatInputJMM    *float64     `json:"max_heat_input_j_mm" validate:"omitempty,quantity"`
+	ThermalEfficiency  *float64     `json:"thermal_efficiency" validate:"omitempty,quantity"`
+	WaveformPowerRatio *float64     `json:"waveform_power_ratio" validate:"omitempty,quantity"`
+	VoltageSteps       int          `json:"voltage_steps" validate:"quantity"`
+	TravelSpeedSteps   int          `json:"travel_speed_steps" validate:"quantity"`
+	ExtensionSteps     int          `json:"extension_steps" validate:"quantity"`
 }
 
 func kjPerMM(field string, v *float64) spelling { return spelling{field, v, predict.KJPerMMToJPerMM} }
@@ -126,21 +126,20 @@ func (in windowIn) metric() (window, error) {
 	return w, checkRanges(w.in, w.Deposition)
 }
 
-// checkRanges refuses a range outside the plausible bounds of its quantity
-// or with min above max (domain primer bounds).
+// checkRanges refuses a range outside the registered plausible bounds of
+// its quantity or with min above max.
 func checkRanges(in predict.WindowInput, dep *predict.Range) error {
 	var issues []FieldIssue
 	for _, r := range []struct {
-		field  string
-		r      *predict.Range
-		lo, hi float64
-	}{{"current_a", &in.CurrentA, 10, 1000}, {"voltage_v", &in.VoltageV, 5, 60},
-		{"travel_speed_mm_s", &in.TravelSpeedMMPerS, 0.5, 30}, {"wire_feed_speed_m_min", in.WireFeedSpeedMPerMin, 0.5, 30},
-		{"extension_mm", in.ExtensionMM, 1, 50}, {"deposition_rate_kg_h", dep, 1e-3, 100}} {
+		field string
+		r     *predict.Range
+	}{{"current_a", &in.CurrentA}, {"voltage_v", &in.VoltageV}, {"travel_speed_mm_s", &in.TravelSpeedMMPerS},
+		{"wire_feed_speed_m_min", in.WireFeedSpeedMPerMin}, {"extension_mm", in.ExtensionMM}, {"deposition_rate_kg_h", dep}} {
+		q := predict.MustQuantity(r.field)
 		switch {
 		case r.r == nil:
-		case r.r.Min < r.lo || r.r.Max > r.hi:
-			issues = append(issues, FieldIssue{r.field, fmt.Sprintf("min and max must lie within %g–%g (got %g–%g)", r.lo, r.hi, r.r.Min, r.r.Max)})
+		case !q.Inside(r.r.Min) || !q.Inside(r.r.Max):
+			issues = append(issues, FieldIssue{r.field, fmt.Sprintf("min and max must lie within %s (got %g–%g)", q.BoundsText(), r.r.Min, r.r.Max)})
 		case r.r.Min > r.r.Max:
 			issues = append(issues, FieldIssue{r.field + ".min", fmt.Sprintf("exceeds max (%g > %g)", r.r.Min, r.r.Max)})
 		}

@@ -69,7 +69,7 @@ func dropProcedureFlags(ctx context.Context, m Meta) step {
 }
 
 // recomputeCoupon rewrites one coupon's flags from its latest revision: none
-// when it is voided, names no procedure, or the procedure has no ranges.
+// when it is voided, names no procedure, or its procedure is voided.
 func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID) (int, error) {
 	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2`, site, id); err != nil {
 		return 0, err
@@ -84,6 +84,9 @@ func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string,
 	p, err := getRecord[Procedure](ctx, tx, procedures, site, *c.ProcedureID, 0)
 	if err != nil {
 		return 0, err
+	}
+	if p.Voided { // a voided procedure's records answer to nothing: no new flags
+		return 0, nil
 	}
 	pr, err := latestRanges(ctx, tx, site, p.ID, 0)
 	if errors.Is(err, ErrNotFound) { // no ranges yet: model flags only

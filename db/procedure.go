@@ -13,18 +13,18 @@ import (
 type ProcedureData struct {
 	Code                 string      `db:"code" json:"code" validate:"required,max=64"`
 	Title                string      `db:"title" json:"title" validate:"required,max=200"`
-	Process              string      `db:"process" json:"process" validate:"required,oneof=GMAW FCAW GTAW SMAW SAW"`
+	Process              string      `db:"process" json:"process" validate:"required,enum"`
 	FillerClassification string      `db:"filler_classification" json:"filler_classification" validate:"required,max=64"`
-	WireDiameterMM       float64     `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,gte=0.6,lte=4"`
+	WireDiameterMM       float64     `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,quantity"`
 	ShieldingGas         string      `db:"shielding_gas" json:"shielding_gas" validate:"max=64"`
-	Polarity             string      `db:"polarity" json:"polarity" validate:"required,oneof=DCEP DCEN AC"`
-	TransferMode         string      `db:"transfer_mode" json:"transfer_mode" validate:"omitempty,oneof=short_circuit globular spray pulsed_spray"`
+	Polarity             string      `db:"polarity" json:"polarity" validate:"required,enum"`
+	TransferMode         string      `db:"transfer_mode" json:"transfer_mode" validate:"omitempty,enum"`
 	Positions            []string    `db:"positions" json:"positions" validate:"required,min=1,dive,required,max=8"`
 	BaseMetalGroup       string      `db:"base_metal_group" json:"base_metal_group" validate:"required,max=64"`
-	ThicknessMinMM       float64     `db:"thickness_min_mm" json:"thickness_min_mm" validate:"required,gte=0.5,lte=300"`
-	ThicknessMaxMM       float64     `db:"thickness_max_mm" json:"thickness_max_mm" validate:"required,gte=0.5,lte=300,gtefield=ThicknessMinMM"`
-	MinPenetrationMM     *float64    `db:"min_penetration_mm" json:"min_penetration_mm,omitempty" validate:"omitempty,gt=0,lte=50"`
-	Status               string      `db:"status" json:"status" validate:"required,oneof=draft qualified superseded"`
+	ThicknessMinMM       float64     `db:"thickness_min_mm" json:"thickness_min_mm" validate:"required,quantity"`
+	ThicknessMaxMM       float64     `db:"thickness_max_mm" json:"thickness_max_mm" validate:"required,quantity,gtefield=ThicknessMinMM"`
+	MinPenetrationMM     *float64    `db:"min_penetration_mm" json:"min_penetration_mm,omitempty" validate:"omitempty,quantity"`
+	Status               string      `db:"status" json:"status" validate:"required,enum"`
 	SupportingRecordIDs  []uuid.UUID `db:"supporting_record_ids" json:"supporting_record_ids"`
 }
 

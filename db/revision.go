@@ -66,11 +66,22 @@ func (t table) writeRevision(ctx context.Context, m Meta, values []any) step {
 	}
 }
 
-// lockLatest locks the latest revision of a record and returns it.
+// lockRecord serialises the writes to one record until the transaction ends.
+// It is an advisory lock, not SELECT ... FOR UPDATE, because row locks need
+// UPDATE privilege and the service has none on record tables.
+func lockRecord(ctx context.Context, tx pgx.Tx, id uuid.UUID) error {
+	_, err := tx.Exec(ctx, "SELECT pg_advisory_xact_lock(hashtextextended('etchlog-record:' || $1::text, 0))", id)
+	return err
+}
+
+// lockLatest locks a record and returns its latest revision.
 func (t table) lockLatest(ctx context.Context, tx pgx.Tx, site string, id uuid.UUID) (rev int, voided bool, err error) {
+	if err := lockRecord(ctx, tx, id); err != nil {
+		return 0, false, err
+	}
 	q := "SELECT revision, voided FROM " + t.name + `
 		WHERE site = $1 AND id = $2
-		ORDER BY revision DESC LIMIT 1 FOR UPDATE`
+		ORDER BY revision DESC LIMIT 1`
 	err = tx.QueryRow(ctx, q, site, id).Scan(&rev, &voided)
 	if errors.Is(err, pgx.ErrNoRows) {
 		return 0, false, fmt.Errorf("%s %s: %w", t.entity, id, ErrNotFound)

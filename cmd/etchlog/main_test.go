@@ -161,7 +161,7 @@ func TestServe(t *testing.T) {
 	ctx, cancel := context.WithCancel(context.Background())
 	defer cancel()
 	token, _ := db.NewToken()
-	if err := store.PutUser(ctx, db.User{Site: site, Name: "tech", Role: db.RoleTechnician}, token); err != nil {
+	if err := dbtest.Owner(t).PutUser(ctx, db.User{Site: site, Name: "tech", Role: db.RoleTechnician}, token); err != nil {
 		t.Fatal(err)
 	}
 	proc, err := store.CreateProcedure(ctx, db.Actor{Site: site, Name: "eng", Role: db.RoleEngineer}, db.ProcedureData{
@@ -260,6 +260,14 @@ func TestDemo(t *testing.T) {
 		counts = append(counts, len(page.Items))
 		if status, _, body := get(t, r.base, "/v1/audit/verify", demoUsers[2].token); status != 200 || !bytes.Contains(body, []byte(`"ok":true`)) {
 			t.Errorf("run %d: audit verify = %d %s, want ok", i+1, status, body)
+		}
+		// The cold-lapped coupon TR-101-06 has sections under WPS-TR-101's 1 mm
+		// minimum: a requirement flag in plain words, not only a model flag.
+		if status, _, body := get(t, r.base, "/v1/flags?kind=requirement&limit=500", demoUsers[2].token); status != 200 ||
+			!bytes.Contains(body, []byte("mm that WPS-TR-101 rev 1 requires")) {
+			t.Errorf("run %d: requirement flags = %d %s, want one naming WPS-TR-101 rev 1", i+1, status, body)
+		} else if i == 0 {
+			t.Logf("requirement flags: %s", body)
 		}
 		cancel()
 		if err := r.stop(t); err != nil {
