@@ -2,6 +2,7 @@ package api_test
 
 import (
 	"context"
+	"math"
 	"reflect"
 	"strconv"
 
@@ -20,6 +21,10 @@ func answered(v float64) float64 {
 	}
 	return r
 }
+
+// to12Digits reports whether an answered number is want carried to 12
+// significant digits: within half a unit of the 12th digit.
+func to12Digits(got, want float64) bool { return math.Abs(got-want) <= 5e-12*math.Abs(want) }
 
 // answeredAll rounds every float64 reachable from ptr (structs, pointers,
 // slices, arrays) as answered does, so a whole expected value can be

@@ -88,11 +88,12 @@ func TestCalibrationFitThroughAPI(t *testing.T) {
 				if d := cmp.Diff(wantFit, got.Fit); d != "" {
 					t.Errorf("%s fit (-predict as answered +served):\n%s", name, d)
 				}
-				// Both coefficient forms: 1 lb = 0.45359237 kg, 1 in = 25.4 mm (NIST SP 811).
-				if m := got.Fit.Melting; m != nil && (!relClose(m.AlphaLbPerHA, m.AlphaKgPerHA/0.45359237, 1e-15) ||
-					!relClose(m.BetaLbPerHA2In, m.BetaKgPerHA2MM/0.45359237*25.4, 1e-15)) {
+				// Both coefficient forms: 1 lb = 0.45359237 kg, 1 in = 25.4 mm (NIST SP 811),
+				// converted from the stored fit and carried to 12 significant digits.
+				if m, s := got.Fit.Melting, stored.Melting; m != nil && s != nil && (!to12Digits(m.AlphaLbPerHA, s.AlphaKgPerHA/0.45359237) ||
+					!to12Digits(m.BetaLbPerHA2In, s.BetaKgPerHA2MM/0.45359237*25.4)) {
 					t.Errorf("%s inch-pound α, β = %v, %v, want %v, %v", name, m.AlphaLbPerHA, m.BetaLbPerHA2In,
-						m.AlphaKgPerHA/0.45359237, m.BetaKgPerHA2MM/0.45359237*25.4)
+						s.AlphaKgPerHA/0.45359237, s.BetaKgPerHA2MM/0.45359237*25.4)
 				}
 				if got.Diagnostics == nil {
 					t.Errorf("%s has no diagnostics", name)

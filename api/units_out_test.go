@@ -77,7 +77,7 @@ func TestUnitsOutRecords(t *testing.T) {
 	}
 	t.Run("ErrUnknownUnits", func(t *testing.T) {
 		r := e.do(http.MethodGet, "/v1/coupons?units=imperial", "auditor", nil)
-		wantProblem(t, "units=imperial", r, http.StatusBadRequest, "units")
+		wantProblem(t, "units=imperial", r, http.StatusUnprocessableEntity, "units")
 	})
 }
 
