@@ -1,6 +1,7 @@
 package api
 
 import (
+	"net/http"
 	"strings"
 
 	"etchlog/predict"
@@ -30,8 +31,11 @@ func inPerMin(field string, v *float64) spelling { return spelling{field, v, pre
 func mPerMin(field string, v *float64) spelling  { return spelling{field, v, same} }
 func wfsInPerMin(f string, v *float64) spelling  { return spelling{f, v, predict.InPerMinToMPerMin} }
 
-// units collects quantity conversions and the issues they raise.
-type units struct{ issues []FieldIssue }
+// units collects quantity conversions and the issues they raise: issues
+// about the request's shape, and refused values of the spellings other than
+// the stored one (named as sent, in the unit sent; the stored spelling is
+// checked with the rest of the record by Server.check).
+type units struct{ issues, refused []FieldIssue }
 
 // pick returns the quantity given in exactly one of its spellings, converted
 // into the stored unit, or nil when none is given (an issue if required).
@@ -59,6 +63,13 @@ func (u *units) pick(required bool, alts ...spelling) *float64 {
 		return nil
 	}
 	v := got.conv(*got.v)
+	if q, ok := predict.LookupQuantity(got.field); ok && got.field != q.Name {
+		if sp, ok := q.Spelling(got.field); ok {
+			if why := refusalIn(q, sp, *got.v, v); why != "" {
+				u.refused = append(u.refused, FieldIssue{got.field, why})
+			}
+		}
+	}
 	return &v
 }
 
@@ -73,10 +84,14 @@ func (u *units) req(alts ...spelling) float64 {
 	return 0
 }
 
-// err returns the collected issues as a 400 (they are about the request's shape).
+// err returns the collected issues: 400 when any is about the request's
+// shape, else 422 for the refused values.
 func (u *units) err() error {
-	if len(u.issues) == 0 {
-		return nil
+	switch {
+	case len(u.issues) > 0:
+		return &invalidError{status: http.StatusBadRequest, issues: append(u.issues, u.refused...)}
+	case len(u.refused) > 0:
+		return unprocessable(u.refused...)
 	}
-	return &invalidError{status: 400, issues: u.issues}
+	return nil
 }

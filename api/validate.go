@@ -170,7 +170,7 @@ func ruleReason(fe validator.FieldError, name func(string) string) string {
 		if !ok || !isNum {
 			return "is not a registered quantity"
 		}
-		return q.Refusal(v)
+		return storedRefusal(q, v)
 	case "enum":
 		e, ok := predict.LookupEnum(fe.Field())
 		if !ok {
