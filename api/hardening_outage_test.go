@@ -81,6 +81,11 @@ func freshEnv(t *testing.T) (*testEnv, string, *pgx.Conn, *lockedBuffer) {
 
 // send is one request without the test failure on 5xx that do adds.
 func (e *testEnv) send(method, path, role string, body any) (int, http.Header, []byte, error) {
+	return e.sendKey(method, path, role, "", body)
+}
+
+// sendKey is send with an Idempotency-Key ("" sends none).
+func (e *testEnv) sendKey(method, path, role, key string, body any) (int, http.Header, []byte, error) {
 	var rd *bytes.Reader
 	if body != nil {
 		js, _ := json.Marshal(body)
@@ -91,6 +96,9 @@ func (e *testEnv) send(method, path, role string, body any) (int, http.Header, [
 	req, _ := http.NewRequest(method, e.url+path, rd)
 	req.Header.Set("Content-Type", "application/json")
 	req.Header.Set("Authorization", "Bearer "+e.tokens[role])
+	if key != "" {
+		req.Header.Set("Idempotency-Key", key)
+	}
 	res, err := http.DefaultClient.Do(req)
 	if err != nil {
 		return 0, nil, nil, err
@@ -113,7 +121,8 @@ func (e *testEnv) send(method, path, role string, body any) (int, http.Header, [
 // must answer 503 problem+json with Retry-After (RFC 9110 section 10.2.3),
 // never another 5xx; once connections are allowed again the same server
 // recovers without a restart, and every write it acknowledged (201) is
-// readable and in the verified audit chain.
+// readable, stored once although writers resent it under its
+// Idempotency-Key, and in the verified audit chain.
 func TestDatabaseOutage(t *testing.T) {
 	e, name, admin, _ := freshEnv(t)
 	proc := e.procedure()
@@ -122,6 +131,7 @@ func TestDatabaseOutage(t *testing.T) {
 	var (
 		mu       sync.Mutex
 		acked    []string
+		marks    []string
 		statuses = map[int]int{}
 		phase    atomic.Int32 // 0 before, 1 cut off, 2 restored
 		during   = map[int]int{}
@@ -129,37 +139,49 @@ func TestDatabaseOutage(t *testing.T) {
 	)
 	stop := make(chan struct{})
 	var wg sync.WaitGroup
+	// Each writer records coupons one after another; a coupon answered 503
+	// or 409 (its key still held) is sent again, same body, same key, until
+	// it is acknowledged, as a careful client would.
 	for w := 0; w < 8; w++ {
 		wg.Add(1)
 		go func(w int) {
 			defer wg.Done()
 			for i := 0; ; i++ {
-				select {
-				case <-stop:
-					return
-				default:
-				}
-				p := phase.Load()
-				status, _, body, err := e.send(http.MethodPost, "/v1/coupons", "technician", couponBody(proc, "", fmt.Sprintf("OUT-%d-%d", w, i)))
-				if err != nil {
-					t.Errorf("writer %d: %v", w, err)
-					return
-				}
-				mu.Lock()
-				statuses[status]++
-				switch p {
-				case 1:
-					during[status]++
-				case 2:
-					after[status]++
-				}
-				if status == http.StatusCreated {
-					var rec struct{ ID string }
-					_ = json.Unmarshal(body, &rec)
-					acked = append(acked, rec.ID)
-				}
-				mu.Unlock()
-				if p == 1 {
+				mark := fmt.Sprintf("OUT-%d-%d", w, i)
+				body := couponBody(proc, "", mark)
+				for {
+					select {
+					case <-stop:
+						return
+					default:
+					}
+					p := phase.Load()
+					status, _, b, err := e.sendKey(http.MethodPost, "/v1/coupons", "technician", "key-"+mark, body)
+					if err != nil {
+						t.Errorf("writer %d: %v", w, err)
+						return
+					}
+					mu.Lock()
+					statuses[status]++
+					switch p {
+					case 1:
+						during[status]++
+					case 2:
+						after[status]++
+					}
+					if status == http.StatusCreated {
+						var rec struct{ ID string }
+						_ = json.Unmarshal(b, &rec)
+						acked = append(acked, rec.ID)
+						marks = append(marks, mark)
+					}
+					if status == http.StatusConflict && !strings.Contains(string(b), `"field":"Idempotency-Key"`) {
+						t.Errorf("writer %d: %s = 409 %s: written twice?", w, mark, b)
+					}
+					mu.Unlock()
+					if status == http.StatusCreated {
+						break
+					}
 					time.Sleep(20 * time.Millisecond) // a client backing off
 				}
 			}
@@ -221,8 +243,8 @@ func TestDatabaseOutage(t *testing.T) {
 
 	t.Logf("statuses: all %v; while cut off %v; after %v; acknowledged %d", statuses, during, after, len(acked))
 	for s := range statuses {
-		if s != http.StatusCreated && s != http.StatusServiceUnavailable {
-			t.Errorf("a writer got %d, want only 201 or 503", s)
+		if s != http.StatusCreated && s != http.StatusServiceUnavailable && s != http.StatusConflict {
+			t.Errorf("a writer got %d, want only 201, 503 or 409 (its key still held)", s)
 		}
 	}
 	if during[http.StatusServiceUnavailable] == 0 {
@@ -237,6 +259,12 @@ func TestDatabaseOutage(t *testing.T) {
 	for _, id := range acked {
 		if r := e.do(http.MethodGet, "/v1/coupons/"+id, "auditor", nil); r.status != http.StatusOK {
 			t.Errorf("acknowledged coupon %s = %d after the outage, want 200", id, r.status)
+		}
+	}
+	// Every mark sent (retries included) is stored exactly once.
+	for _, m := range marks {
+		if n := len(e.do(http.MethodGet, "/v1/coupons?coupon_mark="+m, "auditor", nil).items(t)); n != 1 {
+			t.Errorf("coupon %s stored %d times, want once", m, n)
 		}
 	}
 	r := e.do(http.MethodGet, "/v1/audit/verify", "auditor", nil)

@@ -130,6 +130,9 @@ func (s *Store) tx(ctx context.Context, fn func(tx pgx.Tx) error) error {
 	if err := fn(tx); err != nil {
 		return err
 	}
+	if err := markCommitted(ctx, tx); err != nil { // under an Idempotency-Key: only while the claim holds
+		return err
+	}
 	return tx.Commit(ctx)
 }
 
