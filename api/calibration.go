@@ -19,7 +19,6 @@ type calibrationIn struct {
 	Model          db.CalibrationModel `json:"model"`
 	Process        string              `json:"process"`
 	WireDiameterMM *float64            `json:"wire_diameter_mm"`
-	WireDiameterIn *float64            `json:"wire_diameter_in"`
 	ShieldingGas   string              `json:"shielding_gas"`
 	JointType      string              `json:"joint_type"`
 	WeldedFrom     *db.Date            `json:"welded_from"`
@@ -33,7 +32,7 @@ type calibrationIn struct {
 func (in calibrationIn) spec() (db.CalibrationSpec, error) {
 	var u units
 	sp := db.CalibrationSpec{Model: in.Model, Process: in.Process, ShieldingGas: in.ShieldingGas, JointType: in.JointType,
-		WireDiameterMM: u.req(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn)),
+		WireDiameterMM: u.req("wire_diameter_mm", in.WireDiameterMM),
 		WeldedFrom:     in.WeldedFrom, WeldedTo: in.WeldedTo, ProcedureID: in.ProcedureID, Level: defaultLevel,
 		ArcLengthMM: in.ArcLengthMM, Note: in.Note}
 	if in.Level != nil {

@@ -16,17 +16,13 @@ import (
 // its active jackson_fixed calibration, else the caller's K.
 type penetrationInverseIn struct {
 	groupFields
-	SolveFor            string      `json:"solve_for"`
-	PenetrationMM       *float64    `json:"penetration_mm"`
-	PenetrationIn       *float64    `json:"penetration_in"`
-	CurrentA            *float64    `json:"current_a"`
-	VoltageV            *float64    `json:"voltage_v"`
-	TravelSpeedMMPerS   *float64    `json:"travel_speed_mm_s"`
-	TravelSpeedMMPerMin *float64    `json:"travel_speed_mm_min"`
-	TravelSpeedInPerMin *float64    `json:"travel_speed_in_min"`
-	WireDiameterMM      *float64    `json:"wire_diameter_mm"`
-	WireDiameterIn      *float64    `json:"wire_diameter_in"`
-	JacksonK            *jacksonKIn `json:"jackson_k"`
+	SolveFor          string      `json:"solve_for"`
+	PenetrationMM     *float64    `json:"penetration_mm"`
+	CurrentA          *float64    `json:"current_a"`
+	VoltageV          *float64    `json:"voltage_v"`
+	TravelSpeedMMPerS *float64    `json:"travel_speed_mm_s"`
+	WireDiameterMM    *float64    `json:"wire_diameter_mm"`
+	JacksonK          *jacksonKIn `json:"jackson_k"`
 }
 
 // penetrationInverse is the request in metric units, validated.
@@ -43,9 +39,7 @@ type penetrationInverse struct {
 func (in penetrationInverseIn) metric() (penetrationInverse, error) {
 	var u units
 	q := penetrationInverse{SolveFor: in.SolveFor, CurrentA: in.CurrentA, VoltageV: in.VoltageV, JacksonK: in.JacksonK,
-		PenetrationMM:     u.req(mm("penetration_mm", in.PenetrationMM), inch("penetration_in", in.PenetrationIn)),
-		TravelSpeedMMPerS: u.opt(mmPerS("travel_speed_mm_s", in.TravelSpeedMMPerS), mmPerMin("travel_speed_mm_min", in.TravelSpeedMMPerMin), inPerMin("travel_speed_in_min", in.TravelSpeedInPerMin)),
-		WireDiameterMM:    u.opt(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn)),
+		PenetrationMM: u.req("penetration_mm", in.PenetrationMM), TravelSpeedMMPerS: in.TravelSpeedMMPerS, WireDiameterMM: in.WireDiameterMM,
 	}
 	for _, v := range []struct {
 		name  string

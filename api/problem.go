@@ -335,6 +335,9 @@ func errorHandler(log *slog.Logger) echo.HTTPErrorHandler {
 			return
 		}
 		p := problemFor(err)
+		if sent, ok := c.Get(sentKey).(sentAs); ok {
+			sent.reword(p.Errors)
+		}
 		p.bound()
 		p.Instance = c.Request().URL.Path
 		p.RequestID = c.Response().Header().Get(echo.HeaderXRequestID)

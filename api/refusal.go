@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"strconv"
+	"strings"
 
 	"etchlog/predict"
 )
@@ -66,4 +67,44 @@ func roundTo(v float64, n int) float64 {
 		return v
 	}
 	return f
+}
+
+// sentAs records, by stored field path (ctwd_mm, records[2].ctwd_mm), the
+// spelling and number a quantity was sent in when that was another spelling.
+type sentAs map[string]sentValue
+
+// sentValue is one quantity as the request spelt it.
+type sentValue struct {
+	field string
+	value float64
+}
+
+// sentKey is where bind leaves a request's sentAs on the echo context.
+const sentKey = "etchlog.sentAs"
+
+// reword turns the refusals of rewritten quantities back into the words the
+// request used: wire_diameter_mm 22.86 → wire_diameter_in 0.9 in.
+func (s sentAs) reword(issues []FieldIssue) {
+	for i, is := range issues {
+		v, ok := s[is.Field]
+		if !ok {
+			continue
+		}
+		name := is.Field[strings.LastIndex(is.Field, ".")+1:]
+		if j := strings.LastIndex(name, "]."); j >= 0 {
+			name = name[j+2:]
+		}
+		sentName := v.field[strings.LastIndex(v.field, ".")+1:]
+		q, ok := predict.LookupQuantity(name)
+		if !ok {
+			continue
+		}
+		sp, ok := q.Spelling(sentName)
+		if !ok {
+			continue
+		}
+		if why := refusalIn(q, sp, v.value, sp.ToStored(v.value)); why != "" {
+			issues[i] = FieldIssue{v.field, why}
+		}
+	}
 }

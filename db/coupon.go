@@ -79,6 +79,7 @@ func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon
 	}
 	if err := s.write(ctx, "create coupon",
 		c.checkLinks(ctx, a.Site),
+		claimMark(ctx, couponMark, a.Site, m.ID, c.CouponMark),
 		coupons.writeRevision(ctx, m, c.values()),
 		logged(ctx, coupons, m, actionCreate),
 		couponFlags(ctx, m),
@@ -94,6 +95,7 @@ func (s *Store) CorrectCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Cha
 	if err := s.write(ctx, "correct coupon "+id.String(),
 		coupons.baseIs(ctx, a.Site, id, ch),
 		c.checkLinks(ctx, a.Site),
+		claimMark(ctx, couponMark, a.Site, m.ID, c.CouponMark),
 		coupons.writeRevision(ctx, m, c.values()),
 		logged(ctx, coupons, m, actionCorrect),
 		couponFlags(ctx, m),

@@ -127,6 +127,8 @@ func mapError(err error) error {
 		return err
 	}
 	switch pg.Code {
+	case "40P01", "40001": // deadlock or serialization failure: two writes crossed; the client may retry
+		return fmt.Errorf("%w: a concurrent write got in the way; retry", ErrConflict)
 	case "23505": // unique_violation
 		if pg.ConstraintName == "measurements_section_per_coupon" { // the trigger names the existing section
 			if id, err := uuid.Parse(pg.Detail); err == nil {

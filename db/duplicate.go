@@ -10,10 +10,10 @@ import (
 	"github.com/jackc/pgx/v5"
 )
 
-// couponByMark returns the id of the coupon created with mark at the site.
+// couponByMark returns the id of the coupon whose current revision has mark at the site.
 func couponByMark(ctx context.Context, q querier, site, mark string) (uuid.UUID, error) {
 	var id uuid.UUID
-	err := q.QueryRow(ctx, `SELECT id FROM coupons WHERE site = $1 AND coupon_mark = $2 AND revision = 1`, site, mark).Scan(&id)
+	err := q.QueryRow(ctx, `SELECT record_id FROM current_marks WHERE site = $1 AND kind = 'coupon_mark' AND mark = $2`, site, mark).Scan(&id)
 	if errors.Is(err, pgx.ErrNoRows) {
 		return uuid.Nil, ErrNotFound
 	}
@@ -23,7 +23,8 @@ func couponByMark(ctx context.Context, q querier, site, mark string) (uuid.UUID,
 // duplicateMark turns a failed coupon create into a DuplicateError naming the
 // coupon that holds the mark, when that is why it failed.
 func (s *Store) duplicateMark(ctx context.Context, site, mark string, err error) error {
-	if !errors.Is(err, ErrConflict) {
+	var dup *DuplicateError
+	if !errors.Is(err, ErrConflict) || errors.As(err, &dup) { // claimMark names the holder already
 		return err
 	}
 	id, lerr := couponByMark(ctx, s.pool, site, mark)
