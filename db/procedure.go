@@ -70,7 +70,7 @@ func (s *Store) CreateProcedure(ctx context.Context, a Actor, p ProcedureData) (
 		procedures.writeRevision(ctx, m, recordValues(p)),
 		logged(ctx, procedures, m, actionCreate),
 	); err != nil {
-		return Procedure{}, err
+		return Procedure{}, s.duplicateKey(ctx, procedures, "code", a.Site, p.Code, err)
 	}
 	return Procedure{m, p}, nil
 }

@@ -63,7 +63,7 @@ func (s *Store) CreateQualificationRecord(ctx context.Context, a Actor, q Qualif
 		qualificationRecords.writeRevision(ctx, m, recordValues(q)),
 		logged(ctx, qualificationRecords, m, actionCreate),
 	); err != nil {
-		return QualificationRecord{}, err
+		return QualificationRecord{}, s.duplicateKey(ctx, qualificationRecords, "record_number", a.Site, q.RecordNumber, err)
 	}
 	return QualificationRecord{m, q}, nil
 }
