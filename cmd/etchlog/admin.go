@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"flag"
 	"fmt"
 	"io"
 	"slices"
@@ -13,15 +12,21 @@ import (
 
 // cmdMigrate applies (up) or rolls back (down) the embedded migrations.
 func cmdMigrate(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
-	c, err := parse("migrate", args, getenv, stderr, nil)
-	if err != nil {
+	c := defaults(getenv)
+	fs := newFlagSet("migrate", "migrate [flags] up|down",
+		"Applies (up, the default) or rolls back (down) every embedded database migration.")
+	c.databaseFlag(fs)
+	if err := parseFlags(fs, args, stdout, stderr); err != nil {
 		return err
 	}
-	rest := []string{"up"}
-	if len(args) > 0 && !slices.Contains([]string{"-h", "--help"}, args[len(args)-1]) {
-		rest = args[len(args)-1:]
+	dir := "up"
+	switch fs.NArg() {
+	case 0:
+	case 1:
+		dir = fs.Arg(0)
+	default:
+		return fmt.Errorf("migrate: want one direction, up or down, got %q", fs.Args())
 	}
-	dir := rest[0]
 	if dir != "up" && dir != "down" {
 		return fmt.Errorf("migrate: want up or down, got %q", dir)
 	}
@@ -41,19 +46,35 @@ func cmdMigrate(ctx context.Context, args []string, getenv func(string) string, 
 	return nil
 }
 
+// userUsage is the usage of "etchlog user" without a known subcommand.
+const userUsage = `usage: etchlog user add -name NAME -role technician|engineer|auditor [-site SITE] [flags]
+
+Creates or replaces an API user and prints its token once.
+Run "etchlog user add -h" for the flags.`
+
 // cmdUser creates or replaces an API user and prints the new token once.
 func cmdUser(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
+	if len(args) > 0 && slices.Contains([]string{"-h", "-help", "--help", "help"}, args[0]) {
+		fmt.Fprintln(stdout, userUsage)
+		return nil
+	}
 	if len(args) == 0 || args[0] != "add" {
-		return fmt.Errorf("user: want \"user add -name NAME -role technician|engineer|auditor [-site SITE]\"")
+		fmt.Fprintln(stderr, userUsage)
+		return fmt.Errorf("user: want \"user add\"")
 	}
 	var name, role, site string
-	c, err := parse("user add", args[1:], getenv, stderr, func(fs *flag.FlagSet) {
-		fs.StringVar(&name, "name", "", "user name (required)")
-		fs.StringVar(&role, "role", "", "technician, engineer or auditor (required)")
-		fs.StringVar(&site, "site", "main", "site (tenant) the user belongs to")
-	})
-	if err != nil {
+	c := defaults(getenv)
+	fs := newFlagSet("user add", "user add -name NAME -role technician|engineer|auditor [-site SITE] [flags]",
+		"Creates or replaces an API user and prints its token once (only its SHA-256 is stored).")
+	fs.StringVar(&name, "name", "", "user name (required)")
+	fs.StringVar(&role, "role", "", "technician, engineer or auditor (required)")
+	fs.StringVar(&site, "site", "main", "site (tenant) the user belongs to")
+	c.databaseFlag(fs)
+	if err := parseFlags(fs, args[1:], stdout, stderr); err != nil {
 		return err
+	}
+	if fs.NArg() > 0 {
+		return fmt.Errorf("user add: unexpected argument %q", fs.Arg(0))
 	}
 	if name == "" || !slices.Contains([]string{db.RoleTechnician, db.RoleEngineer, db.RoleAuditor}, role) {
 		return fmt.Errorf("user add: -name is required and -role must be technician, engineer or auditor")
