@@ -11,6 +11,7 @@ import (
 	"fmt"
 	"time"
 
+	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgxpool"
 )
@@ -82,9 +83,10 @@ func mapError(err error) error {
 		return err
 	}
 	switch pg.Code {
-	case "23505": // unique_violation
+	case pgerrcode.UniqueViolation:
 		return fmt.Errorf("%w: %s", ErrConflict, pg.ConstraintName)
-	case "23514", "23502", "23503", "22007", "22008", "22P02": // check, not null, fk, bad date/time/text
+	case pgerrcode.CheckViolation, pgerrcode.NotNullViolation, pgerrcode.ForeignKeyViolation,
+		pgerrcode.InvalidDatetimeFormat, pgerrcode.DatetimeFieldOverflow, pgerrcode.InvalidTextRepresentation:
 		field := pg.ColumnName
 		if field == "" {
 			field = pg.ConstraintName
