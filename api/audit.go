@@ -2,8 +2,6 @@ package api
 
 import (
 	"net/http"
-	"strconv"
-	"time"
 
 	"github.com/labstack/echo/v4"
 
@@ -16,24 +14,19 @@ func (s *Server) handleAuditEvents(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	var after int64
-	if a := c.QueryParam("cursor"); a != "" {
-		if after, err = strconv.ParseInt(a, 10, 64); err != nil || after < 0 {
-			return badRequest("cursor", "not a cursor returned by this list")
-		}
+	after, err := db.AfterSeq("audit_events", c.QueryParam("cursor"))
+	if err != nil {
+		return err
 	}
 	f := db.AuditFilter{Entity: c.QueryParam("entity"), Actor: c.QueryParam("actor")}
 	if f.EntityID, err = queryUUID(c, "entity_id"); err != nil {
 		return err
 	}
-	for name, dst := range map[string]**time.Time{"from": &f.From, "to": &f.To} {
-		if v := c.QueryParam(name); v != "" {
-			t, err := time.Parse(time.RFC3339, v)
-			if err != nil {
-				return badRequest(name, "want an RFC 3339 time, e.g. 2026-11-03T08:00:00Z")
-			}
-			*dst = &t
-		}
+	if f.From, err = queryTime(c, "from"); err != nil {
+		return err
+	}
+	if f.To, err = queryTime(c, "to"); err != nil {
+		return err
 	}
 	if limit <= 0 || limit > db.MaxPageSize {
 		limit = db.MaxPageSize
@@ -47,8 +40,10 @@ func (s *Server) handleAuditEvents(c echo.Context) error {
 		page.Items = []db.AuditEvent{}
 	}
 	if len(ev) == limit {
-		page.Next = strconv.FormatInt(ev[len(ev)-1].Seq, 10)
+		page.Next = db.SeqCursor("audit_events", ev[len(ev)-1].Seq)
 	}
+	// Payloads are the records exactly as stored and hashed: no rounding.
+	c.Set(ctxVerbatim, true)
 	return c.JSON(http.StatusOK, page)
 }
 

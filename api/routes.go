@@ -72,6 +72,7 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/calibrations", s.handleCalibrationList, readers},
 		{http.MethodGet, "/v1/calibrations/:id", s.handleCalibrationGet, readers},
 		{http.MethodPost, "/v1/calibrations/:id/activate", s.handleCalibrationActivate, engineers},
+		{http.MethodPost, "/v1/calibrations/:id/deactivate", s.handleCalibrationActivate, engineers},
 		{http.MethodGet, "/v1/coupons/:id/model", s.handleCouponModel, readers},
 		{http.MethodPost, "/v1/inverse/current-for-deposition", s.handleInverseDeposition, readers},
 		{http.MethodPost, "/v1/inverse/hold-penetration", s.handleInverseHold, readers},
@@ -86,6 +87,9 @@ func (s *Server) routes() error {
 		mw := []echo.MiddlewareFunc{conform}
 		if r.roles != nil {
 			mw = []echo.MiddlewareFunc{s.requireRole(r.roles), conform}
+		}
+		if r.method == http.MethodPost && creates(s.spec.Paths.Find(specPath(r.path)).GetOperation(r.method)) {
+			mw = append(mw, s.idempotent)
 		}
 		s.echo.Add(r.method, r.path, r.h, mw...)
 	}

@@ -48,10 +48,12 @@ func New(store *db.Store, opt Options) (*Server, error) {
 	e.HideBanner, e.HidePort = true, true
 	s := &Server{store: store, log: opt.Logger, validate: newValidator(), spec: spec, echo: e}
 	e.HTTPErrorHandler = errorHandler(opt.Logger)
+	e.JSONSerializer = jsonAnswer{}
 	e.Use(middleware.RequestID())
 	e.Use(middleware.Recover())
 	e.Use(s.accessLog)
 	e.Use(middleware.BodyLimit(opt.BodyLimit))
+	e.Use(s.guard)
 	if err := s.routes(); err != nil {
 		return nil, err
 	}

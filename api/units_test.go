@@ -1,7 +1,6 @@
 package api_test
 
 import (
-	"math"
 	"net/http"
 	"testing"
 )
@@ -32,6 +31,7 @@ var spellingCases = []spellingCase{
 	{"QualificationRecord", "ctwd_in", 0.75, "ctwd_mm", 19.05},                             // 0.75 × 25.4
 	{"QualificationRecord", "preheat_f", 50, "preheat_c", 10},                              // (50 − 32) / 1.8
 	{"QualificationRecord", "interpass_f", 302, "interpass_c", 150},                        // (302 − 32) / 1.8
+	{"QualificationRecord", "min_penetration_in", 0.04, "min_penetration_mm", 1.016},       // 0.04 × 25.4
 
 	{"Coupon", "thickness_in", 0.375, "thickness_mm", 9.525},                 // 0.375 × 25.4
 	{"Coupon", "travel_speed_in_min", 12, "travel_speed_mm_s", 5.08},         // 12 × 25.4 / 60
@@ -71,9 +71,10 @@ func TestUnitsIn(t *testing.T) {
 				t.Errorf("answer has %s; answers are metric only", c.field)
 			}
 			v, _ := got[c.stored].(float64)
-			// The definitions are exact; the tolerance only allows for binary floating point.
-			if math.Abs(v-c.want) > 1e-12*math.Abs(c.want) {
-				t.Errorf("%s = %v sent as %s: %s = %.17g, want %.17g", c.field, c.value, c.field, c.stored, v, c.want)
+			// The definitions are exact and answers carry 12 significant
+			// digits: 0.375 in reads 9.525 mm exactly, not 9.524999999999999.
+			if v != answered(c.want) {
+				t.Errorf("%s = %v sent as %s: %s = %.17g, want %.17g", c.field, c.value, c.field, c.stored, v, answered(c.want))
 			}
 			read := e.do(http.MethodGet, k.read+"/"+got["id"].(string), "auditor", nil).object(t)
 			if read[c.stored] != got[c.stored] {

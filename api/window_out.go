@@ -136,13 +136,16 @@ func (s *Server) windowTargets(c echo.Context, g *db.CalibrationGroup, in window
 	return nil
 }
 
-// windowPenetration sets the minimum penetration target from the group's
-// active jackson_free calibration (its own exponents), else K of its active
-// jackson_fixed calibration, else the caller's K.
+// windowPenetration sets the minimum penetration target from the caller's K
+// when given, else the group's calibration in use: jackson_free (its own
+// exponents) or jackson_fixed (its K), whichever was activated last.
 func (s *Server) windowPenetration(c echo.Context, g *db.CalibrationGroup, w *window, out *windowOut) error {
-	free, err := s.activeCalibration(c, g, db.CalibrationJacksonFree)
-	if err != nil {
-		return err
+	var free *db.Calibration
+	var err error
+	if w.JacksonK == nil { // an explicit K is used exactly; else the group's calibration in use
+		if free, err = s.activeCalibration(c, g, db.CalibrationJacksonFree); err != nil {
+			return err
+		}
 	}
 	if free != nil && free.Fit.Penetration != nil {
 		w.in.Penetration = &predict.PenetrationTarget{MinMM: *w.MinPenetrationMM, Fit: free.Fit.Penetration}
@@ -154,10 +157,10 @@ func (s *Server) windowPenetration(c echo.Context, g *db.CalibrationGroup, w *wi
 		return err
 	}
 	if k == nil {
-		return unprocessable(FieldIssue{"jackson_k", "is required with min_penetration: give it, or the group of an active jackson_free or jackson_fixed calibration"})
+		return badRequest("jackson_k", "is required with min_penetration: give it, or the group of an active jackson_free or jackson_fixed calibration")
 	}
 	w.in.Penetration = &predict.PenetrationTarget{MinMM: *w.MinPenetrationMM, K: *k}
-	out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceRequest, "jackson", nil
+	out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceRequest, string(predict.ModelJacksonFixed), nil
 	if cal != nil {
 		out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceCalibration, string(cal.Model), &cal.ID
 	}
@@ -183,11 +186,11 @@ func heatRuleOf(in windowIn) (predict.HeatInputRule, error) {
 			}
 			r.Efficiency = k
 		default:
-			return r, unprocessable(FieldIssue{"thermal_efficiency", "is required with heat_input_form thermal_efficiency (or give process)"})
+			return r, badRequest("thermal_efficiency", "is required with heat_input_form thermal_efficiency (or give process)")
 		}
 	case predict.HeatInputWaveformEnergy, predict.HeatInputWaveformPower:
 		if in.WaveformPowerRatio == nil {
-			return r, unprocessable(FieldIssue{"waveform_power_ratio", "is required with a waveform heat input form"})
+			return r, badRequest("waveform_power_ratio", "is required with a waveform heat input form")
 		}
 		r.PowerRatio = *in.WaveformPowerRatio
 	}

@@ -29,9 +29,9 @@ func (s *Store) ProductionRecords(ctx context.Context, site string, pf Productio
 	}
 	f := filter{args: []any{site}}
 	if cursor != "" {
-		after, err := uuid.Parse(cursor)
+		after, err := afterID("production_records", cursor)
 		if err != nil {
-			return Page[ProductionRecord]{}, fmt.Errorf("db: list production records: cursor %q: %w", cursor, ErrBadCursor)
+			return Page[ProductionRecord]{}, fmt.Errorf("db: list production records: %w", err)
 		}
 		f.add("id > ?", after)
 	}
@@ -67,7 +67,7 @@ func (s *Store) ProductionRecords(ctx context.Context, site string, pf Productio
 	}
 	p := Page[ProductionRecord]{Items: items}
 	if len(items) > limit {
-		p.Items, p.Next = items[:limit], items[limit-1].ID.String()
+		p.Items, p.Next = items[:limit], idCursor("production_records", items[limit-1].ID)
 	}
 	ids := make([]uuid.UUID, len(p.Items))
 	for i := range p.Items {

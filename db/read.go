@@ -107,12 +107,9 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
 	}
-	var after uuid.UUID
-	if cursor != "" {
-		var err error
-		if after, err = uuid.Parse(cursor); err != nil {
-			return Page[T]{}, fmt.Errorf("db: list %s: cursor %q: %w", t.entity, cursor, ErrBadCursor)
-		}
+	after, err := afterID(t.name, cursor)
+	if err != nil {
+		return Page[T]{}, fmt.Errorf("db: list %s: %w", t.entity, err)
 	}
 	if len(f.args) < 2 {
 		f = newFilter()
@@ -137,7 +134,7 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	p := Page[T]{Items: items}
 	if len(items) > limit {
 		p.Items = items[:limit]
-		p.Next = metaOf(any(&p.Items[limit-1])).ID.String()
+		p.Next = idCursor(t.name, metaOf(any(&p.Items[limit-1])).ID)
 	}
 	return p, nil
 }

@@ -56,4 +56,3 @@ func mustBeNonNegative(field string, v float64) error {
 	}
 	return nil
 }
-

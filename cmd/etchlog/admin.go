@@ -6,43 +6,56 @@ import (
 	"io"
 	"slices"
 
-	"etchlog/cmd/etchlog/localpg"
 	"etchlog/db"
 )
 
-// cmdMigrate applies (up) or rolls back (down) the embedded migrations.
+// cmdMigrate applies (up) or rolls back (down) the embedded migrations as
+// the owner role. Down refuses while records exist unless -destroy names the
+// database.
 func cmdMigrate(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
+	dir := ""
+	if len(args) > 0 && (args[0] == "up" || args[0] == "down") {
+		dir, args = args[0], args[1:] // "migrate down -destroy NAME" reads naturally
+	}
+	var destroy string
 	c := defaults(getenv)
-	fs := newFlagSet("migrate", "migrate [flags] up|down",
-		"Applies (up, the default) or rolls back (down) every embedded database migration.")
-	c.databaseFlag(fs)
+	fs := newFlagSet("migrate", "migrate [up|down] [flags]",
+		"Applies (up, the default) or rolls back (down) every embedded database migration as the\n"+
+			"owner role. Down refuses while records exist unless -destroy names the database.")
+	fs.StringVar(&destroy, "destroy", "", "with down: the name of the database whose records may be destroyed")
+	c.databaseFlags(fs)
 	if err := parseFlags(fs, args, stdout, stderr); err != nil {
 		return err
 	}
-	dir := "up"
-	switch fs.NArg() {
-	case 0:
-	case 1:
+	switch {
+	case fs.NArg() == 0:
+	case fs.NArg() == 1 && dir == "":
 		dir = fs.Arg(0)
 	default:
 		return fmt.Errorf("migrate: want one direction, up or down, got %q", fs.Args())
 	}
+	if dir == "" {
+		dir = "up"
+	}
 	if dir != "up" && dir != "down" {
 		return fmt.Errorf("migrate: want up or down, got %q", dir)
 	}
-	d, err := localpg.Resolve(ctx, func(k string) string {
-		if k == "DATABASE_URL" {
-			return c.DatabaseURL
-		}
-		return ""
-	}, localpg.Options{})
+	dbs, err := c.resolve(ctx, c.logger(io.Discard))
 	if err != nil {
 		return err
 	}
-	if err := db.Migrate(d.URL, dir); err != nil {
+	if dbs.owner == "" {
+		return fmt.Errorf("migrate: needs the administrator's login: set -owner-database-url (env ETCHLOG_OWNER_DATABASE_URL)")
+	}
+	if dir == "up" {
+		err = db.Setup(ctx, dbs.owner)
+	} else {
+		err = db.MigrateDown(dbs.owner, destroy)
+	}
+	if err != nil {
 		return err
 	}
-	fmt.Fprintf(stdout, "migrate %s: done (%s)\n", dir, redact(d.URL))
+	fmt.Fprintf(stdout, "migrate %s: done (%s)\n", dir, redact(dbs.owner))
 	return nil
 }
 
@@ -69,7 +82,7 @@ func cmdUser(ctx context.Context, args []string, getenv func(string) string, std
 	fs.StringVar(&name, "name", "", "user name (required)")
 	fs.StringVar(&role, "role", "", "technician, engineer or auditor (required)")
 	fs.StringVar(&site, "site", "main", "site (tenant) the user belongs to")
-	c.databaseFlag(fs)
+	c.databaseFlags(fs)
 	if err := parseFlags(fs, args[1:], stdout, stderr); err != nil {
 		return err
 	}
@@ -79,7 +92,7 @@ func cmdUser(ctx context.Context, args []string, getenv func(string) string, std
 	if name == "" || !slices.Contains([]string{db.RoleTechnician, db.RoleEngineer, db.RoleAuditor}, role) {
 		return fmt.Errorf("user add: -name is required and -role must be technician, engineer or auditor")
 	}
-	store, err := openStore(ctx, c, c.logger(io.Discard))
+	store, err := openOwner(ctx, c, c.logger(io.Discard))
 	if err != nil {
 		return err
 	}

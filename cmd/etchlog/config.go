@@ -19,13 +19,17 @@ import (
 type config struct {
 	Addr        string
 	DatabaseURL string
-	LogLevel    string
-	BodyLimit   string
+	// OwnerURL is the administrator's login for migrations and users; empty
+	// means DATABASE_URL's login when that is a superuser (see databases).
+	OwnerURL  string
+	LogLevel  string
+	BodyLimit string
 }
 
 // defaults fills the configuration from the environment.
 func defaults(getenv func(string) string) config {
-	c := config{Addr: "127.0.0.1:8080", LogLevel: "info", BodyLimit: "1MiB", DatabaseURL: getenv("DATABASE_URL")}
+	c := config{Addr: "127.0.0.1:8080", LogLevel: "info", BodyLimit: "1MiB", DatabaseURL: getenv("DATABASE_URL"),
+		OwnerURL: getenv("ETCHLOG_OWNER_DATABASE_URL")}
 	if v := getenv("ETCHLOG_ADDR"); v != "" {
 		c.Addr = v
 	}
@@ -35,10 +39,12 @@ func defaults(getenv func(string) string) config {
 	return c
 }
 
-// databaseFlag registers -database-url, which every command that opens the
-// database takes.
-func (c *config) databaseFlag(fs *flag.FlagSet) {
+// databaseFlags registers -database-url and -owner-database-url, which every
+// command that opens the database takes.
+func (c *config) databaseFlags(fs *flag.FlagSet) {
 	fs.StringVar(&c.DatabaseURL, "database-url", c.DatabaseURL, "PostgreSQL URL (env DATABASE_URL; empty: the local server, else a private cluster)")
+	fs.StringVar(&c.OwnerURL, "owner-database-url", c.OwnerURL,
+		"administrator's PostgreSQL URL for migrations and users (env ETCHLOG_OWNER_DATABASE_URL; empty: DATABASE_URL if its login is a superuser)")
 }
 
 // serverFlags registers the flags of the commands that serve HTTP.
@@ -104,7 +110,7 @@ func parseServer(name, about string, args []string, getenv func(string) string, 
 	c := defaults(getenv)
 	fs := newFlagSet(name, name+" [flags]", about)
 	c.serverFlags(fs)
-	c.databaseFlag(fs)
+	c.databaseFlags(fs)
 	if err := parseFlags(fs, args, stdout, stderr); err != nil {
 		return c, err
 	}
@@ -114,9 +120,16 @@ func parseServer(name, about string, args []string, getenv func(string) string, 
 	return c, c.validate()
 }
 
-// openStore resolves the database (DATABASE_URL, the local server, or a
-// private cluster), applies the migrations and connects.
-func openStore(ctx context.Context, c config, log *slog.Logger) (*db.Store, error) {
+// databases are the two logins etchlog uses on one database: the service's
+// (db.AppRole) and the administrator's, which runs migrations as db.OwnerRole
+// and manages users. Owner is empty when no administrator's login is known.
+type databases struct{ app, owner string }
+
+// resolve finds the database (DATABASE_URL, the local server, or a private
+// cluster) and the two logins. When DATABASE_URL's login is a superuser (a
+// workstation, the demo, a test server) it serves as the administrator's, and
+// the service logs in to the same database as db.AppRole.
+func (c config) resolve(ctx context.Context, log *slog.Logger) (databases, error) {
 	getenv := func(k string) string {
 		if k == "DATABASE_URL" {
 			return c.DatabaseURL
@@ -127,13 +140,55 @@ func openStore(ctx context.Context, c config, log *slog.Logger) (*db.Store, erro
 		log.Info(strings.TrimSpace(fmt.Sprintf(f, a...)))
 	}})
 	if err != nil {
+		return databases{}, err
+	}
+	dbs := databases{app: d.URL, owner: c.OwnerURL}
+	if dbs.owner == "" {
+		priv, err := db.Privileged(ctx, d.URL)
+		if err != nil {
+			return databases{}, err
+		}
+		if priv {
+			dbs.owner = d.URL
+			if dbs.app, err = db.AppURL(d.URL); err != nil {
+				return databases{}, err
+			}
+		}
+	}
+	log.Info("database", "source", d.Source, "service", redact(dbs.app), "owner", redact(dbs.owner))
+	return dbs, nil
+}
+
+// openStore applies the migrations (when an administrator's login is known)
+// and connects the service as db.AppRole.
+func openStore(ctx context.Context, c config, log *slog.Logger) (*db.Store, error) {
+	dbs, err := c.resolve(ctx, log)
+	if err != nil {
 		return nil, err
 	}
-	log.Info("database", "source", d.Source, "url", redact(d.URL))
-	if err := db.Migrate(d.URL, "up"); err != nil {
+	if dbs.owner != "" {
+		if err := db.Setup(ctx, dbs.owner); err != nil {
+			return nil, err
+		}
+	} else {
+		log.Info("no administrator login: migrations are not applied (set -owner-database-url)")
+	}
+	return db.Open(ctx, dbs.app)
+}
+
+// openOwner connects as the administrator (db.OwnerRole), for user changes.
+func openOwner(ctx context.Context, c config, log *slog.Logger) (*db.Store, error) {
+	dbs, err := c.resolve(ctx, log)
+	if err != nil {
 		return nil, err
 	}
-	return db.Open(ctx, d.URL)
+	if dbs.owner == "" {
+		return nil, fmt.Errorf("this needs the administrator's login: set -owner-database-url (env ETCHLOG_OWNER_DATABASE_URL)")
+	}
+	if err := db.Setup(ctx, dbs.owner); err != nil {
+		return nil, err
+	}
+	return db.OpenOwner(ctx, dbs.owner)
 }
 
 // redact hides a password in a URL for logging.

@@ -13,7 +13,7 @@ import (
 // stdout naming the command, and it lists exactly the command's own flags.
 func TestHelp(t *testing.T) {
 	t.Parallel()
-	server := []string{"addr", "body-limit", "database-url", "log-level"}
+	server := []string{"addr", "body-limit", "database-url", "log-level", "owner-database-url"}
 	flagLine := regexp.MustCompile(`(?m)^  -(\S+)`)
 	for _, c := range []struct {
 		args  []string
@@ -25,9 +25,9 @@ func TestHelp(t *testing.T) {
 		{[]string{"serve", "-h"}, "usage: etchlog serve [flags]", server},
 		{[]string{"demo", "-h"}, "usage: etchlog demo [flags]", server},
 		{[]string{"demo", "--help"}, "usage: etchlog demo [flags]", server},
-		{[]string{"migrate", "-h"}, "usage: etchlog migrate [flags] up|down", []string{"database-url"}},
+		{[]string{"migrate", "-h"}, "usage: etchlog migrate [up|down] [flags]", []string{"database-url", "destroy", "owner-database-url"}},
 		{[]string{"user", "-h"}, "usage: etchlog user add", nil},
-		{[]string{"user", "add", "-h"}, "usage: etchlog user add", []string{"database-url", "name", "role", "site"}},
+		{[]string{"user", "add", "-h"}, "usage: etchlog user add", []string{"database-url", "name", "owner-database-url", "role", "site"}},
 		{[]string{"load", "-h"}, "usage: etchlog load [flags]", []string{"c", "max-time", "n", "token", "url"}},
 	} {
 		t.Run(strings.Join(c.args, " "), func(t *testing.T) {

@@ -1,0 +1,77 @@
+package db
+
+import (
+	"encoding/base64"
+	"encoding/json"
+	"fmt"
+	"strconv"
+
+	"github.com/google/uuid"
+)
+
+// Every list hands out one cursor format: base64url (no padding) of a JSON
+// array whose first element names the list and whose other elements are the
+// keyset position of the page's last item. Clients treat it as opaque; the
+// list name makes a cursor of one list refused by another instead of
+// silently skipping records.
+
+// EncodeCursor returns the cursor of list positioned after key.
+func EncodeCursor(list string, key ...string) string {
+	b, _ := json.Marshal(append([]string{list}, key...)) // a []string always marshals
+	return base64.RawURLEncoding.EncodeToString(b)
+}
+
+// DecodeCursor returns the n key parts of a cursor that EncodeCursor made for
+// list, or an error wrapping ErrBadCursor.
+func DecodeCursor(s, list string, n int) ([]string, error) {
+	bad := fmt.Errorf("cursor %q: %w", s, ErrBadCursor)
+	b, err := base64.RawURLEncoding.DecodeString(s)
+	if err != nil {
+		return nil, bad
+	}
+	var parts []string
+	if json.Unmarshal(b, &parts) != nil || len(parts) != n+1 || parts[0] != list {
+		return nil, bad
+	}
+	return parts[1:], nil
+}
+
+// idCursor encodes the id keyset position of list.
+func idCursor(list string, id uuid.UUID) string { return EncodeCursor(list, id.String()) }
+
+// afterID decodes an id cursor of list; the empty cursor is the list's start.
+func afterID(list, cursor string) (uuid.UUID, error) {
+	if cursor == "" {
+		return uuid.Nil, nil
+	}
+	parts, err := DecodeCursor(cursor, list, 1)
+	if err != nil {
+		return uuid.Nil, err
+	}
+	id, err := uuid.Parse(parts[0])
+	if err != nil {
+		return uuid.Nil, fmt.Errorf("cursor %q: %w", cursor, ErrBadCursor)
+	}
+	return id, nil
+}
+
+// SeqCursor encodes a position in a sequence-numbered list (the audit events).
+func SeqCursor(list string, seq int64) string {
+	return EncodeCursor(list, strconv.FormatInt(seq, 10))
+}
+
+// AfterSeq decodes a SeqCursor of list; the empty cursor is 0, the list's start.
+func AfterSeq(list, cursor string) (int64, error) {
+	if cursor == "" {
+		return 0, nil
+	}
+	parts, err := DecodeCursor(cursor, list, 1)
+	if err != nil {
+		return 0, err
+	}
+	n, err := strconv.ParseInt(parts[0], 10, 64)
+	if err != nil || n < 0 {
+		return 0, fmt.Errorf("cursor %q: %w", cursor, ErrBadCursor)
+	}
+	return n, nil
+}
