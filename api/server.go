@@ -53,6 +53,7 @@ func New(store *db.Store, opt Options) (*Server, error) {
 	e.HideBanner, e.HidePort = true, true
 	s := &Server{store: store, log: opt.Logger, validate: newValidator(), spec: spec, echo: e, limit: newUserLimiter(opt.PerUser)}
 	e.HTTPErrorHandler = errorHandler(opt.Logger)
+	e.JSONSerializer = jsonAnswer{}
 	e.Use(middleware.RequestID())
 	e.Use(middleware.Recover())
 	e.Use(s.accessLog)

@@ -4,15 +4,16 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strings"
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 )
 
-// couponByMark returns the id of the coupon created with mark at the site.
+// couponByMark returns the id of the coupon whose current revision has mark at the site.
 func couponByMark(ctx context.Context, q querier, site, mark string) (uuid.UUID, error) {
 	var id uuid.UUID
-	err := q.QueryRow(ctx, `SELECT id FROM coupons WHERE site = $1 AND coupon_mark = $2 AND revision = 1`, site, mark).Scan(&id)
+	err := q.QueryRow(ctx, `SELECT record_id FROM current_marks WHERE site = $1 AND kind = 'coupon_mark' AND mark = $2`, site, mark).Scan(&id)
 	if errors.Is(err, pgx.ErrNoRows) {
 		return uuid.Nil, ErrNotFound
 	}
@@ -22,7 +23,8 @@ func couponByMark(ctx context.Context, q querier, site, mark string) (uuid.UUID,
 // duplicateMark turns a failed coupon create into a DuplicateError naming the
 // coupon that holds the mark, when that is why it failed.
 func (s *Store) duplicateMark(ctx context.Context, site, mark string, err error) error {
-	if !errors.Is(err, ErrConflict) {
+	var dup *DuplicateError
+	if !errors.Is(err, ErrConflict) || errors.As(err, &dup) { // claimMark names the holder already
 		return err
 	}
 	id, lerr := couponByMark(ctx, s.pool, site, mark)
@@ -31,6 +33,22 @@ func (s *Store) duplicateMark(ctx context.Context, site, mark string, err error)
 	}
 	return fmt.Errorf("db: create coupon: %w", &DuplicateError{Field: "coupon_mark", ExistingID: id,
 		Reason: fmt.Sprintf("coupon %s already has the mark %q; a retried create finds it with GET /v1/coupons?coupon_mark=", id, mark)})
+}
+
+// duplicateKey turns a failed create of table t into a DuplicateError naming
+// the record that already holds value in column (code, record_number), when
+// that is why it failed.
+func (s *Store) duplicateKey(ctx context.Context, t table, column, site, value string, err error) error {
+	if !errors.Is(err, ErrConflict) {
+		return err
+	}
+	var id uuid.UUID
+	if s.pool.QueryRow(ctx, `SELECT id FROM `+t.name+` WHERE site = $1 AND `+column+` = $2 ORDER BY revision DESC LIMIT 1`,
+		site, value).Scan(&id) != nil {
+		return err
+	}
+	return fmt.Errorf("db: create %s: %w", t.entity, &DuplicateError{Field: column, ExistingID: id,
+		Reason: fmt.Sprintf("%s %s already has the %s %q", strings.ReplaceAll(t.entity, "_", " "), id, strings.ReplaceAll(column, "_", " "), value)})
 }
 
 // earlierWeld finds a stored production record of the same procedure with
