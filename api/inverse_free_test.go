@@ -98,11 +98,12 @@ func TestInversePenetrationUsesFreeCalibration(t *testing.T) {
 			}
 		})
 	}
-	t.Run("GivenKNotUsed", func(t *testing.T) {
+	t.Run("GivenKUsedExactly", func(t *testing.T) {
 		g := map[string]any{"voltage_v": 20.0, "travel_speed_mm_s": 5.0, "jackson_k": map[string]any{"value": 0.03, "units": "metric"}}
 		got := e.inverseInGroup("current", g)
-		if got.Penetration.Model != "jackson_free" || len(got.Notes) == 0 {
-			t.Errorf("with jackson_k given: model %s, notes %v; want jackson_free and a note that jackson_k was not used", got.Penetration.Model, got.Notes)
+		if got.Penetration.Model != "jackson_fixed" || got.Penetration.Source != "request" || len(got.Notes) == 0 {
+			t.Errorf("with jackson_k given: model %s, source %s, notes %v; want the request's K and a note that the calibration was not used",
+				got.Penetration.Model, got.Penetration.Source, got.Notes)
 		}
 	})
 }

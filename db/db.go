@@ -9,9 +9,10 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"github.com/google/uuid"
 	"time"
 
+	"github.com/google/uuid"
+	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgxpool"
 )
@@ -113,6 +114,13 @@ func (s *Store) Pool() *pgxpool.Pool { return s.pool }
 // Ping reports whether the database answers.
 func (s *Store) Ping(ctx context.Context) error { return s.pool.Ping(ctx) }
 
+// uniqueWords says in the user's words which value a unique key refused.
+var uniqueWords = map[string]string{
+	"procedures_code_key":              "another procedure at this site has this code",
+	"qualification_records_number_key": "another qualification record at this site has this record number",
+	"coupons_mark_key":                 "another coupon at this site has this mark",
+}
+
 // mapError turns PostgreSQL errors into the package's sentinel errors by SQLSTATE.
 func mapError(err error) error {
 	var pg *pgconn.PgError
@@ -120,22 +128,28 @@ func mapError(err error) error {
 		return err
 	}
 	switch pg.Code {
-	case "40P01", "40001": // deadlock or serialization failure: two writes crossed; the client may retry
+	case pgerrcode.DeadlockDetected, pgerrcode.SerializationFailure: // two writes crossed; the client may retry
 		return fmt.Errorf("%w: a concurrent write got in the way; retry", ErrConflict)
-	case "23505": // unique_violation
+	case pgerrcode.UniqueViolation:
 		if pg.ConstraintName == "measurements_section_per_coupon" { // the trigger names the existing section
 			if id, err := uuid.Parse(pg.Detail); err == nil {
 				return &DuplicateError{Field: "section", ExistingID: id,
 					Reason: "this coupon already has a current section with this label; correct that one or choose another label"}
 			}
 		}
-		return fmt.Errorf("%w: %s", ErrConflict, pg.ConstraintName)
-	case "23514", "23502", "23503", "22007", "22008", "22P02": // check, not null, fk, bad date/time/text
+		if w, ok := uniqueWords[pg.ConstraintName]; ok {
+			return fmt.Errorf("%w: %s", ErrConflict, w)
+		}
+		return fmt.Errorf("%w: the record repeats a value that must be unique", ErrConflict)
+	case pgerrcode.CheckViolation, pgerrcode.NotNullViolation, pgerrcode.ForeignKeyViolation,
+		pgerrcode.InvalidDatetimeFormat, pgerrcode.DatetimeFieldOverflow, pgerrcode.InvalidTextRepresentation:
+		// The constraint's name is the schema's word, not the user's: the
+		// column names the field when the database reports it.
 		field := pg.ColumnName
 		if field == "" {
-			field = pg.ConstraintName
+			field = "body"
 		}
-		return &FieldError{Field: field, Reason: "refused by the database rule " + pg.ConstraintName}
+		return &FieldError{Field: field, Reason: "is refused by the stored-data rules for this field"}
 	}
 	return err
 }
