@@ -112,7 +112,7 @@ func TestConventionStatus(t *testing.T) {
 			map[string]any{"melting_rate_kg_h": 3, "extension_mm": 12}, 400, "lesnewich"},
 		{"ActivationNoReason", http.MethodPost, "/v1/calibrations/" + uuid.NewString() + "/activate", "engineer", map[string]any{}, 400, "reason"},
 		{"NarrowNoBase", http.MethodPost, "/v1/procedures/" + proc + "/ranges/narrow", "engineer",
-			map[string]any{"reason": "tighter", "variables": []any{map[string]any{"variable": "current_a", "max": 300}}}, 400, "base_version"},
+			map[string]any{"reason": "tighter", "variables": []any{map[string]any{"variable": "current_a", "max": 300}}}, 400, "base_revision"},
 
 		{"OutOfBounds", http.MethodPost, "/v1/coupons", "technician", withBad(func(b map[string]any) { b["current_a"] = 5000.0 }), 422, "current_a"},
 		{"NotAllowed", http.MethodPost, "/v1/coupons", "technician", withBad(func(b map[string]any) { b["polarity"] = "DC+" }), 422, "polarity"},
@@ -180,7 +180,7 @@ func TestConventionCreated(t *testing.T) {
 		{"/v1/rule-sets", "engineer", map[string]any{"id": "conv-" + uniq("rs"), "name": "convention test", "process": "GMAW",
 			"rules": []any{map[string]any{"variable": "current_a", "kind": "percent_band", "below_pct": 10, "above_pct": 10}}}},
 		{"/v1/procedures/" + proc + "/ranges", "engineer", map[string]any{"rule_set_id": "structural-style-gmaw"}},
-		{"/v1/procedures/" + proc + "/ranges/narrow", "engineer", map[string]any{"base_version": 2, "reason": "tighter",
+		{"/v1/procedures/" + proc + "/ranges/narrow", "engineer", map[string]any{"base_revision": 2, "reason": "tighter",
 			"variables": []any{map[string]any{"variable": "current_a", "max": 300}}}},
 		{"/v1/production-records", "technician", map[string]any{"records": []any{productionBody(proc, "CR-1", 280)}}},
 	} {
@@ -451,5 +451,106 @@ func TestConventionErrorWords(t *testing.T) {
 		if m := leak.FindString(b); m != "" {
 			t.Errorf("answer speaks the server's words (%q): %s", m, b)
 		}
+	}
+}
+
+// ownedFields are the server-owned fields a read answers and a correction
+// may send back unchanged.
+var ownedFields = map[string]bool{"site": true, "id": true, "revision": true, "created_at": true, "created_by": true,
+	"voided": true, "coupon_id": true}
+
+// TestConventionRoundTrip: GET a record, change one field, PUT the body back
+// with base_revision and reason: accepted. A server-owned field that differs
+// from the base revision is refused (422, named); on a new record it is refused too.
+func TestConventionRoundTrip(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	coupon := e.mustCoupon(e.procedure())
+	for _, c := range []struct {
+		name, path, role, field string
+		value                   any
+	}{
+		{"Procedure", "/v1/procedures/" + e.mustProcedure(), "engineer", "title", "Fillet welds, corrected title"},
+		{"QualificationRecord", "/v1/qualification-records/" + e.mustQualificationRecord(), "engineer", "remarks", "re-read the chart"},
+		{"Coupon", "/v1/coupons/" + coupon, "technician", "current_a", 185.0},
+		{"Measurement", "/v1/measurements/" + e.mustMeasurement(coupon), "technician", "penetration_mm", 1.9},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			read := e.do(http.MethodGet, c.path, "auditor", nil).object(t)
+			for f := range ownedFields {
+				if _, ok := read[f]; !ok && f != "coupon_id" {
+					t.Fatalf("GET %s has no %s", c.path, f)
+				}
+			}
+			body := clone(read)
+			body[c.field], body["base_revision"], body["reason"] = c.value, read["revision"], "round trip"
+			// Each owned field changed alone is refused and named.
+			for f, v := range map[string]any{"site": "elsewhere", "id": uuid.NewString(), "revision": 9.0,
+				"created_at": "2020-01-01T00:00:00Z", "created_by": "someone-else", "voided": true, "coupon_id": uuid.NewString()} {
+				if _, ok := read[f]; !ok {
+					continue
+				}
+				bad := clone(body)
+				bad[f] = v
+				wantProblem(t, "PUT with "+f+" changed", e.do(http.MethodPut, c.path, c.role, bad), http.StatusUnprocessableEntity, f)
+			}
+			r := e.do(http.MethodPut, c.path, c.role, body)
+			if r.status != http.StatusOK {
+				t.Fatalf("PUT %s with the read body, %s changed = %d %s, want 200", c.path, c.field, r.status, r.body)
+			}
+			got := r.object(t)
+			if got["revision"] != 2.0 || got[c.field] != c.value || got["id"] != read["id"] || got["created_at"] == read["created_at"] {
+				t.Errorf("PUT answered id %v revision %v created_at %v, %s %v; want revision 2 of %v, written now, with %v",
+					got["id"], got["revision"], got["created_at"], c.field, got[c.field], read["id"], c.value)
+			}
+			// A new record may not carry them.
+			if c.name == "Coupon" {
+				fresh := couponBody(e.procedure(), "", uniq("C-RT"))
+				fresh["id"] = uuid.NewString()
+				wantProblem(t, "POST with id", e.do(http.MethodPost, "/v1/coupons", "technician", fresh), http.StatusUnprocessableEntity, "id")
+			}
+		})
+	}
+}
+
+// TestConventionRevision: every numbered state is a revision: records, rule
+// sets and qualified ranges answer `revision`, are read at one with
+// ?revision=N and changed from one with base_revision.
+func TestConventionRevision(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	proc := e.rangedProcedure()
+	coupon := e.mustCoupon(proc)
+	r := e.do(http.MethodPost, "/v1/procedures/"+proc+"/ranges", "engineer", map[string]any{"rule_set_id": "structural-style-gmaw", "rule_set_revision": 1})
+	if r.status != http.StatusCreated || r.header.Get("Location") != "/v1/procedures/"+proc+"/ranges?revision=2" || r.object(t)["revision"] != 2.0 {
+		t.Fatalf("derive again = %d, Location %q, %s; want revision 2 located by ?revision=2", r.status, r.header.Get("Location"), r.body)
+	}
+	narrowed := e.create("/v1/procedures/"+proc+"/ranges/narrow", "engineer", map[string]any{"base_revision": 2, "reason": "shop limit",
+		"variables": []any{map[string]any{"variable": "current_a", "max": 300}}})
+	if narrowed["revision"] != 3.0 || narrowed["rule_set_revision"] != 1.0 {
+		t.Errorf("narrowed ranges: revision %v, rule_set_revision %v; want 3 and 1", narrowed["revision"], narrowed["rule_set_revision"])
+	}
+	e.do(http.MethodPut, "/v1/coupons/"+coupon, "technician", withRevision(e.do(http.MethodGet, "/v1/coupons/"+coupon, "auditor", nil).object(t), 1, "typo"))
+	for _, c := range []struct {
+		path string
+		want float64
+	}{
+		{"/v1/coupons/" + coupon + "?revision=1", 1},
+		{"/v1/coupons/" + coupon, 2},
+		{"/v1/rule-sets/structural-style-gmaw?revision=1", 1},
+		{"/v1/procedures/" + proc + "/ranges?revision=1", 1},
+		{"/v1/procedures/" + proc + "/ranges", 3},
+	} {
+		r := e.do(http.MethodGet, c.path, "auditor", nil)
+		if r.status != http.StatusOK || r.object(t)["revision"] != c.want {
+			t.Errorf("GET %s = %d %s, want revision %v", c.path, r.status, r.body, c.want)
+		}
+	}
+	for _, path := range []string{"/v1/rule-sets/structural-style-gmaw?version=1", "/v1/procedures/" + proc + "/ranges?version=1"} {
+		wantProblem(t, path, e.do(http.MethodGet, path, "auditor", nil), http.StatusBadRequest, "version")
+	}
+	sum := e.do(http.MethodGet, "/v1/procedures/"+proc+"/flag-summary", "auditor", nil).object(t)
+	if sum["ranges_revision"] != 3.0 {
+		t.Errorf("flag summary ranges_revision = %v, want 3", sum["ranges_revision"])
 	}
 }
