@@ -58,8 +58,8 @@ func (s *Store) ActivateCalibration(ctx context.Context, a Actor, calibrationID 
 			act.Process, act.WireDiameterMM, act.ShieldingGas, act.JointType); err != nil {
 			return mapError(err)
 		}
-		if err := appendAudit(ctx, tx, activationTable, Meta{Site: a.Site, ID: act.ID, Revision: 1,
-			CreatedAt: act.ActivatedAt, CreatedBy: act.ActivatedBy, Reason: reason}, "activate"); err != nil {
+		if err := s.AppendLeaf(ctx, tx, LeafEntry{Kind: "calibration_activation", Site: a.Site, ID: act.ID, Revision: 1,
+			Actor: act.ActivatedBy, Action: "activate", Reason: reason, At: act.ActivatedAt}); err != nil {
 			return err
 		}
 		// The group's model flags follow the calibration now in use, in this transaction.

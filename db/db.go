@@ -9,10 +9,13 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"sync/atomic"
 	"time"
 
 	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgxpool"
+
+	"etchlog/db/logfmt"
 )
 
 // Sentinel errors returned by Store methods; the HTTP layer maps them to status codes.
@@ -25,6 +28,8 @@ var (
 	ErrInvalid = errors.New("invalid value")
 	// ErrVoided means the record was voided and can no longer be corrected.
 	ErrVoided = errors.New("record is voided")
+	// ErrNoLogKey means no log signing key was set (SetLogKey), so nothing can be written.
+	ErrNoLogKey = errors.New("no log signing key: run etchlog keygen and give the key to the service")
 	// ErrBadCursor means a list cursor is not one that the list handed out.
 	ErrBadCursor = errors.New("not a cursor returned by this list")
 )
@@ -45,6 +50,8 @@ func (e *FieldError) Is(target error) bool { return target == ErrInvalid }
 type Store struct {
 	pool *pgxpool.Pool
 	now  func() time.Time
+	key  atomic.Pointer[logfmt.Signer] // signs checkpoints, tags pending leaves
+	kick chan struct{}                 // a write committed: the sequencer may have work
 }
 
 // Open connects to the database at url and checks that it answers.
@@ -63,7 +70,8 @@ func Open(ctx context.Context, url string) (*Store, error) {
 		pool.Close()
 		return nil, fmt.Errorf("db: ping: %w", err)
 	}
-	return &Store{pool: pool, now: func() time.Time { return time.Now().UTC().Truncate(time.Microsecond) }}, nil
+	return &Store{pool: pool, now: func() time.Time { return time.Now().UTC().Truncate(time.Microsecond) },
+		kick: make(chan struct{}, 1)}, nil
 }
 
 // Close releases every connection.

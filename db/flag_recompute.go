@@ -14,8 +14,8 @@ import (
 // they derive from, so a reader never sees flags that disagree with the
 // records: a change of ranges rewrites every flag of the procedure, a coupon
 // write rewrites that coupon's flags, a production batch writes its rows'.
-// Every such transaction holds the site's write lock (lockSite, also taken
-// by the audit chain), so an evaluation never races a change of ranges.
+// Each such transaction holds the flag locks of the procedures concerned
+// (flag_lock.go), so an evaluation never races a change of ranges.
 
 // afterWrite runs after a record revision is written, in its transaction
 // (called from table.insert and table.voidLatest in revision.go).
@@ -45,6 +45,9 @@ func procedureChanged(ctx context.Context, tx pgx.Tx, m Meta) error {
 	if m.Revision == 1 { // a new procedure has no coupons or production records yet
 		return nil
 	}
+	if err := lockProcedures(ctx, tx, m.Site, []uuid.UUID{m.ID}, true); err != nil {
+		return err
+	}
 	if m.Voided {
 		_, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2`, m.Site, m.ID)
 		return err
@@ -63,6 +66,9 @@ func procedureChanged(ctx context.Context, tx pgx.Tx, m Meta) error {
 // recomputeCoupon rewrites one coupon's flags from its latest revision: none
 // when it is voided, names no procedure, or the procedure has no ranges.
 func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID) (int, error) {
+	if err := lockCouponProcedures(ctx, tx, site, id); err != nil {
+		return 0, err
+	}
 	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2`, site, id); err != nil {
 		return 0, err
 	}

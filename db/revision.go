@@ -52,21 +52,29 @@ type table struct {
 
 func (t table) columns() string { return metaColumns + ", " + strings.Join(t.fields, ", ") }
 
-// insert writes one revision row and appends its audit event.
-func (t table) insert(ctx context.Context, tx pgx.Tx, m Meta, action string, values []any) error {
+// insert writes one revision row and its pending leaf, encoded from the row
+// as stored (INSERT ... RETURNING the kind's columns).
+func (s *Store) insert(ctx context.Context, tx pgx.Tx, t table, m Meta, action string, values []any) error {
+	k, err := leafKind(t.entity, 0)
+	if err != nil {
+		return err
+	}
 	args := append([]any{m.Site, m.ID, m.Revision, m.CreatedAt, m.CreatedBy, m.Reason, m.Voided}, values...)
 	ph := make([]string, len(args))
 	for i := range ph {
 		ph[i] = "$" + strconv.Itoa(i+1)
 	}
-	q := "INSERT INTO " + t.name + " (" + t.columns() + ") VALUES (" + strings.Join(ph, ", ") + ")"
-	if _, err := tx.Exec(ctx, q, args...); err != nil {
-		return mapError(err)
-	}
-	if err := appendAudit(ctx, tx, t, m, action); err != nil {
+	q := "INSERT INTO " + t.name + " (" + t.columns() + ") VALUES (" + strings.Join(ph, ", ") + ") RETURNING " + strings.Join(k.Columns, ", ")
+	rows, _ := tx.Query(ctx, q, args...)
+	if err := s.appendRows(ctx, tx, k, rows, m.leafEntry(t.entity, action)); err != nil {
 		return err
 	}
 	return afterWrite(ctx, tx, t, m) // derived data (flags) kept in step, same transaction
+}
+
+// leafEntry names the revision m for the log.
+func (m Meta) leafEntry(kind, action string) LeafEntry {
+	return LeafEntry{Kind: kind, Site: m.Site, ID: m.ID, Revision: m.Revision, Actor: m.CreatedBy, Action: action, Reason: m.Reason, At: m.CreatedAt}
 }
 
 // lockLatest locks the latest revision of a record and returns it.
@@ -100,16 +108,19 @@ func (t table) checkBase(ctx context.Context, tx pgx.Tx, site string, id uuid.UU
 	return nil
 }
 
-// voidLatest copies the latest revision forward as a voided revision.
-func (t table) voidLatest(ctx context.Context, tx pgx.Tx, m Meta) error {
+// voidLatest copies the latest revision forward as a voided revision and logs it.
+func (s *Store) voidLatest(ctx context.Context, tx pgx.Tx, t table, m Meta) error {
+	k, err := leafKind(t.entity, 0)
+	if err != nil {
+		return err
+	}
 	fields := strings.Join(t.fields, ", ")
 	q := "INSERT INTO " + t.name + " (" + metaColumns + ", " + fields + `)
 		SELECT site, id, $3, $4, $5, $6, true, ` + fields + " FROM " + t.name + `
-		WHERE site = $1 AND id = $2 AND revision = $7`
-	if _, err := tx.Exec(ctx, q, m.Site, m.ID, m.Revision, m.CreatedAt, m.CreatedBy, m.Reason, m.Revision-1); err != nil {
-		return mapError(err)
-	}
-	if err := appendAudit(ctx, tx, t, m, "void"); err != nil {
+		WHERE site = $1 AND id = $2 AND revision = $7
+		RETURNING ` + strings.Join(k.Columns, ", ")
+	rows, _ := tx.Query(ctx, q, m.Site, m.ID, m.Revision, m.CreatedAt, m.CreatedBy, m.Reason, m.Revision-1)
+	if err := s.appendRows(ctx, tx, k, rows, m.leafEntry(t.entity, "void")); err != nil {
 		return err
 	}
 	return afterWrite(ctx, tx, t, m)
@@ -125,7 +136,11 @@ func (s *Store) tx(ctx context.Context, fn func(tx pgx.Tx) error) error {
 	if err := fn(tx); err != nil {
 		return err
 	}
-	return tx.Commit(ctx)
+	if err := tx.Commit(ctx); err != nil {
+		return err
+	}
+	s.kickSequencer()
+	return nil
 }
 
 // create writes revision 1 of a new record after check (run in the same transaction) passes.
@@ -141,7 +156,7 @@ func (s *Store) create(ctx context.Context, a Actor, t table, check func(pgx.Tx)
 				return err
 			}
 		}
-		return t.insert(ctx, tx, m, "create", values)
+		return s.insert(ctx, tx, t, m, "create", values)
 	})
 	if err != nil {
 		return Meta{}, fmt.Errorf("db: create %s: %w", t.entity, err)
@@ -161,7 +176,7 @@ func (s *Store) correct(ctx context.Context, a Actor, t table, id uuid.UUID, ch 
 				return err
 			}
 		}
-		return t.insert(ctx, tx, m, "correct", values)
+		return s.insert(ctx, tx, t, m, "correct", values)
 	})
 	if err != nil {
 		return Meta{}, fmt.Errorf("db: correct %s %s: %w", t.entity, id, err)
@@ -176,7 +191,7 @@ func (s *Store) void(ctx context.Context, a Actor, t table, id uuid.UUID, ch Cha
 		if err := t.checkBase(ctx, tx, a.Site, id, ch); err != nil {
 			return err
 		}
-		return t.voidLatest(ctx, tx, m)
+		return s.voidLatest(ctx, tx, t, m)
 	})
 	if err != nil {
 		return Meta{}, fmt.Errorf("db: void %s %s: %w", t.entity, id, err)

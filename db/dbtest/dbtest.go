@@ -17,6 +17,7 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"etchlog/db"
+	"etchlog/db/logfmt"
 )
 
 // DefaultServerURL is the maintenance database used when ETCHLOG_TEST_DATABASE_URL is unset.
@@ -60,8 +61,26 @@ func setup() {
 		setupEr = err
 		return
 	}
-	store, setupEr = db.Open(ctx, dbURL)
+	if store, setupEr = db.Open(ctx, dbURL); setupEr != nil {
+		return
+	}
+	if PrivateKey, PublicKey, setupEr = logfmt.GenerateKey("etchlog-test"); setupEr != nil {
+		return
+	}
+	if setupEr = store.SetLogKey(PrivateKey); setupEr != nil {
+		return
+	}
+	var seqCtx context.Context
+	seqCtx, stopSequencer = context.WithCancel(context.Background())
+	go store.RunSequencer(seqCtx, db.SequencerOptions{Retry: 100 * time.Millisecond}) //nolint:errcheck // ends with the package
 }
+
+// PrivateKey and PublicKey are the package's log signing key pair, made
+// afresh for each test run; the package's store signs with PrivateKey and
+// runs a log sequencer.
+var PrivateKey, PublicKey string
+
+var stopSequencer context.CancelFunc = func() {}
 
 // URL returns the connection URL of the package's test database.
 func URL(tb testing.TB) string {
@@ -97,6 +116,7 @@ func Site(tb testing.TB) string {
 func Main(m *testing.M) {
 	code := m.Run()
 	if store != nil {
+		stopSequencer()
 		store.Close()
 		ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
 		if admin, err := pgx.Connect(ctx, serverURL()); err == nil {
