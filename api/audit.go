@@ -4,7 +4,6 @@ import (
 	"encoding/base64"
 	"net/http"
 	"strconv"
-	"time"
 
 	"github.com/labstack/echo/v4"
 
@@ -21,14 +20,11 @@ func (s *Server) handleAuditEvents(c echo.Context) error {
 	if f.EntityID, err = queryUUID(c, "entity_id"); err != nil {
 		return err
 	}
-	for name, dst := range map[string]**time.Time{"from": &f.From, "to": &f.To} {
-		if v := c.QueryParam(name); v != "" {
-			t, err := time.Parse(time.RFC3339, v)
-			if err != nil {
-				return badRequest(name, "want an RFC 3339 time, e.g. 2026-11-03T08:00:00Z")
-			}
-			*dst = &t
-		}
+	if f.From, err = queryTime(c, "from"); err != nil {
+		return err
+	}
+	if f.To, err = queryTime(c, "to"); err != nil {
+		return err
 	}
 	p, err := s.store.AuditEvents(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)
 	if err != nil {

@@ -19,7 +19,6 @@ type calibrationIn struct {
 	Model          db.CalibrationModel `json:"model"`
 	Process        string              `json:"process"`
 	WireDiameterMM *float64            `json:"wire_diameter_mm"`
-	WireDiameterIn *float64            `json:"wire_diameter_in"`
 	ShieldingGas   string              `json:"shielding_gas"`
 	JointType      string              `json:"joint_type"`
 	WeldedFrom     *db.Date            `json:"welded_from"`
@@ -33,7 +32,7 @@ type calibrationIn struct {
 func (in calibrationIn) spec() (db.CalibrationSpec, error) {
 	var u units
 	sp := db.CalibrationSpec{Model: in.Model, Process: in.Process, ShieldingGas: in.ShieldingGas, JointType: in.JointType,
-		WireDiameterMM: u.req(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn)),
+		WireDiameterMM: u.req("wire_diameter_mm", in.WireDiameterMM),
 		WeldedFrom:     in.WeldedFrom, WeldedTo: in.WeldedTo, ProcedureID: in.ProcedureID, Level: defaultLevel,
 		ArcLengthMM: in.ArcLengthMM, Note: in.Note}
 	if in.Level != nil {
@@ -61,6 +60,9 @@ var predictModels = map[db.CalibrationModel]predict.ModelKind{
 
 // withDiagnostics adds the diagnostics of cal's fit.
 func withDiagnostics(cal db.Calibration, acts []db.CalibrationActivation) (calibrationOut, error) {
+	if cal.Fit.Melting != nil { // both coefficient forms, also for fits stored before the inch-pound one
+		cal.Fit.Melting.WithInchPound()
+	}
 	out := calibrationOut{Calibration: cal, Activations: acts, Caution: predictionCaution}
 	if out.Activations == nil {
 		out.Activations = []db.CalibrationActivation{}
@@ -153,7 +155,7 @@ func (s *Server) handleCalibrationList(c echo.Context) error {
 
 // activationIn is the body of an activation: why this calibration is to be used.
 type activationIn struct {
-	Reason string `json:"reason"`
+	Reason *string `json:"reason"`
 }
 
 // handleCalibrationActivate answers POST /v1/calibrations/{id}/activate.
@@ -166,11 +168,16 @@ func (s *Server) handleCalibrationActivate(c echo.Context) error {
 	if err := bind(c, &in); err != nil {
 		return err
 	}
-	act, err := s.store.ActivateCalibration(c.Request().Context(), actorOf(c), id, in.Reason)
+	if in.Reason == nil {
+		return badRequest("reason", "is required: say why this calibration is to be used")
+	}
+	act, err := s.store.ActivateCalibration(c.Request().Context(), actorOf(c), id, *in.Reason)
 	if err != nil {
 		return err
 	}
-	return c.JSON(http.StatusOK, act)
+	// An activation is a new record (who, when, why): 201, located on its calibration.
+	c.Response().Header().Set(echo.HeaderLocation, "/v1/calibrations/"+id.String())
+	return c.JSON(http.StatusCreated, act)
 }
 
 // fitRefusal is the reason of a refused fit: predict's message, without

@@ -76,6 +76,12 @@ func TestCalibrationFitThroughAPI(t *testing.T) {
 				if m := got.Fit.Melting; m != nil && !sameBits([]float64{m.AlphaKgPerHA, m.BetaKgPerHA2MM}, []float64{melt.AlphaKgPerHA, melt.BetaKgPerHA2MM}) {
 					t.Errorf("%s α, β = %v, %v, want bit-identical %v, %v", name, m.AlphaKgPerHA, m.BetaKgPerHA2MM, melt.AlphaKgPerHA, melt.BetaKgPerHA2MM)
 				}
+				// Both coefficient forms: 1 lb = 0.45359237 kg, 1 in = 25.4 mm (NIST SP 811).
+				if m := got.Fit.Melting; m != nil && (!relClose(m.AlphaLbPerHA, m.AlphaKgPerHA/0.45359237, 1e-15) ||
+					!relClose(m.BetaLbPerHA2In, m.BetaKgPerHA2MM/0.45359237*25.4, 1e-15)) {
+					t.Errorf("%s inch-pound α, β = %v, %v, want %v, %v", name, m.AlphaLbPerHA, m.BetaLbPerHA2In,
+						m.AlphaKgPerHA/0.45359237, m.BetaKgPerHA2MM/0.45359237*25.4)
+				}
 				if got.Diagnostics == nil {
 					t.Errorf("%s has no diagnostics", name)
 				} else if d := cmp.Diff(wantDiag, *got.Diagnostics); d != "" {
@@ -126,7 +132,7 @@ func TestActivationSwitchesCouponModel(t *testing.T) {
 	})
 	for _, cal := range []calibrationReply{all, early, all} {
 		act := decode[map[string]any](t, "activate", e.do(http.MethodPost, "/v1/calibrations/"+cal.ID+"/activate", "engineer",
-			map[string]any{"reason": "use the fixture fit"}), http.StatusOK)
+			map[string]any{"reason": "use the fixture fit"}), http.StatusCreated)
 		if act["calibration_id"] != cal.ID || act["activated_by"] != "test-engineer" {
 			t.Errorf("activation = %v, want calibration %s by test-engineer", act, cal.ID)
 		}

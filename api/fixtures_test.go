@@ -37,7 +37,7 @@ func qualificationRecordBody(number string) map[string]any {
 		"thickness_mm": 12.0, "current_a": 280.0, "voltage_v": 29.0, "travel_speed_mm_s": 6.0,
 		"wire_feed_speed_m_min": 9.5, "ctwd_mm": 19.0, "preheat_c": 20.0, "interpass_c": 150.0,
 		"visual_result": "pass", "bend_result": "pass", "tensile_result": "pass", "macro_result": "pass",
-		"tensile_strength_mpa": 512.0, "outcome": "pass", "remarks": "fixture record",
+		"tensile_strength_mpa": 512.0, "outcome": "pass", "remarks": "fixture record", "min_penetration_mm": 1.0,
 	}
 }
 

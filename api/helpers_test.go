@@ -15,6 +15,7 @@ import (
 	"etchlog/api"
 	"etchlog/db"
 	"etchlog/db/dbtest"
+	"etchlog/openapi/spectest"
 )
 
 // testEnv is the whole API over the package's test database, with one user
@@ -51,7 +52,7 @@ func newEnv(tb testing.TB) *testEnv {
 		if err != nil {
 			tb.Fatal(err)
 		}
-		if err := store.PutUser(context.Background(), db.User{Site: e.site, Name: userName(role), Role: role}, tok); err != nil {
+		if err := dbtest.Owner(tb).PutUser(context.Background(), db.User{Site: e.site, Name: userName(role), Role: role}, tok); err != nil {
 			tb.Fatalf("PutUser(%s): %v", role, err)
 		}
 		e.tokens[role] = tok
@@ -80,7 +81,13 @@ func (e *testEnv) pqr() string { return e.shared("pqr", e.mustQualificationRecor
 func (e *testEnv) procedure() string { return e.shared("procedure", e.mustProcedure) }
 
 func (e *testEnv) coupon() string {
-	return e.shared("coupon", func() string { return e.mustCoupon(e.procedure()) })
+	// 60 mm plate, so that every plausible penetration (up to 50 mm) fits
+	// under its base-metal thickness in the measurement validation tables.
+	return e.shared("coupon", func() string {
+		b := couponBody(e.procedure(), "", uniq("C"))
+		b["thickness_mm"] = 60.0
+		return e.create("/v1/coupons", "technician", b)["id"].(string)
+	})
 }
 
 // testWriter sends the server's error log lines to the test log.
@@ -100,7 +107,8 @@ type reply struct {
 
 // do sends a request as the user holding role ("" sends no token). body is
 // nil (no body), a string or []byte (sent as is) or any value (sent as JSON).
-// Any 5xx answer fails the test: bad input must never cause one.
+// Any 5xx answer fails the test: bad input must never cause one. Every
+// answer is checked against openapi/openapi.yaml; a mismatch fails the test.
 func (e *testEnv) do(method, path, role string, body any) reply {
 	e.t.Helper()
 	auth := ""
@@ -147,6 +155,9 @@ func (e *testEnv) doAuth(method, path, auth string, body any) reply {
 		e.t.Fatalf("%s %s: read body: %v", method, path, err)
 	}
 	r := reply{status: res.StatusCode, header: res.Header, body: b}
+	if err := spectest.Default.Check(req, r.status, r.header, b); err != nil {
+		e.t.Errorf("answer does not match the spec: %v (body %.300s)", err, b)
+	}
 	if r.status >= 500 {
 		e.t.Errorf("%s %s = %d %s, want no server error", method, path, r.status, b)
 	}

@@ -41,7 +41,7 @@ func (e *testEnv) inverseInGroup(solveFor string, given map[string]any) inverseR
 func (e *testEnv) activate(id string) {
 	e.t.Helper()
 	decode[map[string]any](e.t, "activate", e.do(http.MethodPost, "/v1/calibrations/"+id+"/activate", "engineer",
-		map[string]any{"reason": "inverse fixture"}), http.StatusOK)
+		map[string]any{"reason": "inverse fixture"}), http.StatusCreated)
 }
 
 // TestInversePenetrationUsesFreeCalibration stores the fit coupons

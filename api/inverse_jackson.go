@@ -16,36 +16,30 @@ import (
 // its active jackson_fixed calibration, else the caller's K.
 type penetrationInverseIn struct {
 	groupFields
-	SolveFor            string      `json:"solve_for"`
-	PenetrationMM       *float64    `json:"penetration_mm"`
-	PenetrationIn       *float64    `json:"penetration_in"`
-	CurrentA            *float64    `json:"current_a"`
-	VoltageV            *float64    `json:"voltage_v"`
-	TravelSpeedMMPerS   *float64    `json:"travel_speed_mm_s"`
-	TravelSpeedMMPerMin *float64    `json:"travel_speed_mm_min"`
-	TravelSpeedInPerMin *float64    `json:"travel_speed_in_min"`
-	WireDiameterMM      *float64    `json:"wire_diameter_mm"`
-	WireDiameterIn      *float64    `json:"wire_diameter_in"`
-	JacksonK            *jacksonKIn `json:"jackson_k"`
+	SolveFor          string      `json:"solve_for"`
+	PenetrationMM     *float64    `json:"penetration_mm"`
+	CurrentA          *float64    `json:"current_a"`
+	VoltageV          *float64    `json:"voltage_v"`
+	TravelSpeedMMPerS *float64    `json:"travel_speed_mm_s"`
+	WireDiameterMM    *float64    `json:"wire_diameter_mm"`
+	JacksonK          *jacksonKIn `json:"jackson_k"`
 }
 
 // penetrationInverse is the request in metric units, validated.
 type penetrationInverse struct {
 	SolveFor          string      `json:"solve_for" validate:"required,oneof=current voltage travel_speed"`
-	PenetrationMM     float64     `json:"penetration_mm" validate:"required,gt=0,lte=50"`
-	CurrentA          *float64    `json:"current_a" validate:"omitempty,gte=10,lte=1000"`
-	VoltageV          *float64    `json:"voltage_v" validate:"omitempty,gte=5,lte=60"`
-	TravelSpeedMMPerS *float64    `json:"travel_speed_mm_s" validate:"omitempty,gte=0.5,lte=30"`
-	WireDiameterMM    *float64    `json:"wire_diameter_mm" validate:"omitempty,gte=0.6,lte=4"`
+	PenetrationMM     float64     `json:"penetration_mm" validate:"required,quantity"`
+	CurrentA          *float64    `json:"current_a" validate:"omitempty,quantity"`
+	VoltageV          *float64    `json:"voltage_v" validate:"omitempty,quantity"`
+	TravelSpeedMMPerS *float64    `json:"travel_speed_mm_s" validate:"omitempty,quantity"`
+	WireDiameterMM    *float64    `json:"wire_diameter_mm" validate:"omitempty,quantity"`
 	JacksonK          *jacksonKIn `json:"jackson_k"`
 }
 
 func (in penetrationInverseIn) metric() (penetrationInverse, error) {
 	var u units
 	q := penetrationInverse{SolveFor: in.SolveFor, CurrentA: in.CurrentA, VoltageV: in.VoltageV, JacksonK: in.JacksonK,
-		PenetrationMM:     u.req(mm("penetration_mm", in.PenetrationMM), inch("penetration_in", in.PenetrationIn)),
-		TravelSpeedMMPerS: u.opt(mmPerS("travel_speed_mm_s", in.TravelSpeedMMPerS), mmPerMin("travel_speed_mm_min", in.TravelSpeedMMPerMin), inPerMin("travel_speed_in_min", in.TravelSpeedInPerMin)),
-		WireDiameterMM:    u.opt(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn)),
+		PenetrationMM: u.req("penetration_mm", in.PenetrationMM), TravelSpeedMMPerS: in.TravelSpeedMMPerS, WireDiameterMM: in.WireDiameterMM,
 	}
 	for _, v := range []struct {
 		name  string
@@ -101,14 +95,14 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 		return err
 	}
 	if k == nil {
-		return unprocessable(FieldIssue{"jackson_k", "is required: give it, or the group of an active jackson_fixed calibration"})
+		return badRequest("jackson_k", "is required: give it, or the group of an active jackson_fixed calibration")
 	}
 	out := penetrationInverseOut{SolveFor: q.SolveFor, Notes: []string{}, Caution: predictionCaution}
 	if err := solveJackson(*k, q, &out); err != nil {
 		return renamed(err, jacksonFieldNames)
 	}
 	po := &out.Penetration
-	po.Source, po.Model = sourceRequest, "jackson"
+	po.Source, po.Model = sourceRequest, string(predict.ModelJacksonFixed)
 	if cal != nil {
 		po.Source, po.Model, po.CalibrationID = sourceCalibration, string(db.CalibrationJacksonFixed), &cal.ID
 	}
@@ -174,12 +168,11 @@ var freeFieldNames = map[string]string{
 func finishInverse(out *penetrationInverseOut) {
 	out.TravelSpeedInPerMin = predict.MMPerSToInPerMin(out.TravelSpeedMMPerS)
 	for _, b := range []struct {
-		name   string
-		v      float64
-		lo, hi float64
-	}{{"current_a", out.CurrentA, 10, 1000}, {"voltage_v", out.VoltageV, 5, 60}, {"travel_speed_mm_s", out.TravelSpeedMMPerS, 0.5, 30}} {
-		if b.v < b.lo || b.v > b.hi {
-			out.Notes = append(out.Notes, fmt.Sprintf("%s = %.4g is outside its plausible range %g–%g: no usual weld gives this penetration with the other two held", b.name, b.v, b.lo, b.hi))
+		name string
+		v    float64
+	}{{"current_a", out.CurrentA}, {"voltage_v", out.VoltageV}, {"travel_speed_mm_s", out.TravelSpeedMMPerS}} {
+		if q := predict.MustQuantity(b.name); !q.Inside(b.v) {
+			out.Notes = append(out.Notes, fmt.Sprintf("%s = %.4g is outside its plausible range %s: no usual weld gives this penetration with the other two held", b.name, b.v, q.BoundsText()))
 		}
 	}
 }

@@ -15,38 +15,30 @@ import (
 // group that has an active jackson_free calibration, its exponents are used.
 type holdIn struct {
 	groupFields
-	CurrentA               float64  `json:"current_a"`
-	VoltageV               float64  `json:"voltage_v"`
-	NewVoltageV            *float64 `json:"new_voltage_v"`
-	TravelSpeedMMPerS      *float64 `json:"travel_speed_mm_s"`
-	TravelSpeedMMPerMin    *float64 `json:"travel_speed_mm_min"`
-	TravelSpeedInPerMin    *float64 `json:"travel_speed_in_min"`
-	NewTravelSpeedMMPerS   *float64 `json:"new_travel_speed_mm_s"`
-	NewTravelSpeedMMPerMin *float64 `json:"new_travel_speed_mm_min"`
-	NewTravelSpeedInPerMin *float64 `json:"new_travel_speed_in_min"`
-	WireDiameterMM         *float64 `json:"wire_diameter_mm"`
-	WireDiameterIn         *float64 `json:"wire_diameter_in"`
+	CurrentA             float64  `json:"current_a"`
+	VoltageV             float64  `json:"voltage_v"`
+	NewVoltageV          *float64 `json:"new_voltage_v"`
+	TravelSpeedMMPerS    *float64 `json:"travel_speed_mm_s"`
+	NewTravelSpeedMMPerS *float64 `json:"new_travel_speed_mm_s"`
+	WireDiameterMM       *float64 `json:"wire_diameter_mm"`
 }
 
 // hold is the request in metric units, validated; it is also the answer's echo.
 type hold struct {
-	CurrentA             float64  `json:"current_a" validate:"required,gte=10,lte=1000"`
-	VoltageV             float64  `json:"voltage_v" validate:"required,gte=5,lte=60"`
-	NewVoltageV          float64  `json:"new_voltage_v" validate:"required,gte=5,lte=60"`
-	TravelSpeedMMPerS    float64  `json:"travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
-	NewTravelSpeedMMPerS float64  `json:"new_travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
-	WireDiameterMM       *float64 `json:"wire_diameter_mm,omitempty" validate:"omitempty,gte=0.6,lte=4"`
+	CurrentA             float64  `json:"current_a" validate:"required,quantity"`
+	VoltageV             float64  `json:"voltage_v" validate:"required,quantity"`
+	NewVoltageV          float64  `json:"new_voltage_v" validate:"required,quantity"`
+	TravelSpeedMMPerS    float64  `json:"travel_speed_mm_s" validate:"required,quantity"`
+	NewTravelSpeedMMPerS float64  `json:"new_travel_speed_mm_s" validate:"required,quantity"`
+	WireDiameterMM       *float64 `json:"wire_diameter_mm,omitempty" validate:"omitempty,quantity"`
 }
 
 func (in holdIn) metric() (hold, error) {
 	var u units
 	h := hold{CurrentA: in.CurrentA, VoltageV: in.VoltageV, NewVoltageV: in.VoltageV,
-		TravelSpeedMMPerS: u.req(mmPerS("travel_speed_mm_s", in.TravelSpeedMMPerS),
-			mmPerMin("travel_speed_mm_min", in.TravelSpeedMMPerMin), inPerMin("travel_speed_in_min", in.TravelSpeedInPerMin))}
+		TravelSpeedMMPerS: u.req("travel_speed_mm_s", in.TravelSpeedMMPerS), WireDiameterMM: in.WireDiameterMM}
 	h.NewTravelSpeedMMPerS = h.TravelSpeedMMPerS
-	h.WireDiameterMM = u.opt(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn))
-	if s := u.opt(mmPerS("new_travel_speed_mm_s", in.NewTravelSpeedMMPerS),
-		mmPerMin("new_travel_speed_mm_min", in.NewTravelSpeedMMPerMin), inPerMin("new_travel_speed_in_min", in.NewTravelSpeedInPerMin)); s != nil {
+	if s := in.NewTravelSpeedMMPerS; s != nil {
 		h.NewTravelSpeedMMPerS = *s
 	} else if in.NewVoltageV == nil {
 		u.issues = append(u.issues, FieldIssue{"new_travel_speed_mm_s", "give the change: a new travel speed and/or new_voltage_v"})
@@ -101,7 +93,7 @@ func (s *Server) handleInverseHold(c echo.Context) error {
 		return err
 	}
 	out := holdOut{hold: h, NewTravelSpeedIPM: predict.MMPerSToInPerMin(h.NewTravelSpeedMMPerS), Caution: predictionCaution,
-		PenetrationSource: sourceCalibration, PenetrationModel: "jackson", Note: holdNote,
+		PenetrationSource: sourceCalibration, PenetrationModel: string(predict.ModelJacksonFixed), Note: holdNote,
 		Exponents: exponentsOut{predict.JacksonCurrentExponent, predict.JacksonTravelExponent, predict.JacksonVoltageExponent}}
 	var i2 float64
 	if free != nil && free.Fit.Penetration != nil {

@@ -52,7 +52,7 @@ func TestInversePenetrationReproducesForward(t *testing.T) {
 	})
 	t.Run("ErrNoK", func(t *testing.T) {
 		body := map[string]any{"solve_for": "current", "penetration_mm": 2, "voltage_v": 23, "travel_speed_mm_s": 4}
-		wantProblem(t, "no K", e.do(http.MethodPost, "/v1/inverse/penetration", "auditor", body), http.StatusUnprocessableEntity, "jackson_k")
+		wantProblem(t, "no K", e.do(http.MethodPost, "/v1/inverse/penetration", "auditor", body), http.StatusBadRequest, "jackson_k")
 	})
 }
 
@@ -110,6 +110,6 @@ func TestCurrentForDepositionReproducesForward(t *testing.T) {
 	})
 	t.Run("ErrNoCoefficients", func(t *testing.T) {
 		body := map[string]any{"melting_rate_kg_h": 3, "extension_mm": 12}
-		wantProblem(t, "no coefficients", e.do(http.MethodPost, "/v1/inverse/current-for-deposition", "auditor", body), http.StatusUnprocessableEntity, "lesnewich")
+		wantProblem(t, "no coefficients", e.do(http.MethodPost, "/v1/inverse/current-for-deposition", "auditor", body), http.StatusBadRequest, "lesnewich")
 	})
 }

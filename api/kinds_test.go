@@ -68,7 +68,7 @@ func inputKinds() []inputKind {
 		{
 			name: "Measurement", schema: "MeasurementIn", role: db.RoleTechnician, read: "/v1/measurements",
 			path:     func(e *testEnv) string { return "/v1/coupons/" + e.coupon() + "/measurements" },
-			body:     func(*testEnv) map[string]any { return measurementBody("A") },
+			body:     func(*testEnv) map[string]any { return measurementBody(uniq("S")) }, // labels are unique per coupon
 			data:     func() any { return db.MeasurementData{} },
 			required: []string{"penetration_mm", "bead_width_mm", "reinforcement_mm"},
 			direct: func(e *testEnv, b map[string]any) error {

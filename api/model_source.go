@@ -34,22 +34,28 @@ func (k jacksonKIn) jackson() predict.JacksonK {
 	return predict.JacksonK{Value: k.Value, Units: predict.JacksonUnits(k.Units)}
 }
 
-// lesnewichIn is a pair of Lesnewich coefficients as a caller sends them.
+// lesnewichIn is a pair of Lesnewich coefficients as a caller sends them:
+// α in kg/(h·A) or lb/(h·A), β in kg/(h·A²·mm) or lb/(h·A²·in), one
+// spelling of each (bound in the metric one, converted exactly).
 type lesnewichIn struct {
-	AlphaKgPerHA   float64 `json:"alpha_kg_h_a" validate:"gte=0"`
-	BetaKgPerHA2MM float64 `json:"beta_kg_h_a2_mm" validate:"gte=0"`
+	AlphaKgPerHA   *float64 `json:"alpha_kg_h_a,omitempty" validate:"omitempty,quantity"`
+	BetaKgPerHA2MM *float64 `json:"beta_kg_h_a2_mm,omitempty" validate:"omitempty,quantity"`
 }
 
-func (l lesnewichIn) lesnewich() predict.Lesnewich {
-	return predict.Lesnewich{AlphaKgPerHA: l.AlphaKgPerHA, BetaKgPerHA2MM: l.BetaKgPerHA2MM}
+// lesnewich returns the coefficients, both required.
+func (l lesnewichIn) lesnewich() (predict.Lesnewich, error) {
+	u := units{prefix: "lesnewich."}
+	alpha := u.req("alpha_kg_h_a", l.AlphaKgPerHA)
+	beta := u.req("beta_kg_h_a2_mm", l.BetaKgPerHA2MM)
+	return predict.Lesnewich{AlphaKgPerHA: alpha, BetaKgPerHA2MM: beta}, u.err()
 }
 
 // groupFields are the optional calibration-group fields of a request; with
 // them the group's active calibrations are used.
 type groupFields struct {
-	Process      *string `json:"process" validate:"omitempty,oneof=GMAW FCAW GTAW SMAW SAW"`
+	Process      *string `json:"process" validate:"omitempty,enum"`
 	ShieldingGas *string `json:"shielding_gas" validate:"omitempty,max=64"`
-	JointType    *string `json:"joint_type" validate:"omitempty,oneof=bead_on_plate butt fillet lap corner edge"`
+	JointType    *string `json:"joint_type" validate:"omitempty,enum"`
 }
 
 // metricInput is a request body that converts into metric values Q.
@@ -84,19 +90,19 @@ func (g groupFields) group(wireDiameterMM *float64) (*db.CalibrationGroup, error
 	if g.Process == nil && g.ShieldingGas == nil && g.JointType == nil {
 		return nil, nil
 	}
-	var issues []FieldIssue
+	var v issues // fields the group needs are required once any is given: left out is 400
 	why := "is required to look up the group's active calibration"
 	if g.Process == nil {
-		issues = append(issues, FieldIssue{"process", why})
+		v.missing("process", why)
 	}
 	if g.JointType == nil {
-		issues = append(issues, FieldIssue{"joint_type", why})
+		v.missing("joint_type", why)
 	}
 	if wireDiameterMM == nil {
-		issues = append(issues, FieldIssue{"wire_diameter_mm", why + " (or give wire_diameter_in)"})
+		v.missing("wire_diameter_mm", why+" (or give wire_diameter_in)")
 	}
-	if issues != nil {
-		return nil, unprocessable(issues...)
+	if err := v.err(); err != nil {
+		return nil, err
 	}
 	gr := db.CalibrationGroup{Process: *g.Process, WireDiameterMM: *wireDiameterMM, JointType: *g.JointType}
 	if g.ShieldingGas != nil {
@@ -159,7 +165,10 @@ func (s *Server) lesnewichFor(c echo.Context, g *db.CalibrationGroup, given *les
 	if given == nil {
 		return nil, nil, nil
 	}
-	l := given.lesnewich()
+	l, err := given.lesnewich()
+	if err != nil {
+		return nil, nil, err
+	}
 	return &l, nil, nil
 }
 

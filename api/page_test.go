@@ -83,7 +83,14 @@ func TestPage(t *testing.T) {
 	flags := map[string][]string{}
 	for _, f := range e.do(http.MethodGet, "/v1/flags?subject_kind=coupon", "auditor", nil).items(t) {
 		id := f["subject_id"].(string)
-		flags[id] = append(flags[id], f["variable"].(string)+" "+f["direction"].(string))
+		switch f["kind"] {
+		case "requirement": // first, in its own words
+			flags[id] = append([]string{f["detail"].(string)}, flags[id]...)
+		case "suspect_units":
+			flags[id] = append(flags[id], f["variable"].(string)+" suspect units")
+		default:
+			flags[id] = append(flags[id], f["variable"].(string)+" "+f["direction"].(string))
+		}
 	}
 	var want [][]string
 	for i, m := range marks {

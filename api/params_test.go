@@ -45,7 +45,7 @@ func TestBadQuery(t *testing.T) {
 		{"/v1/coupons?welded_to=11/03/2026", 400, "welded_to"},
 		{"/v1/qualification-records?welded_from=yesterday", 400, "welded_from"},
 		{"/v1/qualification-records?welded_to=2026-11-3", 400, "welded_to"},
-		{"/v1/audit/events?from=2026-11-03", 400, "from"},
+		{"/v1/audit/events?from=2026-11-03T08:00", 400, "from"}, // no zone: neither a day nor RFC 3339
 		{"/v1/audit/events?to=now", 400, "to"},
 		{"/v1/coupons?include_voided=maybe", 400, "include_voided"},
 		{"/v1/coupons?limit=ten", 400, "limit"},

@@ -117,7 +117,7 @@ func (s *Server) predictPenetration(c echo.Context, g *db.CalibrationGroup, p pr
 		if err != nil {
 			return renamed(err, jacksonFieldNames)
 		}
-		po.Source, po.Model, po.PenetrationMM = sourceRequest, "jackson", &v
+		po.Source, po.Model, po.PenetrationMM = sourceRequest, string(predict.ModelJacksonFixed), &v
 		po.Exponents = &exponentsOut{predict.JacksonCurrentExponent, predict.JacksonTravelExponent, predict.JacksonVoltageExponent}
 		if err := po.setK(k); err != nil {
 			return err

@@ -119,11 +119,11 @@ func TestPredictionBadInput(t *testing.T) {
 		{"ErrTravelSpeedTwice", with("travel_speed_in_min", 12), http.StatusBadRequest, "travel_speed_in_min"},
 		{"ErrNoTravelSpeed", with("travel_speed_mm_s", nil), http.StatusBadRequest, "travel_speed_mm_s"},
 		{"ErrUnknownField", with("amps", 180), http.StatusBadRequest, "amps"},
-		{"ErrKUnits", with("jackson_k", map[string]any{"value": 0.02, "units": "furlong"}), http.StatusBadRequest, "jackson_k.units"},
+		{"ErrKUnits", with("jackson_k", map[string]any{"value": 0.02, "units": "furlong"}), http.StatusUnprocessableEntity, "jackson_k.units"},
 		{"ErrKZero", with("jackson_k", map[string]any{"value": 0, "units": "metric"}), http.StatusUnprocessableEntity, "jackson_k.value"},
 		{"ErrLevel", with("level", 1.5), http.StatusUnprocessableEntity, "level"},
 		{"ErrEfficiency", with("deposition_efficiency", 1.2), http.StatusUnprocessableEntity, "deposition_efficiency"},
-		{"ErrGroupWithoutJoint", with("process", "GMAW", "wire_diameter_mm", 0.9), http.StatusUnprocessableEntity, "joint_type"},
+		{"ErrGroupWithoutJoint", with("process", "GMAW", "wire_diameter_mm", 0.9), http.StatusBadRequest, "joint_type"},
 		{"ErrArcLongerThanCTWD", with("ctwd_mm", 12, "arc_length_mm", 14), http.StatusUnprocessableEntity, "arc_length_mm"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {

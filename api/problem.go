@@ -1,6 +1,7 @@
 package api
 
 import (
+	"context"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -26,6 +27,10 @@ type Problem struct {
 	Instance  string       `json:"instance,omitempty"`
 	RequestID string       `json:"request_id,omitempty"`
 	Errors    []FieldIssue `json:"errors,omitempty"`
+	// ErrorsOmitted counts refused fields beyond the first maxIssues listed.
+	ErrorsOmitted int `json:"errors_omitted,omitempty"`
+	// ExistingID names the stored record a duplicate collides with.
+	ExistingID string `json:"existing_id,omitempty"`
 }
 
 // FieldIssue names one refused request field and the reason.
@@ -36,8 +41,9 @@ type FieldIssue struct {
 
 // invalidError is a request that failed validation, with the HTTP status to send.
 type invalidError struct {
-	status int
-	issues []FieldIssue
+	status  int
+	issues  []FieldIssue
+	omitted int // issues counted but not listed
 }
 
 func (e *invalidError) Error() string {
@@ -59,6 +65,33 @@ func unprocessable(issues ...FieldIssue) error {
 	return &invalidError{status: http.StatusUnprocessableEntity, issues: issues}
 }
 
+// issues collects refused fields and applies the status rule: 400 when any
+// issue is about the request's shape (a field left out, unknown or of the
+// wrong type), else 422 (values refused).
+type issues struct {
+	list  []FieldIssue
+	shape bool
+}
+
+// missing records a required field left out (the request's shape).
+func (v *issues) missing(field, reason string) {
+	v.list, v.shape = append(v.list, FieldIssue{field, reason}), true
+}
+
+// refused records a value given but refused.
+func (v *issues) refused(field, reason string) { v.list = append(v.list, FieldIssue{field, reason}) }
+
+// err returns the collected issues as one error, or nil.
+func (v *issues) err() error {
+	if len(v.list) == 0 {
+		return nil
+	}
+	if v.shape {
+		return &invalidError{status: http.StatusBadRequest, issues: v.list}
+	}
+	return unprocessable(v.list...)
+}
+
 // problemFor maps any handler error to its problem body. It is the only place
 // where errors become HTTP.
 func problemFor(err error) Problem {
@@ -67,17 +100,18 @@ func problemFor(err error) Problem {
 	var pe *predict.InputError
 	var he *echo.HTTPError
 	var re *openapi3filter.RequestError
+	var dup *db.DuplicateError
 	switch {
 	case errors.As(err, &inv):
 		title := "The request is malformed"
 		if inv.status == http.StatusUnprocessableEntity {
 			title = "The request has values that are refused"
 		}
-		return Problem{Type: "urn:etchlog:problem:invalid", Title: title, Status: inv.status, Detail: inv.Error(), Errors: inv.issues}
+		return Problem{Type: "urn:etchlog:problem:invalid", Title: title, Status: inv.status, Errors: inv.issues, ErrorsOmitted: inv.omitted}
 	case errors.As(err, &re):
 		issues := requestIssues(re)
 		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request does not match the API description",
-			Status: requestStatus(re), Detail: (&invalidError{issues: issues}).Error(), Errors: issues}
+			Status: requestStatus(re), Errors: issues}
 	case errors.Is(err, db.ErrBadCursor):
 		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request is malformed", Status: http.StatusBadRequest,
 			Detail: err.Error(), Errors: []FieldIssue{{"cursor", db.ErrBadCursor.Error()}}}
@@ -90,10 +124,16 @@ func problemFor(err error) Problem {
 	case errors.Is(err, predict.ErrTooFewSamples), errors.Is(err, predict.ErrDegenerate):
 		return Problem{Type: "urn:etchlog:problem:fit-refused", Title: "The selected coupons cannot support this fit",
 			Status: http.StatusUnprocessableEntity, Detail: err.Error(), Errors: []FieldIssue{{"coupons", fitRefusal(err)}}}
+	case errors.As(err, &dup):
+		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict,
+			Detail: dup.Error(), Errors: []FieldIssue{{dup.Field, dup.Reason}}, ExistingID: dup.ExistingID.String()}
 	case errors.Is(err, db.ErrNotFound):
 		return Problem{Type: "urn:etchlog:problem:not-found", Title: "No such record", Status: http.StatusNotFound, Detail: err.Error()}
 	case errors.Is(err, db.ErrConflict):
 		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict, Detail: err.Error()}
+	case db.Unavailable(err):
+		return Problem{Type: "urn:etchlog:problem:unavailable", Title: "The database is out of reach", Status: http.StatusServiceUnavailable,
+			Detail: "the record store did not answer; retry later (a retried write is safe under the same Idempotency-Key)"}
 	case errors.Is(err, db.ErrVoided):
 		return Problem{Type: "urn:etchlog:problem:voided", Title: "The record is voided", Status: http.StatusConflict, Detail: err.Error()}
 	case errors.As(err, &he):
@@ -104,11 +144,11 @@ func problemFor(err error) Problem {
 }
 
 // rangeKeywords are the schema keywords whose failure means a well-formed
-// value outside its allowed range or length: refused (422) like the
-// validator's bounds, not malformed (400).
+// value that is refused (outside its range or length, not one of the
+// allowed words): 422 like the validator's rules, not malformed (400).
 var rangeKeywords = map[string]bool{
 	"minimum": true, "maximum": true, "exclusiveMinimum": true, "exclusiveMaximum": true,
-	"minLength": true, "maxLength": true, "minItems": true, "maxItems": true,
+	"minLength": true, "maxLength": true, "minItems": true, "maxItems": true, "enum": true, "pattern": true,
 }
 
 // requestStatus is the status for an OpenAPI request validation error: 422
@@ -129,7 +169,7 @@ func requestStatus(err error) int {
 			walk(re.Err)
 		case errors.As(err, &se):
 			leaves++
-			if rangeKeywords[se.SchemaField] {
+			if rangeKeywords[se.SchemaField] && rightType(se) {
 				refused++
 			}
 		default:
@@ -141,6 +181,27 @@ func requestStatus(err error) int {
 		return http.StatusUnprocessableEntity
 	}
 	return http.StatusBadRequest
+}
+
+// rightType reports whether a refused value has its schema's type: 12 for
+// an enum of words is a wrong type (400), "DC+" a refused word (422).
+func rightType(se *openapi3.SchemaError) bool {
+	if se.Schema == nil || se.Schema.Type == nil {
+		return true
+	}
+	switch se.Value.(type) {
+	case string:
+		return se.Schema.Type.Permits(openapi3.TypeString)
+	case float64, int, int64, json.Number:
+		return se.Schema.Type.Permits(openapi3.TypeNumber) || se.Schema.Type.Permits(openapi3.TypeInteger)
+	case []any:
+		return se.Schema.Type.Permits(openapi3.TypeArray)
+	case map[string]any:
+		return se.Schema.Type.Permits(openapi3.TypeObject)
+	case bool:
+		return se.Schema.Type.Permits(openapi3.TypeBoolean)
+	}
+	return false
 }
 
 var unsupportedProperty = regexp.MustCompile(`^property "([^"]+)" is unsupported`)
@@ -188,12 +249,59 @@ func requestIssues(re *openapi3filter.RequestError) []FieldIssue {
 	if re.Parameter != nil {
 		param = re.Parameter.Name
 	}
-	if re.Err != nil {
+	switch {
+	case re.Err != nil:
 		walk(re.Err, param)
-	} else {
+	case re.Parameter == nil && re.RequestBody != nil: // the only body check without an error: its media type
+		got := ""
+		if re.Input != nil && re.Input.Request != nil {
+			got = re.Input.Request.Header.Get(echo.HeaderContentType)
+		}
+		reason := "header is required: send Content-Type: application/json with the body"
+		if got != "" {
+			reason = fmt.Sprintf("header must be application/json (got %q)", got)
+		}
+		issues = append(issues, FieldIssue{Field: echo.HeaderContentType, Reason: reason})
+	default:
 		issues = append(issues, FieldIssue{Field: param, Reason: re.Reason})
 	}
 	return issues
+}
+
+// statusClientClosed is logged (never sent) for a request whose client went
+// away before the answer; the number follows a common proxy convention.
+const statusClientClosed = 499
+
+// retryAfterSeconds is what a 503 or 429 answer asks the client to wait.
+const retryAfterSeconds = "2"
+
+// bound lists each refused field once and at most maxIssues of them, counting
+// the rest, and sums them up in Detail, so an answer's size does not grow
+// with the request.
+func (p *Problem) bound() {
+	if len(p.Errors) == 0 {
+		return
+	}
+	seen := make(map[FieldIssue]bool, min(len(p.Errors), maxIssues))
+	out := make([]FieldIssue, 0, min(len(p.Errors), maxIssues))
+	for _, is := range p.Errors {
+		if seen[is] {
+			continue
+		}
+		if len(out) == maxIssues {
+			p.ErrorsOmitted++
+			continue
+		}
+		seen[is] = true
+		out = append(out, is)
+	}
+	p.Errors = out
+	if p.Detail == "" {
+		p.Detail = out[0].Field + ": " + out[0].Reason
+		if more := len(out) - 1 + p.ErrorsOmitted; more > 0 {
+			p.Detail += fmt.Sprintf(" (and %d more refused field(s); see errors)", more)
+		}
+	}
 }
 
 // errorHandler writes every error as problem+json and logs the unexpected ones.
@@ -202,10 +310,22 @@ func errorHandler(log *slog.Logger) echo.HTTPErrorHandler {
 		if c.Response().Committed {
 			return
 		}
+		if c.Request().Context().Err() != nil && (errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded) || db.Unavailable(err)) {
+			// Nobody reads this answer; the access log records 499.
+			log.Info("client closed request", "request_id", c.Response().Header().Get(echo.HeaderXRequestID),
+				"method", c.Request().Method, "path", c.Request().URL.Path)
+			c.Response().Status = statusClientClosed
+			return
+		}
 		p := problemFor(err)
+		p.bound()
 		p.Instance = c.Request().URL.Path
 		p.RequestID = c.Response().Header().Get(echo.HeaderXRequestID)
-		if p.Status >= 500 {
+		switch {
+		case p.Status == http.StatusServiceUnavailable || p.Status == http.StatusTooManyRequests:
+			c.Response().Header().Set("Retry-After", retryAfterSeconds)
+			log.Warn("request refused", "request_id", p.RequestID, "method", c.Request().Method, "path", p.Instance, "status", p.Status, "err", err)
+		case p.Status >= 500:
 			log.Error("request failed", "request_id", p.RequestID, "method", c.Request().Method, "path", p.Instance, "err", err)
 		}
 		c.Response().Header().Set(echo.HeaderContentType, "application/problem+json")

@@ -28,24 +28,30 @@ type narrowingIn struct {
 // narrowIn is the request body of POST /v1/procedures/{id}/ranges/narrow.
 type narrowIn struct {
 	BaseVersion *int          `json:"base_version"`
-	Reason      string        `json:"reason"`
+	Reason      *string       `json:"reason"`
 	Variables   []narrowingIn `json:"variables"`
 }
 
 // narrowings converts the request into stored units.
 func (in narrowIn) narrowings() ([]predict.Narrowing, error) {
-	var issues []FieldIssue
-	if in.BaseVersion == nil || *in.BaseVersion < 1 {
-		issues = append(issues, FieldIssue{"base_version", "is required: the ranges version this narrowing is based on"})
+	var issues issues
+	switch {
+	case in.BaseVersion == nil:
+		issues.missing("base_version", "is required: the ranges version this narrowing is based on")
+	case *in.BaseVersion < 1:
+		issues.refused("base_version", fmt.Sprintf("%d is not a version: versions count from 1", *in.BaseVersion))
 	}
-	if strings.TrimSpace(in.Reason) == "" {
-		issues = append(issues, FieldIssue{"reason", "is required: say why the range is narrowed"})
+	switch {
+	case in.Reason == nil:
+		issues.missing("reason", "is required: say why the range is narrowed")
+	case strings.TrimSpace(*in.Reason) == "":
+		issues.refused("reason", "is blank: say why the range is narrowed")
 	}
 	out := make([]predict.Narrowing, 0, len(in.Variables))
 	for i, v := range in.Variables {
 		sp, ok := predict.ParseVariable(v.Variable)
 		if !ok {
-			issues = append(issues, FieldIssue{fmt.Sprintf("variables[%d].variable", i), fmt.Sprintf("unknown variable %q", v.Variable)})
+			issues.refused(fmt.Sprintf("variables[%d].variable", i), fmt.Sprintf("unknown variable %q", v.Variable))
 			continue
 		}
 		conv := func(p *float64) *float64 {
@@ -57,10 +63,7 @@ func (in narrowIn) narrowings() ([]predict.Narrowing, error) {
 		}
 		out = append(out, predict.Narrowing{Variable: sp.Variable, Min: conv(v.Min), Max: conv(v.Max), Allowed: v.Allowed})
 	}
-	if issues != nil {
-		return nil, unprocessable(issues...)
-	}
-	return out, nil
+	return out, issues.err()
 }
 
 func (s *Server) handleRangesDerive(c echo.Context) error {
@@ -112,7 +115,7 @@ func (s *Server) handleRangesNarrow(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	pr, err := s.store.NarrowRanges(c.Request().Context(), actorOf(c), id, *in.BaseVersion, in.Reason, changes)
+	pr, err := s.store.NarrowRanges(c.Request().Context(), actorOf(c), id, *in.BaseVersion, *in.Reason, changes)
 	if err != nil {
 		return listIssue(err)
 	}

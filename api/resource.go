@@ -2,8 +2,12 @@ package api
 
 import (
 	"context"
+	"fmt"
+	"math"
 	"net/http"
 	"strconv"
+	"strings"
+	"time"
 
 	"github.com/google/uuid"
 	"github.com/labstack/echo/v4"
@@ -149,17 +153,26 @@ func handleRevisions[In input[D], D any, R any](r resource[In, D, R]) echo.Handl
 	}
 }
 
-// change checks a correction's base revision and reason.
+// change checks a correction's base revision and reason: a field left out
+// is the request's shape (400), a value given but refused is 422.
 func change(f changeFields) (db.Change, error) {
-	var issues []FieldIssue
-	if f.BaseRevision == nil || *f.BaseRevision < 1 {
-		issues = append(issues, FieldIssue{"base_revision", "is required: the revision this change is based on (1 or more)"})
+	var v issues
+	switch {
+	case f.BaseRevision == nil:
+		v.missing("base_revision", "is required: the revision this change is based on (1 or more)")
+	case *f.BaseRevision < 1:
+		v.refused("base_revision", fmt.Sprintf("%d is not a revision: revisions count from 1", *f.BaseRevision))
+	case *f.BaseRevision >= math.MaxInt32:
+		v.refused("base_revision", fmt.Sprintf("%d is past the last revision a record can have (2147483646)", *f.BaseRevision))
 	}
-	if f.Reason == nil || *f.Reason == "" {
-		issues = append(issues, FieldIssue{"reason", "is required: say why the record is changed"})
+	switch {
+	case f.Reason == nil:
+		v.missing("reason", "is required: say why the record is changed")
+	case strings.TrimSpace(*f.Reason) == "":
+		v.refused("reason", "is blank: say why the record is changed")
 	}
-	if issues != nil {
-		return db.Change{}, unprocessable(issues...)
+	if err := v.err(); err != nil {
+		return db.Change{}, err
 	}
 	return db.Change{BaseRevision: *f.BaseRevision, Reason: *f.Reason}, nil
 }
@@ -183,8 +196,8 @@ func queryInt(c echo.Context, name string) (int, error) {
 		return 0, nil
 	}
 	n, err := strconv.Atoi(s)
-	if err != nil || n < 0 {
-		return 0, badRequest(name, "want a whole number")
+	if err != nil || n < 0 || n > math.MaxInt32 {
+		return 0, badRequest(name, "want a whole number from 0 to 2147483647")
 	}
 	return n, nil
 }
@@ -202,15 +215,35 @@ func queryUUID(c echo.Context, name string) (*uuid.UUID, error) {
 	return &id, nil
 }
 
-// queryDate reads an optional YYYY-MM-DD query parameter.
-func queryDate(c echo.Context, name string) (*db.Date, error) {
-	s := c.QueryParam(name)
-	if s == "" {
+// queryTime reads an optional time filter bound: a day (YYYY-MM-DD, its
+// midnight UTC) or an RFC 3339 time. Every time filter is half-open,
+// [from, to): from is included, to is not.
+func queryTime(c echo.Context, name string) (*time.Time, error) {
+	v := c.QueryParam(name)
+	if v == "" {
 		return nil, nil
 	}
-	d, err := db.ParseDate(s)
+	if d, err := db.ParseDate(v); err == nil {
+		return &d.Time, nil
+	}
+	t, err := time.Parse(time.RFC3339, v)
 	if err != nil {
-		return nil, badRequest(name, err.Error())
+		return nil, badRequest(name, fmt.Sprintf("%q is not a day YYYY-MM-DD or an RFC 3339 time (e.g. 2026-11-03 or 2026-11-03T08:00:00Z)", v))
+	}
+	return &t, nil
+}
+
+// queryDay reads a time filter bound on a column of days: a day counts from
+// its midnight UTC, so a bound inside a day moves to the next midnight
+// (welded_to=2026-11-03T12:00Z includes 2026-11-03, welded_to=2026-11-03 does not).
+func queryDay(c echo.Context, name string) (*db.Date, error) {
+	t, err := queryTime(c, name)
+	if t == nil || err != nil {
+		return nil, err
+	}
+	d := db.DateOf(t.UTC())
+	if d.Before(*t) {
+		d = db.Date{Time: d.AddDate(0, 0, 1)}
 	}
 	return &d, nil
 }

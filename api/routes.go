@@ -91,6 +91,9 @@ func (s *Server) routes() error {
 		if r.roles != nil {
 			mw = []echo.MiddlewareFunc{s.requireRole(r.roles), conform}
 		}
+		if r.method == http.MethodPost && creates(s.spec.Paths.Find(specPath(r.path)).GetOperation(r.method)) {
+			mw = append(mw, s.idempotent)
+		}
 		s.echo.Add(r.method, r.path, r.h, mw...)
 	}
 	return nil

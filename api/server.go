@@ -52,6 +52,7 @@ func New(store *db.Store, opt Options) (*Server, error) {
 	e.Use(middleware.Recover())
 	e.Use(s.accessLog)
 	e.Use(middleware.BodyLimit(opt.BodyLimit))
+	e.Use(s.guard)
 	if err := s.routes(); err != nil {
 		return nil, err
 	}

@@ -3,6 +3,8 @@ package api
 import (
 	"context"
 	"fmt"
+	"net/http"
+	"slices"
 	"strings"
 
 	"github.com/getkin/kin-openapi/openapi3"
@@ -11,6 +13,7 @@ import (
 	"github.com/labstack/echo/v4"
 
 	"etchlog/openapi"
+	"etchlog/predict"
 )
 
 func loadSpec() (*openapi3.T, error) {
@@ -22,7 +25,27 @@ func loadSpec() (*openapi3.T, error) {
 	if err := spec.Validate(context.Background()); err != nil {
 		return nil, fmt.Errorf("api: OpenAPI document is invalid: %w", err)
 	}
+	leaveBoundsToRegistry(spec)
 	return spec, nil
+}
+
+// leaveBoundsToRegistry drops, from the copy of the document that requests
+// are checked against, the bounds of every registered quantity: the
+// validator refuses those values from the registry, after converting the
+// spelling the client used, with one wording. The document still states the
+// same bounds (a test compares them with the registry).
+func leaveBoundsToRegistry(spec *openapi3.T) {
+	for _, ref := range spec.Components.Schemas {
+		if ref.Value == nil {
+			continue
+		}
+		for name, p := range ref.Value.Properties {
+			if _, ok := predict.LookupQuantity(name); ok && p.Ref == "" && p.Value != nil {
+				p.Value.Min, p.Value.Max = nil, nil
+				p.Value.ExclusiveMin, p.Value.ExclusiveMax = openapi3.ExclusiveBound{}, openapi3.ExclusiveBound{}
+			}
+		}
+	}
 }
 
 // specPath turns an echo path (/v1/coupons/:id) into an OpenAPI one (/v1/coupons/{id}).
@@ -36,6 +59,10 @@ func specPath(p string) string {
 	return strings.Join(parts, "/")
 }
 
+// multiErrorBodyLimit is the largest body whose every refused field is
+// listed; a larger faulty body is answered with its first fault.
+const multiErrorBodyLimit = 64 << 10
+
 // conformTo returns middleware that checks each request against the
 // document's operation for this method and path (parameters, body schema,
 // unknown fields). A route without an operation is a programming error.
@@ -46,15 +73,34 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 		return nil, fmt.Errorf("api: route %s %s has no operation in the OpenAPI document", method, sp)
 	}
 	route := &routers.Route{Spec: s.spec, Path: sp, PathItem: item, Method: method, Operation: item.GetOperation(method)}
-	opts := &openapi3filter.Options{MultiError: true, AuthenticationFunc: openapi3filter.NoopAuthenticationFunc, ExcludeResponseBody: true}
+	first := &openapi3filter.Options{AuthenticationFunc: openapi3filter.NoopAuthenticationFunc, ExcludeResponseBody: true}
+	all := *first
+	all.MultiError = true
+	known := queryNames(item, route.Operation)
+	api := strings.HasPrefix(sp, "/v1/") // the page, probes and the document ignore stray parameters
 	return func(next echo.HandlerFunc) echo.HandlerFunc {
 		return func(c echo.Context) error {
+			if api {
+				if err := unknownQuery(c, known); err != nil {
+					return err
+				}
+			}
 			params := map[string]string{}
 			for _, n := range c.ParamNames() {
 				params[n] = c.Param(n)
 			}
-			in := &openapi3filter.RequestValidationInput{Request: c.Request(), PathParams: params, Route: route, Options: opts}
+			// The first pass stops at the first fault, so a valid request
+			// costs one walk and a hostile one cannot grow an error per item.
+			// Only a body small enough to bound the list is walked again to
+			// name every refused field.
+			in := &openapi3filter.RequestValidationInput{Request: c.Request(), PathParams: params, Route: route, Options: first}
 			if err := openapi3filter.ValidateRequest(c.Request().Context(), in); err != nil {
+				if c.Request().ContentLength <= multiErrorBodyLimit {
+					in.Options = &all
+					if err2 := openapi3filter.ValidateRequest(c.Request().Context(), in); err2 != nil {
+						err = err2
+					}
+				}
 				return asRequestError(err)
 			}
 			return next(c)
@@ -76,4 +122,40 @@ func asRequestError(err error) error {
 		return &invalidError{status: requestStatus(multi), issues: issues}
 	}
 	return err
+}
+
+// queryNames lists the query parameters an operation takes, its path's included.
+func queryNames(item *openapi3.PathItem, op *openapi3.Operation) []string {
+	var names []string
+	for _, ps := range []openapi3.Parameters{item.Parameters, op.Parameters} {
+		for _, p := range ps {
+			if p.Value != nil && p.Value.In == openapi3.ParameterInQuery {
+				names = append(names, p.Value.Name)
+			}
+		}
+	}
+	slices.Sort(names)
+	return names
+}
+
+// unknownQuery refuses (400) every query parameter the operation does not
+// take, naming it: a misspelt filter (welder=) must not return the
+// unfiltered list as if it had been applied.
+func unknownQuery(c echo.Context, known []string) error {
+	var issues []FieldIssue
+	for name := range c.QueryParams() {
+		if slices.Contains(known, name) {
+			continue
+		}
+		reason := "unknown query parameter; this operation takes none"
+		if len(known) > 0 {
+			reason = "unknown query parameter; this operation takes " + strings.Join(known, ", ")
+		}
+		issues = append(issues, FieldIssue{name, reason})
+	}
+	if issues == nil {
+		return nil
+	}
+	slices.SortFunc(issues, func(a, b FieldIssue) int { return strings.Compare(a.Field, b.Field) })
+	return &invalidError{status: http.StatusBadRequest, issues: issues}
 }

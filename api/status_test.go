@@ -98,10 +98,10 @@ func TestChangeFields(t *testing.T) {
 			status int
 			field  string
 		}{
-			{"CorrectNoReason", http.MethodPut, p, map[string]any{"base_revision": 1}, http.StatusUnprocessableEntity, "reason"},
+			{"CorrectNoReason", http.MethodPut, p, map[string]any{"base_revision": 1}, http.StatusBadRequest, "reason"},
 			{"CorrectEmptyReason", http.MethodPut, p, map[string]any{"base_revision": 1, "reason": ""}, http.StatusUnprocessableEntity, "reason"},
 			{"CorrectBlankReason", http.MethodPut, p, map[string]any{"base_revision": 1, "reason": "  \t"}, http.StatusUnprocessableEntity, "reason"},
-			{"CorrectNoBase", http.MethodPut, p, map[string]any{"reason": "typo"}, http.StatusUnprocessableEntity, "base_revision"},
+			{"CorrectNoBase", http.MethodPut, p, map[string]any{"reason": "typo"}, http.StatusBadRequest, "base_revision"},
 			{"CorrectBaseZero", http.MethodPut, p, map[string]any{"base_revision": 0, "reason": "typo"}, http.StatusUnprocessableEntity, "base_revision"},
 			{"VoidNoReason", http.MethodPost, p + "/void", map[string]any{"base_revision": 1}, http.StatusBadRequest, "reason"},
 			{"VoidEmptyReason", http.MethodPost, p + "/void", map[string]any{"base_revision": 1, "reason": ""}, http.StatusUnprocessableEntity, "reason"},

@@ -32,6 +32,7 @@ var spellingCases = []spellingCase{
 	{"QualificationRecord", "ctwd_in", 0.75, "ctwd_mm", 19.05},                             // 0.75 × 25.4
 	{"QualificationRecord", "preheat_f", 50, "preheat_c", 10},                              // (50 − 32) / 1.8
 	{"QualificationRecord", "interpass_f", 302, "interpass_c", 150},                        // (302 − 32) / 1.8
+	{"QualificationRecord", "min_penetration_in", 0.04, "min_penetration_mm", 1.016},       // 0.04 × 25.4
 
 	{"Coupon", "thickness_in", 0.375, "thickness_mm", 9.525},                 // 0.375 × 25.4
 	{"Coupon", "travel_speed_in_min", 12, "travel_speed_mm_s", 5.08},         // 12 × 25.4 / 60

@@ -10,11 +10,15 @@ import (
 	"reflect"
 	"slices"
 	"strings"
+	"time"
 
 	"github.com/getkin/kin-openapi/openapi3"
 	"github.com/go-playground/validator/v10"
 	"github.com/google/uuid"
 	"github.com/labstack/echo/v4"
+
+	"etchlog/db"
+	"etchlog/predict"
 )
 
 // The OpenAPI document marks record ids with format uuid; kin-openapi leaves
@@ -37,11 +41,51 @@ func newValidator() *validator.Validate {
 		}
 		return name
 	})
+	// plausible_day: a weld date from 1900-01-01 to one day after today (UTC).
+	mustRegister(v, "plausible_day", func(fl validator.FieldLevel) bool {
+		switch t := fl.Field().Interface().(type) {
+		case db.Date:
+			return t.IsZero() || db.PlausibleDay(t.Time, time.Now())
+		case time.Time:
+			return t.IsZero() || db.PlausibleDay(t, time.Now())
+		}
+		return false
+	})
+	// quantity and enum take a field's bounds and allowed words from the
+	// registry (predict/quantity_table.go), found by the field's JSON name.
+	mustRegister(v, "quantity", func(fl validator.FieldLevel) bool {
+		q, ok := predict.LookupQuantity(fl.FieldName())
+		f, isNum := number(fl.Field())
+		return ok && isNum && q.Inside(f)
+	})
+	mustRegister(v, "enum", func(fl validator.FieldLevel) bool {
+		e, ok := predict.LookupEnum(fl.FieldName())
+		return ok && fl.Field().Kind() == reflect.String && e.Allows(fl.Field().String())
+	})
 	return v
 }
 
+func mustRegister(v *validator.Validate, tag string, fn validator.Func) {
+	if err := v.RegisterValidation(tag, fn); err != nil {
+		panic(err)
+	}
+}
+
+// number returns the value of a numeric field (through a pointer).
+func number(f reflect.Value) (float64, bool) {
+	f = reflect.Indirect(f)
+	switch f.Kind() {
+	case reflect.Float32, reflect.Float64:
+		return f.Float(), true
+	case reflect.Int, reflect.Int32, reflect.Int64:
+		return float64(f.Int()), true
+	}
+	return 0, false
+}
+
 // check validates v and turns each failed rule into a field issue: 422 for
-// refused values, 400 when every failure is a field left out.
+// refused values, 400 when any failure is a field left out (the shape rule
+// of issues).
 func (s *Server) check(v any) error {
 	err := s.validate.Struct(v)
 	var ve validator.ValidationErrors
@@ -56,7 +100,7 @@ func (s *Server) check(v any) error {
 			absent++
 		}
 	}
-	if absent == len(issues) {
+	if absent > 0 {
 		return &invalidError{status: http.StatusBadRequest, issues: issues}
 	}
 	return unprocessable(issues...)
@@ -111,17 +155,44 @@ func ruleReason(fe validator.FieldError, name func(string) string) string {
 		return "must have at most " + fe.Param() + " item(s) or characters"
 	case "oneof":
 		return fmt.Sprintf("must be one of: %s (got %v)", fe.Param(), fe.Value())
+	case "plausible_day":
+		got := fmt.Sprint(fe.Value())
+		switch t := fe.Value().(type) {
+		case db.Date:
+			got = t.String()
+		case time.Time:
+			got = t.Format(time.RFC3339)
+		}
+		return fmt.Sprintf("must fall between %s and %s, one day after today (UTC) (got %s)", db.EarliestDay, db.LatestDay(time.Now()), got)
+	case "quantity":
+		q, ok := predict.LookupQuantity(fe.Field())
+		v, isNum := number(reflect.ValueOf(fe.Value()))
+		if !ok || !isNum {
+			return "is not a registered quantity"
+		}
+		return q.Refusal(v)
+	case "enum":
+		e, ok := predict.LookupEnum(fe.Field())
+		if !ok {
+			return "is not a registered enumeration"
+		}
+		return fmt.Sprintf("must be one of: %s (got %v)", strings.Join(e.Values, " "), fe.Value())
 	case "gtefield":
 		return "must not be less than " + name(fe.Param())
 	}
 	return "breaks the rule " + fe.Tag()
 }
 
-// bind decodes the JSON body into v, refusing unknown fields and trailing data.
+// bind decodes the JSON body into v, refusing unknown fields and trailing
+// data, after rewriting every quantity into its stored spelling (units.go).
 func bind(c echo.Context, v any) error {
 	body, err := io.ReadAll(c.Request().Body)
 	if err != nil {
 		return err
+	}
+	body, issues := storedSpellings(body, reflect.TypeOf(v).Elem())
+	if issues != nil {
+		return &invalidError{status: http.StatusBadRequest, issues: issues}
 	}
 	dec := json.NewDecoder(bytes.NewReader(body))
 	dec.DisallowUnknownFields()

@@ -11,6 +11,7 @@ import (
 	"testing"
 
 	"etchlog/db"
+	"etchlog/predict"
 )
 
 // rangeRule is one bound from a validate tag of a stored data type.
@@ -22,7 +23,8 @@ type rangeRule struct {
 }
 
 // rangeRules reads the numeric bounds (gte, gt, lte) and string lengths
-// (max) from the validate tags of a stored data type.
+// (max) from the validate tags of a stored data type; a field tagged
+// "quantity" has the bounds its JSON name has in the quantity registry.
 func rangeRules(data any) (bounds []rangeRule, maxLen map[string]int) {
 	maxLen = map[string]int{}
 	t := reflect.TypeOf(data)
@@ -39,6 +41,22 @@ func rangeRules(data any) (bounds []rangeRule, maxLen map[string]int) {
 				break // rules after dive are about list items
 			}
 			switch {
+			case part == "quantity":
+				q, found := predict.LookupQuantity(name)
+				if !found {
+					panic(name + ": tagged quantity but not in the registry")
+				}
+				lo, hi := "gte", "lte"
+				if q.MinOpen {
+					lo = "gt"
+				}
+				if q.MaxOpen {
+					hi = "lt"
+				}
+				bounds = append(bounds, rangeRule{name, lo, q.Min, kind == reflect.Int})
+				if !math.IsInf(q.Max, 1) {
+					bounds = append(bounds, rangeRule{name, hi, q.Max, kind == reflect.Int})
+				}
 			case !ok:
 			case kind == reflect.String && tag == "max":
 				maxLen[name], _ = strconv.Atoi(param)
@@ -69,6 +87,8 @@ func (r rangeRule) edge() (inside, outside float64) {
 		return r.bound, step(r.bound, -1)
 	case "gt":
 		return step(r.bound, +1), r.bound
+	case "lt":
+		return step(r.bound, -1), r.bound
 	default: // lte
 		return r.bound, step(r.bound, +1)
 	}

@@ -63,7 +63,7 @@ func TestWindowAndHoldUseFreeCalibration(t *testing.T) {
 		}
 		h := e.holdInGroup()
 		// Published Jackson exponents 4/3, −1/3, −2/3 (from memory).
-		if h.PenetrationModel != "jackson" || h.PenetrationSource != "published" || h.PenetrationCalibrationID != "" ||
+		if h.PenetrationModel != "jackson_fixed" || h.PenetrationSource != "published" || h.PenetrationCalibrationID != "" ||
 			!relClose(h.Exponents.Current, 4.0/3, 1e-15) {
 			t.Errorf("hold model = %s %s %q exponents %+v, want the published jackson", h.PenetrationSource,
 				h.PenetrationModel, h.PenetrationCalibrationID, h.Exponents)
@@ -111,6 +111,6 @@ func TestWindowAndHoldUseFreeCalibration(t *testing.T) {
 	t.Run("HoldGroupWithoutWire", func(t *testing.T) {
 		r := e.do(http.MethodPost, "/v1/inverse/hold-penetration", "auditor", map[string]any{"current_a": 180, "voltage_v": 21,
 			"new_voltage_v": 22.5, "travel_speed_mm_s": 5, "process": "GMAW", "joint_type": "fillet"})
-		wantProblem(t, "group without wire diameter", r, http.StatusUnprocessableEntity, "wire_diameter_mm")
+		wantProblem(t, "group without wire diameter", r, http.StatusBadRequest, "wire_diameter_mm")
 	})
 }

@@ -154,10 +154,10 @@ func (s *Server) windowPenetration(c echo.Context, g *db.CalibrationGroup, w *wi
 		return err
 	}
 	if k == nil {
-		return unprocessable(FieldIssue{"jackson_k", "is required with min_penetration: give it, or the group of an active jackson_free or jackson_fixed calibration"})
+		return badRequest("jackson_k", "is required with min_penetration: give it, or the group of an active jackson_free or jackson_fixed calibration")
 	}
 	w.in.Penetration = &predict.PenetrationTarget{MinMM: *w.MinPenetrationMM, K: *k}
-	out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceRequest, "jackson", nil
+	out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceRequest, string(predict.ModelJacksonFixed), nil
 	if cal != nil {
 		out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceCalibration, string(cal.Model), &cal.ID
 	}
@@ -183,11 +183,11 @@ func heatRuleOf(in windowIn) (predict.HeatInputRule, error) {
 			}
 			r.Efficiency = k
 		default:
-			return r, unprocessable(FieldIssue{"thermal_efficiency", "is required with heat_input_form thermal_efficiency (or give process)"})
+			return r, badRequest("thermal_efficiency", "is required with heat_input_form thermal_efficiency (or give process)")
 		}
 	case predict.HeatInputWaveformEnergy, predict.HeatInputWaveformPower:
 		if in.WaveformPowerRatio == nil {
-			return r, unprocessable(FieldIssue{"waveform_power_ratio", "is required with a waveform heat input form"})
+			return r, badRequest("waveform_power_ratio", "is required with a waveform heat input form")
 		}
 		r.PowerRatio = *in.WaveformPowerRatio
 	}

@@ -40,29 +40,27 @@ func (s *Store) AuditEvents(ctx context.Context, site string, af AuditFilter, cu
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
 	}
-	at, err := ParseCursor(cursor)
+	from, err := logCursor("audit_events", cursor)
 	if err != nil {
 		return Page[LogEntry]{}, fmt.Errorf("db: list log: %w", err)
 	}
-	if cursor == "" {
-		s.awaitLogged(ctx, site)
-	}
+	s.awaitLogged(ctx, site)
 	rows, _ := s.pool.Query(ctx, `
 		SELECT site, leaf_index, kind, record_id, revision, version, actor, action, reason, at, leaf_hash, integrated_at, leaf_index
 		FROM log_leaves
-		WHERE site = $1 AND leaf_index > $2
+		WHERE site = $1 AND leaf_index >= $2
 		  AND ($3 = '' OR kind = $3)
 		  AND ($4::uuid IS NULL OR record_id = $4)
 		  AND ($5 = '' OR actor = $5)
 		  AND ($6::timestamptz IS NULL OR at >= $6)
 		  AND ($7::timestamptz IS NULL OR at < $7)
 		ORDER BY leaf_index
-		LIMIT $8`, site, at.After, af.Entity, af.EntityID, af.Actor, af.From, af.To, limit)
+		LIMIT $8`, site, from, af.Entity, af.EntityID, af.Actor, af.From, af.To, limit)
 	ev, last, err := collectIndexed[LogEntry](rows)
 	if err != nil {
 		return Page[LogEntry]{}, fmt.Errorf("db: list log: %w", err)
 	}
-	return Page[LogEntry]{Items: ev, Next: nextCursor(at, last, len(ev))}, nil
+	return Page[LogEntry]{Items: ev, Next: nextLogCursor("audit_events", from, last, len(ev))}, nil
 }
 
 // Verification is the outcome of checking a site's log, its records and its

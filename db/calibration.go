@@ -50,16 +50,16 @@ func (g CalibrationGroup) canonical() CalibrationGroup {
 // diagnostics and, for Lesnewich, the arc length in mm subtracted from each
 // coupon's CTWD to give its electrode extension.
 type CalibrationSpec struct {
-	Model          CalibrationModel `db:"model" json:"model" validate:"required,oneof=jackson_fixed jackson_free lesnewich"`
-	Process        string           `db:"process" json:"process" validate:"required,oneof=GMAW FCAW GTAW SMAW SAW"`
-	WireDiameterMM float64          `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,gte=0.6,lte=4"`
+	Model          CalibrationModel `db:"model" json:"model" validate:"required,enum"`
+	Process        string           `db:"process" json:"process" validate:"required,enum"`
+	WireDiameterMM float64          `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,quantity"`
 	ShieldingGas   string           `db:"shielding_gas" json:"shielding_gas" validate:"max=64"`
-	JointType      string           `db:"joint_type" json:"joint_type" validate:"required,oneof=bead_on_plate butt fillet lap corner edge"`
+	JointType      string           `db:"joint_type" json:"joint_type" validate:"required,enum"`
 	WeldedFrom     *Date            `db:"welded_from" json:"welded_from,omitempty"`
 	WeldedTo       *Date            `db:"welded_to" json:"welded_to,omitempty"`
 	ProcedureID    *uuid.UUID       `db:"procedure_id" json:"procedure_id,omitempty"`
-	Level          float64          `db:"level" json:"level" validate:"gt=0,lt=1"`
-	ArcLengthMM    *float64         `db:"arc_length_mm" json:"arc_length_mm,omitempty" validate:"omitempty,gt=0,lte=50"`
+	Level          float64          `db:"level" json:"level" validate:"quantity"`
+	ArcLengthMM    *float64         `db:"arc_length_mm" json:"arc_length_mm,omitempty" validate:"omitempty,quantity"`
 	Note           string           `db:"note" json:"note" validate:"max=2000"`
 }
 

@@ -55,12 +55,9 @@ func (s *Store) Calibrations(ctx context.Context, site string, cf CalibrationFil
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
 	}
-	var after uuid.UUID
-	if cursor != "" {
-		var err error
-		if after, err = uuid.Parse(cursor); err != nil {
-			return Page[Calibration]{}, fmt.Errorf("db: list calibrations: cursor %q: %w", cursor, ErrBadCursor)
-		}
+	after, err := afterID("calibrations", cursor)
+	if err != nil {
+		return Page[Calibration]{}, fmt.Errorf("db: list calibrations: %w", err)
 	}
 	f := newFilter()
 	f.args[0], f.args[1] = site, after
@@ -99,7 +96,7 @@ func (s *Store) Calibrations(ctx context.Context, site string, cf CalibrationFil
 	p := Page[Calibration]{Items: items}
 	if len(items) > limit {
 		p.Items = items[:limit]
-		p.Next = p.Items[limit-1].ID.String()
+		p.Next = idCursor("calibrations", p.Items[limit-1].ID)
 	}
 	return p, nil
 }

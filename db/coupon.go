@@ -16,21 +16,21 @@ type CouponData struct {
 	WelderID              string     `db:"welder_id" json:"welder_id" validate:"required,max=64"`
 	PowerSourceID         string     `db:"power_source_id" json:"power_source_id" validate:"max=64"`
 	FillerLot             string     `db:"filler_lot" json:"filler_lot" validate:"max=64"`
-	WeldedOn              Date       `db:"welded_on" json:"welded_on" validate:"required"`
-	JointType             string     `db:"joint_type" json:"joint_type" validate:"required,oneof=bead_on_plate butt fillet lap corner edge"`
-	ThicknessMM           float64    `db:"thickness_mm" json:"thickness_mm" validate:"required,gte=0.5,lte=300"`
-	PassNumber            int        `db:"pass_number" json:"pass_number" validate:"required,gte=1,lte=500"`
-	CurrentA              float64    `db:"current_a" json:"current_a" validate:"required,gte=10,lte=1000"`
-	VoltageV              float64    `db:"voltage_v" json:"voltage_v" validate:"required,gte=5,lte=60"`
-	TravelSpeedMMPerS     float64    `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
-	WireFeedSpeedMPerMin  *float64   `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min,omitempty" validate:"omitempty,gte=0.5,lte=30"`
-	CTWDMM                *float64   `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,gte=3,lte=50"`
-	WireDiameterMM        float64    `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,gte=0.6,lte=4"`
+	WeldedOn              Date       `db:"welded_on" json:"welded_on" validate:"required,plausible_day"`
+	JointType             string     `db:"joint_type" json:"joint_type" validate:"required,enum"`
+	ThicknessMM           float64    `db:"thickness_mm" json:"thickness_mm" validate:"required,quantity"`
+	PassNumber            int        `db:"pass_number" json:"pass_number" validate:"required,quantity"`
+	CurrentA              float64    `db:"current_a" json:"current_a" validate:"required,quantity"`
+	VoltageV              float64    `db:"voltage_v" json:"voltage_v" validate:"required,quantity"`
+	TravelSpeedMMPerS     float64    `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,quantity"`
+	WireFeedSpeedMPerMin  *float64   `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min,omitempty" validate:"omitempty,quantity"`
+	CTWDMM                *float64   `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,quantity"`
+	WireDiameterMM        float64    `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,quantity"`
 	ShieldingGas          string     `db:"shielding_gas" json:"shielding_gas" validate:"max=64"`
-	Polarity              string     `db:"polarity" json:"polarity" validate:"required,oneof=DCEP DCEN AC"`
+	Polarity              string     `db:"polarity" json:"polarity" validate:"required,enum"`
 	Position              string     `db:"position" json:"position" validate:"required,max=8"`
-	PreheatC              *float64   `db:"preheat_c" json:"preheat_c,omitempty" validate:"omitempty,gte=-20,lte=350"`
-	InterpassC            *float64   `db:"interpass_c" json:"interpass_c,omitempty" validate:"omitempty,gte=-20,lte=350"`
+	PreheatC              *float64   `db:"preheat_c" json:"preheat_c,omitempty" validate:"omitempty,quantity"`
+	InterpassC            *float64   `db:"interpass_c" json:"interpass_c,omitempty" validate:"omitempty,quantity"`
 }
 
 // Coupon is one stored revision of a coupon.
@@ -71,21 +71,49 @@ func (c CouponData) checkLinks(ctx context.Context, site string) func(pgx.Tx) er
 	}
 }
 
-// CreateCoupon stores revision 1 of a new coupon.
+// CreateCoupon stores revision 1 of a new coupon and its flags.
 func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon, error) {
-	m, err := s.create(ctx, a, coupons, c.checkLinks(ctx, a.Site), c.values())
-	return Coupon{m, c}, err
+	m, err := s.newRecord(a)
+	if err != nil {
+		return Coupon{}, err
+	}
+	if err := s.write(ctx, "create coupon",
+		c.checkLinks(ctx, a.Site),
+		claimMark(ctx, couponMark, a.Site, m.ID, c.CouponMark),
+		coupons.writeRevision(ctx, m, c.values()),
+		s.logged(ctx, coupons, m, actionCreate),
+		couponFlags(ctx, m),
+	); err != nil {
+		return Coupon{}, s.duplicateMark(ctx, a.Site, c.CouponMark, err)
+	}
+	return Coupon{m, c}, nil
 }
 
-// CorrectCoupon stores the next revision of a coupon.
+// CorrectCoupon stores the next revision of a coupon and rewrites its flags.
 func (s *Store) CorrectCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Change, c CouponData) (Coupon, error) {
-	m, err := s.correct(ctx, a, coupons, id, ch, c.checkLinks(ctx, a.Site), c.values())
-	return Coupon{m, c}, err
+	m := s.nextRevision(a, id, ch, false)
+	if err := s.write(ctx, "correct coupon "+id.String(),
+		coupons.baseIs(ctx, a.Site, id, ch),
+		c.checkLinks(ctx, a.Site),
+		claimMark(ctx, couponMark, a.Site, m.ID, c.CouponMark),
+		coupons.writeRevision(ctx, m, c.values()),
+		s.logged(ctx, coupons, m, actionCorrect),
+		couponFlags(ctx, m),
+	); err != nil {
+		return Coupon{}, err
+	}
+	return Coupon{m, c}, nil
 }
 
-// VoidCoupon voids a coupon with a reason.
+// VoidCoupon voids a coupon with a reason; a voided coupon has no flags.
 func (s *Store) VoidCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Change) (Coupon, error) {
-	if _, err := s.void(ctx, a, coupons, id, ch); err != nil {
+	m := s.nextRevision(a, id, ch, true)
+	if err := s.write(ctx, "void coupon "+id.String(),
+		coupons.baseIs(ctx, a.Site, id, ch),
+		coupons.voidLatest(ctx, m),
+		s.logged(ctx, coupons, m, actionVoid),
+		couponFlags(ctx, m),
+	); err != nil {
 		return Coupon{}, err
 	}
 	return s.Coupon(ctx, a.Site, id, 0)
@@ -103,10 +131,12 @@ func (s *Store) CouponRevisions(ctx context.Context, site string, id uuid.UUID) 
 
 // CouponFilter selects coupons in a list. Acceptance "reject" keeps coupons
 // with at least one rejected section; "accept" keeps measured coupons with none.
+// Welding days are half-open: WeldedFrom included, WeldedTo not.
 type CouponFilter struct {
 	ProcedureID           *uuid.UUID
 	QualificationRecordID *uuid.UUID
 	WelderID              string
+	CouponMark            string
 	WeldedFrom            *Date
 	WeldedTo              *Date
 	Acceptance            string
@@ -133,11 +163,14 @@ func (s *Store) Coupons(ctx context.Context, site string, cf CouponFilter, curso
 	if cf.WelderID != "" {
 		f.add("welder_id = ?", cf.WelderID)
 	}
+	if cf.CouponMark != "" {
+		f.add("coupon_mark = ?", cf.CouponMark)
+	}
 	if cf.WeldedFrom != nil {
 		f.add("welded_on >= ?", *cf.WeldedFrom)
 	}
 	if cf.WeldedTo != nil {
-		f.add("welded_on <= ?", *cf.WeldedTo)
+		f.add("welded_on < ?", *cf.WeldedTo)
 	}
 	switch cf.Acceptance {
 	case "reject":

@@ -4,58 +4,94 @@ import (
 	"encoding/base64"
 	"encoding/json"
 	"fmt"
+	"strconv"
 
+	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
 )
 
-// Cursor is the position a list resumes from. Every list hands it out in
-// one opaque form: base64url (no padding) of a small versioned JSON object.
-// Log-ordered lists keep the log index of the last item returned (After);
-// a list ordered by another key keeps that key's text (Key).
-type Cursor struct {
-	V     int    `json:"v"`
-	After int64  `json:"a"`
-	Key   string `json:"k,omitempty"`
-}
+// Every list hands out one cursor format: base64url (no padding) of a JSON
+// array whose first element names the list and whose other elements are the
+// keyset position of the page's last item. Clients treat it as opaque; the
+// list name makes a cursor of one list refused by another instead of
+// silently skipping records.
 
-// cursorVersion is the only cursor format handed out so far.
-const cursorVersion = 1
-
-// startCursor is the position before the first item.
-var startCursor = Cursor{V: cursorVersion, After: -1}
-
-// String is the cursor's opaque text.
-func (c Cursor) String() string {
-	c.V = cursorVersion
-	b, _ := json.Marshal(c) // a struct of plain fields always marshals
+// EncodeCursor returns the cursor of list positioned after key.
+func EncodeCursor(list string, key ...string) string {
+	b, _ := json.Marshal(append([]string{list}, key...)) // a []string always marshals
 	return base64.RawURLEncoding.EncodeToString(b)
 }
 
-// ParseCursor reads a cursor a list handed out; "" is the start.
-func ParseCursor(s string) (Cursor, error) {
-	if s == "" {
-		return startCursor, nil
-	}
+// DecodeCursor returns the n key parts of a cursor that EncodeCursor made for
+// list, or an error wrapping ErrBadCursor.
+func DecodeCursor(s, list string, n int) ([]string, error) {
+	bad := fmt.Errorf("cursor %q: %w", s, ErrBadCursor)
 	b, err := base64.RawURLEncoding.DecodeString(s)
-	var c Cursor
-	if err == nil {
-		err = json.Unmarshal(b, &c)
+	if err != nil {
+		return nil, bad
 	}
-	if err != nil || c.V != cursorVersion || c.After < -1 {
-		return Cursor{}, fmt.Errorf("cursor %q: %w", s, ErrBadCursor)
+	var parts []string
+	if json.Unmarshal(b, &parts) != nil || len(parts) != n+1 || parts[0] != list {
+		return nil, bad
 	}
-	return c, nil
+	return parts[1:], nil
 }
 
-// nextCursor is the cursor after a page: after its last item, or the
-// cursor it was asked with when it is empty, so a client following new
-// records can always resume.
-func nextCursor(asked Cursor, lastIndex int64, n int) string {
-	if n == 0 {
-		return asked.String()
+// idCursor encodes the id keyset position of list.
+func idCursor(list string, id uuid.UUID) string { return EncodeCursor(list, id.String()) }
+
+// afterID decodes an id cursor of list; the empty cursor is the list's start.
+func afterID(list, cursor string) (uuid.UUID, error) {
+	if cursor == "" {
+		return uuid.Nil, nil
 	}
-	return Cursor{After: lastIndex}.String()
+	parts, err := DecodeCursor(cursor, list, 1)
+	if err != nil {
+		return uuid.Nil, err
+	}
+	id, err := uuid.Parse(parts[0])
+	if err != nil {
+		return uuid.Nil, fmt.Errorf("cursor %q: %w", cursor, ErrBadCursor)
+	}
+	return id, nil
+}
+
+// SeqCursor encodes a position in a sequence-numbered list (the audit events).
+func SeqCursor(list string, seq int64) string {
+	return EncodeCursor(list, strconv.FormatInt(seq, 10))
+}
+
+// AfterSeq decodes a SeqCursor of list; the empty cursor is 0, the list's start.
+func AfterSeq(list, cursor string) (int64, error) {
+	if cursor == "" {
+		return 0, nil
+	}
+	parts, err := DecodeCursor(cursor, list, 1)
+	if err != nil {
+		return 0, err
+	}
+	n, err := strconv.ParseInt(parts[0], 10, 64)
+	if err != nil || n < 0 {
+		return 0, fmt.Errorf("cursor %q: %w", cursor, ErrBadCursor)
+	}
+	return n, nil
+}
+
+// Lists in log order keep, as their cursor, the log index the next page
+// starts at, in the one cursor format (EncodeCursor).
+
+// logCursor decodes a log-order cursor of list; "" is the start, index 0.
+func logCursor(list, cursor string) (int64, error) { return AfterSeq(list, cursor) }
+
+// nextLogCursor is the cursor after a page: after its last item, or the
+// cursor it was asked with when the page is empty, so a client following
+// new records can always resume.
+func nextLogCursor(list string, from, lastIndex int64, n int) string {
+	if n == 0 {
+		return SeqCursor(list, from)
+	}
+	return SeqCursor(list, lastIndex+1)
 }
 
 // indexedRow hides a query's last column (the log index) from struct

@@ -60,3 +60,17 @@ func (d *Date) ScanDate(v pgtype.Date) error {
 func (d Date) DateValue() (pgtype.Date, error) {
 	return pgtype.Date{Time: d.Time, Valid: !d.IsZero()}, nil
 }
+
+// EarliestDay is the first day a weld may be recorded on; an earlier date is
+// a typing error, not a record.
+var EarliestDay = Date{time.Date(1900, 1, 1, 0, 0, 0, 0, time.UTC)}
+
+// LatestDay is the last plausible day for a weld recorded at now: one day
+// ahead, so a clock in any time zone east of UTC may still write "today".
+func LatestDay(now time.Time) Date { return DateOf(now.UTC().AddDate(0, 0, 1)) }
+
+// PlausibleDay reports whether t falls between EarliestDay and LatestDay(now), inclusive.
+func PlausibleDay(t, now time.Time) bool {
+	d := DateOf(t.UTC())
+	return !d.Before(EarliestDay.Time) && !d.After(LatestDay(now).Time)
+}

@@ -9,6 +9,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"github.com/google/uuid"
 	"sync/atomic"
 	"time"
 
@@ -46,6 +47,22 @@ func (e *FieldError) Error() string { return e.Field + ": " + e.Reason }
 // Is lets errors.Is(err, ErrInvalid) match a FieldError.
 func (e *FieldError) Is(target error) bool { return target == ErrInvalid }
 
+// DuplicateError is a write refused because a record with the same key
+// exists; ExistingID names it so the caller can correct that one instead.
+type DuplicateError struct {
+	Field      string
+	ExistingID uuid.UUID
+	Reason     string
+}
+
+// Error names the field, the reason and the existing record.
+func (e *DuplicateError) Error() string {
+	return fmt.Sprintf("%s: %s (existing %s)", e.Field, e.Reason, e.ExistingID)
+}
+
+// Is lets errors.Is(err, ErrConflict) match a DuplicateError.
+func (e *DuplicateError) Is(target error) bool { return target == ErrConflict }
+
 // Store is the PostgreSQL-backed record store.
 type Store struct {
 	pool *pgxpool.Pool
@@ -54,14 +71,25 @@ type Store struct {
 	kick chan struct{}                 // a write committed: the sequencer may have work
 }
 
-// Open connects to the database at url and checks that it answers.
+// Open connects the service to the database at url and checks that it
+// answers. It refuses a login that is a superuser or can act as the tables'
+// owner (ErrPrivilegedLogin): the service connects as AppRole.
 func Open(ctx context.Context, url string) (*Store, error) {
+	return open(ctx, url, "", true)
+}
+
+// open connects, optionally becoming role for the session, and refuses a
+// privileged login when unprivileged is set.
+func open(ctx context.Context, url, role string, unprivileged bool) (*Store, error) {
 	cfg, err := pgxpool.ParseConfig(url)
 	if err != nil {
 		return nil, fmt.Errorf("db: parse url: %w", err)
 	}
 	// Audit payloads render timestamps as text; a fixed zone keeps them comparable.
 	cfg.ConnConfig.RuntimeParams["timezone"] = "UTC"
+	if role != "" {
+		cfg.ConnConfig.RuntimeParams["role"] = role
+	}
 	pool, err := pgxpool.NewWithConfig(ctx, cfg)
 	if err != nil {
 		return nil, fmt.Errorf("db: connect: %w", err)
@@ -69,6 +97,16 @@ func Open(ctx context.Context, url string) (*Store, error) {
 	if err := pool.Ping(ctx); err != nil {
 		pool.Close()
 		return nil, fmt.Errorf("db: ping: %w", err)
+	}
+	if unprivileged {
+		p, err := privileged(ctx, pool)
+		if err == nil && p {
+			err = fmt.Errorf("%w: connect as %s (login %s)", ErrPrivilegedLogin, AppRole, cfg.ConnConfig.User)
+		}
+		if err != nil {
+			pool.Close()
+			return nil, fmt.Errorf("db: open: %w", err)
+		}
 	}
 	return &Store{pool: pool, now: func() time.Time { return time.Now().UTC().Truncate(time.Microsecond) },
 		kick: make(chan struct{}, 1)}, nil
@@ -90,7 +128,15 @@ func mapError(err error) error {
 		return err
 	}
 	switch pg.Code {
+	case "40P01", "40001": // deadlock or serialization failure: two writes crossed; the client may retry
+		return fmt.Errorf("%w: a concurrent write got in the way; retry", ErrConflict)
 	case "23505": // unique_violation
+		if pg.ConstraintName == "measurements_section_per_coupon" { // the trigger names the existing section
+			if id, err := uuid.Parse(pg.Detail); err == nil {
+				return &DuplicateError{Field: "section", ExistingID: id,
+					Reason: "this coupon already has a current section with this label; correct that one or choose another label"}
+			}
+		}
 		return fmt.Errorf("%w: %s", ErrConflict, pg.ConstraintName)
 	case "23514", "23502", "23503", "22007", "22008", "22P02": // check, not null, fk, bad date/time/text
 		field := pg.ColumnName

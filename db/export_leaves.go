@@ -1,6 +1,7 @@
 package db
 
 import (
+	"bytes"
 	"context"
 	"fmt"
 	"strings"
@@ -135,22 +136,42 @@ func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
 func (s *Store) exportUnlogged(ctx context.Context, tx pgx.Tx, site string, emit func(string, any) error) (int64, error) {
 	var n int64
 	key := s.logKey()
-	rows, _ := tx.Query(ctx, `SELECT kind, record_id, revision, leaf_hash, tag FROM log_pending WHERE site = $1`, site)
-	var kind string
-	var id uuid.UUID
-	var rev int
-	var hash, tag []byte
-	_, err := pgx.ForEachRow(rows, []any{&kind, &id, &rev, &hash, &tag}, func() error {
-		if hash != nil && key != nil && key.TagOK(site, hash, tag) {
-			return nil
-		}
-		n++
-		return emit(logfmt.LineUnlogged, logfmt.Unlogged{Kind: kind, RecordID: id.String(), Revision: rev,
-			Why: "its pending leaf was not written by the service (no valid tag)"})
+	rows, _ := tx.Query(ctx, `SELECT kind, version, record_id, revision, leaf_hash, tag FROM log_pending WHERE site = $1 ORDER BY seq`, site)
+	type pending struct {
+		Kind      string    `db:"kind"`
+		Version   int       `db:"version"`
+		ID        uuid.UUID `db:"record_id"`
+		Rev       int       `db:"revision"`
+		Hash, Tag []byte
+	}
+	pend, err := pgx.CollectRows(rows, func(r pgx.CollectableRow) (pending, error) {
+		var p pending
+		return p, r.Scan(&p.Kind, &p.Version, &p.ID, &p.Rev, &p.Hash, &p.Tag)
 	})
 	if err != nil {
 		return n, err
 	}
+	var kind string
+	var id uuid.UUID
+	for _, p := range pend {
+		why := ""
+		switch {
+		case p.Hash == nil || key == nil || !key.TagOK(site, p.Hash, p.Tag):
+			why = "its pending leaf was not written by the service (no valid tag)"
+		default: // not yet in the tree: the row must still be what the leaf commits to
+			h, err := encodeStored(ctx, tx, p.Kind, p.Version, site, p.ID, p.Rev)
+			if err != nil || !bytes.Equal(h, p.Hash) {
+				why = "the stored row no longer matches its pending leaf (altered before it was logged)"
+			}
+		}
+		if why != "" {
+			n++
+			if err := emit(logfmt.LineUnlogged, logfmt.Unlogged{Kind: p.Kind, RecordID: p.ID.String(), Revision: p.Rev, Why: why}); err != nil {
+				return n, err
+			}
+		}
+	}
+	var rev int
 	rows, _ = tx.Query(ctx, `SELECT kind, record_id, revision, why FROM log_rejected WHERE site = $1 ORDER BY seq`, site)
 	var why string
 	if _, err := pgx.ForEachRow(rows, []any{&kind, &id, &rev, &why}, func() error {

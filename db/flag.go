@@ -55,6 +55,9 @@ type subject struct {
 	obs        predict.Observation
 	model      *predict.PenetrationCheck // nil: no active calibration
 	measuredMM *float64                  // mean section penetration, nil: none
+	sections   []predict.Section         // current sections (coupons only)
+	reqs       []predict.Requirement     // minimum penetrations its documents state
+	predicted  *float64                  // the model's median penetration, nil: none
 }
 
 // flagWriter evaluates subjects against one procedure's ranges and collects
@@ -74,7 +77,11 @@ func newFlagWriter(site string, now time.Time, pr ProcedureRanges) *flagWriter {
 
 // add evaluates one subject and queues its flags.
 func (w *flagWriter) add(s *subject) {
-	w.scratch = w.checker.Evaluate(&s.obs, w.scratch[:0])
+	// Requirements first: a section below what a document requires is a
+	// finding, not an estimate.
+	w.scratch = predict.CheckRequirements(s.sections, s.reqs, w.scratch[:0])
+	w.scratch = predict.SuspectUnits(s.sections, s.predicted, w.scratch)
+	w.scratch = w.checker.Evaluate(&s.obs, w.scratch)
 	if s.model != nil {
 		w.scratch = s.model.Evaluate(&s.obs, s.measuredMM, w.scratch)
 	}
@@ -125,7 +132,7 @@ func flagsOf(ctx context.Context, q querier, site string, ids []uuid.UUID) (map[
 		return out, nil
 	}
 	rows, _ := q.Query(ctx, `SELECT `+strings.Join(flagColumns[1:], ", ")+` FROM flags
-		WHERE site = $1 AND subject_id = ANY($2) ORDER BY subject_id, variable, kind`, site, ids)
+		WHERE site = $1 AND subject_id = ANY($2) ORDER BY subject_id, kind <> 'requirement', variable, kind`, site, ids)
 	flags, err := pgx.CollectRows(rows, pgx.RowToStructByName[Flag])
 	if err != nil {
 		return nil, fmt.Errorf("read flags: %w", err)

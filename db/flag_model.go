@@ -47,34 +47,70 @@ func penetrationCheck(ctx context.Context, q querier, site string, g Calibration
 	return nil, nil
 }
 
-// couponSections returns the current, non-voided section penetrations (mm)
-// of a coupon, in measurement creation order.
-func couponSections(ctx context.Context, q querier, site string, couponID uuid.UUID) ([]float64, error) {
-	rows, _ := q.Query(ctx, `SELECT penetration_mm FROM (
-			SELECT DISTINCT ON (id) id, voided, penetration_mm
+// couponSections returns the current, non-voided sections (label and
+// penetration in mm) of a coupon, in measurement creation order.
+func couponSections(ctx context.Context, q querier, site string, couponID uuid.UUID) ([]predict.Section, error) {
+	rows, _ := q.Query(ctx, `SELECT section, penetration_mm FROM (
+			SELECT DISTINCT ON (id) id, voided, section, penetration_mm
 			FROM measurements WHERE site = $1 AND coupon_id = $2 ORDER BY id, revision DESC) cur
 		WHERE NOT voided ORDER BY id`, site, couponID)
-	pens, err := pgx.CollectRows(rows, pgx.RowTo[float64])
+	secs, err := pgx.CollectRows(rows, func(r pgx.CollectableRow) (predict.Section, error) {
+		var s predict.Section
+		return s, r.Scan(&s.Label, &s.PenetrationMM)
+	})
 	if err != nil {
 		return nil, fmt.Errorf("coupon %s sections: %w", couponID, err)
 	}
-	return pens, nil
+	return secs, nil
 }
 
-// couponSubject builds the evaluation subject of a coupon on procedure p,
-// with its model check when a calibration is active for its group.
+// couponRequirements lists the minimum penetrations that apply to a
+// coupon's sections: its procedure's and its qualification record's
+// acceptance criterion, each named as the document and revision that state it.
+func couponRequirements(ctx context.Context, q querier, site string, c Coupon, p Procedure) ([]predict.Requirement, error) {
+	var reqs []predict.Requirement
+	if p.MinPenetrationMM != nil {
+		reqs = append(reqs, predict.Requirement{MinPenetrationMM: *p.MinPenetrationMM,
+			Source: fmt.Sprintf("%s rev %d", p.Code, p.Revision), Verb: "requires"})
+	}
+	if c.QualificationRecordID != nil {
+		r, err := getRecord[QualificationRecord](ctx, q, qualificationRecords, site, *c.QualificationRecordID, 0)
+		if err != nil {
+			return nil, err
+		}
+		if r.MinPenetrationMM != nil && !r.Voided {
+			reqs = append(reqs, predict.Requirement{MinPenetrationMM: *r.MinPenetrationMM,
+				Source: fmt.Sprintf("%s rev %d", r.RecordNumber, r.Revision), Verb: "states as its acceptance criterion"})
+		}
+	}
+	return reqs, nil
+}
+
+// couponSubject builds the evaluation subject of a coupon on procedure p:
+// its sections with the requirements they answer to, and its model check
+// when a calibration is active for its group.
 func couponSubject(ctx context.Context, q querier, site string, c Coupon, p Procedure) (*subject, error) {
 	s := &subject{kind: SubjectCoupon, id: c.ID, at: c.WeldedOn.Time, obs: couponObservation(c.CouponData)}
+	var err error
+	if s.sections, err = couponSections(ctx, q, site, c.ID); err != nil {
+		return nil, err
+	}
+	if s.reqs, err = couponRequirements(ctx, q, site, c, p); err != nil {
+		return nil, err
+	}
 	g := CalibrationGroup{Process: p.Process, WireDiameterMM: c.WireDiameterMM, ShieldingGas: c.ShieldingGas, JointType: c.JointType}
 	check, err := penetrationCheck(ctx, q, site, g, p.MinPenetrationMM)
 	if err != nil || check == nil {
 		return s, err
 	}
-	pens, err := couponSections(ctx, q, site, c.ID)
-	if err != nil {
-		return nil, err
+	pens := make([]float64, len(s.sections))
+	for i, sec := range s.sections {
+		pens[i] = sec.PenetrationMM
 	}
 	s.model, s.measuredMM = check, predict.SectionMean(pens)
+	if iv, err := check.Fit.Predict(c.CurrentA, c.VoltageV, c.TravelSpeedMMPerS, check.Level); err == nil {
+		s.predicted = &iv.MedianMM
+	}
 	return s, nil
 }
 

@@ -2,7 +2,6 @@ package db
 
 import (
 	"context"
-	"encoding/base64"
 	"fmt"
 	"strings"
 	"time"
@@ -31,22 +30,17 @@ type flagCursor struct {
 }
 
 func (c flagCursor) String() string {
-	return base64.RawURLEncoding.EncodeToString([]byte(c.subject.String() + "|" + c.variable + "|" + c.kind))
+	return EncodeCursor("flags", c.subject.String(), c.variable, c.kind)
 }
 
 func parseFlagCursor(s string) (flagCursor, error) {
-	bad := fmt.Errorf("db: list flags: cursor %q: %w", s, ErrBadCursor)
-	b, err := base64.RawURLEncoding.DecodeString(s)
+	parts, err := DecodeCursor(s, "flags", 3)
 	if err != nil {
-		return flagCursor{}, bad
-	}
-	parts := strings.Split(string(b), "|")
-	if len(parts) != 3 {
-		return flagCursor{}, bad
+		return flagCursor{}, fmt.Errorf("db: list flags: %w", err)
 	}
 	id, err := uuid.Parse(parts[0])
 	if err != nil {
-		return flagCursor{}, bad
+		return flagCursor{}, fmt.Errorf("db: list flags: cursor %q: %w", s, ErrBadCursor)
 	}
 	return flagCursor{id, parts[1], parts[2]}, nil
 }
@@ -109,8 +103,8 @@ type FlagCount struct {
 	Count    int    `db:"count" json:"count"`
 }
 
-// FlagSummary sums up a procedure's current flags: per variable and kind,
-// and how many coupons and production records carry at least one.
+// FlagSummary sums up a procedure's current flags: per variable and kind
+// (requirement flags first: they are findings, the rest estimates), and how many coupons and production records carry at least one.
 type FlagSummary struct {
 	ProcedureID           uuid.UUID   `json:"procedure_id"`
 	RangesVersion         *int        `json:"ranges_version,omitempty"`
@@ -130,7 +124,7 @@ func (s *Store) FlagSummary(ctx context.Context, site string, procedureID uuid.U
 		sum.RangesVersion = &pr.Version
 	}
 	rows, _ := s.pool.Query(ctx, `SELECT variable, kind, count(*)::int AS count FROM flags
-		WHERE site = $1 AND procedure_id = $2 GROUP BY variable, kind ORDER BY variable, kind`, site, procedureID)
+		WHERE site = $1 AND procedure_id = $2 GROUP BY variable, kind ORDER BY kind <> 'requirement', variable, kind`, site, procedureID)
 	counts, err := pgx.CollectRows(rows, pgx.RowToStructByName[FlagCount])
 	if err != nil {
 		return sum, fmt.Errorf("db: flag summary: %w", err)

@@ -14,57 +14,67 @@ import (
 // they derive from, so a reader never sees flags that disagree with the
 // records: a change of ranges rewrites every flag of the procedure, a coupon
 // write rewrites that coupon's flags, a production batch writes its rows'.
-// Each such transaction holds the flag locks of the procedures concerned
-// (flag_lock.go), so an evaluation never races a change of ranges.
+// Each write method calls the step it needs explicitly, after appending to
+// the log. Each such transaction holds the flag locks of the procedures
+// concerned (flag_lock.go), so an evaluation never races a change of ranges.
 
-// afterWrite runs after a record revision is written, in its transaction
-// (called from table.insert and table.voidLatest in revision.go).
-func afterWrite(ctx context.Context, tx pgx.Tx, t table, m Meta) error {
-	id := m.ID
-	switch t.name {
-	case procedures.name:
-		return procedureChanged(ctx, tx, m)
-	case coupons.name:
-	case measurements.name: // a section changes the coupon's measured penetration
-		var err error
-		if id, err = measurementCoupon(ctx, tx, m.Site, m.ID); err != nil {
-			return err
-		}
-	default:
-		return nil
-	}
-	_, err := recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, id)
-	return err
-}
-
-// procedureChanged keeps a procedure's flags in step with its latest
-// revision: a void removes them (its records no longer answer to it), a
-// correction re-evaluates them, since model flags read the procedure's
-// required minimum penetration.
-func procedureChanged(ctx context.Context, tx pgx.Tx, m Meta) error {
-	if m.Revision == 1 { // a new procedure has no coupons or production records yet
-		return nil
-	}
-	if err := lockProcedures(ctx, tx, m.Site, []uuid.UUID{m.ID}, true); err != nil {
+// couponFlags is the step that rewrites the flags of coupon m.ID from its
+// latest revision.
+func couponFlags(ctx context.Context, m Meta) step {
+	return func(tx pgx.Tx) error {
+		_, err := recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, m.ID)
 		return err
 	}
-	if m.Voided {
+}
+
+// measuredCouponFlags is the step that rewrites the flags of the coupon that
+// measurement m.ID belongs to: a section changes its measured penetration.
+func measuredCouponFlags(ctx context.Context, m Meta) step {
+	return func(tx pgx.Tx) error {
+		id, err := measurementCoupon(ctx, tx, m.Site, m.ID)
+		if err != nil {
+			return err
+		}
+		_, err = recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, id)
+		return err
+	}
+}
+
+// procedureFlags is the step that re-evaluates every flag of procedure m.ID
+// after a correction: model flags read its required minimum penetration.
+// (A new procedure has no coupons or production records yet, so creating
+// one has no flag step.)
+func procedureFlags(ctx context.Context, m Meta) step {
+	return func(tx pgx.Tx) error {
+		if err := lockProcedures(ctx, tx, m.Site, []uuid.UUID{m.ID}, true); err != nil {
+			return err
+		}
+		pr, err := latestRanges(ctx, tx, m.Site, m.ID, 0)
+		if errors.Is(err, ErrNotFound) { // no ranges yet: model flags only, as for a coupon write
+			pr, err = ProcedureRanges{Site: m.Site, ProcedureID: m.ID}, nil
+		}
+		if err != nil {
+			return err
+		}
+		_, err = recomputeProcedure(ctx, tx, m.CreatedAt, pr)
+		return err
+	}
+}
+
+// dropProcedureFlags is the step that removes every flag of voided procedure
+// m.ID: its records no longer answer to it.
+func dropProcedureFlags(ctx context.Context, m Meta) step {
+	return func(tx pgx.Tx) error {
+		if err := lockProcedures(ctx, tx, m.Site, []uuid.UUID{m.ID}, true); err != nil {
+			return err
+		}
 		_, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2`, m.Site, m.ID)
 		return err
 	}
-	pr, err := latestRanges(ctx, tx, m.Site, m.ID, 0)
-	if errors.Is(err, ErrNotFound) { // no ranges yet: model flags only, as for a coupon write
-		pr, err = ProcedureRanges{Site: m.Site, ProcedureID: m.ID}, nil
-	}
-	if err != nil {
-		return err
-	}
-	_, err = recomputeProcedure(ctx, tx, m.CreatedAt, pr)
-	return err
 }
 
 // recomputeCoupon rewrites one coupon's flags from its latest revision: none
-// when it is voided, names no procedure, or the procedure has no ranges.
+// when it is voided, names no procedure, or its procedure is voided.
 func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID) (int, error) {
 	if err := lockCouponProcedures(ctx, tx, site, id); err != nil {
 		return 0, err
@@ -82,6 +92,9 @@ func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string,
 	p, err := getRecord[Procedure](ctx, tx, procedures, site, *c.ProcedureID, 0)
 	if err != nil {
 		return 0, err
+	}
+	if p.Voided { // a voided procedure's records answer to nothing: no new flags
+		return 0, nil
 	}
 	pr, err := latestRanges(ctx, tx, site, p.ID, 0)
 	if errors.Is(err, ErrNotFound) { // no ranges yet: model flags only

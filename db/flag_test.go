@@ -80,7 +80,7 @@ func TestNarrowRecomputesFlags(t *testing.T) {
 
 	// Fail the next recompute when it writes its voltage flag (a test-only trigger).
 	fn := "fail_flags_" + strings.ReplaceAll(uuid.NewString()[:8], "-", "")
-	pool := s.Pool()
+	pool := superuser(t) // the service cannot create triggers
 	if _, err := pool.Exec(ctx, fmt.Sprintf(`CREATE FUNCTION %[1]s() RETURNS trigger LANGUAGE plpgsql AS $$
 		BEGIN IF NEW.site = '%[2]s' AND NEW.ranges_version = 3 AND NEW.variable = 'voltage_v' THEN
 		RAISE EXCEPTION 'injected failure'; END IF; RETURN NEW; END $$;

@@ -109,7 +109,7 @@ func init() {
 			"shielding_gas", "polarity", "transfer_mode", "position", "base_metal_group", "thickness_mm",
 			"current_a", "voltage_v", "travel_speed_mm_s", "wire_feed_speed_m_min", "ctwd_mm", "preheat_c",
 			"interpass_c", "visual_result", "bend_result", "tensile_result", "macro_result",
-			"tensile_strength_mpa", "outcome", "remarks")},
+			"tensile_strength_mpa", "outcome", "remarks", "min_penetration_mm")},
 		{Kind: "coupon", Version: 1, Table: "coupons", Revisioned: true, Columns: withMeta(
 			"procedure_id", "qualification_record_id", "coupon_mark", "welder_id", "power_source_id",
 			"filler_lot", "welded_on", "joint_type", "thickness_mm", "pass_number", "current_a", "voltage_v",
@@ -124,7 +124,7 @@ func init() {
 			"coupon_ids", "note"}},
 		{Kind: "calibration_activation", Version: 1, Table: "calibration_activations", Columns: []string{
 			"site", "id", "activated_at", "activated_by", "reason", "calibration_id", "model", "process",
-			"wire_diameter_mm", "shielding_gas", "joint_type"}},
+			"wire_diameter_mm", "shielding_gas", "joint_type", "action", "family"}},
 		{Kind: "rule_set", Version: 1, Table: "rule_sets", Columns: []string{
 			"site", "id", "rule_set_id", "version", "name", "process", "notes", "from_memory", "rules",
 			"created_at", "created_by"}},
@@ -133,6 +133,8 @@ func init() {
 			"rule_set_id", "rule_set_version", "reason", "ranges", "created_at", "created_by"}},
 		{Kind: "production_batch", Version: 1, Table: "production_batches", Columns: []string{
 			"site", "id", "created_at", "created_by", "record_count", "first_id", "last_id", "procedure_ids"}},
+		{Kind: "user", Version: 1, Table: "api_users", Revisioned: true, Columns: withMeta(
+			"name", "role", "token_sha256")},
 		{Kind: "production_record", Version: 1, Table: "production_records", Columns: []string{
 			"site", "id", "batch_id", "procedure_id", "weld_id", "welder_id", "recorded_at", "current_a",
 			"voltage_v", "travel_speed_mm_s", "wire_feed_speed_m_min", "ctwd_mm", "created_at", "created_by"}},

@@ -116,8 +116,8 @@ func (s *Store) proofHashes(ctx context.Context, site string, nodes proof.Nodes)
 	for i, id := range nodes.IDs {
 		levels[i], idxs[i] = int16(id.Level), int64(id.Index)
 	}
-	rows, _ := s.pool.Query(ctx, `SELECT n.hash FROM unnest($2::smallint[], $3::bigint[]) WITH ORDINALITY AS w(level, idx, ord)
-		LEFT JOIN log_nodes n ON n.site = $1 AND n.level = w.level AND n.idx = w.idx ORDER BY w.ord`, site, levels, idxs)
+	rows, _ := s.pool.Query(ctx, `SELECT n.hash FROM unnest($2::smallint[], $3::bigint[]) WITH ORDINALITY AS w(lvl, idx, ord)
+		LEFT JOIN log_nodes n ON n.site = $1 AND n.tree_level = w.lvl AND n.tree_index = w.idx ORDER BY w.ord`, site, levels, idxs)
 	hashes, err := pgx.CollectRows(rows, pgx.RowTo[[]byte])
 	if err != nil {
 		return nil, err

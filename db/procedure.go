@@ -13,18 +13,18 @@ import (
 type ProcedureData struct {
 	Code                 string      `db:"code" json:"code" validate:"required,max=64"`
 	Title                string      `db:"title" json:"title" validate:"required,max=200"`
-	Process              string      `db:"process" json:"process" validate:"required,oneof=GMAW FCAW GTAW SMAW SAW"`
+	Process              string      `db:"process" json:"process" validate:"required,enum"`
 	FillerClassification string      `db:"filler_classification" json:"filler_classification" validate:"required,max=64"`
-	WireDiameterMM       float64     `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,gte=0.6,lte=4"`
+	WireDiameterMM       float64     `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,quantity"`
 	ShieldingGas         string      `db:"shielding_gas" json:"shielding_gas" validate:"max=64"`
-	Polarity             string      `db:"polarity" json:"polarity" validate:"required,oneof=DCEP DCEN AC"`
-	TransferMode         string      `db:"transfer_mode" json:"transfer_mode" validate:"omitempty,oneof=short_circuit globular spray pulsed_spray"`
+	Polarity             string      `db:"polarity" json:"polarity" validate:"required,enum"`
+	TransferMode         string      `db:"transfer_mode" json:"transfer_mode" validate:"omitempty,enum"`
 	Positions            []string    `db:"positions" json:"positions" validate:"required,min=1,dive,required,max=8"`
 	BaseMetalGroup       string      `db:"base_metal_group" json:"base_metal_group" validate:"required,max=64"`
-	ThicknessMinMM       float64     `db:"thickness_min_mm" json:"thickness_min_mm" validate:"required,gte=0.5,lte=300"`
-	ThicknessMaxMM       float64     `db:"thickness_max_mm" json:"thickness_max_mm" validate:"required,gte=0.5,lte=300,gtefield=ThicknessMinMM"`
-	MinPenetrationMM     *float64    `db:"min_penetration_mm" json:"min_penetration_mm,omitempty" validate:"omitempty,gt=0,lte=50"`
-	Status               string      `db:"status" json:"status" validate:"required,oneof=draft qualified superseded"`
+	ThicknessMinMM       float64     `db:"thickness_min_mm" json:"thickness_min_mm" validate:"required,quantity"`
+	ThicknessMaxMM       float64     `db:"thickness_max_mm" json:"thickness_max_mm" validate:"required,quantity,gtefield=ThicknessMinMM"`
+	MinPenetrationMM     *float64    `db:"min_penetration_mm" json:"min_penetration_mm,omitempty" validate:"omitempty,quantity"`
+	Status               string      `db:"status" json:"status" validate:"required,enum"`
 	SupportingRecordIDs  []uuid.UUID `db:"supporting_record_ids" json:"supporting_record_ids"`
 }
 
@@ -67,34 +67,66 @@ func (p ProcedureData) checkSupport(ctx context.Context, site string) func(pgx.T
 	}
 }
 
-// CreateProcedure stores revision 1 of a new procedure.
+// CreateProcedure stores revision 1 of a new procedure. A new procedure has
+// no coupons or production records yet, so there are no flags to compute.
 func (s *Store) CreateProcedure(ctx context.Context, a Actor, p ProcedureData) (Procedure, error) {
 	p.SupportingRecordIDs = p.supportingIDs()
-	m, err := s.create(ctx, a, procedures, p.checkSupport(ctx, a.Site), p.values())
-	return Procedure{m, p}, err
+	m, err := s.newRecord(a)
+	if err != nil {
+		return Procedure{}, err
+	}
+	if err := s.write(ctx, "create procedure",
+		p.checkSupport(ctx, a.Site),
+		procedures.writeRevision(ctx, m, p.values()),
+		s.logged(ctx, procedures, m, actionCreate),
+	); err != nil {
+		return Procedure{}, err
+	}
+	return Procedure{m, p}, nil
 }
 
-// CorrectProcedure stores the next revision of a procedure. The code is the
-// procedure's identity and cannot change; void it and create another instead.
+// CorrectProcedure stores the next revision of a procedure and re-evaluates
+// its flags. The code is the procedure's identity and cannot change; void it
+// and create another instead.
 func (s *Store) CorrectProcedure(ctx context.Context, a Actor, id uuid.UUID, ch Change, p ProcedureData) (Procedure, error) {
 	p.SupportingRecordIDs = p.supportingIDs()
-	check := func(tx pgx.Tx) error {
-		old, err := getRecord[Procedure](ctx, tx, procedures, a.Site, id, 0)
+	m := s.nextRevision(a, id, ch, false)
+	if err := s.write(ctx, "correct procedure "+id.String(),
+		procedures.baseIs(ctx, a.Site, id, ch),
+		p.checkCorrection(ctx, a.Site, id),
+		procedures.writeRevision(ctx, m, p.values()),
+		s.logged(ctx, procedures, m, actionCorrect),
+		procedureFlags(ctx, m),
+	); err != nil {
+		return Procedure{}, err
+	}
+	return Procedure{m, p}, nil
+}
+
+// checkCorrection verifies that a correction keeps the procedure's code and
+// that its supporting records exist.
+func (p ProcedureData) checkCorrection(ctx context.Context, site string, id uuid.UUID) func(pgx.Tx) error {
+	return func(tx pgx.Tx) error {
+		old, err := getRecord[Procedure](ctx, tx, procedures, site, id, 0)
 		if err != nil {
 			return err
 		}
 		if old.Code != p.Code {
 			return &FieldError{Field: "code", Reason: fmt.Sprintf("the code %q cannot change; void this procedure and create a new one", old.Code)}
 		}
-		return p.checkSupport(ctx, a.Site)(tx)
+		return p.checkSupport(ctx, site)(tx)
 	}
-	m, err := s.correct(ctx, a, procedures, id, ch, check, p.values())
-	return Procedure{m, p}, err
 }
 
-// VoidProcedure voids a procedure with a reason.
+// VoidProcedure voids a procedure with a reason and removes its flags.
 func (s *Store) VoidProcedure(ctx context.Context, a Actor, id uuid.UUID, ch Change) (Procedure, error) {
-	if _, err := s.void(ctx, a, procedures, id, ch); err != nil {
+	m := s.nextRevision(a, id, ch, true)
+	if err := s.write(ctx, "void procedure "+id.String(),
+		procedures.baseIs(ctx, a.Site, id, ch),
+		procedures.voidLatest(ctx, m),
+		s.logged(ctx, procedures, m, actionVoid),
+		dropProcedureFlags(ctx, m),
+	); err != nil {
 		return Procedure{}, err
 	}
 	return s.Procedure(ctx, a.Site, id, 0)

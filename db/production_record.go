@@ -20,12 +20,12 @@ type ProductionRecordData struct {
 	ProcedureID          uuid.UUID `db:"procedure_id" json:"procedure_id" validate:"required"`
 	WeldID               string    `db:"weld_id" json:"weld_id" validate:"required,max=64"`
 	WelderID             string    `db:"welder_id" json:"welder_id" validate:"required,max=64"`
-	RecordedAt           time.Time `db:"recorded_at" json:"recorded_at" validate:"required"`
-	CurrentA             float64   `db:"current_a" json:"current_a" validate:"required,gte=10,lte=1000"`
-	VoltageV             float64   `db:"voltage_v" json:"voltage_v" validate:"required,gte=5,lte=60"`
-	TravelSpeedMMPerS    float64   `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
-	WireFeedSpeedMPerMin float64   `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min" validate:"required,gte=0.5,lte=30"`
-	CTWDMM               *float64  `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,gte=3,lte=50"`
+	RecordedAt           time.Time `db:"recorded_at" json:"recorded_at" validate:"required,plausible_day"`
+	CurrentA             float64   `db:"current_a" json:"current_a" validate:"required,quantity"`
+	VoltageV             float64   `db:"voltage_v" json:"voltage_v" validate:"required,quantity"`
+	TravelSpeedMMPerS    float64   `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,quantity"`
+	WireFeedSpeedMPerMin float64   `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min" validate:"required,quantity"`
+	CTWDMM               *float64  `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,quantity"`
 }
 
 // ProductionRecord is one stored production record with its current flags.
@@ -49,6 +49,18 @@ var productionColumns = []string{"site", "id", "batch_id", "created_at", "create
 func (s *Store) CreateProductionRecords(ctx context.Context, a Actor, recs []ProductionRecordData) ([]ProductionRecord, error) {
 	if len(recs) == 0 || len(recs) > MaxProductionBatch {
 		return nil, &FieldError{Field: "records", Reason: fmt.Sprintf("give 1 to %d records (got %d)", MaxProductionBatch, len(recs))}
+	}
+	type weldKey struct {
+		proc uuid.UUID
+		weld string
+	}
+	first := make(map[weldKey]int, len(recs))
+	for i, r := range recs {
+		if j, ok := first[weldKey{r.ProcedureID, r.WeldID}]; ok {
+			return nil, &FieldError{Field: fmt.Sprintf("records[%d].weld_id", i),
+				Reason: fmt.Sprintf("repeats records[%d].weld_id %q of the same procedure; a weld is logged once", j, r.WeldID)}
+		}
+		first[weldKey{r.ProcedureID, r.WeldID}] = i
 	}
 	now := s.now()
 	batch, err := uuid.NewV7()
@@ -82,6 +94,12 @@ func (s *Store) CreateProductionRecords(ctx context.Context, a Actor, recs []Pro
 				return err
 			}
 		}
+		if i, id, err := earlierWeld(ctx, tx, a.Site, recs); err != nil || i >= 0 {
+			if err != nil {
+				return err
+			}
+			return duplicateWeld(recs, i, id)
+		}
 		if _, err := tx.Exec(ctx, `INSERT INTO production_batches (site, id, created_at, created_by, record_count, first_id, last_id, procedure_ids)
 			VALUES ($1, $2, $3, $4, $5, $6, $7, $8)`, a.Site, batch, now, a.Name, len(recs), out[0].ID, out[len(out)-1].ID, procs); err != nil {
 			return mapError(err)
@@ -105,6 +123,12 @@ func (s *Store) CreateProductionRecords(ctx context.Context, a Actor, recs []Pro
 		}
 		return flagBatch(ctx, tx, now, a.Site, out)
 	})
+	if errors.Is(err, ErrConflict) {
+		// A batch racing this one stored the weld first: name its record.
+		if i, id, lerr := earlierWeld(ctx, s.pool, a.Site, recs); lerr == nil && i >= 0 {
+			err = duplicateWeld(recs, i, id)
+		}
+	}
 	if err != nil {
 		return nil, fmt.Errorf("db: create production records: %w", err)
 	}

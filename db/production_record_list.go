@@ -26,11 +26,11 @@ func (s *Store) ProductionRecords(ctx context.Context, site string, pf Productio
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
 	}
-	at, err := ParseCursor(cursor)
+	from, err := logCursor("production_records", cursor)
 	if err != nil {
 		return Page[ProductionRecord]{}, fmt.Errorf("db: list production records: %w", err)
 	}
-	f := filter{args: []any{site, at.After}}
+	f := filter{args: []any{site, from}}
 	if pf.ProcedureID != nil {
 		f.add("procedure_id = ?", *pf.ProcedureID)
 	}
@@ -58,18 +58,16 @@ func (s *Store) ProductionRecords(ctx context.Context, site string, pf Productio
 	for i, c := range productionColumns {
 		cols[i] = "production_records." + c
 	}
-	if cursor == "" {
-		s.awaitLogged(ctx, site)
-	}
+	s.awaitLogged(ctx, site)
 	rows, _ := s.pool.Query(ctx, "SELECT "+strings.Join(cols, ", ")+", lg.leaf_index FROM log_leaves lg"+
 		" JOIN production_records ON production_records.id = lg.record_id AND production_records.site = lg.site"+
-		" WHERE lg.site = $1 AND lg.kind = 'production_record' AND lg.leaf_index > $2 AND "+where+
+		" WHERE lg.site = $1 AND lg.kind = 'production_record' AND lg.leaf_index >= $2 AND "+where+
 		fmt.Sprintf(" ORDER BY lg.leaf_index LIMIT $%d", len(f.args)), f.args...)
 	items, last, err := collectIndexed[ProductionRecord](rows)
 	if err != nil {
 		return Page[ProductionRecord]{}, fmt.Errorf("db: list production records: %w", mapError(err))
 	}
-	p := Page[ProductionRecord]{Items: items, Next: nextCursor(at, last, len(items))}
+	p := Page[ProductionRecord]{Items: items, Next: nextLogCursor("production_records", from, last, len(items))}
 	ids := make([]uuid.UUID, len(p.Items))
 	for i := range p.Items {
 		ids[i] = p.Items[i].ID

@@ -11,31 +11,34 @@ import (
 // (travel speed), m/min (wire feed speed), A, V, °C, MPa.
 type QualificationRecordData struct {
 	RecordNumber         string   `db:"record_number" json:"record_number" validate:"required,max=64"`
-	Process              string   `db:"process" json:"process" validate:"required,oneof=GMAW FCAW GTAW SMAW SAW"`
-	WeldedOn             Date     `db:"welded_on" json:"welded_on" validate:"required"`
+	Process              string   `db:"process" json:"process" validate:"required,enum"`
+	WeldedOn             Date     `db:"welded_on" json:"welded_on" validate:"required,plausible_day"`
 	WelderID             string   `db:"welder_id" json:"welder_id" validate:"required,max=64"`
 	FillerClassification string   `db:"filler_classification" json:"filler_classification" validate:"required,max=64"`
-	WireDiameterMM       float64  `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,gte=0.6,lte=4"`
+	WireDiameterMM       float64  `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,quantity"`
 	ShieldingGas         string   `db:"shielding_gas" json:"shielding_gas" validate:"max=64"`
-	Polarity             string   `db:"polarity" json:"polarity" validate:"required,oneof=DCEP DCEN AC"`
-	TransferMode         string   `db:"transfer_mode" json:"transfer_mode" validate:"omitempty,oneof=short_circuit globular spray pulsed_spray"`
+	Polarity             string   `db:"polarity" json:"polarity" validate:"required,enum"`
+	TransferMode         string   `db:"transfer_mode" json:"transfer_mode" validate:"omitempty,enum"`
 	Position             string   `db:"position" json:"position" validate:"required,max=8"`
 	BaseMetalGroup       string   `db:"base_metal_group" json:"base_metal_group" validate:"required,max=64"`
-	ThicknessMM          float64  `db:"thickness_mm" json:"thickness_mm" validate:"required,gte=0.5,lte=300"`
-	CurrentA             float64  `db:"current_a" json:"current_a" validate:"required,gte=10,lte=1000"`
-	VoltageV             float64  `db:"voltage_v" json:"voltage_v" validate:"required,gte=5,lte=60"`
-	TravelSpeedMMPerS    float64  `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,gte=0.5,lte=30"`
-	WireFeedSpeedMPerMin *float64 `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min,omitempty" validate:"omitempty,gte=0.5,lte=30"`
-	CTWDMM               *float64 `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,gte=3,lte=50"`
-	PreheatC             *float64 `db:"preheat_c" json:"preheat_c,omitempty" validate:"omitempty,gte=-20,lte=350"`
-	InterpassC           *float64 `db:"interpass_c" json:"interpass_c,omitempty" validate:"omitempty,gte=-20,lte=350"`
-	VisualResult         string   `db:"visual_result" json:"visual_result" validate:"required,oneof=pass fail not_tested"`
-	BendResult           string   `db:"bend_result" json:"bend_result" validate:"required,oneof=pass fail not_tested"`
-	TensileResult        string   `db:"tensile_result" json:"tensile_result" validate:"required,oneof=pass fail not_tested"`
-	MacroResult          string   `db:"macro_result" json:"macro_result" validate:"required,oneof=pass fail not_tested"`
-	TensileStrengthMPa   *float64 `db:"tensile_strength_mpa" json:"tensile_strength_mpa,omitempty" validate:"omitempty,gt=0,lte=2000"`
-	Outcome              string   `db:"outcome" json:"outcome" validate:"required,oneof=pending pass fail"`
+	ThicknessMM          float64  `db:"thickness_mm" json:"thickness_mm" validate:"required,quantity"`
+	CurrentA             float64  `db:"current_a" json:"current_a" validate:"required,quantity"`
+	VoltageV             float64  `db:"voltage_v" json:"voltage_v" validate:"required,quantity"`
+	TravelSpeedMMPerS    float64  `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,quantity"`
+	WireFeedSpeedMPerMin *float64 `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min,omitempty" validate:"omitempty,quantity"`
+	CTWDMM               *float64 `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,quantity"`
+	PreheatC             *float64 `db:"preheat_c" json:"preheat_c,omitempty" validate:"omitempty,quantity"`
+	InterpassC           *float64 `db:"interpass_c" json:"interpass_c,omitempty" validate:"omitempty,quantity"`
+	VisualResult         string   `db:"visual_result" json:"visual_result" validate:"required,enum"`
+	BendResult           string   `db:"bend_result" json:"bend_result" validate:"required,enum"`
+	TensileResult        string   `db:"tensile_result" json:"tensile_result" validate:"required,enum"`
+	MacroResult          string   `db:"macro_result" json:"macro_result" validate:"required,enum"`
+	TensileStrengthMPa   *float64 `db:"tensile_strength_mpa" json:"tensile_strength_mpa,omitempty" validate:"omitempty,quantity"`
+	Outcome              string   `db:"outcome" json:"outcome" validate:"required,enum"`
 	Remarks              string   `db:"remarks" json:"remarks" validate:"max=2000"`
+	// MinPenetrationMM is the record's own acceptance criterion, when it
+	// states one: the least penetration a macro-etch section must show.
+	MinPenetrationMM *float64 `db:"min_penetration_mm" json:"min_penetration_mm,omitempty" validate:"omitempty,quantity"`
 }
 
 // QualificationRecord is one stored revision of a PQR.
@@ -49,7 +52,7 @@ var qualificationRecords = table{name: "qualification_records", entity: "qualifi
 	"shielding_gas", "polarity", "transfer_mode", "position", "base_metal_group", "thickness_mm",
 	"current_a", "voltage_v", "travel_speed_mm_s", "wire_feed_speed_m_min", "ctwd_mm", "preheat_c",
 	"interpass_c", "visual_result", "bend_result", "tensile_result", "macro_result",
-	"tensile_strength_mpa", "outcome", "remarks",
+	"tensile_strength_mpa", "outcome", "remarks", "min_penetration_mm",
 }}
 
 func (q QualificationRecordData) values() []any {
@@ -57,24 +60,50 @@ func (q QualificationRecordData) values() []any {
 		q.ShieldingGas, q.Polarity, q.TransferMode, q.Position, q.BaseMetalGroup, q.ThicknessMM,
 		q.CurrentA, q.VoltageV, q.TravelSpeedMMPerS, q.WireFeedSpeedMPerMin, q.CTWDMM, q.PreheatC,
 		q.InterpassC, q.VisualResult, q.BendResult, q.TensileResult, q.MacroResult,
-		q.TensileStrengthMPa, q.Outcome, q.Remarks}
+		q.TensileStrengthMPa, q.Outcome, q.Remarks, q.MinPenetrationMM}
 }
+
+// No flag derives from a PQR directly: its values reach flags only through
+// ranges derived from it (DeriveRanges), so PQR writes have no flag step.
 
 // CreateQualificationRecord stores revision 1 of a new PQR.
 func (s *Store) CreateQualificationRecord(ctx context.Context, a Actor, q QualificationRecordData) (QualificationRecord, error) {
-	m, err := s.create(ctx, a, qualificationRecords, nil, q.values())
-	return QualificationRecord{m, q}, err
+	m, err := s.newRecord(a)
+	if err != nil {
+		return QualificationRecord{}, err
+	}
+	if err := s.write(ctx, "create qualification_record",
+		claimMark(ctx, recordNumber, a.Site, m.ID, q.RecordNumber),
+		qualificationRecords.writeRevision(ctx, m, q.values()),
+		s.logged(ctx, qualificationRecords, m, actionCreate),
+	); err != nil {
+		return QualificationRecord{}, err
+	}
+	return QualificationRecord{m, q}, nil
 }
 
 // CorrectQualificationRecord stores the next revision of a PQR.
 func (s *Store) CorrectQualificationRecord(ctx context.Context, a Actor, id uuid.UUID, ch Change, q QualificationRecordData) (QualificationRecord, error) {
-	m, err := s.correct(ctx, a, qualificationRecords, id, ch, nil, q.values())
-	return QualificationRecord{m, q}, err
+	m := s.nextRevision(a, id, ch, false)
+	if err := s.write(ctx, "correct qualification_record "+id.String(),
+		qualificationRecords.baseIs(ctx, a.Site, id, ch),
+		claimMark(ctx, recordNumber, a.Site, m.ID, q.RecordNumber),
+		qualificationRecords.writeRevision(ctx, m, q.values()),
+		s.logged(ctx, qualificationRecords, m, actionCorrect),
+	); err != nil {
+		return QualificationRecord{}, err
+	}
+	return QualificationRecord{m, q}, nil
 }
 
 // VoidQualificationRecord voids a PQR with a reason.
 func (s *Store) VoidQualificationRecord(ctx context.Context, a Actor, id uuid.UUID, ch Change) (QualificationRecord, error) {
-	if _, err := s.void(ctx, a, qualificationRecords, id, ch); err != nil {
+	m := s.nextRevision(a, id, ch, true)
+	if err := s.write(ctx, "void qualification_record "+id.String(),
+		qualificationRecords.baseIs(ctx, a.Site, id, ch),
+		qualificationRecords.voidLatest(ctx, m),
+		s.logged(ctx, qualificationRecords, m, actionVoid),
+	); err != nil {
 		return QualificationRecord{}, err
 	}
 	return s.QualificationRecord(ctx, a.Site, id, 0)
@@ -90,7 +119,8 @@ func (s *Store) QualificationRecordRevisions(ctx context.Context, site string, i
 	return revisions[QualificationRecord](ctx, s, qualificationRecords, site, id)
 }
 
-// QualificationRecordFilter selects PQRs in a list.
+// QualificationRecordFilter selects PQRs in a list; welding days are
+// half-open (WeldedFrom included, WeldedTo not).
 type QualificationRecordFilter struct {
 	Process       string
 	WelderID      string
@@ -119,7 +149,7 @@ func (s *Store) QualificationRecords(ctx context.Context, site string, qf Qualif
 		f.add("welded_on >= ?", *qf.WeldedFrom)
 	}
 	if qf.WeldedTo != nil {
-		f.add("welded_on <= ?", *qf.WeldedTo)
+		f.add("welded_on < ?", *qf.WeldedTo)
 	}
 	return listCurrent[QualificationRecord](ctx, s, qualificationRecords, site, f, cursor, limit)
 }

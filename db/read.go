@@ -110,14 +110,14 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
 	}
-	at, err := ParseCursor(cursor)
+	from, err := logCursor(t.name, cursor)
 	if err != nil {
 		return Page[T]{}, fmt.Errorf("db: list %s: %w", t.entity, err)
 	}
 	if len(f.args) < 2 {
 		f = newFilter()
 	}
-	f.args[0], f.args[1] = site, at.After
+	f.args[0], f.args[1] = site, from
 	where := "true"
 	if len(f.conds) > 0 {
 		where = strings.Join(f.conds, " AND ")
@@ -127,13 +127,11 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	for _, c := range strings.Split(t.columns(), ", ") {
 		cols = append(cols, "cur."+c)
 	}
-	if cursor == "" { // a fresh list shows what was written before it; a follower never waits
-		s.awaitLogged(ctx, site)
-	}
+	s.awaitLogged(ctx, site) // a page shows every write acknowledged before it was asked for
 	// "cur" is a logged revision with no later logged one.
 	sql := "SELECT " + strings.Join(cols, ", ") + ", lg.leaf_index FROM log_leaves lg" +
 		" JOIN " + t.name + " cur ON cur.id = lg.record_id AND cur.revision = lg.revision AND cur.site = lg.site" +
-		" WHERE lg.site = $1 AND lg.kind = $" + strconv.Itoa(len(f.args)) + " AND lg.leaf_index > $2" +
+		" WHERE lg.site = $1 AND lg.kind = $" + strconv.Itoa(len(f.args)) + " AND lg.leaf_index >= $2" +
 		" AND NOT EXISTS (SELECT 1 FROM log_leaves later WHERE later.site = lg.site AND later.record_id = lg.record_id" +
 		" AND later.kind = lg.kind AND later.revision > lg.revision)" +
 		" AND " + where + " ORDER BY lg.leaf_index LIMIT $" + strconv.Itoa(len(f.args)-1)
@@ -142,7 +140,7 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	if err != nil {
 		return Page[T]{}, fmt.Errorf("db: list %s: %w", t.entity, mapError(err))
 	}
-	return Page[T]{Items: items, Next: nextCursor(at, last, len(items))}, nil
+	return Page[T]{Items: items, Next: nextLogCursor(t.name, from, last, len(items))}, nil
 }
 
 // metaHolder is implemented by every record type through its embedded Meta.

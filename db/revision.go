@@ -52,36 +52,36 @@ type table struct {
 
 func (t table) columns() string { return metaColumns + ", " + strings.Join(t.fields, ", ") }
 
-// insert writes one revision row and its pending leaf, encoded from the row
-// as stored (INSERT ... RETURNING the kind's columns).
-func (s *Store) insert(ctx context.Context, tx pgx.Tx, t table, m Meta, action string, values []any) error {
-	k, err := leafKind(t.entity, 0)
-	if err != nil {
-		return err
+// writeRevision is the step that inserts one revision row with the record's values.
+func (t table) writeRevision(ctx context.Context, m Meta, values []any) step {
+	return func(tx pgx.Tx) error {
+		args := append([]any{m.Site, m.ID, m.Revision, m.CreatedAt, m.CreatedBy, m.Reason, m.Voided}, values...)
+		ph := make([]string, len(args))
+		for i := range ph {
+			ph[i] = "$" + strconv.Itoa(i+1)
+		}
+		q := "INSERT INTO " + t.name + " (" + t.columns() + ") VALUES (" + strings.Join(ph, ", ") + ")"
+		_, err := tx.Exec(ctx, q, args...)
+		return mapError(err)
 	}
-	args := append([]any{m.Site, m.ID, m.Revision, m.CreatedAt, m.CreatedBy, m.Reason, m.Voided}, values...)
-	ph := make([]string, len(args))
-	for i := range ph {
-		ph[i] = "$" + strconv.Itoa(i+1)
-	}
-	q := "INSERT INTO " + t.name + " (" + t.columns() + ") VALUES (" + strings.Join(ph, ", ") + ") RETURNING " + strings.Join(k.Columns, ", ")
-	rows, _ := tx.Query(ctx, q, args...)
-	if err := s.appendRows(ctx, tx, k, rows, m.leafEntry(t.entity, action)); err != nil {
-		return err
-	}
-	return afterWrite(ctx, tx, t, m) // derived data (flags) kept in step, same transaction
 }
 
-// leafEntry names the revision m for the log.
-func (m Meta) leafEntry(kind, action string) LeafEntry {
-	return LeafEntry{Kind: kind, Site: m.Site, ID: m.ID, Revision: m.Revision, Actor: m.CreatedBy, Action: action, Reason: m.Reason, At: m.CreatedAt}
+// lockRecord serialises the writes to one record until the transaction ends.
+// It is an advisory lock, not SELECT ... FOR UPDATE, because row locks need
+// UPDATE privilege and the service has none on record tables.
+func lockRecord(ctx context.Context, tx pgx.Tx, id uuid.UUID) error {
+	_, err := tx.Exec(ctx, "SELECT pg_advisory_xact_lock(hashtextextended('etchlog-record:' || $1::text, 0))", id)
+	return err
 }
 
-// lockLatest locks the latest revision of a record and returns it.
+// lockLatest locks a record and returns its latest revision.
 func (t table) lockLatest(ctx context.Context, tx pgx.Tx, site string, id uuid.UUID) (rev int, voided bool, err error) {
+	if err := lockRecord(ctx, tx, id); err != nil {
+		return 0, false, err
+	}
 	q := "SELECT revision, voided FROM " + t.name + `
 		WHERE site = $1 AND id = $2
-		ORDER BY revision DESC LIMIT 1 FOR UPDATE`
+		ORDER BY revision DESC LIMIT 1`
 	err = tx.QueryRow(ctx, q, site, id).Scan(&rev, &voided)
 	if errors.Is(err, pgx.ErrNoRows) {
 		return 0, false, fmt.Errorf("%s %s: %w", t.entity, id, ErrNotFound)
@@ -108,22 +108,16 @@ func (t table) checkBase(ctx context.Context, tx pgx.Tx, site string, id uuid.UU
 	return nil
 }
 
-// voidLatest copies the latest revision forward as a voided revision and logs it.
-func (s *Store) voidLatest(ctx context.Context, tx pgx.Tx, t table, m Meta) error {
-	k, err := leafKind(t.entity, 0)
-	if err != nil {
-		return err
+// voidLatest is the step that copies the latest revision forward as a voided revision.
+func (t table) voidLatest(ctx context.Context, m Meta) step {
+	return func(tx pgx.Tx) error {
+		fields := strings.Join(t.fields, ", ")
+		q := "INSERT INTO " + t.name + " (" + metaColumns + ", " + fields + `)
+			SELECT site, id, $3, $4, $5, $6, true, ` + fields + " FROM " + t.name + `
+			WHERE site = $1 AND id = $2 AND revision = $7`
+		_, err := tx.Exec(ctx, q, m.Site, m.ID, m.Revision, m.CreatedAt, m.CreatedBy, m.Reason, m.Revision-1)
+		return mapError(err)
 	}
-	fields := strings.Join(t.fields, ", ")
-	q := "INSERT INTO " + t.name + " (" + metaColumns + ", " + fields + `)
-		SELECT site, id, $3, $4, $5, $6, true, ` + fields + " FROM " + t.name + `
-		WHERE site = $1 AND id = $2 AND revision = $7
-		RETURNING ` + strings.Join(k.Columns, ", ")
-	rows, _ := tx.Query(ctx, q, m.Site, m.ID, m.Revision, m.CreatedAt, m.CreatedBy, m.Reason, m.Revision-1)
-	if err := s.appendRows(ctx, tx, k, rows, m.leafEntry(t.entity, "void")); err != nil {
-		return err
-	}
-	return afterWrite(ctx, tx, t, m)
 }
 
 // tx runs fn in one transaction and commits once.
@@ -136,6 +130,9 @@ func (s *Store) tx(ctx context.Context, fn func(tx pgx.Tx) error) error {
 	if err := fn(tx); err != nil {
 		return err
 	}
+	if err := markCommitted(ctx, tx); err != nil { // under an Idempotency-Key: only while the claim holds
+		return err
+	}
 	if err := tx.Commit(ctx); err != nil {
 		return err
 	}
@@ -143,61 +140,67 @@ func (s *Store) tx(ctx context.Context, fn func(tx pgx.Tx) error) error {
 	return nil
 }
 
-// create writes revision 1 of a new record after check (run in the same transaction) passes.
-func (s *Store) create(ctx context.Context, a Actor, t table, check func(pgx.Tx) error, values []any) (Meta, error) {
+// step is one part of a write, run inside the write's transaction.
+type step func(tx pgx.Tx) error
+
+// write runs steps in order in one transaction and commits once; the first
+// failing step rolls everything back. what names the write in the error.
+func (s *Store) write(ctx context.Context, what string, steps ...step) error {
+	err := s.tx(ctx, func(tx pgx.Tx) error {
+		for _, st := range steps {
+			if err := st(tx); err != nil {
+				return err
+			}
+		}
+		return nil
+	})
+	if err != nil {
+		return fmt.Errorf("db: %s: %w", what, err)
+	}
+	return nil
+}
+
+// Audit actions of record revisions.
+const (
+	actionCreate  = "create"
+	actionCorrect = "correct"
+	actionVoid    = "void"
+)
+
+// newRecord returns the bookkeeping of revision 1 of a new record.
+func (s *Store) newRecord(a Actor) (Meta, error) {
 	id, err := uuid.NewV7()
 	if err != nil {
 		return Meta{}, err
 	}
-	m := Meta{Site: a.Site, ID: id, Revision: 1, CreatedAt: s.now(), CreatedBy: a.Name}
-	err = s.tx(ctx, func(tx pgx.Tx) error {
-		if check != nil {
-			if err := check(tx); err != nil {
-				return err
-			}
-		}
-		return s.insert(ctx, tx, t, m, "create", values)
-	})
-	if err != nil {
-		return Meta{}, fmt.Errorf("db: create %s: %w", t.entity, err)
-	}
-	return m, nil
+	return Meta{Site: a.Site, ID: id, Revision: 1, CreatedAt: s.now(), CreatedBy: a.Name}, nil
 }
 
-// correct writes the next revision of a record with new values and a reason.
-func (s *Store) correct(ctx context.Context, a Actor, t table, id uuid.UUID, ch Change, check func(pgx.Tx) error, values []any) (Meta, error) {
-	m := Meta{Site: a.Site, ID: id, Revision: ch.BaseRevision + 1, CreatedAt: s.now(), CreatedBy: a.Name, Reason: ch.Reason}
-	err := s.tx(ctx, func(tx pgx.Tx) error {
-		if err := t.checkBase(ctx, tx, a.Site, id, ch); err != nil {
-			return err
-		}
-		if check != nil {
-			if err := check(tx); err != nil {
-				return err
-			}
-		}
-		return s.insert(ctx, tx, t, m, "correct", values)
-	})
-	if err != nil {
-		return Meta{}, fmt.Errorf("db: correct %s %s: %w", t.entity, id, err)
-	}
-	return m, nil
+// nextRevision returns the bookkeeping of the revision a change writes; a
+// void marks it voided.
+func (s *Store) nextRevision(a Actor, id uuid.UUID, ch Change, voided bool) Meta {
+	return Meta{Site: a.Site, ID: id, Revision: ch.BaseRevision + 1, CreatedAt: s.now(), CreatedBy: a.Name,
+		Reason: ch.Reason, Voided: voided}
 }
 
-// void marks a record voided by writing its next revision; nothing is deleted.
-func (s *Store) void(ctx context.Context, a Actor, t table, id uuid.UUID, ch Change) (Meta, error) {
-	m := Meta{Site: a.Site, ID: id, Revision: ch.BaseRevision + 1, CreatedAt: s.now(), CreatedBy: a.Name, Reason: ch.Reason, Voided: true}
-	err := s.tx(ctx, func(tx pgx.Tx) error {
-		if err := t.checkBase(ctx, tx, a.Site, id, ch); err != nil {
-			return err
-		}
-		return s.voidLatest(ctx, tx, t, m)
-	})
-	if err != nil {
-		return Meta{}, fmt.Errorf("db: void %s %s: %w", t.entity, id, err)
-	}
-	return m, nil
+// baseIs is the step that checks a change is based on the latest, non-voided revision.
+func (t table) baseIs(ctx context.Context, site string, id uuid.UUID, ch Change) step {
+	return func(tx pgx.Tx) error { return t.checkBase(ctx, tx, site, id, ch) }
 }
+
+// logged is the step that appends the revision just written to the site's
+// log: a pending leaf encoded from the row as stored (AppendLeaf).
+func (s *Store) logged(ctx context.Context, t table, m Meta, action string) step {
+	return func(tx pgx.Tx) error { return s.AppendLeaf(ctx, tx, m.leafEntry(t.entity, action)) }
+}
+
+// leafEntry names the revision m for the log.
+func (m Meta) leafEntry(kind, action string) LeafEntry {
+	return LeafEntry{Kind: kind, Site: m.Site, ID: m.ID, Revision: m.Revision, Actor: m.CreatedBy, Action: action, Reason: m.Reason, At: m.CreatedAt}
+}
+
+// noCheck is the validate step of a record kind with nothing to check in the database.
+func noCheck(pgx.Tx) error { return nil }
 
 // RecordID returns the record's id.
 func (m Meta) RecordID() uuid.UUID { return m.ID }

@@ -22,7 +22,7 @@ const builtInSite = ""
 type RuleSetData struct {
 	RuleSetID  string         `db:"rule_set_id" json:"id" validate:"required,max=64"`
 	Name       string         `db:"name" json:"name" validate:"required,max=200"`
-	Process    string         `db:"process" json:"process" validate:"required,oneof=GMAW FCAW GTAW SMAW SAW"`
+	Process    string         `db:"process" json:"process" validate:"required,enum"`
 	Notes      string         `db:"notes" json:"notes" validate:"max=8000"`
 	FromMemory bool           `db:"from_memory" json:"from_memory"`
 	Rules      []predict.Rule `db:"rules" json:"rules" validate:"required,min=1"`

@@ -198,7 +198,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 	}{
 		{"log_leaves", []string{"site", "leaf_index", "kind", "version", "record_id", "revision", "leaf_hash",
 			"actor", "action", "reason", "at", "integrated_at", "pending_seq"}, leaves},
-		{"log_nodes", []string{"site", "level", "idx", "hash"}, nodes},
+		{"log_nodes", []string{"site", "tree_level", "tree_index", "hash"}, nodes},
 		{"log_rejected", []string{"seq", "site", "kind", "record_id", "revision", "why", "rejected_at"}, rejected},
 	} {
 		if len(c.rows) == 0 {

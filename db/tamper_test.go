@@ -339,7 +339,7 @@ func rewriteHistory(t *testing.T, s *db.Store, conn *pgx.Conn, f tamperFixture) 
 	rng := (&compact.RangeFactory{Hash: logfmt.HashChildren}).NewEmptyRange(0)
 	for _, l := range leaves {
 		if err := rng.Append(l, func(id compact.NodeID, hash []byte) {
-			stmts = append(stmts, fmt.Sprintf("UPDATE log_nodes SET hash = decode('%x', 'hex') WHERE site = '%s' AND level = %d AND idx = %d",
+			stmts = append(stmts, fmt.Sprintf("UPDATE log_nodes SET hash = decode('%x', 'hex') WHERE site = '%s' AND tree_level = %d AND tree_index = %d",
 				hash, f.site, id.Level, id.Index))
 		}); err != nil {
 			t.Fatal(err)
@@ -385,7 +385,7 @@ func truncateTail(t *testing.T, conn *pgx.Conn, f tamperFixture) {
 		"DELETE FROM production_records WHERE id IN "+in,
 		fmt.Sprintf("DELETE FROM production_batches WHERE id = '%s'", f.prod[0].BatchID),
 		fmt.Sprintf("DELETE FROM log_leaves WHERE site = '%s' AND leaf_index >= %d", f.site, f.before),
-		fmt.Sprintf("DELETE FROM log_nodes WHERE site = '%s' AND (idx + 1) << level > %d", f.site, f.before),
+		fmt.Sprintf("DELETE FROM log_nodes WHERE site = '%s' AND (tree_index + 1) << tree_level > %d", f.site, f.before),
 		fmt.Sprintf("DELETE FROM log_checkpoints WHERE site = '%s' AND size > %d", f.site, f.before),
 		enableLeaves,
 		"ALTER TABLE log_checkpoints ENABLE TRIGGER log_checkpoints_append_only",

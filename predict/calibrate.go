@@ -19,10 +19,10 @@ type ModelKind string
 const (
 	// ModelJacksonFixed is ln P = ln K + (4/3)·ln I − (1/3)·ln S − (2/3)·ln V
 	// with the published Jackson exponents held fixed; only K is fitted.
-	ModelJacksonFixed ModelKind = "jackson_fixed_exponents"
+	ModelJacksonFixed ModelKind = "jackson_fixed"
 	// ModelJacksonFree is ln P = c₀ + a·ln I + b·ln S + c·ln V with all four
 	// coefficients fitted (P in mm, I in A, S in mm/s, V in V).
-	ModelJacksonFree ModelKind = "jackson_free_exponents"
+	ModelJacksonFree ModelKind = "jackson_free"
 	// ModelLesnewich is MR = α·I + β·L·I² (MR in kg/h, I in A, L in mm),
 	// fitted without an intercept.
 	ModelLesnewich ModelKind = "lesnewich"
@@ -44,7 +44,7 @@ type PenetrationSample struct {
 	ID                string  `json:"id"`
 	CurrentA          float64 `json:"current_a"`
 	VoltageV          float64 `json:"voltage_v"`
-	TravelSpeedMMPerS float64 `json:"travel_speed_mm_per_s"`
+	TravelSpeedMMPerS float64 `json:"travel_speed_mm_s"`
 	PenetrationMM     float64 `json:"penetration_mm"`
 }
 
@@ -53,23 +53,32 @@ type MeltingSample struct {
 	ID                string  `json:"id"`
 	CurrentA          float64 `json:"current_a"`
 	ExtensionMM       float64 `json:"extension_mm"`
-	MeltingRateKgPerH float64 `json:"melting_rate_kg_per_h"`
+	MeltingRateKgPerH float64 `json:"melting_rate_kg_h"`
 }
 
-// calBound is a plausible range for a recorded quantity (domain primer
-// bounds: outside them the value is a typing error, not a weld).
+// calBound is a plausible range for a recorded quantity, taken from the
+// quantity registry (quantity_table.go): outside it the value is a typing
+// error, not a weld.
 type calBound struct {
 	field  string
 	lo, hi float64
 }
 
+// registered is the calibration bound of the registry's quantity name.
+func registered(field, name string) calBound {
+	q := MustQuantity(name)
+	return calBound{field, q.Min, q.Max}
+}
+
 var (
-	calCurrent     = calBound{"current A", 10, 1000}
-	calVoltage     = calBound{"arc voltage V", 5, 60}
-	calTravel      = calBound{"travel speed mm/s", 0.5, 30}
-	calPenetration = calBound{"penetration mm", 0, 50}
-	calExtension   = calBound{"electrode extension mm", 0, 50}
-	calMelting     = calBound{"melting rate kg/h", 0, math.Inf(1)}
+	calCurrent     = registered("current A", "current_a")
+	calVoltage     = registered("arc voltage V", "voltage_v")
+	calTravel      = registered("travel speed mm/s", "travel_speed_mm_s")
+	calPenetration = registered("penetration mm", "penetration_mm")
+	calExtension   = registered("electrode extension mm", "extension_mm")
+	// A melting rate is derived from wire feed speed and diameter, not typed,
+	// so it has no upper plausible bound.
+	calMelting = calBound{"melting rate kg/h", 0, math.Inf(1)}
 )
 
 // check returns an *InputError for sample id unless v > 0 and lo ≤ v ≤ hi.

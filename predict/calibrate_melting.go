@@ -14,13 +14,20 @@ import (
 // electrode extension in mm). Cov is the covariance of (α, β) in the units
 // of AlphaKgPerHA and BetaKgPerHA2MM.
 type MeltingFit struct {
-	Model                ModelKind   `json:"model"`
-	AlphaKgPerHA         float64     `json:"alpha_kg_per_h_a"`
-	BetaKgPerHA2MM       float64     `json:"beta_kg_per_h_a2_mm"`
-	AlphaStdErrKgPerHA   float64     `json:"alpha_std_err_kg_per_h_a"`
-	BetaStdErrKgPerHA2MM float64     `json:"beta_std_err_kg_per_h_a2_mm"`
+	Model                ModelKind `json:"model"`
+	AlphaKgPerHA         float64   `json:"alpha_kg_h_a"`
+	BetaKgPerHA2MM       float64   `json:"beta_kg_h_a2_mm"`
+	AlphaStdErrKgPerHA   float64   `json:"alpha_std_err_kg_h_a"`
+	BetaStdErrKgPerHA2MM float64   `json:"beta_std_err_kg_h_a2_mm"`
+	// AlphaLbPerHA and BetaLbPerHA2In are α and β in inch-pound units
+	// (lb/(h·A), lb/(h·A²·in)), exact conversions of the two above; the
+	// standard errors convert by the same factors.
+	AlphaLbPerHA         float64     `json:"alpha_lb_h_a"`
+	BetaLbPerHA2In       float64     `json:"beta_lb_h_a2_in"`
+	AlphaStdErrLbPerHA   float64     `json:"alpha_std_err_lb_h_a"`
+	BetaStdErrLbPerHA2In float64     `json:"beta_std_err_lb_h_a2_in"`
 	Cov                  [][]float64 `json:"cov"`
-	ResidualSDKgPerH     float64     `json:"residual_sd_kg_per_h"`
+	ResidualSDKgPerH     float64     `json:"residual_sd_kg_h"`
 	// R2Uncentered is 1 − RSS/Σ MRᵢ²: the model has no intercept.
 	R2Uncentered float64  `json:"r2_uncentered"`
 	N            int      `json:"n"`
@@ -33,11 +40,11 @@ type MeltingFit struct {
 // one new measurement, all in kg/h, at Level.
 type MeltingRateInterval struct {
 	Level          float64 `json:"level"`
-	MeanKgPerH     float64 `json:"mean_kg_per_h"`
-	MeanLowKgPerH  float64 `json:"mean_low_kg_per_h"`
-	MeanHighKgPerH float64 `json:"mean_high_kg_per_h"`
-	PredLowKgPerH  float64 `json:"pred_low_kg_per_h"`
-	PredHighKgPerH float64 `json:"pred_high_kg_per_h"`
+	MeanKgPerH     float64 `json:"mean_kg_h"`
+	MeanLowKgPerH  float64 `json:"mean_low_kg_h"`
+	MeanHighKgPerH float64 `json:"mean_high_kg_h"`
+	PredLowKgPerH  float64 `json:"pred_low_kg_h"`
+	PredHighKgPerH float64 `json:"pred_high_kg_h"`
 }
 
 // FitMeltingRate fits the Lesnewich coefficients α (kg/(h·A)) and β
@@ -76,12 +83,22 @@ func lesnewichFit(samples []MeltingSample) (MeltingFit, calSolution, error) {
 		return MeltingFit{}, calSolution{}, calFitError(ModelLesnewich, err)
 	}
 	sol := calSolution{ids: ids, y: y, resid: res.Residuals, lev: res.Leverage, p: p, dof: res.DoF, sigma: res.ResidualSD}
-	return MeltingFit{
+	fit := MeltingFit{
 		Model: ModelLesnewich, AlphaKgPerHA: res.Coef[0], BetaKgPerHA2MM: res.Coef[1],
 		AlphaStdErrKgPerHA: res.StdErr[0], BetaStdErrKgPerHA2MM: res.StdErr[1],
 		Cov: covToRows(p, res.Cov.At), ResidualSDKgPerH: res.ResidualSD, R2Uncentered: res.R2,
 		N: n, DoF: res.DoF, SampleIDs: ids,
-	}, sol, nil
+	}
+	fit.WithInchPound()
+	return fit, sol, nil
+}
+
+// WithInchPound fills the inch-pound forms of α, β and their standard
+// errors from the metric ones (a fit stored before they existed gets them
+// on read).
+func (f *MeltingFit) WithInchPound() {
+	f.AlphaLbPerHA, f.BetaLbPerHA2In = f.Lesnewich().InchPound()
+	f.AlphaStdErrLbPerHA, f.BetaStdErrLbPerHA2In = Lesnewich{AlphaKgPerHA: f.AlphaStdErrKgPerHA, BetaKgPerHA2MM: f.BetaStdErrKgPerHA2MM}.InchPound()
 }
 
 // Lesnewich returns the fitted coefficients as the forward model.

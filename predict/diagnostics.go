@@ -10,7 +10,7 @@ const (
 	// ResponseLnPenetrationMM is ln(P / 1 mm), the Jackson fits' response.
 	ResponseLnPenetrationMM = "ln_penetration_mm"
 	// ResponseMeltingRateKgPerH is the melting rate in kg/h.
-	ResponseMeltingRateKgPerH = "melting_rate_kg_per_h"
+	ResponseMeltingRateKgPerH = "melting_rate_kg_h"
 )
 
 // Diagnostics are per-sample regression diagnostics of one calibration fit.

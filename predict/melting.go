@@ -81,3 +81,17 @@ func checkEfficiency(efficiency float64) error {
 	}
 	return nil
 }
+
+// LesnewichFromInchPound returns the coefficients given in inch-pound units,
+// α in lb/(h·A) and β in lb/(h·A²·in), in the stored metric units:
+// α_kg = α_lb·0.45359237, β_kg = β_lb·0.45359237/25.4 (exact, NIST SP 811),
+// since MR = β·L·I² with L in inches is β/25.4 per millimetre of extension.
+func LesnewichFromInchPound(alphaLbPerHA, betaLbPerHA2In float64) Lesnewich {
+	return Lesnewich{AlphaKgPerHA: LbPerHToKgPerH(alphaLbPerHA), BetaKgPerHA2MM: LbPerHToKgPerH(betaLbPerHA2In) / MMPerInch}
+}
+
+// InchPound returns α in lb/(h·A) and β in lb/(h·A²·in), the inverse of
+// LesnewichFromInchPound.
+func (l Lesnewich) InchPound() (alphaLbPerHA, betaLbPerHA2In float64) {
+	return KgPerHToLbPerH(l.AlphaKgPerHA), KgPerHToLbPerH(l.BetaKgPerHA2MM) * MMPerInch
+}

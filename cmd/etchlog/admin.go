@@ -6,38 +6,48 @@ import (
 	"fmt"
 	"io"
 	"slices"
+	"strings"
 
-	"etchlog/cmd/etchlog/localpg"
 	"etchlog/db"
 )
 
-// cmdMigrate applies (up) or rolls back (down) the embedded migrations.
+// cmdMigrate applies (up) or rolls back (down) the embedded migrations as
+// the owner role. Down refuses while records exist unless -destroy names the
+// database.
 func cmdMigrate(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
-	c, err := parse("migrate", args, getenv, stderr, nil)
+	dir := "up"
+	switch {
+	case len(args) > 0 && (args[0] == "up" || args[0] == "down"):
+		dir, args = args[0], args[1:]
+	case len(args) > 0 && !strings.HasPrefix(args[len(args)-1], "-"):
+		dir, args = args[len(args)-1], args[:len(args)-1]
+	}
+	var destroy string
+	c, err := parse("migrate", args, getenv, stderr, func(fs *flag.FlagSet) {
+		fs.StringVar(&destroy, "destroy", "", "with down: the name of the database whose records may be destroyed")
+	})
 	if err != nil {
 		return err
 	}
-	rest := []string{"up"}
-	if len(args) > 0 && !slices.Contains([]string{"-h", "--help"}, args[len(args)-1]) {
-		rest = args[len(args)-1:]
-	}
-	dir := rest[0]
 	if dir != "up" && dir != "down" {
 		return fmt.Errorf("migrate: want up or down, got %q", dir)
 	}
-	d, err := localpg.Resolve(ctx, func(k string) string {
-		if k == "DATABASE_URL" {
-			return c.DatabaseURL
-		}
-		return ""
-	}, localpg.Options{})
+	dbs, err := c.resolve(ctx, c.logger(io.Discard))
 	if err != nil {
 		return err
 	}
-	if err := db.Migrate(d.URL, dir); err != nil {
+	if dbs.owner == "" {
+		return fmt.Errorf("migrate: needs the administrator's login: set -owner-database-url (env ETCHLOG_OWNER_DATABASE_URL)")
+	}
+	if dir == "up" {
+		err = db.Setup(ctx, dbs.owner)
+	} else {
+		err = db.MigrateDown(dbs.owner, destroy)
+	}
+	if err != nil {
 		return err
 	}
-	fmt.Fprintf(stdout, "migrate %s: done (%s)\n", dir, redact(d.URL))
+	fmt.Fprintf(stdout, "migrate %s: done (%s)\n", dir, redact(dbs.owner))
 	return nil
 }
 
@@ -58,11 +68,18 @@ func cmdUser(ctx context.Context, args []string, getenv func(string) string, std
 	if name == "" || !slices.Contains([]string{db.RoleTechnician, db.RoleEngineer, db.RoleAuditor}, role) {
 		return fmt.Errorf("user add: -name is required and -role must be technician, engineer or auditor")
 	}
-	store, err := openStore(ctx, c, c.logger(io.Discard))
+	skey, err := c.logKey() // a user change is a fact of the site's log
+	if err != nil {
+		return err
+	}
+	store, err := openOwner(ctx, c, c.logger(io.Discard))
 	if err != nil {
 		return err
 	}
 	defer store.Close()
+	if err := store.SetLogKey(skey); err != nil {
+		return err
+	}
 	token, err := db.NewToken()
 	if err != nil {
 		return err

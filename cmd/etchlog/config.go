@@ -17,16 +17,19 @@ import (
 type config struct {
 	Addr        string
 	DatabaseURL string
-	LogLevel    string
-	BodyLimit   string
-	LogKey      string // the private log signing key text (env ETCHLOG_LOG_KEY)
-	LogKeyFile  string // or a file holding it
+	// OwnerURL is the administrator's login for migrations and users; empty
+	// means DATABASE_URL's login when that is a superuser (see databases).
+	OwnerURL   string
+	LogLevel   string
+	BodyLimit  string
+	LogKey     string // the private log signing key text (env ETCHLOG_LOG_KEY)
+	LogKeyFile string // or a file holding it
 }
 
 // defaults fills the configuration from the environment.
 func defaults(getenv func(string) string) config {
 	c := config{Addr: "127.0.0.1:8080", LogLevel: "info", BodyLimit: "1MiB", DatabaseURL: getenv("DATABASE_URL"),
-		LogKey: getenv("ETCHLOG_LOG_KEY"), LogKeyFile: getenv("ETCHLOG_LOG_KEY_FILE")}
+		OwnerURL: getenv("ETCHLOG_OWNER_DATABASE_URL"), LogKey: getenv("ETCHLOG_LOG_KEY"), LogKeyFile: getenv("ETCHLOG_LOG_KEY_FILE")}
 	if v := getenv("ETCHLOG_ADDR"); v != "" {
 		c.Addr = v
 	}
@@ -40,6 +43,8 @@ func defaults(getenv func(string) string) config {
 func (c *config) flags(fs *flag.FlagSet) {
 	fs.StringVar(&c.Addr, "addr", c.Addr, "listen address (env ETCHLOG_ADDR)")
 	fs.StringVar(&c.DatabaseURL, "database-url", c.DatabaseURL, "PostgreSQL URL (env DATABASE_URL; empty: local default database)")
+	fs.StringVar(&c.OwnerURL, "owner-database-url", c.OwnerURL,
+		"administrator's PostgreSQL URL for migrations and users (env ETCHLOG_OWNER_DATABASE_URL; empty: DATABASE_URL if its login is a superuser)")
 	fs.StringVar(&c.LogLevel, "log-level", c.LogLevel, "debug, info, warn or error (env ETCHLOG_LOG_LEVEL)")
 	fs.StringVar(&c.LogKeyFile, "log-key-file", c.LogKeyFile, "file with the log signing key made by etchlog keygen (env ETCHLOG_LOG_KEY_FILE; or the key in ETCHLOG_LOG_KEY)")
 	fs.StringVar(&c.BodyLimit, "body-limit", c.BodyLimit, "largest request body, e.g. 1MiB (binary) or 1M (10^6 bytes)")
@@ -78,9 +83,16 @@ func parse(name string, args []string, getenv func(string) string, stderr io.Wri
 	return c, c.validate()
 }
 
-// openStore resolves the database (DATABASE_URL, the local server, or a
-// private cluster), applies the migrations and connects.
-func openStore(ctx context.Context, c config, log *slog.Logger) (*db.Store, error) {
+// databases are the two logins etchlog uses on one database: the service's
+// (db.AppRole) and the administrator's, which runs migrations as db.OwnerRole
+// and manages users. Owner is empty when no administrator's login is known.
+type databases struct{ app, owner string }
+
+// resolve finds the database (DATABASE_URL, the local server, or a private
+// cluster) and the two logins. When DATABASE_URL's login is a superuser (a
+// workstation, the demo, a test server) it serves as the administrator's, and
+// the service logs in to the same database as db.AppRole.
+func (c config) resolve(ctx context.Context, log *slog.Logger) (databases, error) {
 	getenv := func(k string) string {
 		if k == "DATABASE_URL" {
 			return c.DatabaseURL
@@ -91,13 +103,55 @@ func openStore(ctx context.Context, c config, log *slog.Logger) (*db.Store, erro
 		log.Info(strings.TrimSpace(fmt.Sprintf(f, a...)))
 	}})
 	if err != nil {
+		return databases{}, err
+	}
+	dbs := databases{app: d.URL, owner: c.OwnerURL}
+	if dbs.owner == "" {
+		priv, err := db.Privileged(ctx, d.URL)
+		if err != nil {
+			return databases{}, err
+		}
+		if priv {
+			dbs.owner = d.URL
+			if dbs.app, err = db.AppURL(d.URL); err != nil {
+				return databases{}, err
+			}
+		}
+	}
+	log.Info("database", "source", d.Source, "service", redact(dbs.app), "owner", redact(dbs.owner))
+	return dbs, nil
+}
+
+// openStore applies the migrations (when an administrator's login is known)
+// and connects the service as db.AppRole.
+func openStore(ctx context.Context, c config, log *slog.Logger) (*db.Store, error) {
+	dbs, err := c.resolve(ctx, log)
+	if err != nil {
 		return nil, err
 	}
-	log.Info("database", "source", d.Source, "url", redact(d.URL))
-	if err := db.Migrate(d.URL, "up"); err != nil {
+	if dbs.owner != "" {
+		if err := db.Setup(ctx, dbs.owner); err != nil {
+			return nil, err
+		}
+	} else {
+		log.Info("no administrator login: migrations are not applied (set -owner-database-url)")
+	}
+	return db.Open(ctx, dbs.app)
+}
+
+// openOwner connects as the administrator (db.OwnerRole), for user changes.
+func openOwner(ctx context.Context, c config, log *slog.Logger) (*db.Store, error) {
+	dbs, err := c.resolve(ctx, log)
+	if err != nil {
 		return nil, err
 	}
-	return db.Open(ctx, d.URL)
+	if dbs.owner == "" {
+		return nil, fmt.Errorf("this needs the administrator's login: set -owner-database-url (env ETCHLOG_OWNER_DATABASE_URL)")
+	}
+	if err := db.Setup(ctx, dbs.owner); err != nil {
+		return nil, err
+	}
+	return db.OpenOwner(ctx, dbs.owner)
 }
 
 // redact hides a password in a URL for logging.

@@ -51,7 +51,16 @@ func cmdDemo(ctx context.Context, args []string, getenv func(string) string, std
 	if err := startLog(ctx, store, skey, log); err != nil {
 		return err
 	}
-	loaded, err := loadDemo(ctx, store)
+	owner, err := openOwner(ctx, c, log)
+	if err != nil {
+		return fmt.Errorf("demo: %w", err)
+	}
+	if err := owner.SetLogKey(skey); err != nil {
+		owner.Close()
+		return err
+	}
+	loaded, err := loadDemo(ctx, owner, store)
+	owner.Close() // the server runs with the service's login only
 	if err != nil {
 		return fmt.Errorf("demo: %w", err)
 	}
@@ -84,9 +93,10 @@ licensed or certified practice.
 func ptr[T any](v T) *T { return &v }
 
 // loadDemo writes the demo shop unless it is there already; it reports whether it wrote.
-func loadDemo(ctx context.Context, s *db.Store) (bool, error) {
+// Users are written by the administrator (owner), records by the service (s).
+func loadDemo(ctx context.Context, owner, s *db.Store) (bool, error) {
 	for _, u := range demoUsers {
-		if err := s.PutUser(ctx, db.User{Site: demoSite, Name: u.name, Role: u.role}, u.token); err != nil {
+		if err := owner.PutUser(ctx, db.User{Site: demoSite, Name: u.name, Role: u.role}, u.token); err != nil {
 			return false, err
 		}
 	}

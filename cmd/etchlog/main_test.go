@@ -19,6 +19,7 @@ import (
 	"etchlog/db"
 	"etchlog/db/dbtest"
 	"etchlog/openapi"
+	"etchlog/openapi/spectest"
 )
 
 func TestMain(m *testing.M) { dbtest.Main(m) }
@@ -103,7 +104,8 @@ func (r *running) stop(t *testing.T) error {
 	}
 }
 
-// get fetches base+path with an optional bearer token and returns status, Content-Type and body.
+// get fetches base+path with an optional bearer token and returns status,
+// Content-Type and body; an answer that does not match openapi.yaml fails the test.
 func get(t *testing.T, base, path, token string) (int, string, []byte) {
 	t.Helper()
 	req, _ := http.NewRequest(http.MethodGet, base+path, nil)
@@ -116,6 +118,9 @@ func get(t *testing.T, base, path, token string) (int, string, []byte) {
 	}
 	defer res.Body.Close()
 	b, _ := io.ReadAll(res.Body)
+	if err := spectest.Default.Check(req, res.StatusCode, res.Header, b); err != nil {
+		t.Errorf("answer does not match the spec: %v", err)
+	}
 	return res.StatusCode, res.Header.Get("Content-Type"), b
 }
 
@@ -156,7 +161,7 @@ func TestServe(t *testing.T) {
 	ctx, cancel := context.WithCancel(context.Background())
 	defer cancel()
 	token, _ := db.NewToken()
-	if err := store.PutUser(ctx, db.User{Site: site, Name: "tech", Role: db.RoleTechnician}, token); err != nil {
+	if err := dbtest.Owner(t).PutUser(ctx, db.User{Site: site, Name: "tech", Role: db.RoleTechnician}, token); err != nil {
 		t.Fatal(err)
 	}
 	proc, err := store.CreateProcedure(ctx, db.Actor{Site: site, Name: "eng", Role: db.RoleEngineer}, db.ProcedureData{
@@ -195,7 +200,7 @@ func TestServe(t *testing.T) {
 	req = req.WithContext(httptrace.WithClientTrace(context.Background(), &httptrace.ClientTrace{WroteHeaders: func() { close(wrote) }}))
 	answer := make(chan int, 1)
 	go func() {
-		res, err := (&http.Client{Transport: &http.Transport{DisableKeepAlives: true}}).Do(req)
+		res, err := (&http.Client{Transport: &spectest.Transport{Base: &http.Transport{DisableKeepAlives: true}, Checker: spectest.Default, Fail: t.Errorf}}).Do(req)
 		if err != nil {
 			t.Errorf("in-flight POST: %v", err)
 			answer <- 0
@@ -255,6 +260,14 @@ func TestDemo(t *testing.T) {
 		counts = append(counts, len(page.Items))
 		if status, _, body := get(t, r.base, "/v1/audit/verify", demoUsers[2].token); status != 200 || !bytes.Contains(body, []byte(`"ok":true`)) {
 			t.Errorf("run %d: audit verify = %d %s, want ok", i+1, status, body)
+		}
+		// The cold-lapped coupon TR-101-06 has sections under WPS-TR-101's 1 mm
+		// minimum: a requirement flag in plain words, not only a model flag.
+		if status, _, body := get(t, r.base, "/v1/flags?kind=requirement&limit=500", demoUsers[2].token); status != 200 ||
+			!bytes.Contains(body, []byte("mm that WPS-TR-101 rev 1 requires")) {
+			t.Errorf("run %d: requirement flags = %d %s, want one naming WPS-TR-101 rev 1", i+1, status, body)
+		} else if i == 0 {
+			t.Logf("requirement flags: %s", body)
 		}
 		cancel()
 		if err := r.stop(t); err != nil {

@@ -25,8 +25,10 @@ const DefaultServerURL = "postgres://postgres@127.0.0.1:5432/postgres?sslmode=di
 
 var (
 	once    sync.Once
-	store   *db.Store
-	dbURL   string
+	store   *db.Store // the service's view: logged in as db.AppRole
+	owner   *db.Store // the administrator's view: as db.OwnerRole
+	dbURL   string    // the test server's superuser login on the test database
+	appURL  string
 	dbName  string
 	setupEr error
 )
@@ -57,11 +59,17 @@ func setup() {
 	u, _ := url.Parse(serverURL())
 	u.Path = "/" + dbName
 	dbURL = u.String()
-	if err := db.Migrate(dbURL, "up"); err != nil {
+	if err := db.Setup(ctx, dbURL); err != nil {
 		setupEr = err
 		return
 	}
-	if store, setupEr = db.Open(ctx, dbURL); setupEr != nil {
+	if appURL, setupEr = db.AppURL(dbURL); setupEr != nil {
+		return
+	}
+	if owner, setupEr = db.OpenOwner(ctx, dbURL); setupEr != nil {
+		return
+	}
+	if store, setupEr = db.Open(ctx, appURL); setupEr != nil {
 		return
 	}
 	if PrivateKey, PublicKey, setupEr = logfmt.GenerateKey("etchlog-test"); setupEr != nil {
@@ -70,27 +78,48 @@ func setup() {
 	if setupEr = store.SetLogKey(PrivateKey); setupEr != nil {
 		return
 	}
+	if setupEr = owner.SetLogKey(PrivateKey); setupEr != nil {
+		return
+	}
 	var seqCtx context.Context
 	seqCtx, stopSequencer = context.WithCancel(context.Background())
 	go store.RunSequencer(seqCtx, db.SequencerOptions{Retry: 100 * time.Millisecond}) //nolint:errcheck // ends with the package
 }
 
 // PrivateKey and PublicKey are the package's log signing key pair, made
-// afresh for each test run; the package's store signs with PrivateKey and
-// runs a log sequencer.
+// afresh for each test run; the package's stores sign with PrivateKey and
+// the service store runs a log sequencer.
 var PrivateKey, PublicKey string
 
 var stopSequencer context.CancelFunc = func() {}
 
-// URL returns the connection URL of the package's test database.
+// URL returns the superuser connection URL of the package's test database:
+// for tests that play an administrator or an attacker with SQL access.
 func URL(tb testing.TB) string {
 	tb.Helper()
 	Store(tb)
 	return dbURL
 }
 
-// Store returns the package's migrated test database. Without a reachable
-// server the test is skipped on a laptop, but fails when CI is set.
+// AppURL returns the service's connection URL of the package's test database
+// (login db.AppRole).
+func AppURL(tb testing.TB) string {
+	tb.Helper()
+	Store(tb)
+	return appURL
+}
+
+// Owner returns the package's test database as an administrator sees it
+// (db.OpenOwner): for what the service may not do, such as adding users.
+func Owner(tb testing.TB) *db.Store {
+	tb.Helper()
+	Store(tb)
+	return owner
+}
+
+// Store returns the package's migrated test database as the service sees it
+// (login db.AppRole). Without a reachable server the test is skipped on a
+// laptop, but fails when CI is set.
 func Store(tb testing.TB) *db.Store {
 	tb.Helper()
 	once.Do(setup)
@@ -112,9 +141,13 @@ func Site(tb testing.TB) string {
 	return tb.Name() + "-" + hex.EncodeToString(b)
 }
 
-// Main runs the package's tests and then drops the test database.
-func Main(m *testing.M) {
+// Main runs the package's tests (a *testing.M, or a wrapper around one) and
+// then drops the test database.
+func Main(m interface{ Run() int }) {
 	code := m.Run()
+	if owner != nil {
+		owner.Close()
+	}
 	if store != nil {
 		stopSequencer()
 		store.Close()

@@ -23,6 +23,9 @@ CREATE TABLE log_pending (
     UNIQUE (site, kind, record_id, revision)
 );
 CREATE INDEX log_pending_site ON log_pending (site, seq);
+-- The service's sequencer removes what it has integrated (migration 000005
+-- gives the service SELECT and INSERT on every new table by default).
+GRANT DELETE ON log_pending TO etchlog_app;
 
 CREATE TABLE log_leaves (
     site          text        NOT NULL,
@@ -59,11 +62,11 @@ CREATE TABLE log_rejected (
 
 -- Hashes of the perfect subtrees (level 0: leaf hashes), for proofs.
 CREATE TABLE log_nodes (
-    site  text     NOT NULL,
-    level smallint NOT NULL,
-    idx   bigint   NOT NULL,
-    hash  bytea    NOT NULL,
-    PRIMARY KEY (site, level, idx)
+    site       text     NOT NULL,
+    tree_level smallint NOT NULL,
+    tree_index bigint   NOT NULL,
+    hash       bytea    NOT NULL,
+    PRIMARY KEY (site, tree_level, tree_index)
 );
 
 -- One signed checkpoint per integrated batch; range_hashes is the compact
@@ -111,6 +114,7 @@ FROM (
     UNION ALL SELECT site, 'procedure_ranges', id, 1, created_by, false, reason, created_at FROM procedure_ranges
     UNION ALL SELECT site, 'production_batch', id, 1, created_by, false, '', created_at FROM production_batches
     UNION ALL SELECT site, 'production_record', id, 1, created_by, false, '', created_at FROM production_records
+    UNION ALL SELECT site, 'user', id, revision, created_by, voided, reason, created_at FROM api_users
 ) f
 ORDER BY created_at, kind, id, revision;
 

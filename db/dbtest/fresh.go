@@ -1,0 +1,52 @@
+package dbtest
+
+import (
+	"context"
+	"crypto/rand"
+	"encoding/hex"
+	"net/url"
+	"os"
+	"testing"
+	"time"
+
+	"github.com/jackc/pgx/v5"
+
+	"etchlog/db"
+)
+
+// Fresh creates and migrates a database of the calling test's own, for tests
+// that stop or block the database (outages, crashes) and so cannot share the
+// package's. It returns its URL and an admin connection to the server, and
+// drops the database when the test ends. dbURL is the superuser's; the
+// service logs in with db.AppURL(dbURL).
+func Fresh(tb testing.TB) (dbURL, name string, admin *pgx.Conn) {
+	tb.Helper()
+	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+	defer cancel()
+	admin, err := pgx.Connect(ctx, serverURL())
+	if err != nil {
+		if os.Getenv("CI") != "" {
+			tb.Fatalf("dbtest: no PostgreSQL at %s: %v (CI is set: a database is required)", serverURL(), err)
+		}
+		tb.Skipf("dbtest: no PostgreSQL at %s: %v", serverURL(), err)
+	}
+	b := make([]byte, 6)
+	_, _ = rand.Read(b)
+	name = "etchlog_test_" + hex.EncodeToString(b)
+	if _, err := admin.Exec(ctx, "CREATE DATABASE "+name); err != nil {
+		tb.Fatalf("dbtest: create database: %v", err)
+	}
+	tb.Cleanup(func() {
+		ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+		defer cancel()
+		_, _ = admin.Exec(ctx, "ALTER DATABASE "+name+" ALLOW_CONNECTIONS true")
+		_, _ = admin.Exec(ctx, "DROP DATABASE IF EXISTS "+name+" WITH (FORCE)")
+		admin.Close(ctx)
+	})
+	u, _ := url.Parse(serverURL())
+	u.Path = "/" + name
+	if err := db.Setup(ctx, u.String()); err != nil {
+		tb.Fatalf("dbtest: migrate %s: %v", name, err)
+	}
+	return u.String(), name, admin
+}

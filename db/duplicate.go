@@ -1,0 +1,62 @@
+package db
+
+import (
+	"context"
+	"errors"
+	"fmt"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// couponByMark returns the id of the coupon whose current revision has mark at the site.
+func couponByMark(ctx context.Context, q querier, site, mark string) (uuid.UUID, error) {
+	var id uuid.UUID
+	err := q.QueryRow(ctx, `SELECT record_id FROM current_marks WHERE site = $1 AND kind = 'coupon_mark' AND mark = $2`, site, mark).Scan(&id)
+	if errors.Is(err, pgx.ErrNoRows) {
+		return uuid.Nil, ErrNotFound
+	}
+	return id, err
+}
+
+// duplicateMark turns a failed coupon create into a DuplicateError naming the
+// coupon that holds the mark, when that is why it failed.
+func (s *Store) duplicateMark(ctx context.Context, site, mark string, err error) error {
+	var dup *DuplicateError
+	if !errors.Is(err, ErrConflict) || errors.As(err, &dup) { // claimMark names the holder already
+		return err
+	}
+	id, lerr := couponByMark(ctx, s.pool, site, mark)
+	if lerr != nil {
+		return err
+	}
+	return fmt.Errorf("db: create coupon: %w", &DuplicateError{Field: "coupon_mark", ExistingID: id,
+		Reason: fmt.Sprintf("coupon %s already has the mark %q; a retried create finds it with GET /v1/coupons?coupon_mark=", id, mark)})
+}
+
+// earlierWeld finds a stored production record of the same procedure with
+// one of the batch's weld ids; it returns the batch index it collides with.
+func earlierWeld(ctx context.Context, q querier, site string, recs []ProductionRecordData) (int, uuid.UUID, error) {
+	procs := make([]uuid.UUID, len(recs))
+	welds := make([]string, len(recs))
+	for i, r := range recs {
+		procs[i], welds[i] = r.ProcedureID, r.WeldID
+	}
+	var ord int
+	var id uuid.UUID
+	err := q.QueryRow(ctx, `
+		SELECT b.ord - 1, p.id
+		FROM unnest($2::uuid[], $3::text[]) WITH ORDINALITY AS b(procedure_id, weld_id, ord)
+		JOIN production_records p ON p.site = $1 AND p.procedure_id = b.procedure_id AND p.weld_id = b.weld_id
+		ORDER BY b.ord LIMIT 1`, site, procs, welds).Scan(&ord, &id)
+	if errors.Is(err, pgx.ErrNoRows) {
+		return -1, uuid.Nil, nil
+	}
+	return ord, id, err
+}
+
+// duplicateWeld is the refusal of a batch whose row i repeats a stored weld id.
+func duplicateWeld(recs []ProductionRecordData, i int, id uuid.UUID) error {
+	return &DuplicateError{Field: fmt.Sprintf("records[%d].weld_id", i), ExistingID: id,
+		Reason: fmt.Sprintf("weld %q of this procedure is already logged as production record %s", recs[i].WeldID, id)}
+}
