@@ -158,7 +158,9 @@ type activationIn struct {
 	Reason *string `json:"reason"`
 }
 
-// handleCalibrationActivate answers POST /v1/calibrations/{id}/activate.
+// handleCalibrationActivate answers POST /v1/calibrations/{id}/activate and
+// /deactivate: per group the latest of these events decides which
+// calibration (of either Jackson form) is used, or that none is.
 func (s *Server) handleCalibrationActivate(c echo.Context) error {
 	id, err := pathID(c)
 	if err != nil {
@@ -169,13 +171,17 @@ func (s *Server) handleCalibrationActivate(c echo.Context) error {
 		return err
 	}
 	if in.Reason == nil {
-		return badRequest("reason", "is required: say why this calibration is to be used")
+		return badRequest("reason", "is required: say why")
 	}
-	act, err := s.store.ActivateCalibration(c.Request().Context(), actorOf(c), id, *in.Reason)
+	change := s.store.ActivateCalibration
+	if strings.HasSuffix(c.Path(), "/deactivate") {
+		change = s.store.DeactivateCalibration
+	}
+	act, err := change(c.Request().Context(), actorOf(c), id, *in.Reason)
 	if err != nil {
 		return err
 	}
-	// An activation is a new record (who, when, why): 201, located on its calibration.
+	// An activation or deactivation is a new record (who, when, why): 201, located on its calibration.
 	c.Response().Header().Set(echo.HeaderLocation, "/v1/calibrations/"+id.String())
 	return c.JSON(http.StatusCreated, act)
 }

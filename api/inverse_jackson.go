@@ -79,9 +79,11 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	free, err := s.activeCalibration(c, g, db.CalibrationJacksonFree)
-	if err != nil {
-		return err
+	var free *db.Calibration
+	if q.JacksonK == nil { // an explicit K is used exactly; else the group's calibration in use
+		if free, err = s.activeCalibration(c, g, db.CalibrationJacksonFree); err != nil {
+			return err
+		}
 	}
 	if free != nil && free.Fit.Penetration != nil {
 		out, err := inverseFree(*free, q)
@@ -98,6 +100,15 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 		return badRequest("jackson_k", "is required: give it, or the group of an active jackson_fixed calibration")
 	}
 	out := penetrationInverseOut{SolveFor: q.SolveFor, Notes: []string{}, Caution: predictionCaution}
+	if q.JacksonK != nil { // say which calibration the explicit K was preferred to
+		passed, err := s.activeCalibration(c, g, db.CalibrationJacksonFree, db.CalibrationJacksonFixed)
+		if err != nil {
+			return err
+		}
+		if passed != nil {
+			out.Notes = append(out.Notes, "the group's active calibration "+passed.ID.String()+" was not used: the request's jackson_k was")
+		}
+	}
 	if err := solveJackson(*k, q, &out); err != nil {
 		return renamed(err, jacksonFieldNames)
 	}
@@ -148,9 +159,6 @@ func inverseFree(cal db.Calibration, q penetrationInverse) (penetrationInverseOu
 	po.Source, po.Model, po.CalibrationID = sourceCalibration, string(cal.Model), &cal.ID
 	po.Exponents = &exponentsOut{fit.Coef[1], fit.Coef[2], fit.Coef[3]}
 	po.PenetrationMM, po.PenetrationIn, po.Interval = &iv.MedianMM, ptrTo(predict.MMToInch(iv.MedianMM)), &iv
-	if q.JacksonK != nil {
-		out.Notes = append(out.Notes, "jackson_k was not used: the group has an active jackson_free calibration")
-	}
 	finishInverse(&out)
 	return out, nil
 }

@@ -130,9 +130,14 @@ func (s *Server) activeCalibration(c echo.Context, g *db.CalibrationGroup, model
 	return nil, nil
 }
 
-// jacksonKFor picks the Jackson K with the published exponents: the group's
-// active jackson_fixed calibration, else the caller's K, else none (nil).
+// jacksonKFor picks the Jackson K with the published exponents: the
+// caller's K when given (explicit coefficients are used exactly), else the
+// group's active jackson_fixed calibration, else none (nil).
 func (s *Server) jacksonKFor(c echo.Context, g *db.CalibrationGroup, given *jacksonKIn) (*predict.JacksonK, *db.Calibration, error) {
+	if given != nil {
+		k := given.jackson()
+		return &k, nil, nil
+	}
 	cal, err := s.activeCalibration(c, g, db.CalibrationJacksonFixed)
 	if err != nil {
 		return nil, nil, err
@@ -151,9 +156,16 @@ func (s *Server) jacksonKFor(c echo.Context, g *db.CalibrationGroup, given *jack
 	return &k, nil, nil
 }
 
-// lesnewichFor picks the Lesnewich coefficients: the group's active
-// calibration, else the caller's, else none (nil).
+// lesnewichFor picks the Lesnewich coefficients: the caller's when given,
+// else the group's active calibration, else none (nil).
 func (s *Server) lesnewichFor(c echo.Context, g *db.CalibrationGroup, given *lesnewichIn) (*predict.Lesnewich, *db.Calibration, error) {
+	if given != nil {
+		l, err := given.lesnewich()
+		if err != nil {
+			return nil, nil, err
+		}
+		return &l, nil, nil
+	}
 	cal, err := s.activeCalibration(c, g, db.CalibrationLesnewich)
 	if err != nil {
 		return nil, nil, err

@@ -76,6 +76,7 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/calibrations", s.handleCalibrationList, readers},
 		{http.MethodGet, "/v1/calibrations/:id", s.handleCalibrationGet, readers},
 		{http.MethodPost, "/v1/calibrations/:id/activate", s.handleCalibrationActivate, engineers},
+		{http.MethodPost, "/v1/calibrations/:id/deactivate", s.handleCalibrationActivate, engineers},
 		{http.MethodGet, "/v1/coupons/:id/model", s.handleCouponModel, readers},
 		{http.MethodPost, "/v1/inverse/current-for-deposition", s.handleInverseDeposition, readers},
 		{http.MethodPost, "/v1/inverse/hold-penetration", s.handleInverseHold, readers},

@@ -24,24 +24,29 @@ import (
 // an issue. Lists of objects (a batch's records) are rewritten row by row.
 // A body that is not a JSON object is returned unchanged for the decoder to
 // judge.
-func storedSpellings(body []byte, t reflect.Type) ([]byte, []FieldIssue) {
+// The returned sentAs records, by stored path, the spelling and number each
+// rewritten quantity was sent in, so a refusal can be worded in them.
+func storedSpellings(body []byte, t reflect.Type) ([]byte, []FieldIssue, sentAs) {
 	var obj map[string]json.RawMessage
 	if t.Kind() != reflect.Struct || json.Unmarshal(body, &obj) != nil || obj == nil {
-		return body, nil
+		return body, nil, nil
 	}
-	var r spellingRewriter
+	r := spellingRewriter{sent: sentAs{}}
 	if !r.object(obj, t, "") {
-		return body, r.issues
+		return body, r.issues, r.sent
 	}
 	out, err := json.Marshal(obj)
 	if err != nil {
-		return body, r.issues
+		return body, r.issues, r.sent
 	}
-	return out, r.issues
+	return out, r.issues, r.sent
 }
 
-// spellingRewriter collects the issues of one body.
-type spellingRewriter struct{ issues []FieldIssue }
+// spellingRewriter collects the issues of one body and what it rewrote.
+type spellingRewriter struct {
+	issues []FieldIssue
+	sent   sentAs
+}
 
 // object rewrites obj for struct type t, reporting whether anything changed.
 func (r *spellingRewriter) object(obj map[string]json.RawMessage, t reflect.Type, prefix string) bool {
@@ -110,6 +115,10 @@ func (r *spellingRewriter) quantity(obj map[string]json.RawMessage, q predict.Qu
 	if !ok {
 		r.issues = append(r.issues, FieldIssue{prefix + given[0], "wrong type: want a number"})
 		return false
+	}
+	var sent float64
+	if json.Unmarshal(obj[given[0]], &sent) == nil {
+		r.sent[prefix+q.Name] = sentValue{field: prefix + given[0], value: sent}
 	}
 	delete(obj, given[0])
 	obj[q.Name] = v

@@ -170,7 +170,7 @@ func ruleReason(fe validator.FieldError, name func(string) string) string {
 		if !ok || !isNum {
 			return "is not a registered quantity"
 		}
-		return q.Refusal(v)
+		return storedRefusal(q, v)
 	case "enum":
 		e, ok := predict.LookupEnum(fe.Field())
 		if !ok {
@@ -190,7 +190,10 @@ func bind(c echo.Context, v any) error {
 	if err != nil {
 		return err
 	}
-	body, issues := storedSpellings(body, reflect.TypeOf(v).Elem())
+	body, issues, sent := storedSpellings(body, reflect.TypeOf(v).Elem())
+	if len(sent) > 0 {
+		c.Set(sentKey, sent)
+	}
 	if issues != nil {
 		return &invalidError{status: http.StatusBadRequest, issues: issues}
 	}

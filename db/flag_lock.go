@@ -57,3 +57,14 @@ func lockProcess(ctx context.Context, tx pgx.Tx, site, process string) error {
 	}
 	return lockProcedures(ctx, tx, site, ids, true)
 }
+
+// lockGroup serialises the choice of calibration for one model family and
+// calibration group at a site: two activations of the same group never
+// interleave, while writes to other groups and all record writes go on.
+func lockGroup(ctx context.Context, tx pgx.Tx, site, family string, g CalibrationGroup) error {
+	g = g.canonical()
+	_, err := tx.Exec(ctx, `SELECT pg_advisory_xact_lock(hashtextextended(
+		concat_ws(chr(31), 'etchlog-calibration-group', $1::text, $2::text, $3::text, round($4::numeric, 3)::text, $5::text, $6::text), 0))`,
+		site, family, g.Process, g.WireDiameterMM, g.ShieldingGas, g.JointType)
+	return err
+}
