@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"errors"
-	"flag"
 	"fmt"
 	"io"
 	"log/slog"
@@ -69,11 +68,11 @@ func startLog(ctx context.Context, store *db.Store, skey string, log *slog.Logge
 // cmdKeygen makes a log signing key: the private key goes to -out (mode
 // 0600), the public key to -out.pub and to stdout.
 func cmdKeygen(_ context.Context, args []string, _ func(string) string, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("etchlog keygen", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	fs := newFlagSet("keygen", "keygen [flags]", "Makes the Ed25519 key that signs the log's checkpoints: the private key to -out (mode\n"+
+		"0600; keep it outside the database), the public key to the same name with .pub.")
 	name := fs.String("name", "etchlog", "key name shown in checkpoint signature lines (letters, digits, . - _)")
 	out := fs.String("out", "etchlog-log.key", "file for the private key; the public key goes to FILE.pub")
-	if err := fs.Parse(args); err != nil {
+	if err := parseFlags(fs, args, stdout, stderr); err != nil {
 		return err
 	}
 	if _, err := os.Stat(*out); err == nil {
@@ -96,13 +95,14 @@ func cmdKeygen(_ context.Context, args []string, _ func(string) string, stdout, 
 // cmdVerify checks an export offline against signed checkpoints: no
 // database, no server.
 func cmdVerify(_ context.Context, args []string, _ func(string) string, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("etchlog verify", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	fs := newFlagSet("verify", "verify --export FILE --checkpoint FILE --key PUBKEY [--older-checkpoint FILE]",
+		"Checks an export against signed checkpoints with no database and no server: every leaf\n"+
+			"against its fact, the root against the checkpoint, the older checkpoint as a prefix.")
 	export := fs.String("export", "", "the export file (GET /v1/export)")
 	checkpoint := fs.String("checkpoint", "", "the checkpoint taken with the export (GET /v1/log/checkpoint)")
 	key := fs.String("key", "", "the public key file, or the key text (name+hash+base64)")
 	older := fs.String("older-checkpoint", "", "a checkpoint you kept from an earlier visit (optional)")
-	if err := fs.Parse(args); err != nil {
+	if err := parseFlags(fs, args, stdout, stderr); err != nil {
 		return err
 	}
 	if *export == "" || *checkpoint == "" || *key == "" {
