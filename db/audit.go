@@ -87,7 +87,7 @@ const flagDigest = `SELECT subject_id::text || ' ' || variable || ' ' || kind,
 // Flags are derived data the service rewrites, so no leaf covers them; this
 // comparison is what shows a flag deleted or edited behind its back.
 func (s *Store) checkFlags(ctx context.Context, site string, problem func(string, ...any)) error {
-	tx, err := s.pool.Begin(ctx)
+	tx, err := s.long.Begin(ctx) // a long read: on the pool that cannot starve writes
 	if err != nil {
 		return err
 	}

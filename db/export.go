@@ -34,7 +34,7 @@ func (s *Store) Export(ctx context.Context, site string, emit func(kind string, 
 
 func (s *Store) export(ctx context.Context, site string, records bool, emit func(kind string, v any) error) (ExportSummary, error) {
 	var sum ExportSummary
-	tx, err := s.pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
+	tx, err := s.long.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 	if err != nil {
 		return sum, fmt.Errorf("db: export: %w", err)
 	}

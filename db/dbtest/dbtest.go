@@ -72,9 +72,6 @@ func setup() {
 	if store, setupEr = db.Open(ctx, appURL); setupEr != nil {
 		return
 	}
-	if PrivateKey, PublicKey, setupEr = logfmt.GenerateKey("etchlog-test"); setupEr != nil {
-		return
-	}
 	if setupEr = store.SetLogKey(PrivateKey); setupEr != nil {
 		return
 	}
@@ -89,7 +86,13 @@ func setup() {
 // PrivateKey and PublicKey are the package's log signing key pair, made
 // afresh for each test run; the package's stores sign with PrivateKey and
 // the service store runs a log sequencer.
-var PrivateKey, PublicKey string
+var PrivateKey, PublicKey = func() (string, string) {
+	skey, vkey, err := logfmt.GenerateKey("etchlog-test")
+	if err != nil {
+		panic(err) // crypto/rand failed: nothing can run
+	}
+	return skey, vkey
+}()
 
 var stopSequencer context.CancelFunc = func() {}
 
