@@ -68,7 +68,7 @@ func BenchmarkVerifyExport1M(b *testing.B) {
 	signer, _ := NewSigner(skey)
 	v := NewVerifier("bench", vkey)
 	for i := range n {
-		v.Leaf(ExportLeaf{Index: uint64(i), Kind: "production_record", Version: 1, Fields: benchFact(i).Fields, LeafHash: benchFact(i).LeafHash()})
+		v.Leaf(ExportLeaf{Index: uint64(i), LeafHash: benchFact(i).LeafHash(), Missing: "hash only"})
 	}
 	note, _ := SignCheckpoint(signer, "bench", n, v.Root())
 	for range b.N {
@@ -78,7 +78,8 @@ func BenchmarkVerifyExport1M(b *testing.B) {
 			_ = enc.Encode(map[string]any{"kind": LineHeader, "record": ExportHeader{Site: "bench", Format: 2}})
 			for i := range n {
 				f := benchFact(i)
-				_ = enc.Encode(map[string]any{"kind": LineLeaf, "record": ExportLeaf{Index: uint64(i), Kind: f.Kind, Version: 1, Fields: f.Fields, LeafHash: f.LeafHash()}})
+				_ = enc.Encode(map[string]any{"kind": LineLeaf, "record": ExportLeaf{Index: uint64(i), Kind: f.Kind, Version: 1, Fields: f.Fields, LeafHash: f.LeafHash(),
+					Actor: "ines", Action: "create", At: "2026-11-05T08:00:01.000000Z"}})
 			}
 			pw.Close()
 		}()
