@@ -67,12 +67,12 @@ type CalibrationSpec struct {
 	// like every time filter: WeldedFrom included, WeldedTo not. The table
 	// keeps its column's first meaning, the last day included: storeCalibration
 	// writes the day before WeldedTo and calibrationColumns reads it back + 1.
-	WeldedFrom *Date `db:"welded_from" json:"welded_from,omitempty"`
-	WeldedTo   *Date `db:"welded_to" json:"welded_to,omitempty"`
-	ProcedureID    *uuid.UUID       `db:"procedure_id" json:"procedure_id,omitempty"`
-	Level          float64          `db:"level" json:"level" validate:"quantity"`
-	ArcLengthMM    *float64         `db:"arc_length_mm" json:"arc_length_mm,omitempty" validate:"omitempty,quantity"`
-	Note           string           `db:"note" json:"note" validate:"max=2000"`
+	WeldedFrom  *Date      `db:"welded_from" json:"welded_from,omitempty"`
+	WeldedTo    *Date      `db:"welded_to" json:"welded_to,omitempty"`
+	ProcedureID *uuid.UUID `db:"procedure_id" json:"procedure_id,omitempty"`
+	Level       float64    `db:"level" json:"level" validate:"quantity"`
+	ArcLengthMM *float64   `db:"arc_length_mm" json:"arc_length_mm,omitempty" validate:"omitempty,quantity"`
+	Note        string     `db:"note" json:"note" validate:"max=2000"`
 }
 
 // Group returns the spec's group key.
