@@ -65,7 +65,7 @@ type CalibrationSpec struct {
 	JointType      string           `db:"joint_type" json:"joint_type" validate:"required,enum"`
 	// WeldedFrom and WeldedTo select the coupons by welding day, half-open
 	// like every time filter: WeldedFrom included, WeldedTo not. The table
-	// keeps its column's first meaning, the last day included: storeCalibration
+	// keeps its column's first meaning, the last day included: insertCalibration
 	// writes the day before WeldedTo and calibrationColumns reads it back + 1.
 	WeldedFrom  *Date      `db:"welded_from" json:"welded_from,omitempty"`
 	WeldedTo    *Date      `db:"welded_to" json:"welded_to,omitempty"`
