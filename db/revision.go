@@ -216,8 +216,5 @@ func logged(ctx context.Context, t table, m Meta, action string) step {
 	return func(tx pgx.Tx) error { return appendAudit(ctx, tx, t, m, action) }
 }
 
-// noCheck is the validate step of a record kind with nothing to check in the database.
-func noCheck(pgx.Tx) error { return nil }
-
 // RecordID returns the record's id.
 func (m Meta) RecordID() uuid.UUID { return m.ID }
