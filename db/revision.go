@@ -218,3 +218,6 @@ func logged(ctx context.Context, t table, m Meta, action string) step {
 
 // RecordID returns the record's id.
 func (m Meta) RecordID() uuid.UUID { return m.ID }
+
+// RecordMeta returns the revision's bookkeeping.
+func (m Meta) RecordMeta() Meta { return m }
