@@ -38,8 +38,6 @@ type ProcedureRanges struct {
 	DerivedFromOlderRevision bool `db:"-" json:"derived_from_older_revision"`
 }
 
-var rangesTable = table{name: "procedure_ranges", entity: "procedure_ranges"}
-
 const rangesColumns = `id, site, procedure_id, procedure_revision, version, action, rule_set_site,
 	rule_set_id, rule_set_version, reason, ranges, created_at, created_by`
 
