@@ -114,12 +114,6 @@ type Calibration struct {
 	Active bool `db:"active" json:"active"`
 }
 
-// calibrationTable and activationTable name the tables for the audit chain.
-var (
-	calibrationTable = table{name: "calibrations", entity: "calibration"}
-	activationTable  = table{name: "calibration_activations", entity: "calibration_activation"}
-)
-
 // validate checks what the database's rules would refuse, naming the field.
 func (c CalibrationSpec) validate() error {
 	switch c.Model {
