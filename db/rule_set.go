@@ -33,7 +33,7 @@ type RuleSetData struct {
 type RuleSet struct {
 	RowID     uuid.UUID `db:"id" json:"-"`
 	Site      string    `db:"site" json:"-"`
-	Version   int       `db:"version" json:"version"`
+	Version   int       `db:"version" json:"revision"`
 	BuiltIn   bool      `db:"built_in" json:"built_in"`
 	CreatedAt time.Time `db:"created_at" json:"created_at"`
 	CreatedBy string    `db:"created_by" json:"created_by"`
@@ -82,7 +82,7 @@ func (s *Store) CreateRuleSet(ctx context.Context, a Actor, d RuleSetData) (Rule
 			a.Site, id, d.RuleSetID, rs.Version, d.Name, d.Process, d.Notes, d.FromMemory, string(rules), rs.CreatedAt, a.Name); err != nil {
 			return mapError(err)
 		}
-		return appendAudit(ctx, tx, ruleSetTable, Meta{Site: a.Site, ID: id, Revision: 1, CreatedAt: rs.CreatedAt, CreatedBy: a.Name}, "create")
+		return s.AppendLeaf(ctx, tx, LeafEntry{Kind: "rule_set", Site: a.Site, ID: id, Revision: 1, Actor: a.Name, Action: "create", At: rs.CreatedAt})
 	})
 	if err != nil {
 		return RuleSet{}, fmt.Errorf("db: create rule set %s: %w", d.RuleSetID, err)
