@@ -32,7 +32,7 @@ type crashServer struct {
 func startBinary(t *testing.T, bin, appURL, ownerURL string) *crashServer {
 	t.Helper()
 	cmd := exec.Command(bin, "serve", "-addr", "127.0.0.1:0", "-log-level", "warn", "-per-user", "64")
-	cmd.Env = append(os.Environ(), "DATABASE_URL="+appURL, "ETCHLOG_OWNER_DATABASE_URL="+ownerURL)
+	cmd.Env = append(os.Environ(), "DATABASE_URL="+appURL, "ETCHLOG_OWNER_DATABASE_URL="+ownerURL, "ETCHLOG_LOG_KEY="+dbtest.PrivateKey)
 	out, err := cmd.StdoutPipe()
 	if err != nil {
 		t.Fatal(err)
@@ -79,6 +79,9 @@ func TestCrashSafety(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer owner.Close()
+	if err := owner.SetLogKey(dbtest.PrivateKey); err != nil {
+		t.Fatal(err)
+	}
 	tokens := map[string]string{}
 	for _, role := range []string{db.RoleTechnician, db.RoleEngineer, db.RoleAuditor} {
 		tok, _ := db.NewToken()
