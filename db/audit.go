@@ -91,7 +91,7 @@ type Verification struct {
 
 // record tables whose revisions the audit chain covers.
 var auditedTables = []table{procedures, qualificationRecords, coupons, measurements, calibrationTable, activationTable,
-	ruleSetTable, rangesTable, productionBatchTable, users}
+	ruleSetTable, rangesTable, productionBatchTable, users, signOffTable}
 
 // VerifyAudit recomputes every link of the site's chain and compares every
 // stored record revision with the content its audit event recorded. Any edit

@@ -26,6 +26,8 @@ var (
 	ErrInvalid = errors.New("invalid value")
 	// ErrVoided means the record was voided and can no longer be corrected.
 	ErrVoided = errors.New("record is voided")
+	// ErrForbidden means the actor's role may not make this write.
+	ErrForbidden = errors.New("the role may not do this")
 	// ErrBadCursor means a list cursor is not one that the list handed out.
 	ErrBadCursor = errors.New("not a cursor returned by this list")
 )

@@ -25,7 +25,8 @@ type exportedEvent struct {
 
 // Export streams every revision of every record of a site (procedures,
 // qualification records, coupons, measurements, calibrations and their
-// activations, rule sets, qualified ranges, production batches and records),
+// activations, rule sets, qualified ranges, production batches and records,
+// users and sign-offs; procedure, PQR and calibration revisions carry their sign-off),
 // then the site's audit chain,
 // to emit, inside one repeatable-read snapshot so the parts agree.
 func (s *Store) Export(ctx context.Context, site string, emit func(kind string, v any) error) (ExportSummary, error) {
@@ -51,6 +52,7 @@ func (s *Store) Export(ctx context.Context, site string, emit func(kind string, 
 		{"calibrations", "calibration", false}, {"calibration_activations", "calibration_activation", false},
 		{"rule_sets", "rule_set", true}, {"procedure_ranges", "procedure_ranges", false},
 		{"production_batches", "production_batch", false}, {"production_records", "production_record", false},
+		{"api_users", "user", false}, {"sign_offs", "sign_off", false},
 	} {
 		steps = append(steps, func() (int64, error) { return exportRaw(ctx, tx, r.name, r.kind, site, r.builtins, emit) })
 	}
@@ -84,6 +86,10 @@ func (s *Store) Export(ctx context.Context, site string, emit func(kind string, 
 
 // exportTable emits every revision of one table's records at the site, by id and revision.
 func exportTable[T any](ctx context.Context, tx pgx.Tx, t table, site string, emit func(string, any) error) (int64, error) {
+	signed, err := signOffsOf(ctx, tx, site) // read first: the connection serves one query at a time
+	if err != nil {
+		return 0, err
+	}
 	rows, err := tx.Query(ctx, "SELECT "+t.columns()+" FROM "+t.name+" WHERE site = $1 ORDER BY id, revision", site)
 	if err != nil {
 		return 0, fmt.Errorf("db: export %s: %w", t.name, err)
@@ -94,6 +100,10 @@ func exportTable[T any](ctx context.Context, tx pgx.Tx, t table, site string, em
 		v, err := pgx.RowToStructByName[T](rows)
 		if err != nil {
 			return n, err
+		}
+		if sg, ok := any(&v).(signable); ok {
+			kind, id, rev, slot := sg.signOffSlot()
+			*slot = signed[signOffKey{kind, id, rev}]
 		}
 		if err := emit(t.entity, v); err != nil {
 			return n, err

@@ -45,6 +45,8 @@ type QualificationRecordData struct {
 type QualificationRecord struct {
 	Meta
 	QualificationRecordData
+	// SignOff is this revision's sign-off by an engineer; null until signed.
+	SignOff *SignOff `db:"-" json:"sign_off"`
 }
 
 var qualificationRecords = table{name: "qualification_records", entity: "qualification_record", fields: []string{
@@ -79,7 +81,7 @@ func (s *Store) CreateQualificationRecord(ctx context.Context, a Actor, q Qualif
 	); err != nil {
 		return QualificationRecord{}, err
 	}
-	return QualificationRecord{m, q}, nil
+	return QualificationRecord{Meta: m, QualificationRecordData: q}, nil
 }
 
 // CorrectQualificationRecord stores the next revision of a PQR.
@@ -93,7 +95,7 @@ func (s *Store) CorrectQualificationRecord(ctx context.Context, a Actor, id uuid
 	); err != nil {
 		return QualificationRecord{}, err
 	}
-	return QualificationRecord{m, q}, nil
+	return QualificationRecord{Meta: m, QualificationRecordData: q}, nil
 }
 
 // VoidQualificationRecord voids a PQR with a reason.
