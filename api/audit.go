@@ -42,6 +42,8 @@ func (s *Server) handleAuditEvents(c echo.Context) error {
 	if len(ev) == limit {
 		page.Next = db.SeqCursor("audit_events", ev[len(ev)-1].Seq)
 	}
+	// Payloads are the records exactly as stored and hashed: no rounding.
+	c.Set(ctxVerbatim, true)
 	return c.JSON(http.StatusOK, page)
 }
 

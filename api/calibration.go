@@ -19,7 +19,6 @@ type calibrationIn struct {
 	Model          db.CalibrationModel `json:"model"`
 	Process        string              `json:"process"`
 	WireDiameterMM *float64            `json:"wire_diameter_mm"`
-	WireDiameterIn *float64            `json:"wire_diameter_in"`
 	ShieldingGas   string              `json:"shielding_gas"`
 	JointType      string              `json:"joint_type"`
 	WeldedFrom     *db.Date            `json:"welded_from"`
@@ -33,7 +32,7 @@ type calibrationIn struct {
 func (in calibrationIn) spec() (db.CalibrationSpec, error) {
 	var u units
 	sp := db.CalibrationSpec{Model: in.Model, Process: in.Process, ShieldingGas: in.ShieldingGas, JointType: in.JointType,
-		WireDiameterMM: u.req(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn)),
+		WireDiameterMM: u.req("wire_diameter_mm", in.WireDiameterMM),
 		WeldedFrom:     in.WeldedFrom, WeldedTo: in.WeldedTo, ProcedureID: in.ProcedureID, Level: defaultLevel,
 		ArcLengthMM: in.ArcLengthMM, Note: in.Note}
 	if in.Level != nil {
@@ -159,7 +158,9 @@ type activationIn struct {
 	Reason *string `json:"reason"`
 }
 
-// handleCalibrationActivate answers POST /v1/calibrations/{id}/activate.
+// handleCalibrationActivate answers POST /v1/calibrations/{id}/activate and
+// /deactivate: per group the latest of these events decides which
+// calibration (of either Jackson form) is used, or that none is.
 func (s *Server) handleCalibrationActivate(c echo.Context) error {
 	id, err := pathID(c)
 	if err != nil {
@@ -170,13 +171,17 @@ func (s *Server) handleCalibrationActivate(c echo.Context) error {
 		return err
 	}
 	if in.Reason == nil {
-		return badRequest("reason", "is required: say why this calibration is to be used")
+		return badRequest("reason", "is required: say why")
 	}
-	act, err := s.store.ActivateCalibration(c.Request().Context(), actorOf(c), id, *in.Reason)
+	change := s.store.ActivateCalibration
+	if strings.HasSuffix(c.Path(), "/deactivate") {
+		change = s.store.DeactivateCalibration
+	}
+	act, err := change(c.Request().Context(), actorOf(c), id, *in.Reason)
 	if err != nil {
 		return err
 	}
-	// An activation is a new record (who, when, why): 201, located on its calibration.
+	// An activation or deactivation is a new record (who, when, why): 201, located on its calibration.
 	c.Response().Header().Set(echo.HeaderLocation, "/v1/calibrations/"+id.String())
 	return c.JSON(http.StatusCreated, act)
 }

@@ -1,6 +1,7 @@
 package api_test
 
 import (
+	"encoding/json"
 	"net/http"
 	"strings"
 	"testing"
@@ -66,26 +67,38 @@ func TestCalibrationFitThroughAPI(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
+			// The store keeps the fit bit for bit; answers carry it to 12 significant digits.
+			stored := e.storedFit(created.ID)
+			if d := cmp.Diff(tc.want, stored); d != "" {
+				t.Errorf("stored fit (-predict +stored):\n%s", d)
+			}
+			if p := stored.Penetration; p != nil && !sameBits(p.Coef, tc.want.Penetration.Coef) {
+				t.Errorf("stored coef = %v, want bit-identical %v", p.Coef, tc.want.Penetration.Coef)
+			}
+			if m := stored.Melting; m != nil && !sameBits([]float64{m.AlphaKgPerHA, m.BetaKgPerHA2MM}, []float64{melt.AlphaKgPerHA, melt.BetaKgPerHA2MM}) {
+				t.Errorf("stored α, β = %v, %v, want bit-identical %v, %v", m.AlphaKgPerHA, m.BetaKgPerHA2MM, melt.AlphaKgPerHA, melt.BetaKgPerHA2MM)
+			}
+			var wantFit db.CalibrationFit
+			if b, err := json.Marshal(tc.want); err != nil || json.Unmarshal(b, &wantFit) != nil {
+				t.Fatalf("copy the fit: %v", err)
+			}
+			answeredAll(&wantFit)
+			answeredAll(&wantDiag)
 			for name, got := range map[string]calibrationReply{"POST answer": created, "GET answer": read} {
-				if d := cmp.Diff(tc.want, got.Fit); d != "" {
-					t.Errorf("%s fit (-predict +served):\n%s", name, d)
+				if d := cmp.Diff(wantFit, got.Fit); d != "" {
+					t.Errorf("%s fit (-predict as answered +served):\n%s", name, d)
 				}
-				if p := got.Fit.Penetration; p != nil && !sameBits(p.Coef, tc.want.Penetration.Coef) {
-					t.Errorf("%s coef = %v, want bit-identical %v", name, p.Coef, tc.want.Penetration.Coef)
-				}
-				if m := got.Fit.Melting; m != nil && !sameBits([]float64{m.AlphaKgPerHA, m.BetaKgPerHA2MM}, []float64{melt.AlphaKgPerHA, melt.BetaKgPerHA2MM}) {
-					t.Errorf("%s α, β = %v, %v, want bit-identical %v, %v", name, m.AlphaKgPerHA, m.BetaKgPerHA2MM, melt.AlphaKgPerHA, melt.BetaKgPerHA2MM)
-				}
-				// Both coefficient forms: 1 lb = 0.45359237 kg, 1 in = 25.4 mm (NIST SP 811).
-				if m := got.Fit.Melting; m != nil && (!relClose(m.AlphaLbPerHA, m.AlphaKgPerHA/0.45359237, 1e-15) ||
-					!relClose(m.BetaLbPerHA2In, m.BetaKgPerHA2MM/0.45359237*25.4, 1e-15)) {
+				// Both coefficient forms: 1 lb = 0.45359237 kg, 1 in = 25.4 mm (NIST SP 811),
+				// converted from the stored fit and carried to 12 significant digits.
+				if m, s := got.Fit.Melting, stored.Melting; m != nil && s != nil && (!to12Digits(m.AlphaLbPerHA, s.AlphaKgPerHA/0.45359237) ||
+					!to12Digits(m.BetaLbPerHA2In, s.BetaKgPerHA2MM/0.45359237*25.4)) {
 					t.Errorf("%s inch-pound α, β = %v, %v, want %v, %v", name, m.AlphaLbPerHA, m.BetaLbPerHA2In,
-						m.AlphaKgPerHA/0.45359237, m.BetaKgPerHA2MM/0.45359237*25.4)
+						s.AlphaKgPerHA/0.45359237, s.BetaKgPerHA2MM/0.45359237*25.4)
 				}
 				if got.Diagnostics == nil {
 					t.Errorf("%s has no diagnostics", name)
 				} else if d := cmp.Diff(wantDiag, *got.Diagnostics); d != "" {
-					t.Errorf("%s diagnostics (-predict +served):\n%s", name, d)
+					t.Errorf("%s diagnostics (-predict as answered +served):\n%s", name, d)
 				}
 				if len(got.CouponIDs) != len(cs) || got.CouponIDs[0] != cs[0].id || got.Caution == "" {
 					t.Errorf("%s coupon ids = %v, caution %q; want the %d coupons in creation order and a caution", name, got.CouponIDs, got.Caution, len(cs))
@@ -137,18 +150,18 @@ func TestActivationSwitchesCouponModel(t *testing.T) {
 			t.Errorf("activation = %v, want calibration %s by test-engineer", act, cal.ID)
 		}
 		c := cs[6]
-		want, err := cal.Fit.Penetration.Predict(c.currentA, c.voltageV, c.speedS, 0.95)
+		want, err := e.storedFit(cal.ID).Penetration.Predict(c.currentA, c.voltageV, c.speedS, 0.95)
 		if err != nil {
 			t.Fatal(err)
 		}
 		p := pen(view())
 		measured := (c.sections[0] + c.sections[1]) / 2
-		if p["calibration_id"] != cal.ID || p["predicted_mm"] != want.MedianMM || p["measured_mean_mm"] != measured {
-			t.Errorf("after activating %s: view %v, want predicted %v (median) and measured %v", cal.ID, p, want.MedianMM, measured)
+		if p["calibration_id"] != cal.ID || p["predicted_mm"] != answered(want.MedianMM) || p["measured_mean_mm"] != answered(measured) {
+			t.Errorf("after activating %s: view %v, want predicted %v (median) and measured %v", cal.ID, p, answered(want.MedianMM), answered(measured))
 		}
 		inside := measured >= want.PredLowMM && measured <= want.PredHighMM
-		if p["residual_mm"] != measured-want.MedianMM || p["inside_prediction_interval"] != inside {
-			t.Errorf("residual %v inside %v, want %v and %v", p["residual_mm"], p["inside_prediction_interval"], measured-want.MedianMM, inside)
+		if p["residual_mm"] != answered(measured-want.MedianMM) || p["inside_prediction_interval"] != inside {
+			t.Errorf("residual %v inside %v, want %v and %v", p["residual_mm"], p["inside_prediction_interval"], answered(measured-want.MedianMM), inside)
 		}
 	}
 	active := e.do(http.MethodGet, "/v1/calibrations?active=true", "auditor", nil).items(t)

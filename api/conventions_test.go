@@ -2,9 +2,11 @@ package api_test
 
 import (
 	"encoding/base64"
+	"encoding/json"
 	"fmt"
 	"io"
 	"net/http"
+	"regexp"
 	"slices"
 	"strconv"
 	"strings"
@@ -356,6 +358,98 @@ func TestConventionNames(t *testing.T) {
 	for _, n := range names {
 		if strings.Contains(n, "_per_") || strings.Contains(n, "_exponents") && !strings.HasSuffix(n, "exponents") {
 			t.Errorf("name %s spells a unit or model in another style (want e.g. alpha_kg_h_a, travel_speed_mm_s, jackson_fixed)", n)
+		}
+	}
+}
+
+// TestConventionErrorWords: a refusal names the field as sent, the value as
+// sent with its unit, and what is allowed in that unit; a duplicate names
+// the value and the existing record's id; no answer carries package
+// prefixes, constraint names or SQLSTATEs.
+func TestConventionErrorWords(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	proc := e.procedure()
+	coupon := func(edit func(b map[string]any)) map[string]any {
+		b := couponBody(proc, "", uniq("C-W"))
+		edit(b)
+		return b
+	}
+	var bodies []string
+	// Bounds from the domain primer: wire 0.6–4.0 mm, current 10–1000 A,
+	// preheat −20–350 °C, thickness 0.5–300 mm; 1 in = 25.4 mm exactly and
+	// °F = °C × 9/5 + 32 (NIST SP 811): 4 mm = 0.15748 in, 350 °C = 662 °F,
+	// 0.5 mm = 0.019685 in.
+	for _, c := range []struct {
+		name  string
+		body  map[string]any
+		field string
+		words []string
+	}{
+		{"WireInInches", coupon(func(b map[string]any) { delete(b, "wire_diameter_mm"); b["wire_diameter_in"] = 0.9 }),
+			"wire_diameter_in", []string{"0.9 in", "above the plausible maximum 0.1575 in", "(4 mm)"}},
+		{"CurrentAmps", coupon(func(b map[string]any) { b["current_a"] = 5000.0 }),
+			"current_a", []string{"5000 A", "above the plausible maximum 1000 A"}},
+		{"PreheatFahrenheit", coupon(func(b map[string]any) { delete(b, "preheat_c"); b["preheat_f"] = 1000.0 }),
+			"preheat_f", []string{"1000 °F", "above the plausible maximum 662 °F", "(350 °C)"}},
+		{"ThicknessInches", coupon(func(b map[string]any) { delete(b, "thickness_mm"); b["thickness_in"] = 0.001 }),
+			"thickness_in", []string{"0.001 in", "below the plausible minimum 0.01969 in", "(0.5 mm)"}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			r := e.do(http.MethodPost, "/v1/coupons", "technician", c.body)
+			bodies = append(bodies, string(r.body))
+			p := wantProblem(t, c.name, r, http.StatusUnprocessableEntity, c.field)
+			for _, is := range p.Errors {
+				for _, w := range c.words {
+					if is.Field == c.field && !strings.Contains(is.Reason, w) {
+						t.Errorf("%s reason %q does not say %q", c.field, is.Reason, w)
+					}
+				}
+			}
+		})
+	}
+	// Duplicates name the value and the record that holds it.
+	mark := uniq("C-DUP")
+	first := e.create("/v1/coupons", "technician", couponBody(proc, "", mark))["id"].(string)
+	code := uniq("WPS-DUP")
+	firstProc := e.create("/v1/procedures", "engineer", procedureBody(code))["id"].(string)
+	number := uniq("PQR-DUP")
+	firstPQR := e.create("/v1/qualification-records", "engineer", qualificationRecordBody(number))["id"].(string)
+	for _, c := range []struct {
+		path, role, field, value, id string
+		body                         map[string]any
+	}{
+		{"/v1/coupons", "technician", "coupon_mark", mark, first, couponBody(proc, "", mark)},
+		{"/v1/procedures", "engineer", "code", code, firstProc, procedureBody(code)},
+		{"/v1/qualification-records", "engineer", "record_number", number, firstPQR, qualificationRecordBody(number)},
+	} {
+		r := e.do(http.MethodPost, c.path, c.role, c.body)
+		bodies = append(bodies, string(r.body))
+		p := wantProblem(t, "duplicate "+c.field, r, http.StatusConflict, c.field)
+		var got struct {
+			ExistingID string `json:"existing_id"`
+		}
+		_ = json.Unmarshal(r.body, &got)
+		if got.ExistingID != c.id || len(p.Errors) != 1 || !strings.Contains(p.Errors[0].Reason, c.value) || !strings.Contains(p.Errors[0].Reason, c.id) {
+			t.Errorf("duplicate %s %q: existing_id %q, errors %+v; want %s named with its value", c.field, c.value, got.ExistingID, p.Errors, c.id)
+		}
+	}
+	// Other refusals that pass through the store.
+	for _, r := range []reply{
+		e.do(http.MethodGet, "/v1/coupons/"+uuid.NewString(), "auditor", nil),
+		e.do(http.MethodPut, "/v1/coupons/"+first, "technician", withRevision(couponBody(proc, "", mark), 7, "stale")),
+		e.do(http.MethodGet, "/v1/coupons?cursor=abc", "auditor", nil),
+		e.do(http.MethodPost, "/v1/calibrations/"+uuid.NewString()+"/activate", "engineer", map[string]any{"reason": "none"}),
+	} {
+		if r.status < 400 {
+			t.Errorf("want a refusal, got %d %s", r.status, r.body)
+		}
+		bodies = append(bodies, string(r.body))
+	}
+	leak := regexp.MustCompile(`\b(?:db|api|predict|pgx|pgconn): |_key\b|_check\b|SQLSTATE|\b23505\b|\bcreate coupon\b`)
+	for _, b := range bodies {
+		if m := leak.FindString(b); m != "" {
+			t.Errorf("answer speaks the server's words (%q): %s", m, b)
 		}
 	}
 }

@@ -8,12 +8,6 @@ import (
 	"etchlog/predict"
 )
 
-// kgPerH is the kg/h spelling of a mass rate, the stored unit.
-func kgPerH(field string, v *float64) spelling { return spelling{field, v, same} }
-
-// lbPerH is the lb/h spelling of a mass rate (converted to kg/h).
-func lbPerH(field string, v *float64) spelling { return spelling{field, v, predict.LbPerHToKgPerH} }
-
 // depositionInverseIn asks for the current that gives a target melting or
 // deposition rate at an electrode extension (given directly, or as CTWD
 // minus arc length), under the group's active Lesnewich calibration or the
@@ -21,16 +15,12 @@ func lbPerH(field string, v *float64) spelling { return spelling{field, v, predi
 type depositionInverseIn struct {
 	groupFields
 	MeltingRateKgH       *float64     `json:"melting_rate_kg_h"`
-	MeltingRateLbH       *float64     `json:"melting_rate_lb_h"`
 	DepositionRateKgH    *float64     `json:"deposition_rate_kg_h"`
-	DepositionRateLbH    *float64     `json:"deposition_rate_lb_h"`
 	DepositionEfficiency *float64     `json:"deposition_efficiency"`
 	ExtensionMM          *float64     `json:"extension_mm"`
 	CTWDMM               *float64     `json:"ctwd_mm"`
-	CTWDIn               *float64     `json:"ctwd_in"`
 	ArcLengthMM          *float64     `json:"arc_length_mm"`
 	WireDiameterMM       *float64     `json:"wire_diameter_mm"`
-	WireDiameterIn       *float64     `json:"wire_diameter_in"`
 	Lesnewich            *lesnewichIn `json:"lesnewich"`
 	Level                *float64     `json:"level"`
 }
@@ -49,15 +39,14 @@ type depositionInverse struct {
 func (in depositionInverseIn) metric() (depositionInverse, error) {
 	var u units
 	q := depositionInverse{
-		MeltingRateKgH:       u.opt(kgPerH("melting_rate_kg_h", in.MeltingRateKgH), lbPerH("melting_rate_lb_h", in.MeltingRateLbH)),
-		DepositionRateKgH:    u.opt(kgPerH("deposition_rate_kg_h", in.DepositionRateKgH), lbPerH("deposition_rate_lb_h", in.DepositionRateLbH)),
+		MeltingRateKgH: in.MeltingRateKgH, DepositionRateKgH: in.DepositionRateKgH,
 		DepositionEfficiency: in.DepositionEfficiency, Lesnewich: in.Lesnewich, Level: defaultLevel,
-		WireDiameterMM: u.opt(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn)),
+		WireDiameterMM: in.WireDiameterMM,
 	}
 	if in.Level != nil {
 		q.Level = *in.Level
 	}
-	ctwd := u.opt(mm("ctwd_mm", in.CTWDMM), inch("ctwd_in", in.CTWDIn))
+	ctwd := in.CTWDMM
 	switch {
 	case (q.MeltingRateKgH == nil) == (q.DepositionRateKgH == nil):
 		u.issues = append(u.issues, FieldIssue{"melting_rate_kg_h", "give one target: a melting rate or a deposition rate (kg/h or lb/h)"})

@@ -62,14 +62,14 @@ func TestInversePenetrationUsesFreeCalibration(t *testing.T) {
 	}
 	t.Run("FixedWithoutFree", func(t *testing.T) {
 		got := e.inverseInGroup("current", given["current"])
-		k := predict.JacksonK{Value: fixed.Fit.Penetration.KMM, Units: predict.JacksonUnitsMetric}
+		k := predict.JacksonK{Value: e.storedFit(fixed.ID).Penetration.KMM, Units: predict.JacksonUnitsMetric}
 		// The published Jackson form P = K·I^(4/3)·S^(−1/3)·V^(−2/3) (from memory)
 		// with the group's fitted K, solved for I.
 		want, err := predict.JacksonCurrentA(k, 2, 5, 20)
 		if err != nil {
 			t.Fatal(err)
 		}
-		if got.Penetration.Model != "jackson_fixed" || got.Penetration.CalibrationID != fixed.ID || !relClose(got.CurrentA, want, 1e-12) {
+		if got.Penetration.Model != "jackson_fixed" || got.Penetration.CalibrationID != fixed.ID || got.CurrentA != answered(want) {
 			t.Errorf("inverse = %v A from %s %s, want %v A from jackson_fixed %s", got.CurrentA,
 				got.Penetration.Model, got.Penetration.CalibrationID, want, fixed.ID)
 		}
@@ -98,11 +98,12 @@ func TestInversePenetrationUsesFreeCalibration(t *testing.T) {
 			}
 		})
 	}
-	t.Run("GivenKNotUsed", func(t *testing.T) {
+	t.Run("GivenKUsedExactly", func(t *testing.T) {
 		g := map[string]any{"voltage_v": 20.0, "travel_speed_mm_s": 5.0, "jackson_k": map[string]any{"value": 0.03, "units": "metric"}}
 		got := e.inverseInGroup("current", g)
-		if got.Penetration.Model != "jackson_free" || len(got.Notes) == 0 {
-			t.Errorf("with jackson_k given: model %s, notes %v; want jackson_free and a note that jackson_k was not used", got.Penetration.Model, got.Notes)
+		if got.Penetration.Model != "jackson_fixed" || got.Penetration.Source != "request" || len(got.Notes) == 0 {
+			t.Errorf("with jackson_k given: model %s, source %s, notes %v; want the request's K and a note that the calibration was not used",
+				got.Penetration.Model, got.Penetration.Source, got.Notes)
 		}
 	})
 }

@@ -16,17 +16,13 @@ import (
 // its active jackson_fixed calibration, else the caller's K.
 type penetrationInverseIn struct {
 	groupFields
-	SolveFor            string      `json:"solve_for"`
-	PenetrationMM       *float64    `json:"penetration_mm"`
-	PenetrationIn       *float64    `json:"penetration_in"`
-	CurrentA            *float64    `json:"current_a"`
-	VoltageV            *float64    `json:"voltage_v"`
-	TravelSpeedMMPerS   *float64    `json:"travel_speed_mm_s"`
-	TravelSpeedMMPerMin *float64    `json:"travel_speed_mm_min"`
-	TravelSpeedInPerMin *float64    `json:"travel_speed_in_min"`
-	WireDiameterMM      *float64    `json:"wire_diameter_mm"`
-	WireDiameterIn      *float64    `json:"wire_diameter_in"`
-	JacksonK            *jacksonKIn `json:"jackson_k"`
+	SolveFor          string      `json:"solve_for"`
+	PenetrationMM     *float64    `json:"penetration_mm"`
+	CurrentA          *float64    `json:"current_a"`
+	VoltageV          *float64    `json:"voltage_v"`
+	TravelSpeedMMPerS *float64    `json:"travel_speed_mm_s"`
+	WireDiameterMM    *float64    `json:"wire_diameter_mm"`
+	JacksonK          *jacksonKIn `json:"jackson_k"`
 }
 
 // penetrationInverse is the request in metric units, validated.
@@ -43,9 +39,7 @@ type penetrationInverse struct {
 func (in penetrationInverseIn) metric() (penetrationInverse, error) {
 	var u units
 	q := penetrationInverse{SolveFor: in.SolveFor, CurrentA: in.CurrentA, VoltageV: in.VoltageV, JacksonK: in.JacksonK,
-		PenetrationMM:     u.req(mm("penetration_mm", in.PenetrationMM), inch("penetration_in", in.PenetrationIn)),
-		TravelSpeedMMPerS: u.opt(mmPerS("travel_speed_mm_s", in.TravelSpeedMMPerS), mmPerMin("travel_speed_mm_min", in.TravelSpeedMMPerMin), inPerMin("travel_speed_in_min", in.TravelSpeedInPerMin)),
-		WireDiameterMM:    u.opt(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn)),
+		PenetrationMM: u.req("penetration_mm", in.PenetrationMM), TravelSpeedMMPerS: in.TravelSpeedMMPerS, WireDiameterMM: in.WireDiameterMM,
 	}
 	for _, v := range []struct {
 		name  string
@@ -85,9 +79,11 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	free, err := s.activeCalibration(c, g, db.CalibrationJacksonFree)
-	if err != nil {
-		return err
+	var free *db.Calibration
+	if q.JacksonK == nil { // an explicit K is used exactly; else the group's calibration in use
+		if free, err = s.activeCalibration(c, g, db.CalibrationJacksonFree); err != nil {
+			return err
+		}
 	}
 	if free != nil && free.Fit.Penetration != nil {
 		out, err := inverseFree(*free, q)
@@ -104,6 +100,15 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 		return badRequest("jackson_k", "is required: give it, or the group of an active jackson_fixed calibration")
 	}
 	out := penetrationInverseOut{SolveFor: q.SolveFor, Notes: []string{}, Caution: predictionCaution}
+	if q.JacksonK != nil { // say which calibration the explicit K was preferred to
+		passed, err := s.activeCalibration(c, g, db.CalibrationJacksonFree, db.CalibrationJacksonFixed)
+		if err != nil {
+			return err
+		}
+		if passed != nil {
+			out.Notes = append(out.Notes, "the group's active calibration "+passed.ID.String()+" was not used: the request's jackson_k was")
+		}
+	}
 	if err := solveJackson(*k, q, &out); err != nil {
 		return renamed(err, jacksonFieldNames)
 	}
@@ -154,9 +159,6 @@ func inverseFree(cal db.Calibration, q penetrationInverse) (penetrationInverseOu
 	po.Source, po.Model, po.CalibrationID = sourceCalibration, string(cal.Model), &cal.ID
 	po.Exponents = &exponentsOut{fit.Coef[1], fit.Coef[2], fit.Coef[3]}
 	po.PenetrationMM, po.PenetrationIn, po.Interval = &iv.MedianMM, ptrTo(predict.MMToInch(iv.MedianMM)), &iv
-	if q.JacksonK != nil {
-		out.Notes = append(out.Notes, "jackson_k was not used: the group has an active jackson_free calibration")
-	}
 	finishInverse(&out)
 	return out, nil
 }

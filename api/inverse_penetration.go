@@ -15,17 +15,12 @@ import (
 // group that has an active jackson_free calibration, its exponents are used.
 type holdIn struct {
 	groupFields
-	CurrentA               float64  `json:"current_a"`
-	VoltageV               float64  `json:"voltage_v"`
-	NewVoltageV            *float64 `json:"new_voltage_v"`
-	TravelSpeedMMPerS      *float64 `json:"travel_speed_mm_s"`
-	TravelSpeedMMPerMin    *float64 `json:"travel_speed_mm_min"`
-	TravelSpeedInPerMin    *float64 `json:"travel_speed_in_min"`
-	NewTravelSpeedMMPerS   *float64 `json:"new_travel_speed_mm_s"`
-	NewTravelSpeedMMPerMin *float64 `json:"new_travel_speed_mm_min"`
-	NewTravelSpeedInPerMin *float64 `json:"new_travel_speed_in_min"`
-	WireDiameterMM         *float64 `json:"wire_diameter_mm"`
-	WireDiameterIn         *float64 `json:"wire_diameter_in"`
+	CurrentA             float64  `json:"current_a"`
+	VoltageV             float64  `json:"voltage_v"`
+	NewVoltageV          *float64 `json:"new_voltage_v"`
+	TravelSpeedMMPerS    *float64 `json:"travel_speed_mm_s"`
+	NewTravelSpeedMMPerS *float64 `json:"new_travel_speed_mm_s"`
+	WireDiameterMM       *float64 `json:"wire_diameter_mm"`
 }
 
 // hold is the request in metric units, validated; it is also the answer's echo.
@@ -41,12 +36,9 @@ type hold struct {
 func (in holdIn) metric() (hold, error) {
 	var u units
 	h := hold{CurrentA: in.CurrentA, VoltageV: in.VoltageV, NewVoltageV: in.VoltageV,
-		TravelSpeedMMPerS: u.req(mmPerS("travel_speed_mm_s", in.TravelSpeedMMPerS),
-			mmPerMin("travel_speed_mm_min", in.TravelSpeedMMPerMin), inPerMin("travel_speed_in_min", in.TravelSpeedInPerMin))}
+		TravelSpeedMMPerS: u.req("travel_speed_mm_s", in.TravelSpeedMMPerS), WireDiameterMM: in.WireDiameterMM}
 	h.NewTravelSpeedMMPerS = h.TravelSpeedMMPerS
-	h.WireDiameterMM = u.opt(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn))
-	if s := u.opt(mmPerS("new_travel_speed_mm_s", in.NewTravelSpeedMMPerS),
-		mmPerMin("new_travel_speed_mm_min", in.NewTravelSpeedMMPerMin), inPerMin("new_travel_speed_in_min", in.NewTravelSpeedInPerMin)); s != nil {
+	if s := in.NewTravelSpeedMMPerS; s != nil {
 		h.NewTravelSpeedMMPerS = *s
 	} else if in.NewVoltageV == nil {
 		u.issues = append(u.issues, FieldIssue{"new_travel_speed_mm_s", "give the change: a new travel speed and/or new_voltage_v"})

@@ -36,22 +36,17 @@ func (k jacksonKIn) jackson() predict.JacksonK {
 
 // lesnewichIn is a pair of Lesnewich coefficients as a caller sends them:
 // α in kg/(h·A) or lb/(h·A), β in kg/(h·A²·mm) or lb/(h·A²·in), one
-// spelling of each.
+// spelling of each (bound in the metric one, converted exactly).
 type lesnewichIn struct {
-	AlphaKgPerHA   *float64 `json:"alpha_kg_h_a,omitempty" validate:"omitempty,gte=0"`
-	BetaKgPerHA2MM *float64 `json:"beta_kg_h_a2_mm,omitempty" validate:"omitempty,gte=0"`
-	AlphaLbPerHA   *float64 `json:"alpha_lb_h_a,omitempty" validate:"omitempty,gte=0"`
-	BetaLbPerHA2In *float64 `json:"beta_lb_h_a2_in,omitempty" validate:"omitempty,gte=0"`
+	AlphaKgPerHA   *float64 `json:"alpha_kg_h_a,omitempty" validate:"omitempty,quantity"`
+	BetaKgPerHA2MM *float64 `json:"beta_kg_h_a2_mm,omitempty" validate:"omitempty,quantity"`
 }
 
-// lesnewich returns the coefficients in the stored metric units, with exact
-// conversions (1 lb = 0.45359237 kg, 1 in = 25.4 mm, NIST SP 811).
+// lesnewich returns the coefficients, both required.
 func (l lesnewichIn) lesnewich() (predict.Lesnewich, error) {
-	var u units
-	alpha := u.req(spelling{"lesnewich.alpha_kg_h_a", l.AlphaKgPerHA, func(v float64) float64 { return v }},
-		spelling{"lesnewich.alpha_lb_h_a", l.AlphaLbPerHA, predict.LbPerHToKgPerH})
-	beta := u.req(spelling{"lesnewich.beta_kg_h_a2_mm", l.BetaKgPerHA2MM, func(v float64) float64 { return v }},
-		spelling{"lesnewich.beta_lb_h_a2_in", l.BetaLbPerHA2In, func(v float64) float64 { return predict.LbPerHToKgPerH(v) / predict.MMPerInch }})
+	u := units{prefix: "lesnewich."}
+	alpha := u.req("alpha_kg_h_a", l.AlphaKgPerHA)
+	beta := u.req("beta_kg_h_a2_mm", l.BetaKgPerHA2MM)
 	return predict.Lesnewich{AlphaKgPerHA: alpha, BetaKgPerHA2MM: beta}, u.err()
 }
 
@@ -135,9 +130,14 @@ func (s *Server) activeCalibration(c echo.Context, g *db.CalibrationGroup, model
 	return nil, nil
 }
 
-// jacksonKFor picks the Jackson K with the published exponents: the group's
-// active jackson_fixed calibration, else the caller's K, else none (nil).
+// jacksonKFor picks the Jackson K with the published exponents: the
+// caller's K when given (explicit coefficients are used exactly), else the
+// group's active jackson_fixed calibration, else none (nil).
 func (s *Server) jacksonKFor(c echo.Context, g *db.CalibrationGroup, given *jacksonKIn) (*predict.JacksonK, *db.Calibration, error) {
+	if given != nil {
+		k := given.jackson()
+		return &k, nil, nil
+	}
 	cal, err := s.activeCalibration(c, g, db.CalibrationJacksonFixed)
 	if err != nil {
 		return nil, nil, err
@@ -156,9 +156,16 @@ func (s *Server) jacksonKFor(c echo.Context, g *db.CalibrationGroup, given *jack
 	return &k, nil, nil
 }
 
-// lesnewichFor picks the Lesnewich coefficients: the group's active
-// calibration, else the caller's, else none (nil).
+// lesnewichFor picks the Lesnewich coefficients: the caller's when given,
+// else the group's active calibration, else none (nil).
 func (s *Server) lesnewichFor(c echo.Context, g *db.CalibrationGroup, given *lesnewichIn) (*predict.Lesnewich, *db.Calibration, error) {
+	if given != nil {
+		l, err := given.lesnewich()
+		if err != nil {
+			return nil, nil, err
+		}
+		return &l, nil, nil
+	}
 	cal, err := s.activeCalibration(c, g, db.CalibrationLesnewich)
 	if err != nil {
 		return nil, nil, err

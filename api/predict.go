@@ -13,23 +13,18 @@ import (
 // coefficients used when the group has no active calibration.
 type predictionIn struct {
 	groupFields
-	CurrentA              float64      `json:"current_a"`
-	VoltageV              float64      `json:"voltage_v"`
-	TravelSpeedMMPerS     *float64     `json:"travel_speed_mm_s"`
-	TravelSpeedMMPerMin   *float64     `json:"travel_speed_mm_min"`
-	TravelSpeedInPerMin   *float64     `json:"travel_speed_in_min"`
-	WireFeedSpeedMPerMin  *float64     `json:"wire_feed_speed_m_min"`
-	WireFeedSpeedInPerMin *float64     `json:"wire_feed_speed_in_min"`
-	WireDiameterMM        *float64     `json:"wire_diameter_mm"`
-	WireDiameterIn        *float64     `json:"wire_diameter_in"`
-	CTWDMM                *float64     `json:"ctwd_mm"`
-	CTWDIn                *float64     `json:"ctwd_in"`
-	ArcLengthMM           *float64     `json:"arc_length_mm"`
-	DepositionEfficiency  *float64     `json:"deposition_efficiency"`
-	JacksonK              *jacksonKIn  `json:"jackson_k"`
-	Lesnewich             *lesnewichIn `json:"lesnewich"`
-	WaveformPowerRatio    *float64     `json:"waveform_power_ratio"`
-	Level                 *float64     `json:"level"`
+	CurrentA             float64      `json:"current_a"`
+	VoltageV             float64      `json:"voltage_v"`
+	TravelSpeedMMPerS    *float64     `json:"travel_speed_mm_s"`
+	WireFeedSpeedMPerMin *float64     `json:"wire_feed_speed_m_min"`
+	WireDiameterMM       *float64     `json:"wire_diameter_mm"`
+	CTWDMM               *float64     `json:"ctwd_mm"`
+	ArcLengthMM          *float64     `json:"arc_length_mm"`
+	DepositionEfficiency *float64     `json:"deposition_efficiency"`
+	JacksonK             *jacksonKIn  `json:"jackson_k"`
+	Lesnewich            *lesnewichIn `json:"lesnewich"`
+	WaveformPowerRatio   *float64     `json:"waveform_power_ratio"`
+	Level                *float64     `json:"level"`
 }
 
 // prediction is a what-if request in metric units, validated against the
@@ -53,13 +48,9 @@ func (in predictionIn) metric() (prediction, error) {
 	var u units
 	p := prediction{
 		CurrentA: in.CurrentA, VoltageV: in.VoltageV,
-		TravelSpeedMMPerS: u.req(mmPerS("travel_speed_mm_s", in.TravelSpeedMMPerS),
-			mmPerMin("travel_speed_mm_min", in.TravelSpeedMMPerMin), inPerMin("travel_speed_in_min", in.TravelSpeedInPerMin)),
-		WireFeedSpeedMPerMin: u.opt(mPerMin("wire_feed_speed_m_min", in.WireFeedSpeedMPerMin),
-			wfsInPerMin("wire_feed_speed_in_min", in.WireFeedSpeedInPerMin)),
-		WireDiameterMM: u.opt(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn)),
-		CTWDMM:         u.opt(mm("ctwd_mm", in.CTWDMM), inch("ctwd_in", in.CTWDIn)),
-		ArcLengthMM:    in.ArcLengthMM, DepositionEfficiency: in.DepositionEfficiency,
+		TravelSpeedMMPerS:    u.req("travel_speed_mm_s", in.TravelSpeedMMPerS),
+		WireFeedSpeedMPerMin: in.WireFeedSpeedMPerMin, WireDiameterMM: in.WireDiameterMM, CTWDMM: in.CTWDMM,
+		ArcLengthMM: in.ArcLengthMM, DepositionEfficiency: in.DepositionEfficiency,
 		JacksonK: in.JacksonK, Lesnewich: in.Lesnewich, WaveformPowerRatio: in.WaveformPowerRatio, Level: defaultLevel,
 	}
 	if in.Level != nil {

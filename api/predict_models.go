@@ -85,8 +85,10 @@ func heatInput(r heatRule, voltageV, currentA, travelSpeedMMPerS float64) (heatI
 // jacksonFieldNames maps predict's names of Jackson inputs to request fields.
 var jacksonFieldNames = map[string]string{"jackson K": "jackson_k.value", "jackson K units": "jackson_k.units"}
 
-// predictPenetration uses the group's active penetration calibration
-// (jackson_free first, then jackson_fixed, as the model flags do), else the request's jackson_k.
+// predictPenetration uses the request's jackson_k when it sends one (a
+// what-if gets exactly the coefficients it asks about), else the group's
+// penetration calibration in use (the latest activated, of either form, as
+// the model flags do); Source says which.
 func (s *Server) predictPenetration(c echo.Context, g *db.CalibrationGroup, p prediction, out *predictionOut) error {
 	cal, err := s.activeCalibration(c, g, db.CalibrationJacksonFree, db.CalibrationJacksonFixed)
 	if err != nil {
@@ -94,7 +96,7 @@ func (s *Server) predictPenetration(c echo.Context, g *db.CalibrationGroup, p pr
 	}
 	po := &out.Penetration
 	switch {
-	case cal != nil && cal.Fit.Penetration != nil:
+	case cal != nil && cal.Fit.Penetration != nil && p.JacksonK == nil:
 		fit := cal.Fit.Penetration
 		iv, err := fit.Predict(p.CurrentA, p.VoltageV, p.TravelSpeedMMPerS, p.Level)
 		if err != nil {
@@ -108,10 +110,10 @@ func (s *Server) predictPenetration(c echo.Context, g *db.CalibrationGroup, p pr
 				return err
 			}
 		}
-		if p.JacksonK != nil {
-			out.Notes = append(out.Notes, "jackson_k was not used: the group has an active calibration")
-		}
 	case p.JacksonK != nil:
+		if cal != nil {
+			out.Notes = append(out.Notes, "the group's active calibration "+cal.ID.String()+" was not used: the request's jackson_k was")
+		}
 		k := p.JacksonK.jackson()
 		v, err := predict.PenetrationMM(k, p.CurrentA, p.TravelSpeedMMPerS, p.VoltageV)
 		if err != nil {
@@ -122,7 +124,7 @@ func (s *Server) predictPenetration(c echo.Context, g *db.CalibrationGroup, p pr
 		if err := po.setK(k); err != nil {
 			return err
 		}
-		out.Notes = append(out.Notes, "no prediction interval: the group has no active penetration calibration")
+		out.Notes = append(out.Notes, "no prediction interval: the request's jackson_k has none")
 	default:
 		po.Source = sourceNone
 		po.Note = "no Jackson K: give jackson_k, or give the group (process, wire diameter, shielding_gas, joint_type) of an active calibration"

@@ -3,6 +3,7 @@ package api_test
 import (
 	"math"
 	"net/http"
+	"strings"
 	"testing"
 )
 
@@ -64,7 +65,8 @@ func TestWhatIfTradeCheck(t *testing.T) {
 	if p.PenetrationIn == nil || math.Abs(*p.PenetrationIn-0.087) > 0.0005 || p.Source != "request" || p.JacksonKInch != 0.0019 {
 		t.Errorf("penetration = %v in from %s K %v (inch), want about 0.087 in from the request's K 0.0019", p.PenetrationIn, p.Source, p.JacksonKInch)
 	}
-	if p.PenetrationMM == nil || !relClose(*p.PenetrationMM, *p.PenetrationIn*25.4, 1e-12) {
+	// Each figure carries 12 significant digits, so they agree to about 1e-11.
+	if p.PenetrationMM == nil || !relClose(*p.PenetrationMM, *p.PenetrationIn*25.4, 1e-11) {
 		t.Errorf("penetration = %v mm, want %v in × 25.4 (NIST SP 811: 1 in = 25.4 mm)", p.PenetrationMM, p.PenetrationIn)
 	}
 	// Heat input H = 60·V·I/S J/in with S in in/min, the code formula for
@@ -132,8 +134,11 @@ func TestPredictionBadInput(t *testing.T) {
 	}
 }
 
-// TestPredictionUsesActiveCalibration checks the order of coefficients: the
-// group's active calibration before the request's K, with an interval.
+// TestPredictionUsesActiveCalibration checks the order of coefficients: a
+// K the request sends is used exactly (the answer says so, and names the
+// calibration it passed over); without one, the group's calibration in use,
+// with an interval. Per group the latest activation wins whatever its kind,
+// and a deactivation leaves none.
 func TestPredictionUsesActiveCalibration(t *testing.T) {
 	t.Parallel()
 	e := newEnv(t)
@@ -141,25 +146,52 @@ func TestPredictionUsesActiveCalibration(t *testing.T) {
 	cal := e.fit(calibrationBody("jackson_fixed", nil))
 	body := fitGroupBody()
 	body["current_a"], body["voltage_v"], body["travel_speed_mm_s"] = 170, 20, 4.5
-	body["jackson_k"] = map[string]any{"value": 0.0019, "units": "inch"}
-	if got := e.predictAs(body); got.Penetration.Source != "request" || got.Penetration.Interval != nil {
+	withK := clone(body)
+	withK["jackson_k"] = map[string]any{"value": 0.0019, "units": "inch"}
+	if got := e.predictAs(withK); got.Penetration.Source != "request" || got.Penetration.Interval != nil {
 		t.Errorf("before activation: source %s, interval %v; want the request's K without an interval", got.Penetration.Source, got.Penetration.Interval)
 	}
-	e.do(http.MethodPost, "/v1/calibrations/"+cal.ID+"/activate", "engineer", map[string]any{"reason": "fixture"})
+	e.create("/v1/calibrations/"+cal.ID+"/activate", "engineer", map[string]any{"reason": "fixture"})
 	got := e.predictAs(body)
-	want, err := cal.Fit.Penetration.Predict(170, 20, 4.5, 0.95)
+	fit := e.storedFit(cal.ID)
+	want, err := fit.Penetration.Predict(170, 20, 4.5, 0.95)
 	if err != nil {
 		t.Fatal(err)
 	}
 	p := got.Penetration
-	if p.Source != "calibration" || p.CalibrationID != cal.ID || p.PenetrationMM == nil || *p.PenetrationMM != want.MedianMM ||
-		p.Interval == nil || p.Interval.PredLowMM != want.PredLowMM || p.JacksonKMetric != cal.Fit.Penetration.KMM {
-		t.Errorf("after activation: %+v, want calibration %s with median %v, PI low %v and K %v", p, cal.ID, want.MedianMM, want.PredLowMM, cal.Fit.Penetration.KMM)
+	if p.Source != "calibration" || p.CalibrationID != cal.ID || p.PenetrationMM == nil || *p.PenetrationMM != answered(want.MedianMM) ||
+		p.Interval == nil || p.Interval.PredLowMM != answered(want.PredLowMM) || p.JacksonKMetric != answered(fit.Penetration.KMM) {
+		t.Errorf("after activation: %+v, want calibration %s with median %v, PI low %v and K %v", p, cal.ID, answered(want.MedianMM), answered(want.PredLowMM), answered(fit.Penetration.KMM))
 	}
-	// With a free-exponent calibration active too, it is the one used (as the model flags do).
+	// The explicit K still wins: a what-if asks about exactly those coefficients.
+	if got := e.predictAs(withK); got.Penetration.Source != "request" || got.Penetration.JacksonKInch != 0.0019 ||
+		!strings.Contains(strings.Join(got.Notes, " "), cal.ID) {
+		t.Errorf("explicit K with a calibration active: source %s, K %v in, notes %v; want the request's K and a note naming %s",
+			got.Penetration.Source, got.Penetration.JacksonKInch, got.Notes, cal.ID)
+	}
+	// The latest activation wins, whatever its kind: free, then fixed again.
 	free := e.fit(calibrationBody("jackson_free", nil))
-	e.do(http.MethodPost, "/v1/calibrations/"+free.ID+"/activate", "engineer", map[string]any{"reason": "fixture"})
+	e.create("/v1/calibrations/"+free.ID+"/activate", "engineer", map[string]any{"reason": "fixture"})
 	if got := e.predictAs(body); got.Penetration.CalibrationID != free.ID || got.Penetration.Model != "jackson_free" {
-		t.Errorf("with both active: penetration from %s (%s), want the jackson_free calibration %s", got.Penetration.CalibrationID, got.Penetration.Model, free.ID)
+		t.Errorf("free activated last: penetration from %s (%s), want the jackson_free calibration %s", got.Penetration.CalibrationID, got.Penetration.Model, free.ID)
+	}
+	e.create("/v1/calibrations/"+cal.ID+"/activate", "engineer", map[string]any{"reason": "the engineer prefers the published exponents"})
+	if got := e.predictAs(body); got.Penetration.CalibrationID != cal.ID || got.Penetration.Model != "jackson_fixed" {
+		t.Errorf("fixed activated last: penetration from %s (%s), want the jackson_fixed calibration %s", got.Penetration.CalibrationID, got.Penetration.Model, cal.ID)
+	}
+	// Deactivating one not in use is refused; the one in use leaves the group without.
+	r := e.do(http.MethodPost, "/v1/calibrations/"+free.ID+"/deactivate", "engineer", map[string]any{"reason": "not in use"})
+	wantProblem(t, "deactivate a calibration not in use", r, http.StatusConflict, "")
+	d := e.create("/v1/calibrations/"+cal.ID+"/deactivate", "engineer", map[string]any{"reason": "new wire supplier"})
+	if d["action"] != "deactivate" {
+		t.Errorf("deactivation answer %v, want action deactivate", d)
+	}
+	if got := e.predictAs(body); got.Penetration.Source != "none" {
+		t.Errorf("after deactivation: source %s, want none", got.Penetration.Source)
+	}
+	for _, id := range []string{cal.ID, free.ID} {
+		if c := e.do(http.MethodGet, "/v1/calibrations/"+id, "auditor", nil).object(t); c["active"] != false {
+			t.Errorf("calibration %s active = %v after the deactivation, want false", id, c["active"])
+		}
 	}
 }

@@ -114,35 +114,52 @@ func problemFor(err error) Problem {
 			Status: requestStatus(re), Errors: issues}
 	case errors.Is(err, db.ErrBadCursor):
 		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request is malformed", Status: http.StatusBadRequest,
-			Detail: err.Error(), Errors: []FieldIssue{{"cursor", db.ErrBadCursor.Error()}}}
+			Detail: userDetail(err), Errors: []FieldIssue{{"cursor", db.ErrBadCursor.Error()}}}
 	case errors.As(err, &fe):
 		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request has values that are refused",
-			Status: http.StatusUnprocessableEntity, Detail: fe.Error(), Errors: []FieldIssue{{fe.Field, fe.Reason}}}
+			Status: http.StatusUnprocessableEntity, Detail: userDetail(fe), Errors: []FieldIssue{{fe.Field, fe.Reason}}}
 	case errors.As(err, &pe):
 		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request has values that are refused",
-			Status: http.StatusUnprocessableEntity, Detail: pe.Error(), Errors: []FieldIssue{{pe.Field, pe.Reason}}}
+			Status: http.StatusUnprocessableEntity, Detail: userDetail(pe), Errors: []FieldIssue{{pe.Field, pe.Reason}}}
 	case errors.Is(err, predict.ErrTooFewSamples), errors.Is(err, predict.ErrDegenerate):
 		return Problem{Type: "urn:etchlog:problem:fit-refused", Title: "The selected coupons cannot support this fit",
-			Status: http.StatusUnprocessableEntity, Detail: err.Error(), Errors: []FieldIssue{{"coupons", fitRefusal(err)}}}
+			Status: http.StatusUnprocessableEntity, Detail: userDetail(err), Errors: []FieldIssue{{"coupons", fitRefusal(err)}}}
 	case errors.As(err, &dup):
 		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict,
-			Detail: dup.Error(), Errors: []FieldIssue{{dup.Field, dup.Reason}}, ExistingID: dup.ExistingID.String()}
+			Detail: userDetail(dup), Errors: []FieldIssue{{dup.Field, dup.Reason}}, ExistingID: dup.ExistingID.String()}
 	case errors.Is(err, db.ErrForbidden):
-		return Problem{Type: "about:blank", Title: http.StatusText(http.StatusForbidden), Status: http.StatusForbidden, Detail: err.Error()}
+		return Problem{Type: "about:blank", Title: http.StatusText(http.StatusForbidden), Status: http.StatusForbidden, Detail: userDetail(err)}
 	case errors.Is(err, db.ErrNotFound):
-		return Problem{Type: "urn:etchlog:problem:not-found", Title: "No such record", Status: http.StatusNotFound, Detail: err.Error()}
+		return Problem{Type: "urn:etchlog:problem:not-found", Title: "No such record", Status: http.StatusNotFound, Detail: userDetail(err)}
 	case errors.Is(err, db.ErrConflict):
-		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict, Detail: err.Error()}
+		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict, Detail: userDetail(err)}
 	case db.Unavailable(err):
 		return Problem{Type: "urn:etchlog:problem:unavailable", Title: "The database is out of reach", Status: http.StatusServiceUnavailable,
 			Detail: "the record store did not answer; retry later (a retried write is safe under the same Idempotency-Key)"}
 	case errors.Is(err, db.ErrVoided):
-		return Problem{Type: "urn:etchlog:problem:voided", Title: "The record is voided", Status: http.StatusConflict, Detail: err.Error()}
+		return Problem{Type: "urn:etchlog:problem:voided", Title: "The record is voided", Status: http.StatusConflict, Detail: userDetail(err)}
 	case errors.As(err, &he):
 		return Problem{Type: "about:blank", Title: http.StatusText(he.Code), Status: he.Code, Detail: fmt.Sprint(he.Message)}
 	}
 	return Problem{Type: "about:blank", Title: "Internal error", Status: http.StatusInternalServerError,
 		Detail: "the server could not complete the request; it has been logged with the request id"}
+}
+
+// pkgPrefix and actionPrefix are the wrapping a message picks up on its way
+// through the layers ("db: create coupon: "): the user gets what is left.
+var (
+	pkgPrefix    = regexp.MustCompile(`\b(?:db|api|predict): `)
+	actionPrefix = regexp.MustCompile(`^(?:(?:create|correct|void|list|activate|derive|narrow|read|fit) [^:]*: )+`)
+)
+
+// userDetail is an error's message in the user's words: without package
+// prefixes or the names of the operations it passed through.
+func userDetail(err error) string {
+	msg := pkgPrefix.ReplaceAllString(err.Error(), "")
+	if rest := actionPrefix.ReplaceAllString(msg, ""); rest != "" {
+		msg = rest
+	}
+	return msg
 }
 
 // rangeKeywords are the schema keywords whose failure means a well-formed
@@ -320,6 +337,9 @@ func errorHandler(log *slog.Logger) echo.HTTPErrorHandler {
 			return
 		}
 		p := problemFor(err)
+		if sent, ok := c.Get(sentKey).(sentAs); ok {
+			sent.reword(p.Errors)
+		}
 		p.bound()
 		p.Instance = c.Request().URL.Path
 		p.RequestID = c.Response().Header().Get(echo.HeaderXRequestID)

@@ -4,48 +4,17 @@ import (
 	"errors"
 	"fmt"
 	"net/http"
-	"time"
 
-	"github.com/google/uuid"
 	"github.com/labstack/echo/v4"
 
 	"etchlog/db"
 )
 
-// productionRecordIn is one production record as a request gives it, with
-// the inch-pound spellings of travel speed, wire feed speed and CTWD.
-type productionRecordIn struct {
-	ProcedureID           uuid.UUID `json:"procedure_id"`
-	WeldID                string    `json:"weld_id"`
-	WelderID              string    `json:"welder_id"`
-	RecordedAt            time.Time `json:"recorded_at"`
-	CurrentA              float64   `json:"current_a"`
-	VoltageV              float64   `json:"voltage_v"`
-	TravelSpeedMMPerS     *float64  `json:"travel_speed_mm_s"`
-	TravelSpeedMMPerMin   *float64  `json:"travel_speed_mm_min"`
-	TravelSpeedInPerMin   *float64  `json:"travel_speed_in_min"`
-	WireFeedSpeedMPerMin  *float64  `json:"wire_feed_speed_m_min"`
-	WireFeedSpeedInPerMin *float64  `json:"wire_feed_speed_in_min"`
-	CTWDMM                *float64  `json:"ctwd_mm"`
-	CTWDIn                *float64  `json:"ctwd_in"`
-}
-
-// productionBatchIn is the request body of POST /v1/production-records.
+// productionBatchIn is the request body of POST /v1/production-records:
+// the stored fields of each record, each quantity in any registered
+// spelling (bound row by row by storedSpellings).
 type productionBatchIn struct {
-	Records []productionRecordIn `json:"records"`
-}
-
-func (in productionRecordIn) data() (db.ProductionRecordData, error) {
-	var u units
-	d := db.ProductionRecordData{ProcedureID: in.ProcedureID, WeldID: in.WeldID, WelderID: in.WelderID,
-		RecordedAt: in.RecordedAt, CurrentA: in.CurrentA, VoltageV: in.VoltageV,
-		TravelSpeedMMPerS: u.req(mmPerS("travel_speed_mm_s", in.TravelSpeedMMPerS),
-			mmPerMin("travel_speed_mm_min", in.TravelSpeedMMPerMin), inPerMin("travel_speed_in_min", in.TravelSpeedInPerMin)),
-		WireFeedSpeedMPerMin: u.req(mPerMin("wire_feed_speed_m_min", in.WireFeedSpeedMPerMin),
-			wfsInPerMin("wire_feed_speed_in_min", in.WireFeedSpeedInPerMin)),
-		CTWDMM: u.opt(mm("ctwd_mm", in.CTWDMM), inch("ctwd_in", in.CTWDIn)),
-	}
-	return d, u.err()
+	Records []db.ProductionRecordData `json:"records"`
 }
 
 // maxBatchIssues caps how many refused fields one answer lists.
@@ -60,11 +29,8 @@ func (s *Server) productionRecords(in productionBatchIn) ([]db.ProductionRecordD
 	out := make([]db.ProductionRecordData, len(in.Records))
 	status := http.StatusUnprocessableEntity
 	var issues []FieldIssue
-	for i, r := range in.Records {
-		d, err := r.data()
-		if err == nil {
-			err = s.check(d)
-		}
+	for i, d := range in.Records {
+		err := s.check(d)
 		var inv *invalidError
 		if errors.As(err, &inv) {
 			if inv.status == http.StatusBadRequest { // any shape issue makes the batch 400

@@ -164,7 +164,7 @@ func TestRuleSetsAPI(t *testing.T) {
 		map[string]any{"variable": "preheat_f", "kind": "absolute_band", "below": 25}}}
 	rs := e.create("/v1/rule-sets", "engineer", body)
 	rule := rs["rules"].([]any)[0].(map[string]any)
-	if rule["variable"] != "preheat_c" || math.Abs(rule["below"].(float64)-125.0/9) > 1e-12 || rs["version"] != 1.0 {
+	if rule["variable"] != "preheat_c" || rule["below"] != answered(125.0/9) || rs["version"] != 1.0 {
 		t.Errorf("stored rule = %v (version %v), want preheat_c below 13.889 °C, version 1", rule, rs["version"])
 	}
 	if v := e.do(http.MethodGet, "/v1/rule-sets/shop-gmaw", "technician", nil).object(t)["version"]; v != 1.0 {

@@ -76,6 +76,7 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/calibrations", s.handleCalibrationList, readers},
 		{http.MethodGet, "/v1/calibrations/:id", s.handleCalibrationGet, readers},
 		{http.MethodPost, "/v1/calibrations/:id/activate", s.handleCalibrationActivate, engineers},
+		{http.MethodPost, "/v1/calibrations/:id/deactivate", s.handleCalibrationActivate, engineers},
 		{http.MethodPost, "/v1/calibrations/:id/sign-off", s.handleSignOff(db.SignCalibration), engineers},
 		{http.MethodGet, "/v1/sign-offs", s.handleSignOffList, readers},
 		{http.MethodGet, "/v1/sign-offs/:id", s.handleSignOffGet, readers},

@@ -48,6 +48,7 @@ func New(store *db.Store, opt Options) (*Server, error) {
 	e.HideBanner, e.HidePort = true, true
 	s := &Server{store: store, log: opt.Logger, validate: newValidator(), spec: spec, echo: e}
 	e.HTTPErrorHandler = errorHandler(opt.Logger)
+	e.JSONSerializer = jsonAnswer{}
 	e.Use(middleware.RequestID())
 	e.Use(middleware.Recover())
 	e.Use(s.accessLog)

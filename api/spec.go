@@ -78,12 +78,18 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 	all.MultiError = true
 	known := queryNames(item, route.Operation)
 	api := strings.HasPrefix(sp, "/v1/") // the page, probes and the document ignore stray parameters
+	units := item.Parameters.GetByInAndName(openapi3.ParameterInQuery, "units") != nil ||
+		route.Operation.Parameters.GetByInAndName(openapi3.ParameterInQuery, "units") != nil
 	return func(next echo.HandlerFunc) echo.HandlerFunc {
 		return func(c echo.Context) error {
 			if api {
 				if err := unknownQuery(c, known); err != nil {
 					return err
 				}
+			}
+			if units {
+				// Checked against the parameter's enum below; read by jsonAnswer.
+				c.Set(ctxUnits, c.QueryParam("units"))
 			}
 			params := map[string]string{}
 			for _, n := range c.ParamNames() {

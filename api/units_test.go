@@ -1,7 +1,6 @@
 package api_test
 
 import (
-	"math"
 	"net/http"
 	"testing"
 )
@@ -72,9 +71,10 @@ func TestUnitsIn(t *testing.T) {
 				t.Errorf("answer has %s; answers are metric only", c.field)
 			}
 			v, _ := got[c.stored].(float64)
-			// The definitions are exact; the tolerance only allows for binary floating point.
-			if math.Abs(v-c.want) > 1e-12*math.Abs(c.want) {
-				t.Errorf("%s = %v sent as %s: %s = %.17g, want %.17g", c.field, c.value, c.field, c.stored, v, c.want)
+			// The definitions are exact and answers carry 12 significant
+			// digits: 0.375 in reads 9.525 mm exactly, not 9.524999999999999.
+			if v != answered(c.want) {
+				t.Errorf("%s = %v sent as %s: %s = %.17g, want %.17g", c.field, c.value, c.field, c.stored, v, answered(c.want))
 			}
 			read := e.do(http.MethodGet, k.read+"/"+got["id"].(string), "auditor", nil).object(t)
 			if read[c.stored] != got[c.stored] {

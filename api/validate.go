@@ -170,7 +170,7 @@ func ruleReason(fe validator.FieldError, name func(string) string) string {
 		if !ok || !isNum {
 			return "is not a registered quantity"
 		}
-		return q.Refusal(v)
+		return storedRefusal(q, v)
 	case "enum":
 		e, ok := predict.LookupEnum(fe.Field())
 		if !ok {
@@ -183,11 +183,19 @@ func ruleReason(fe validator.FieldError, name func(string) string) string {
 	return "breaks the rule " + fe.Tag()
 }
 
-// bind decodes the JSON body into v, refusing unknown fields and trailing data.
+// bind decodes the JSON body into v, refusing unknown fields and trailing
+// data, after rewriting every quantity into its stored spelling (units.go).
 func bind(c echo.Context, v any) error {
 	body, err := io.ReadAll(c.Request().Body)
 	if err != nil {
 		return err
+	}
+	body, issues, sent := storedSpellings(body, reflect.TypeOf(v).Elem())
+	if len(sent) > 0 {
+		c.Set(sentKey, sent)
+	}
+	if issues != nil {
+		return &invalidError{status: http.StatusBadRequest, issues: issues}
 	}
 	dec := json.NewDecoder(bytes.NewReader(body))
 	dec.DisallowUnknownFields()

@@ -15,60 +15,36 @@ type rangeIn struct {
 	Max float64 `json:"max"`
 }
 
-// rangeSpelling is one accepted field name for a range, with its conversion.
-type rangeSpelling struct {
-	field string
-	r     *rangeIn
-	conv  func(float64) float64
-}
-
-// pickRange is units.pick for a range: the one spelling given, converted,
-// or nil (an issue when required). Every conversion here is increasing.
-func (u *units) pickRange(required bool, alts ...rangeSpelling) *predict.Range {
-	mins, maxs := make([]spelling, len(alts)), make([]spelling, len(alts))
-	for i, a := range alts {
-		mins[i], maxs[i] = spelling{a.field, nil, a.conv}, spelling{a.field, nil, a.conv}
-		if a.r != nil {
-			mins[i].v, maxs[i].v = &a.r.Min, &a.r.Max
-		}
-	}
-	lo := u.pick(required, mins...)
-	if lo == nil {
+// rng returns r as a predict.Range, or nil when r is not given.
+func (r *rangeIn) rng() *predict.Range {
+	if r == nil {
 		return nil
 	}
-	return &predict.Range{Min: *lo, Max: *u.pick(true, maxs...)}
+	return &predict.Range{Min: r.Min, Max: r.Max}
 }
 
 // windowIn is a parameter window request: qualified ranges, grid steps and
-// the targets to meet (each optional), in metric or inch spellings.
+// the targets to meet (each optional), each quantity in any registered spelling.
 type windowIn struct {
 	groupFields
-	CurrentA              rangeIn      `json:"current_a"`
-	VoltageV              rangeIn      `json:"voltage_v"`
-	TravelSpeedMMPerS     *rangeIn     `json:"travel_speed_mm_s"`
-	TravelSpeedMMPerMin   *rangeIn     `json:"travel_speed_mm_min"`
-	TravelSpeedInPerMin   *rangeIn     `json:"travel_speed_in_min"`
-	WireFeedSpeedMPerMin  *rangeIn     `json:"wire_feed_speed_m_min"`
-	WireFeedSpeedInPerMin *rangeIn     `json:"wire_feed_speed_in_min"`
-	ExtensionMM           *rangeIn     `json:"extension_mm"`
-	VoltageSteps          int          `json:"voltage_steps"`
-	TravelSpeedSteps      int          `json:"travel_speed_steps"`
-	ExtensionSteps        int          `json:"extension_steps"`
-	MinPenetrationMM      *float64     `json:"min_penetration_mm"`
-	MinPenetrationIn      *float64     `json:"min_penetration_in"`
-	JacksonK              *jacksonKIn  `json:"jackson_k"`
-	DepositionRateKgH     *rangeIn     `json:"deposition_rate_kg_h"`
-	DepositionRateLbH     *rangeIn     `json:"deposition_rate_lb_h"`
-	DepositionEfficiency  *float64     `json:"deposition_efficiency"`
-	WireDiameterMM        *float64     `json:"wire_diameter_mm"`
-	WireDiameterIn        *float64     `json:"wire_diameter_in"`
-	Lesnewich             *lesnewichIn `json:"lesnewich"`
-	MaxHeatInputJMM       *float64     `json:"max_heat_input_j_mm"`
-	MaxHeatInputKJMM      *float64     `json:"max_heat_input_kj_mm"`
-	MaxHeatInputKJIn      *float64     `json:"max_heat_input_kj_in"`
-	HeatInputForm         string       `json:"heat_input_form"`
-	ThermalEfficiency     *float64     `json:"thermal_efficiency"`
-	WaveformPowerRatio    *float64     `json:"waveform_power_ratio"`
+	CurrentA             rangeIn      `json:"current_a"`
+	VoltageV             rangeIn      `json:"voltage_v"`
+	TravelSpeedMMPerS    *rangeIn     `json:"travel_speed_mm_s"`
+	WireFeedSpeedMPerMin *rangeIn     `json:"wire_feed_speed_m_min"`
+	ExtensionMM          *rangeIn     `json:"extension_mm"`
+	VoltageSteps         int          `json:"voltage_steps"`
+	TravelSpeedSteps     int          `json:"travel_speed_steps"`
+	ExtensionSteps       int          `json:"extension_steps"`
+	MinPenetrationMM     *float64     `json:"min_penetration_mm"`
+	JacksonK             *jacksonKIn  `json:"jackson_k"`
+	DepositionRateKgH    *rangeIn     `json:"deposition_rate_kg_h"`
+	DepositionEfficiency *float64     `json:"deposition_efficiency"`
+	WireDiameterMM       *float64     `json:"wire_diameter_mm"`
+	Lesnewich            *lesnewichIn `json:"lesnewich"`
+	MaxHeatInputJMM      *float64     `json:"max_heat_input_j_mm"`
+	HeatInputForm        string       `json:"heat_input_form"`
+	ThermalEfficiency    *float64     `json:"thermal_efficiency"`
+	WaveformPowerRatio   *float64     `json:"waveform_power_ratio"`
 }
 
 // window is the request in metric units; ranges are checked by checkRanges.
@@ -88,35 +64,22 @@ type window struct {
 	ExtensionSteps     int          `json:"extension_steps" validate:"quantity"`
 }
 
-func kjPerMM(field string, v *float64) spelling { return spelling{field, v, predict.KJPerMMToJPerMM} }
-func kjPerIn(field string, v *float64) spelling {
-	return spelling{field, v, func(x float64) float64 { return predict.KJPerMMToJPerMM(predict.KJPerInToKJPerMM(x)) }}
-}
-
 func (in windowIn) metric() (window, error) {
 	var u units
-	same := func(f string, r *rangeIn) rangeSpelling {
-		return rangeSpelling{f, r, func(v float64) float64 { return v }}
-	}
-	w := window{MinPenetrationMM: u.opt(mm("min_penetration_mm", in.MinPenetrationMM), inch("min_penetration_in", in.MinPenetrationIn)),
-		JacksonK: in.JacksonK, Efficiency: in.DepositionEfficiency, Lesnewich: in.Lesnewich,
-		WireDiameterMM:    u.opt(mm("wire_diameter_mm", in.WireDiameterMM), inch("wire_diameter_in", in.WireDiameterIn)),
-		MaxHeatInputJMM:   u.opt(spelling{"max_heat_input_j_mm", in.MaxHeatInputJMM, func(v float64) float64 { return v }}, kjPerMM("max_heat_input_kj_mm", in.MaxHeatInputKJMM), kjPerIn("max_heat_input_kj_in", in.MaxHeatInputKJIn)),
+	w := window{MinPenetrationMM: in.MinPenetrationMM, JacksonK: in.JacksonK, Efficiency: in.DepositionEfficiency,
+		Lesnewich: in.Lesnewich, WireDiameterMM: in.WireDiameterMM, MaxHeatInputJMM: in.MaxHeatInputJMM,
 		ThermalEfficiency: in.ThermalEfficiency, WaveformPowerRatio: in.WaveformPowerRatio,
 		VoltageSteps: in.VoltageSteps, TravelSpeedSteps: in.TravelSpeedSteps, ExtensionSteps: in.ExtensionSteps,
+		Deposition: in.DepositionRateKgH.rng(),
 	}
-	w.in.CurrentA, w.in.VoltageV = predict.Range{Min: in.CurrentA.Min, Max: in.CurrentA.Max}, predict.Range{Min: in.VoltageV.Min, Max: in.VoltageV.Max}
+	w.in.CurrentA, w.in.VoltageV = *in.CurrentA.rng(), *in.VoltageV.rng()
 	w.in.VoltageSteps, w.in.TravelSpeedSteps, w.in.ExtensionSteps = in.VoltageSteps, in.TravelSpeedSteps, in.ExtensionSteps
-	if s := u.pickRange(true, same("travel_speed_mm_s", in.TravelSpeedMMPerS),
-		rangeSpelling{"travel_speed_mm_min", in.TravelSpeedMMPerMin, predict.MMPerMinToMMPerS},
-		rangeSpelling{"travel_speed_in_min", in.TravelSpeedInPerMin, predict.InPerMinToMMPerS}); s != nil {
+	if s := in.TravelSpeedMMPerS.rng(); s != nil {
 		w.in.TravelSpeedMMPerS = *s
+	} else {
+		u.missing("travel_speed_mm_s")
 	}
-	w.in.WireFeedSpeedMPerMin = u.pickRange(false, same("wire_feed_speed_m_min", in.WireFeedSpeedMPerMin),
-		rangeSpelling{"wire_feed_speed_in_min", in.WireFeedSpeedInPerMin, predict.InPerMinToMPerMin})
-	w.in.ExtensionMM = u.pickRange(false, same("extension_mm", in.ExtensionMM))
-	w.Deposition = u.pickRange(false, same("deposition_rate_kg_h", in.DepositionRateKgH),
-		rangeSpelling{"deposition_rate_lb_h", in.DepositionRateLbH, predict.LbPerHToKgPerH})
+	w.in.WireFeedSpeedMPerMin, w.in.ExtensionMM = in.WireFeedSpeedMPerMin.rng(), in.ExtensionMM.rng()
 	if w.Deposition != nil && w.Efficiency == nil {
 		u.issues = append(u.issues, FieldIssue{"deposition_efficiency", "is required with a deposition rate target"})
 	}

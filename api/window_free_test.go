@@ -64,7 +64,7 @@ func TestWindowAndHoldUseFreeCalibration(t *testing.T) {
 		h := e.holdInGroup()
 		// Published Jackson exponents 4/3, −1/3, −2/3 (from memory).
 		if h.PenetrationModel != "jackson_fixed" || h.PenetrationSource != "published" || h.PenetrationCalibrationID != "" ||
-			!relClose(h.Exponents.Current, 4.0/3, 1e-15) {
+			h.Exponents.Current != answered(4.0/3) {
 			t.Errorf("hold model = %s %s %q exponents %+v, want the published jackson", h.PenetrationSource,
 				h.PenetrationModel, h.PenetrationCalibrationID, h.Exponents)
 		}

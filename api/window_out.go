@@ -136,13 +136,16 @@ func (s *Server) windowTargets(c echo.Context, g *db.CalibrationGroup, in window
 	return nil
 }
 
-// windowPenetration sets the minimum penetration target from the group's
-// active jackson_free calibration (its own exponents), else K of its active
-// jackson_fixed calibration, else the caller's K.
+// windowPenetration sets the minimum penetration target from the caller's K
+// when given, else the group's calibration in use: jackson_free (its own
+// exponents) or jackson_fixed (its K), whichever was activated last.
 func (s *Server) windowPenetration(c echo.Context, g *db.CalibrationGroup, w *window, out *windowOut) error {
-	free, err := s.activeCalibration(c, g, db.CalibrationJacksonFree)
-	if err != nil {
-		return err
+	var free *db.Calibration
+	var err error
+	if w.JacksonK == nil { // an explicit K is used exactly; else the group's calibration in use
+		if free, err = s.activeCalibration(c, g, db.CalibrationJacksonFree); err != nil {
+			return err
+		}
 	}
 	if free != nil && free.Fit.Penetration != nil {
 		w.in.Penetration = &predict.PenetrationTarget{MinMM: *w.MinPenetrationMM, Fit: free.Fit.Penetration}

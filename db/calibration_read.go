@@ -16,11 +16,14 @@ const calibrationColumns = `c.site, c.id, c.created_at, c.created_by, c.model, c
 	c.wire_diameter_mm, c.shielding_gas, c.joint_type, c.welded_from, c.welded_to, c.procedure_id,
 	c.level, c.arc_length_mm, c.fit, c.coupon_ids, c.note`
 
-// latestActivations is, per group and model, the calibration activated last.
+// latestActivations is, per group and model family, the calibration in
+// use: the latest activation event's, unless that event is a deactivation.
 const latestActivations = `latest AS (
-	SELECT DISTINCT ON (model, process, wire_diameter_mm, shielding_gas, joint_type) calibration_id
-	FROM calibration_activations WHERE site = $1
-	ORDER BY model, process, wire_diameter_mm, shielding_gas, joint_type, activated_at DESC, id DESC)`
+	SELECT calibration_id FROM (
+		SELECT DISTINCT ON (family, process, wire_diameter_mm, shielding_gas, joint_type) calibration_id, action
+		FROM calibration_activations WHERE site = $1
+		ORDER BY family, process, wire_diameter_mm, shielding_gas, joint_type, activated_at DESC, id DESC) ev
+	WHERE action = 'activate')`
 
 // Calibration reads one calibration with the samples it was fitted to.
 func (s *Store) Calibration(ctx context.Context, site string, id uuid.UUID) (Calibration, error) {
@@ -103,19 +106,19 @@ func (s *Store) Calibrations(ctx context.Context, site string, cf CalibrationFil
 	return p, attachSignOffs(ctx, s.pool, site, p.Items)
 }
 
-// ActiveCalibration returns the calibration of model last activated for the
-// group, without its samples, or ErrNotFound when none was ever activated.
+// ActiveCalibration returns the calibration in use for the group if it is
+// of the given model, without its samples, or ErrNotFound: per group and
+// family the latest activation decides, so when jackson_fixed was activated
+// after jackson_free, ActiveCalibration(g, jackson_free) is ErrNotFound.
 func (s *Store) ActiveCalibration(ctx context.Context, site string, g CalibrationGroup, model CalibrationModel) (Calibration, error) {
 	g = g.canonical()
+	id, err := activeOf(ctx, s.pool, site, model.Family(), g)
+	if err != nil {
+		return Calibration{}, fmt.Errorf("db: active %s calibration: %w", model, err)
+	}
 	rows, _ := s.pool.Query(ctx, `
 		SELECT `+calibrationColumns+`, NULL::jsonb AS samples, true AS active
-		FROM calibrations c
-		WHERE c.site = $1 AND c.id = (
-			SELECT calibration_id FROM calibration_activations
-			WHERE site = $1 AND model = $2 AND process = $3 AND wire_diameter_mm = $4
-			  AND shielding_gas = $5 AND joint_type = $6
-			ORDER BY activated_at DESC, id DESC LIMIT 1)`,
-		site, model, g.Process, g.WireDiameterMM, g.ShieldingGas, g.JointType)
+		FROM calibrations c WHERE c.site = $1 AND c.id = $2 AND c.model = $3`, site, id, model)
 	c, err := pgx.CollectOneRow(rows, pgx.RowToStructByName[Calibration])
 	if errors.Is(err, pgx.ErrNoRows) {
 		return c, fmt.Errorf("db: active %s calibration for %s %.3f mm %q %s: %w",

@@ -39,19 +39,7 @@ type Coupon struct {
 	CouponData
 }
 
-var coupons = table{name: "coupons", entity: "coupon", fields: []string{
-	"procedure_id", "qualification_record_id", "coupon_mark", "welder_id", "power_source_id",
-	"filler_lot", "welded_on", "joint_type", "thickness_mm", "pass_number", "current_a", "voltage_v",
-	"travel_speed_mm_s", "wire_feed_speed_m_min", "ctwd_mm", "wire_diameter_mm", "shielding_gas",
-	"polarity", "position", "preheat_c", "interpass_c",
-}}
-
-func (c CouponData) values() []any {
-	return []any{c.ProcedureID, c.QualificationRecordID, c.CouponMark, c.WelderID, c.PowerSourceID,
-		c.FillerLot, c.WeldedOn, c.JointType, c.ThicknessMM, c.PassNumber, c.CurrentA, c.VoltageV,
-		c.TravelSpeedMMPerS, c.WireFeedSpeedMPerMin, c.CTWDMM, c.WireDiameterMM, c.ShieldingGas,
-		c.Polarity, c.Position, c.PreheatC, c.InterpassC}
-}
+var coupons = table{name: "coupons", entity: "coupon", fields: recordColumns(CouponData{})}
 
 // checkLinks verifies that the procedure and qualification record a coupon names exist at the site.
 func (c CouponData) checkLinks(ctx context.Context, site string) func(pgx.Tx) error {
@@ -80,7 +68,7 @@ func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon
 	if err := s.write(ctx, "create coupon",
 		c.checkLinks(ctx, a.Site),
 		claimMark(ctx, couponMark, a.Site, m.ID, c.CouponMark),
-		coupons.writeRevision(ctx, m, c.values()),
+		coupons.writeRevision(ctx, m, recordValues(c)),
 		logged(ctx, coupons, m, actionCreate),
 		couponFlags(ctx, m),
 	); err != nil {
@@ -96,7 +84,7 @@ func (s *Store) CorrectCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Cha
 		coupons.baseIs(ctx, a.Site, id, ch),
 		c.checkLinks(ctx, a.Site),
 		claimMark(ctx, couponMark, a.Site, m.ID, c.CouponMark),
-		coupons.writeRevision(ctx, m, c.values()),
+		coupons.writeRevision(ctx, m, recordValues(c)),
 		logged(ctx, coupons, m, actionCorrect),
 		couponFlags(ctx, m),
 	); err != nil {

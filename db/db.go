@@ -115,6 +115,13 @@ func (s *Store) Pool() *pgxpool.Pool { return s.pool }
 // Ping reports whether the database answers.
 func (s *Store) Ping(ctx context.Context) error { return s.pool.Ping(ctx) }
 
+// uniqueWords says in the user's words which value a unique key refused.
+var uniqueWords = map[string]string{
+	"procedures_code_key":              "another procedure at this site has this code",
+	"qualification_records_number_key": "another qualification record at this site has this record number",
+	"coupons_mark_key":                 "another coupon at this site has this mark",
+}
+
 // mapError turns PostgreSQL errors into the package's sentinel errors by SQLSTATE.
 func mapError(err error) error {
 	var pg *pgconn.PgError
@@ -131,13 +138,18 @@ func mapError(err error) error {
 					Reason: "this coupon already has a current section with this label; correct that one or choose another label"}
 			}
 		}
-		return fmt.Errorf("%w: %s", ErrConflict, pg.ConstraintName)
+		if w, ok := uniqueWords[pg.ConstraintName]; ok {
+			return fmt.Errorf("%w: %s", ErrConflict, w)
+		}
+		return fmt.Errorf("%w: the record repeats a value that must be unique", ErrConflict)
 	case "23514", "23502", "23503", "22007", "22008", "22P02": // check, not null, fk, bad date/time/text
+		// The constraint's name is the schema's word, not the user's: the
+		// column names the field when the database reports it.
 		field := pg.ColumnName
 		if field == "" {
-			field = pg.ConstraintName
+			field = "body"
 		}
-		return &FieldError{Field: field, Reason: "refused by the database rule " + pg.ConstraintName}
+		return &FieldError{Field: field, Reason: "is refused by the stored-data rules for this field"}
 	}
 	return err
 }

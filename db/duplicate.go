@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strings"
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
@@ -32,6 +33,22 @@ func (s *Store) duplicateMark(ctx context.Context, site, mark string, err error)
 	}
 	return fmt.Errorf("db: create coupon: %w", &DuplicateError{Field: "coupon_mark", ExistingID: id,
 		Reason: fmt.Sprintf("coupon %s already has the mark %q; a retried create finds it with GET /v1/coupons?coupon_mark=", id, mark)})
+}
+
+// duplicateKey turns a failed create of table t into a DuplicateError naming
+// the record that already holds value in column (code, record_number), when
+// that is why it failed.
+func (s *Store) duplicateKey(ctx context.Context, t table, column, site, value string, err error) error {
+	if !errors.Is(err, ErrConflict) {
+		return err
+	}
+	var id uuid.UUID
+	if s.pool.QueryRow(ctx, `SELECT id FROM `+t.name+` WHERE site = $1 AND `+column+` = $2 ORDER BY revision DESC LIMIT 1`,
+		site, value).Scan(&id) != nil {
+		return err
+	}
+	return fmt.Errorf("db: create %s: %w", t.entity, &DuplicateError{Field: column, ExistingID: id,
+		Reason: fmt.Sprintf("%s %s already has the %s %q", strings.ReplaceAll(t.entity, "_", " "), id, strings.ReplaceAll(column, "_", " "), value)})
 }
 
 // earlierWeld finds a stored production record of the same procedure with

@@ -2,7 +2,6 @@ package db
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"time"
 
@@ -12,39 +11,30 @@ import (
 	"etchlog/predict"
 )
 
-// Model flags compare coupons with the site's active Jackson calibration for
-// the coupon's group (process of its procedure, wire diameter, shielding gas,
-// joint type; the free-exponent fit when one is active, else the fixed one).
+// Model flags compare coupons with the Jackson calibration in use for the
+// coupon's group (process of its procedure, wire diameter, shielding gas,
+// joint type): the latest activated, of either form.
 // Production records carry no wire, gas or joint type, so they get no model
 // flag beyond heat input.
 
-// penetrationCheck returns the active calibration check for group g with the
-// procedure's required minimum penetration, or nil when none is active.
+// penetrationCheck returns the check of the penetration calibration in use
+// for group g (the latest activation of either Jackson form, unless since
+// deactivated) with the procedure's required minimum penetration, or nil
+// when none is in use.
 func penetrationCheck(ctx context.Context, q querier, site string, g CalibrationGroup, minMM *float64) (*predict.PenetrationCheck, error) {
-	g = g.canonical()
-	for _, model := range []CalibrationModel{CalibrationJacksonFree, CalibrationJacksonFixed} {
-		var id uuid.UUID
-		var level float64
-		var fit CalibrationFit
-		err := q.QueryRow(ctx, `SELECT c.id, c.level, c.fit FROM calibrations c
-			WHERE c.site = $1 AND c.id = (
-				SELECT calibration_id FROM calibration_activations
-				WHERE site = $1 AND model = $2 AND process = $3 AND wire_diameter_mm = $4
-				  AND shielding_gas = $5 AND joint_type = $6
-				ORDER BY activated_at DESC, id DESC LIMIT 1)`,
-			site, model, g.Process, g.WireDiameterMM, g.ShieldingGas, g.JointType).Scan(&id, &level, &fit)
-		if errors.Is(err, pgx.ErrNoRows) {
-			continue
-		}
-		if err != nil {
-			return nil, fmt.Errorf("active calibration: %w", err)
-		}
-		if fit.Penetration == nil {
-			continue
-		}
-		return &predict.PenetrationCheck{Fit: *fit.Penetration, Level: level, Label: id.String(), MinPenetrationMM: minMM}, nil
+	id, err := activeOf(ctx, q, site, CalibrationJacksonFixed.Family(), g)
+	if err != nil || id == uuid.Nil {
+		return nil, err
 	}
-	return nil, nil
+	var level float64
+	var fit CalibrationFit
+	if err := q.QueryRow(ctx, `SELECT level, fit FROM calibrations WHERE site = $1 AND id = $2`, site, id).Scan(&level, &fit); err != nil {
+		return nil, fmt.Errorf("active calibration: %w", err)
+	}
+	if fit.Penetration == nil {
+		return nil, nil
+	}
+	return &predict.PenetrationCheck{Fit: *fit.Penetration, Level: level, Label: id.String(), MinPenetrationMM: minMM}, nil
 }
 
 // couponSections returns the current, non-voided sections (label and

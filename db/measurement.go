@@ -31,15 +31,7 @@ type Measurement struct {
 	MeasurementData
 }
 
-var measurements = table{name: "measurements", entity: "measurement", fields: []string{
-	"coupon_id", "section", "penetration_mm", "bead_width_mm", "reinforcement_mm", "leg1_mm",
-	"leg2_mm", "throat_mm", "fused_area_mm2", "acceptance", "inspector", "remark",
-}}
-
-func (d MeasurementData) values() []any {
-	return []any{d.CouponID, d.Section, d.PenetrationMM, d.BeadWidthMM, d.ReinforcementMM, d.Leg1MM,
-		d.Leg2MM, d.ThroatMM, d.FusedAreaMM2, d.Acceptance, d.Inspector, d.Remark}
-}
+var measurements = table{name: "measurements", entity: "measurement", fields: recordColumns(MeasurementData{})}
 
 // checkCoupon verifies that the coupon exists and is not voided, and that
 // the section's penetration is not deeper than the coupon's base metal is
@@ -71,7 +63,7 @@ func (s *Store) CreateMeasurement(ctx context.Context, a Actor, d MeasurementDat
 	}
 	if err := s.write(ctx, "create measurement",
 		d.checkCoupon(ctx, a.Site),
-		measurements.writeRevision(ctx, m, d.values()),
+		measurements.writeRevision(ctx, m, recordValues(d)),
 		logged(ctx, measurements, m, actionCreate),
 		measuredCouponFlags(ctx, m),
 	); err != nil {
@@ -87,7 +79,7 @@ func (s *Store) CorrectMeasurement(ctx context.Context, a Actor, id uuid.UUID, c
 	if err := s.write(ctx, "correct measurement "+id.String(),
 		measurements.baseIs(ctx, a.Site, id, ch),
 		d.checkCoupon(ctx, a.Site),
-		measurements.writeRevision(ctx, m, d.values()),
+		measurements.writeRevision(ctx, m, recordValues(d)),
 		logged(ctx, measurements, m, actionCorrect),
 		measuredCouponFlags(ctx, m),
 	); err != nil {

@@ -36,11 +36,7 @@ type Procedure struct {
 	SignOff *SignOff `db:"-" json:"sign_off"`
 }
 
-var procedures = table{name: "procedures", entity: "procedure", fields: []string{
-	"code", "title", "process", "filler_classification", "wire_diameter_mm", "shielding_gas",
-	"polarity", "transfer_mode", "positions", "base_metal_group", "thickness_min_mm",
-	"thickness_max_mm", "min_penetration_mm", "status", "supporting_record_ids",
-}}
+var procedures = table{name: "procedures", entity: "procedure", fields: recordColumns(ProcedureData{})}
 
 // supportingIDs is SupportingRecordIDs with none as an empty list, as it is stored
 // and read back (so a write returns what a read returns).
@@ -49,12 +45,6 @@ func (p ProcedureData) supportingIDs() []uuid.UUID {
 		return []uuid.UUID{}
 	}
 	return p.SupportingRecordIDs
-}
-
-func (p ProcedureData) values() []any {
-	return []any{p.Code, p.Title, p.Process, p.FillerClassification, p.WireDiameterMM, p.ShieldingGas,
-		p.Polarity, p.TransferMode, p.Positions, p.BaseMetalGroup, p.ThicknessMinMM,
-		p.ThicknessMaxMM, p.MinPenetrationMM, p.Status, p.supportingIDs()}
 }
 
 // checkSupport verifies that every supporting qualification record exists at the site.
@@ -79,10 +69,10 @@ func (s *Store) CreateProcedure(ctx context.Context, a Actor, p ProcedureData) (
 	}
 	if err := s.write(ctx, "create procedure",
 		p.checkSupport(ctx, a.Site),
-		procedures.writeRevision(ctx, m, p.values()),
+		procedures.writeRevision(ctx, m, recordValues(p)),
 		logged(ctx, procedures, m, actionCreate),
 	); err != nil {
-		return Procedure{}, err
+		return Procedure{}, s.duplicateKey(ctx, procedures, "code", a.Site, p.Code, err)
 	}
 	return Procedure{Meta: m, ProcedureData: p}, nil
 }
@@ -96,7 +86,7 @@ func (s *Store) CorrectProcedure(ctx context.Context, a Actor, id uuid.UUID, ch 
 	if err := s.write(ctx, "correct procedure "+id.String(),
 		procedures.baseIs(ctx, a.Site, id, ch),
 		p.checkCorrection(ctx, a.Site, id),
-		procedures.writeRevision(ctx, m, p.values()),
+		procedures.writeRevision(ctx, m, recordValues(p)),
 		logged(ctx, procedures, m, actionCorrect),
 		procedureFlags(ctx, m),
 	); err != nil {

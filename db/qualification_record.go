@@ -49,21 +49,7 @@ type QualificationRecord struct {
 	SignOff *SignOff `db:"-" json:"sign_off"`
 }
 
-var qualificationRecords = table{name: "qualification_records", entity: "qualification_record", fields: []string{
-	"record_number", "process", "welded_on", "welder_id", "filler_classification", "wire_diameter_mm",
-	"shielding_gas", "polarity", "transfer_mode", "position", "base_metal_group", "thickness_mm",
-	"current_a", "voltage_v", "travel_speed_mm_s", "wire_feed_speed_m_min", "ctwd_mm", "preheat_c",
-	"interpass_c", "visual_result", "bend_result", "tensile_result", "macro_result",
-	"tensile_strength_mpa", "outcome", "remarks", "min_penetration_mm",
-}}
-
-func (q QualificationRecordData) values() []any {
-	return []any{q.RecordNumber, q.Process, q.WeldedOn, q.WelderID, q.FillerClassification, q.WireDiameterMM,
-		q.ShieldingGas, q.Polarity, q.TransferMode, q.Position, q.BaseMetalGroup, q.ThicknessMM,
-		q.CurrentA, q.VoltageV, q.TravelSpeedMMPerS, q.WireFeedSpeedMPerMin, q.CTWDMM, q.PreheatC,
-		q.InterpassC, q.VisualResult, q.BendResult, q.TensileResult, q.MacroResult,
-		q.TensileStrengthMPa, q.Outcome, q.Remarks, q.MinPenetrationMM}
-}
+var qualificationRecords = table{name: "qualification_records", entity: "qualification_record", fields: recordColumns(QualificationRecordData{})}
 
 // No flag derives from a PQR directly: its values reach flags only through
 // ranges derived from it (DeriveRanges), so PQR writes have no flag step.
@@ -76,10 +62,10 @@ func (s *Store) CreateQualificationRecord(ctx context.Context, a Actor, q Qualif
 	}
 	if err := s.write(ctx, "create qualification_record",
 		claimMark(ctx, recordNumber, a.Site, m.ID, q.RecordNumber),
-		qualificationRecords.writeRevision(ctx, m, q.values()),
+		qualificationRecords.writeRevision(ctx, m, recordValues(q)),
 		logged(ctx, qualificationRecords, m, actionCreate),
 	); err != nil {
-		return QualificationRecord{}, err
+		return QualificationRecord{}, s.duplicateKey(ctx, qualificationRecords, "record_number", a.Site, q.RecordNumber, err)
 	}
 	return QualificationRecord{Meta: m, QualificationRecordData: q}, nil
 }
@@ -90,7 +76,7 @@ func (s *Store) CorrectQualificationRecord(ctx context.Context, a Actor, id uuid
 	if err := s.write(ctx, "correct qualification_record "+id.String(),
 		qualificationRecords.baseIs(ctx, a.Site, id, ch),
 		claimMark(ctx, recordNumber, a.Site, m.ID, q.RecordNumber),
-		qualificationRecords.writeRevision(ctx, m, q.values()),
+		qualificationRecords.writeRevision(ctx, m, recordValues(q)),
 		logged(ctx, qualificationRecords, m, actionCorrect),
 	); err != nil {
 		return QualificationRecord{}, err

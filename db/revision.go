@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"reflect"
 	"strconv"
 	"strings"
 	"time"
@@ -43,11 +44,37 @@ type Change struct {
 const metaColumns = "site, id, revision, created_at, created_by, reason, voided"
 
 // table describes one append-only record table: its name, the entity name used in
-// the audit chain, and its business columns in the order of the record's values().
+// the audit chain, and its business columns (recordColumns of its data type).
 type table struct {
 	name   string
 	entity string
 	fields []string
+}
+
+// recordColumns lists the db columns of a record's data struct in field
+// order: a table's business columns are its data type's fields, so a new
+// column is one tagged struct field.
+func recordColumns(data any) []string {
+	t := reflect.TypeOf(data)
+	cols := make([]string, 0, t.NumField())
+	for i := range t.NumField() {
+		if c := t.Field(i).Tag.Get("db"); c != "" && c != "-" {
+			cols = append(cols, c)
+		}
+	}
+	return cols
+}
+
+// recordValues returns a record's field values in recordColumns order.
+func recordValues(data any) []any {
+	v := reflect.ValueOf(data)
+	vals := make([]any, 0, v.NumField())
+	for i := range v.NumField() {
+		if c := v.Type().Field(i).Tag.Get("db"); c != "" && c != "-" {
+			vals = append(vals, v.Field(i).Interface())
+		}
+	}
+	return vals
 }
 
 func (t table) columns() string { return metaColumns + ", " + strings.Join(t.fields, ", ") }

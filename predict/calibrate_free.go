@@ -13,7 +13,9 @@ import (
 // FitPenetrationFree fits ln P = c₀ + a·ln I + b·ln S + c·ln V by linear
 // least squares (package lsq) on ln(mm), ln(A), ln(mm/s), ln(V), and tests
 // the published Jackson exponents against it (FTest). It needs at least 5
-// coupons and spread in current, voltage and travel speed.
+// coupons and spread in current, voltage and travel speed that is not
+// collinear: above MaxVIF for any of ln I, ln S, ln V it refuses, naming
+// what moves together (see Identifiability, which the fit reports).
 func FitPenetrationFree(samples []PenetrationSample) (PenetrationFit, error) {
 	fit, _, err := jacksonFree(samples)
 	return fit, err
@@ -45,6 +47,10 @@ func jacksonFree(samples []PenetrationSample) (PenetrationFit, calSolution, erro
 			return PenetrationFit{}, calSolution{}, err
 		}
 	}
+	ident := identifiability(li, ls, lv)
+	if err := ident.refusal(); err != nil {
+		return PenetrationFit{}, calSolution{}, err
+	}
 	X := mat.NewDense(n, p, nil)
 	for i := range samples {
 		X.SetRow(i, []float64{1, li[i], ls[i], lv[i]})
@@ -65,7 +71,8 @@ func jacksonFree(samples []PenetrationSample) (PenetrationFit, calSolution, erro
 		CurrentExponent: res.Coef[1], TravelSpeedExponent: res.Coef[2], VoltageExponent: res.Coef[3],
 		KMM: k, KStdErrMM: k * res.StdErr[0], ResidualSDLn: res.ResidualSD, R2: res.R2,
 		N: n, DoF: res.DoF, SampleIDs: ids,
-		FTest: exponentFTest(fixed.ResidualSDLn*fixed.ResidualSDLn*float64(fixed.DoF), res.RSS, n),
+		FTest:           exponentFTest(fixed.ResidualSDLn*fixed.ResidualSDLn*float64(fixed.DoF), res.RSS, n),
+		Identifiability: &ident,
 	}
 	return fit, sol, nil
 }

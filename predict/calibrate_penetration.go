@@ -40,6 +40,9 @@ type PenetrationFit struct {
 	DoF       int            `json:"dof"`
 	SampleIDs []string       `json:"sample_ids"`
 	FTest     *ExponentFTest `json:"f_test,omitempty"`
+	// Identifiability (free-exponent fit only) is how independently ln I,
+	// ln S and ln V varied across the coupons.
+	Identifiability *Identifiability `json:"identifiability,omitempty"`
 }
 
 // ExponentFTest is the nested-model F test of the fixed published Jackson

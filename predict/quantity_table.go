@@ -23,6 +23,12 @@ var (
 		Others: []Spelling{{"_kj_mm", "kJ/mm", KJPerMMToJPerMM, JPerMMToKJPerMM},
 			{"_kj_in", "kJ/in", func(v float64) float64 { return KJPerMMToJPerMM(KJPerInToKJPerMM(v)) },
 				func(v float64) float64 { return KJPerMMToKJPerIn(JPerMMToKJPerMM(v)) }}}}
+	// Lesnewich coefficients: α in kg/(h·A), β in kg/(h·A²·mm).
+	alphaPerA = Measure{Stored: Spelling{"_kg_h_a", "kg/(h·A)", identity, identity},
+		Others: []Spelling{{"_lb_h_a", "lb/(h·A)", LbPerHToKgPerH, KgPerHToLbPerH}}}
+	betaPerA2 = Measure{Stored: Spelling{"_kg_h_a2_mm", "kg/(h·A²·mm)", identity, identity},
+		Others: []Spelling{{"_lb_h_a2_in", "lb/(h·A²·in)", func(v float64) float64 { return LbPerHToKgPerH(v) / MMPerInch },
+			func(v float64) float64 { return KgPerHToLbPerH(v) * MMPerInch }}}}
 	amperes  = Measure{Stored: Spelling{"_a", "A", identity, identity}}
 	volts    = Measure{Stored: Spelling{"_v", "V", identity, identity}}
 	stress   = Measure{Stored: Spelling{"_mpa", "MPa", identity, identity}}
@@ -91,6 +97,8 @@ var quantities = []Quantity{
 		"Measured average instantaneous power / (mean V × mean I)"),
 	named("max_heat_input", positiveHeat, "Largest heat input allowed"),
 	named("level", Quantity{Measure: plain, Min: 0, MinOpen: true, Max: 1, MaxOpen: true}, "Confidence level of intervals"),
+	named("alpha", Quantity{Measure: alphaPerA, Min: 0, Max: infinity}, "Lesnewich α, the arc-heating term"),
+	named("beta", Quantity{Measure: betaPerA2, Min: 0, Max: infinity}, "Lesnewich β, the resistive-heating term"),
 	named("voltage_steps", gridSteps, "Grid points along voltage"),
 	named("travel_speed_steps", gridSteps, "Grid points along travel speed"),
 	named("extension_steps", gridSteps, "Grid points along electrode extension"),

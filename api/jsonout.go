@@ -1,0 +1,202 @@
+package api
+
+import (
+	"bytes"
+	"encoding/json"
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+
+	"github.com/labstack/echo/v4"
+)
+
+// Numbers leave the server rounded to answerDigits significant digits, so a
+// stored 9.524999999999999 mm (0.375 in × 25.4 in binary floating point)
+// reads as 9.525. Stored values keep full precision; only the JSON text of
+// an answer is rounded. Integers (no fraction or exponent) pass unchanged.
+const answerDigits = 12
+
+// Context keys set by conformTo and read by the serializer.
+const (
+	ctxUnits    = "etchlog.units"    // the operation's units parameter, when it has one
+	ctxVerbatim = "etchlog.verbatim" // true: numbers exactly as stored (the audit chain's payloads)
+)
+
+// jsonAnswer is the server's echo.JSONSerializer: encoding/json, then each
+// number rounded and, with units=inch-pound, each quantity in its inch-pound
+// spelling (toInchPound).
+type jsonAnswer struct{ echo.DefaultJSONSerializer }
+
+// Serialize writes v as JSON the way encoding/json does (a trailing newline,
+// indented when asked), with the numbers rewritten.
+func (jsonAnswer) Serialize(c echo.Context, v any, indent string) error {
+	b, err := json.Marshal(v)
+	if err != nil {
+		return err
+	}
+	if verbatim, _ := c.Get(ctxVerbatim).(bool); !verbatim {
+		units, _ := c.Get(ctxUnits).(string)
+		if b, err = rewriteAnswer(b, units == unitsInchPound); err != nil {
+			return fmt.Errorf("api: rewrite answer: %w", err)
+		}
+	}
+	if indent != "" {
+		var out bytes.Buffer
+		if err := json.Indent(&out, b, "", indent); err != nil {
+			return err
+		}
+		b = out.Bytes()
+	}
+	if _, err := c.Response().Write(append(b, '\n')); err != nil {
+		return err
+	}
+	return nil
+}
+
+// roundAnswer rounds v to answerDigits significant digits.
+func roundAnswer(v float64) float64 {
+	if v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {
+		return v
+	}
+	r, err := strconv.ParseFloat(strconv.FormatFloat(v, 'g', answerDigits, 64), 64)
+	if err != nil {
+		return v
+	}
+	return r
+}
+
+// rewriteAnswer re-encodes one JSON document member by member, keeping its
+// order, with every non-integer number rounded and, when inch is set, the
+// quantities converted.
+func rewriteAnswer(doc []byte, inch bool) ([]byte, error) {
+	dec := json.NewDecoder(bytes.NewReader(doc))
+	dec.UseNumber()
+	v, err := readValue(dec)
+	if err != nil {
+		return nil, err
+	}
+	if _, err := dec.Token(); err != io.EOF {
+		return nil, fmt.Errorf("trailing data after the answer")
+	}
+	if inch {
+		v = toInchPound(v)
+	}
+	var out bytes.Buffer
+	writeValue(&out, v)
+	return out.Bytes(), nil
+}
+
+// object is a JSON object with its members in order.
+type object []member
+
+type member struct {
+	key string
+	val any // object, []any, json.Number, float64, string, bool or nil
+}
+
+// get returns the member named key.
+func (o object) get(key string) (any, bool) {
+	for _, m := range o {
+		if m.key == key {
+			return m.val, true
+		}
+	}
+	return nil, false
+}
+
+func readValue(dec *json.Decoder) (any, error) {
+	tok, err := dec.Token()
+	if err != nil {
+		return nil, err
+	}
+	switch t := tok.(type) {
+	case json.Delim:
+		switch t {
+		case '{':
+			var o object
+			for dec.More() {
+				k, err := dec.Token()
+				if err != nil {
+					return nil, err
+				}
+				v, err := readValue(dec)
+				if err != nil {
+					return nil, err
+				}
+				o = append(o, member{k.(string), v})
+			}
+			_, err := dec.Token() // '}'
+			return o, err
+		case '[':
+			a := []any{}
+			for dec.More() {
+				v, err := readValue(dec)
+				if err != nil {
+					return nil, err
+				}
+				a = append(a, v)
+			}
+			_, err := dec.Token() // ']'
+			return a, err
+		}
+		return nil, fmt.Errorf("unexpected %v", t)
+	default:
+		return t, nil
+	}
+}
+
+func writeValue(out *bytes.Buffer, v any) {
+	switch t := v.(type) {
+	case object:
+		out.WriteByte('{')
+		for i, m := range t {
+			if i > 0 {
+				out.WriteByte(',')
+			}
+			k, _ := json.Marshal(m.key)
+			out.Write(k)
+			out.WriteByte(':')
+			writeValue(out, m.val)
+		}
+		out.WriteByte('}')
+	case []any:
+		out.WriteByte('[')
+		for i, e := range t {
+			if i > 0 {
+				out.WriteByte(',')
+			}
+			writeValue(out, e)
+		}
+		out.WriteByte(']')
+	case json.Number:
+		writeNumber(out, string(t), 0, false)
+	case float64:
+		writeNumber(out, "", t, true)
+	default:
+		b, _ := json.Marshal(t) // string, bool or nil, escaped as encoding/json does
+		out.Write(b)
+	}
+}
+
+// writeNumber writes an integer literal as it came and any other number
+// rounded, in encoding/json's float format.
+func writeNumber(out *bytes.Buffer, lit string, f float64, isFloat bool) {
+	if !isFloat {
+		if !bytes.ContainsAny([]byte(lit), ".eE") {
+			out.WriteString(lit)
+			return
+		}
+		var err error
+		if f, err = strconv.ParseFloat(lit, 64); err != nil {
+			out.WriteString(lit)
+			return
+		}
+	}
+	b, err := json.Marshal(roundAnswer(f))
+	if err != nil { // NaN or ±Inf never reach here: encoding/json refused them already
+		out.WriteString(lit)
+		return
+	}
+	out.Write(b)
+}

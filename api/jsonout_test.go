@@ -1,0 +1,57 @@
+package api
+
+import (
+	"testing"
+)
+
+// TestRewriteAnswer checks the JSON boundary: numbers rounded to 12
+// significant digits, integers and text untouched, member order kept.
+// Conversions are worked from exact definitions (NIST SP 811, Appendix B:
+// 1 in = 25.4 mm, 1 lb = 0.45359237 kg, t/°F = 1.8·t/°C + 32).
+func TestRewriteAnswer(t *testing.T) {
+	for _, tc := range []struct {
+		name, in string
+		inch     bool
+		want     string
+	}{
+		// 0.375 in × 25.4 in binary floating point; 175 A × 1.1 for a range maximum.
+		{"Noise", `{"thickness_mm":9.524999999999999,"max":192.50000000000003,"excess":0.06499999999999773}`, false,
+			`{"thickness_mm":9.525,"max":192.5,"excess":0.065}`},
+		{"TwelveDigits", `[1.8146316996320382,-3.671577269912021,9.464514612305495e-07,1e-300]`, false,
+			`[1.81463169963,-3.67157726991,9.46451461231e-7,1e-300]`},
+		{"IntegersAndTextAsSent", `{"z":12345678901234567890,"a":"0.30000000000000004","id":"01a2","n":null,"ok":true}`, false,
+			`{"z":12345678901234567890,"a":"0.30000000000000004","id":"01a2","n":null,"ok":true}`},
+		{"HTMLEscapedAsEncodingJSON", `{"caution":"a \u003c b \u0026 c"}`, false, `{"caution":"a \u003c b \u0026 c"}`},
+		// 9.525 mm = 0.375 in; 5.08 mm/s = 12 in/min; 7.62 m/min = 300 in/min; 20 °C = 68 °F;
+		// 32.258 mm² = 0.05 in²; 0.45359237 kg/h = 1 lb/h; 1 kJ/mm = 25.4 kJ/in; 1000 J/mm = 25.4 kJ/in.
+		{"InchPound", `{"thickness_mm":9.525,"travel_speed_mm_s":5.08,"wire_feed_speed_m_min":7.62,"preheat_c":20,` +
+			`"fused_area_mm2":32.258,"deposition_rate_kg_h":0.45359237,"heat_input_kj_mm":1,"arc_energy_j_mm":1000,"current_a":180}`, true,
+			`{"thickness_in":0.375,"travel_speed_in_min":12,"wire_feed_speed_in_min":300,"preheat_f":68,` +
+				`"fused_area_in2":0.05,"deposition_rate_lb_h":1,"heat_input_kj_in":25.4,"arc_energy_kj_in":25.4,"current_a":180}`},
+		{"InchPoundTwinKept", `{"penetration_mm":2.54,"penetration_in":0.1,"arc_energy_kj_mm":1,"arc_energy_kj_in":25.4}`, true,
+			`{"penetration_in":0.1,"arc_energy_kj_in":25.4}`},
+		{"InchPoundNestedAndNull", `{"items":[{"ctwd_mm":null,"group":{"wire_diameter_mm":0.889}}],"next_cursor":""}`, true,
+			`{"items":[{"ctwd_in":null,"group":{"wire_diameter_in":0.035}}],"next_cursor":""}`},
+		{"InchPoundInterval", `{"wire_feed_speed_m_min":{"min":2.54,"max":7.62,"min_limit":"x"}}`, true,
+			`{"wire_feed_speed_in_min":{"min":100,"max":300,"min_limit":"x"}}`},
+		{"InchPoundCoefficientsKept", `{"alpha_kg_h_a":0.5,"beta_kg_h_a2_mm":2e-6}`, true, `{"alpha_kg_h_a":0.5,"beta_kg_h_a2_mm":0.000002}`},
+		// A flag in °C: value and edges by t_F = 1.8·t_C + 32, the excess (a difference) by 1.8 alone.
+		{"InchPoundFlagCelsius", `{"variable":"preheat_c","unit":"°C","value":5,"min":10,"max":null,"excess":5,"excess_pct":50}`, true,
+			`{"variable":"preheat_f","unit":"°F","value":41,"min":50,"max":null,"excess":9,"excess_pct":50}`},
+		// A qualified range in mm/s: 3.81–6.35 mm/s = 9–15 in/min.
+		{"InchPoundRange", `{"variable":"travel_speed_mm_s","unit":"mm/s","bands":[{"max":6.349999999999999,"min":3.8099999999999996}]}`, true,
+			`{"variable":"travel_speed_in_min","unit":"in/min","bands":[{"max":15,"min":9}]}`},
+		{"InchPoundOtherUnitsKept", `{"variable":"current_a","unit":"A","value":150,"min":160}`, true,
+			`{"variable":"current_a","unit":"A","value":150,"min":160}`},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			got, err := rewriteAnswer([]byte(tc.in), tc.inch)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if string(got) != tc.want {
+				t.Errorf("rewriteAnswer(%s, inch=%v)\n got %s\nwant %s", tc.in, tc.inch, got, tc.want)
+			}
+		})
+	}
+}
