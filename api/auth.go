@@ -53,7 +53,7 @@ func (s *Server) requireRole(roles []string) echo.MiddlewareFunc {
 // actorOf returns the authenticated user as the actor of a write.
 func actorOf(c echo.Context) db.Actor {
 	u, _ := c.Get(ctxUser).(db.User)
-	return db.Actor{Site: u.Site, Name: u.Name, Role: u.Role}
+	return db.Actor(u)
 }
 
 func userName(c echo.Context) string {

@@ -31,6 +31,9 @@ type Problem struct {
 	ErrorsOmitted int `json:"errors_omitted,omitempty"`
 	// ExistingID names the stored record a duplicate collides with.
 	ExistingID string `json:"existing_id,omitempty"`
+	// Groups are, on a fit refused for too few coupons, the calibration
+	// groups that have coupons, closest to the requested one first.
+	Groups []db.GroupCount `json:"groups,omitempty"`
 }
 
 // FieldIssue names one refused request field and the reason.
@@ -122,8 +125,13 @@ func problemFor(err error) Problem {
 		return Problem{Type: "urn:etchlog:problem:invalid", Title: "The request has values that are refused",
 			Status: http.StatusUnprocessableEntity, Detail: userDetail(pe), Errors: []FieldIssue{{pe.Field, pe.Reason}}}
 	case errors.Is(err, predict.ErrTooFewSamples), errors.Is(err, predict.ErrDegenerate):
-		return Problem{Type: "urn:etchlog:problem:fit-refused", Title: "The selected coupons cannot support this fit",
+		p := Problem{Type: "urn:etchlog:problem:fit-refused", Title: "The selected coupons cannot support this fit",
 			Status: http.StatusUnprocessableEntity, Detail: userDetail(err), Errors: []FieldIssue{{"coupons", fitRefusal(err)}}}
+		var ng *db.NoGroupError
+		if errors.As(err, &ng) {
+			p.Groups = append([]db.GroupCount{}, ng.Groups...)
+		}
+		return p
 	case errors.As(err, &dup):
 		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict,
 			Detail: userDetail(dup), Errors: []FieldIssue{{dup.Field, dup.Reason}}, ExistingID: dup.ExistingID.String()}

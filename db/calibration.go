@@ -5,7 +5,6 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
-	"math"
 	"time"
 
 	"github.com/google/uuid"
@@ -29,8 +28,8 @@ const (
 
 // CalibrationGroup is the key under which coupons are pooled for a fit and a
 // calibration is activated: process (the coupon's procedure's, else its
-// qualification record's), wire diameter in mm (compared to 0.001 mm),
-// shielding gas (exact text) and joint type.
+// qualification record's), wire diameter by nominal size, shielding gas by
+// composition, and joint type. Groups are compared in canonical form.
 type CalibrationGroup struct {
 	Process        string  `db:"process" json:"process"`
 	WireDiameterMM float64 `db:"wire_diameter_mm" json:"wire_diameter_mm"`
@@ -38,11 +37,20 @@ type CalibrationGroup struct {
 	JointType      string  `db:"joint_type" json:"joint_type"`
 }
 
-// canonical returns g with the wire diameter rounded to 0.001 mm, so that
-// 0.035 in (0.889 mm) typed in either unit is one group.
+// canonical returns g as the trade matches it: the wire diameter as its
+// metric nominal size (0.035 in = 0.889 mm is the 0.9 mm wire; off the
+// table, rounded to 0.001 mm) and the gas in its canonical spelling
+// (Ar-25CO2, 75Ar/25CO2 and ar-25co2 are one gas).
 func (g CalibrationGroup) canonical() CalibrationGroup {
-	g.WireDiameterMM = math.Round(g.WireDiameterMM*1000) / 1000
+	g.WireDiameterMM, _ = predict.NominalWireMM(g.WireDiameterMM)
+	g.ShieldingGas = predict.CanonicalGas(g.ShieldingGas)
 	return g
+}
+
+// has reports whether a coupon's process, wire, gas and joint type
+// fall in canonical group g.
+func (g CalibrationGroup) has(process string, wireMM float64, gas, joint string) bool {
+	return g == CalibrationGroup{Process: process, WireDiameterMM: wireMM, ShieldingGas: gas, JointType: joint}.canonical()
 }
 
 // CalibrationSpec says what to fit: the model, the group, which of its coupons
@@ -142,7 +150,8 @@ func (s *Store) CreateCalibration(ctx context.Context, a Actor, spec Calibration
 	if err := spec.validate(); err != nil {
 		return Calibration{}, fmt.Errorf("db: create calibration: %w", err)
 	}
-	spec.WireDiameterMM = spec.Group().canonical().WireDiameterMM
+	cg := spec.Group().canonical()
+	spec.WireDiameterMM, spec.ShieldingGas = cg.WireDiameterMM, cg.ShieldingGas
 	id, err := uuid.NewV7()
 	if err != nil {
 		return Calibration{}, err
@@ -155,6 +164,13 @@ func (s *Store) CreateCalibration(ctx context.Context, a Actor, spec Calibration
 			}
 		}
 		if err := fitSpec(ctx, tx, &c); err != nil {
+			if errors.Is(err, predict.ErrTooFewSamples) { // say which groups do have coupons
+				groups, gerr := existingGroups(ctx, tx, a.Site, spec.Group())
+				if gerr != nil {
+					return gerr
+				}
+				return &NoGroupError{Err: err, Groups: groups}
+			}
 			return err
 		}
 		return insertCalibration(ctx, tx, c)

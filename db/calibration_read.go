@@ -3,6 +3,7 @@ package db
 import (
 	"context"
 	"errors"
+	"etchlog/predict"
 	"fmt"
 	"strconv"
 	"strings"
@@ -76,7 +77,7 @@ func (s *Store) Calibrations(ctx context.Context, site string, cf CalibrationFil
 		f.add("c.wire_diameter_mm = ?", CalibrationGroup{WireDiameterMM: *cf.WireDiameterMM}.canonical().WireDiameterMM)
 	}
 	if cf.ShieldingGas != nil {
-		f.add("c.shielding_gas = ?", *cf.ShieldingGas)
+		f.add("c.shielding_gas = ?", predict.CanonicalGas(*cf.ShieldingGas))
 	}
 	if cf.JointType != "" {
 		f.add("c.joint_type = ?", cf.JointType)

@@ -24,6 +24,9 @@ type SampleFilter struct {
 // penetrations in measurement id (creation) order.
 type groupCoupon struct {
 	ID                   uuid.UUID `db:"id"`
+	Process              string    `db:"process"`
+	JointType            string    `db:"joint_type"`
+	ShieldingGas         string    `db:"shielding_gas"`
 	CurrentA             float64   `db:"current_a"`
 	VoltageV             float64   `db:"voltage_v"`
 	TravelSpeedMMPerS    float64   `db:"travel_speed_mm_s"`
@@ -33,18 +36,18 @@ type groupCoupon struct {
 	PenetrationsMM       []float64 `db:"penetrations_mm"`
 }
 
-// groupCoupons runs the selection; the process comes from the coupon's
-// procedure, else from its qualification record (current revisions).
-func groupCoupons(ctx context.Context, q querier, site string, f SampleFilter) ([]groupCoupon, error) {
-	g := f.Group.canonical()
-	rows, _ := q.Query(ctx, `
+// siteCoupons is the current, non-voided coupons of a site with their
+// process (the coupon's procedure's, else its qualification record's) and
+// sections, welded within the filter's dates and on its procedure.
+const siteCoupons = `
 		WITH cur AS (
 			SELECT DISTINCT ON (id) id, voided, procedure_id, qualification_record_id, welded_on,
 			       joint_type, current_a, voltage_v, travel_speed_mm_s, wire_feed_speed_m_min,
 			       ctwd_mm, wire_diameter_mm, shielding_gas
 			FROM coupons WHERE site = $1 ORDER BY id, revision DESC
 		)
-		SELECT cur.id, cur.current_a, cur.voltage_v, cur.travel_speed_mm_s, cur.wire_feed_speed_m_min,
+		SELECT cur.id, coalesce(p.process, r.process, '') AS process, cur.joint_type, cur.shielding_gas,
+		       cur.current_a, cur.voltage_v, cur.travel_speed_mm_s, cur.wire_feed_speed_m_min,
 		       cur.ctwd_mm, cur.wire_diameter_mm, coalesce(m.pens, '{}') AS penetrations_mm
 		FROM cur
 		LEFT JOIN LATERAL (SELECT process FROM procedures p WHERE p.site = $1 AND p.id = cur.procedure_id
@@ -56,20 +59,28 @@ func groupCoupons(ctx context.Context, q querier, site string, f SampleFilter) (
 			WHERE coupon_id = cur.id AND site = $1 ORDER BY id, revision DESC) sec
 			WHERE NOT sec.voided) m ON true
 		WHERE NOT cur.voided
-		  AND coalesce(p.process, r.process) = $2
-		  AND round(cur.wire_diameter_mm::numeric, 3) = round($3::numeric, 3)
-		  AND cur.shielding_gas = $4
-		  AND cur.joint_type = $5
-		  AND ($6::date IS NULL OR cur.welded_on >= $6)
-		  AND ($7::date IS NULL OR cur.welded_on <= $7)
-		  AND ($8::uuid IS NULL OR cur.procedure_id = $8)
-		ORDER BY cur.id`,
-		site, g.Process, g.WireDiameterMM, g.ShieldingGas, g.JointType, f.WeldedFrom, f.WeldedTo, f.ProcedureID)
+		  AND ($2::date IS NULL OR cur.welded_on >= $2)
+		  AND ($3::date IS NULL OR cur.welded_on <= $3)
+		  AND ($4::uuid IS NULL OR cur.procedure_id = $4)
+		ORDER BY cur.id`
+
+// groupCoupons runs the selection and keeps the coupons of the filter's
+// group, compared as the trade does (nominal wire size, gas composition):
+// done here, not in SQL, because the gas is parsed.
+func groupCoupons(ctx context.Context, q querier, site string, f SampleFilter) ([]groupCoupon, error) {
+	g := f.Group.canonical()
+	rows, _ := q.Query(ctx, siteCoupons, site, f.WeldedFrom, f.WeldedTo, f.ProcedureID)
 	cs, err := pgx.CollectRows(rows, pgx.RowToStructByName[groupCoupon])
 	if err != nil {
 		return nil, fmt.Errorf("select coupons: %w", err)
 	}
-	return cs, nil
+	out := cs[:0]
+	for _, c := range cs {
+		if g.has(c.Process, c.WireDiameterMM, c.ShieldingGas, c.JointType) {
+			out = append(out, c)
+		}
+	}
+	return out, nil
 }
 
 // penetrationSamples gives one Jackson sample per measured coupon: the

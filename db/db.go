@@ -9,9 +9,10 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"github.com/google/uuid"
 	"time"
 
+	"github.com/google/uuid"
+	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgxpool"
 )
@@ -129,9 +130,9 @@ func mapError(err error) error {
 		return err
 	}
 	switch pg.Code {
-	case "40P01", "40001": // deadlock or serialization failure: two writes crossed; the client may retry
+	case pgerrcode.DeadlockDetected, pgerrcode.SerializationFailure: // two writes crossed; the client may retry
 		return fmt.Errorf("%w: a concurrent write got in the way; retry", ErrConflict)
-	case "23505": // unique_violation
+	case pgerrcode.UniqueViolation:
 		if pg.ConstraintName == "measurements_section_per_coupon" { // the trigger names the existing section
 			if id, err := uuid.Parse(pg.Detail); err == nil {
 				return &DuplicateError{Field: "section", ExistingID: id,
@@ -142,7 +143,8 @@ func mapError(err error) error {
 			return fmt.Errorf("%w: %s", ErrConflict, w)
 		}
 		return fmt.Errorf("%w: the record repeats a value that must be unique", ErrConflict)
-	case "23514", "23502", "23503", "22007", "22008", "22P02": // check, not null, fk, bad date/time/text
+	case pgerrcode.CheckViolation, pgerrcode.NotNullViolation, pgerrcode.ForeignKeyViolation,
+		pgerrcode.InvalidDatetimeFormat, pgerrcode.DatetimeFieldOverflow, pgerrcode.InvalidTextRepresentation:
 		// The constraint's name is the schema's word, not the user's: the
 		// column names the field when the database reports it.
 		field := pg.ColumnName

@@ -116,19 +116,30 @@ func measurementCoupon(ctx context.Context, q querier, site string, id uuid.UUID
 // calibration (ActivateCalibration), so model flags are never stale.
 func recomputeGroup(ctx context.Context, tx pgx.Tx, now time.Time, site string, g CalibrationGroup) error {
 	g = g.canonical()
-	rows, _ := tx.Query(ctx, `SELECT cur.id FROM (
+	rows, _ := tx.Query(ctx, `SELECT cur.id, p.process, cur.wire_diameter_mm, cur.shielding_gas, cur.joint_type FROM (
 			SELECT DISTINCT ON (id) id, voided, procedure_id, wire_diameter_mm, shielding_gas, joint_type
 			FROM coupons WHERE site = $1 ORDER BY id, revision DESC) cur
 		JOIN LATERAL (SELECT process FROM procedures p WHERE p.site = $1 AND p.id = cur.procedure_id
 			ORDER BY revision DESC LIMIT 1) p ON true
-		WHERE NOT cur.voided AND p.process = $2 AND round(cur.wire_diameter_mm::numeric, 3) = round($3::numeric, 3)
-		  AND cur.shielding_gas = $4 AND cur.joint_type = $5`, site, g.Process, g.WireDiameterMM, g.ShieldingGas, g.JointType)
-	ids, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+		WHERE NOT cur.voided AND p.process = $2 AND cur.joint_type = $3`, site, g.Process, g.JointType)
+	type member struct {
+		id         uuid.UUID
+		process    string
+		wire       float64
+		gas, joint string
+	}
+	ms, err := pgx.CollectRows(rows, func(r pgx.CollectableRow) (member, error) {
+		var m member
+		return m, r.Scan(&m.id, &m.process, &m.wire, &m.gas, &m.joint)
+	})
 	if err != nil {
 		return fmt.Errorf("coupons of calibration group: %w", err)
 	}
-	for _, id := range ids {
-		if _, err := recomputeCoupon(ctx, tx, now, site, id); err != nil {
+	for _, m := range ms { // nominal wire size and gas composition are compared here, not in SQL
+		if !g.has(m.process, m.wire, m.gas, m.joint) {
+			continue
+		}
+		if _, err := recomputeCoupon(ctx, tx, now, site, m.id); err != nil {
 			return err
 		}
 	}

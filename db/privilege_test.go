@@ -7,6 +7,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
 
@@ -55,7 +56,7 @@ func TestServiceLoginCannotTamper(t *testing.T) {
 	} {
 		_, err := s.Pool().Exec(ctx, q)
 		var pg *pgconn.PgError
-		if !errors.As(err, &pg) || pg.Code != "42501" {
+		if !errors.As(err, &pg) || pg.Code != pgerrcode.InsufficientPrivilege {
 			t.Errorf("service: %s\n  err = %v, want insufficient_privilege (42501)", q, err)
 		}
 	}

@@ -13,8 +13,8 @@ import (
 	"etchlog/predict"
 )
 
-// builtInSite is the site key of the built-in rule sets, readable by every site.
-const builtInSite = ""
+// Built-in rule sets are stored with the empty site key '' and are readable
+// by every site; the SQL below spells that key as ''.
 
 // RuleSetData is what an engineer states in a rule set: its id (lower-case
 // letters, digits and dashes), name, process, notes (what is recalled, what

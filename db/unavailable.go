@@ -4,9 +4,9 @@ import (
 	"errors"
 	"io"
 	"net"
-	"strings"
 	"syscall"
 
+	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5/pgconn"
 )
 
@@ -33,11 +33,11 @@ func Unavailable(err error) bool {
 	var pg *pgconn.PgError
 	if errors.As(err, &pg) {
 		switch {
-		case strings.HasPrefix(pg.Code, "08"): // connection exception
+		case pgerrcode.IsConnectionException(pg.Code):
 			return true
-		case pg.Code == "57P01", pg.Code == "57P02", pg.Code == "57P03": // admin/crash shutdown, cannot connect now
+		case pg.Code == pgerrcode.AdminShutdown, pg.Code == pgerrcode.CrashShutdown, pg.Code == pgerrcode.CannotConnectNow:
 			return true
-		case pg.Code == "53300": // too many connections
+		case pg.Code == pgerrcode.TooManyConnections:
 			return true
 		}
 		return false

@@ -56,11 +56,3 @@ func mustBeNonNegative(field string, v float64) error {
 	}
 	return nil
 }
-
-// mustBeFinite returns an *InputError if v is NaN or infinite.
-func mustBeFinite(field string, v float64) error {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return &InputError{Field: field, Value: v, Reason: "must be a finite number"}
-	}
-	return nil
-}

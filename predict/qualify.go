@@ -66,10 +66,12 @@ var variables = []variableInfo{
 	{VarBaseMetal, "", false, false},
 }
 
-// numVariables is the number of known variables (at most 32: bit sets).
-var numVariables = len(variables)
-
+// variableOrdinal numbers the variables for the uint32 bit sets of an
+// observation, so there may be at most 32.
 var variableOrdinal = func() map[Variable]int {
+	if len(variables) > 32 {
+		panic("predict: more than 32 qualified-range variables do not fit an observation's bit sets")
+	}
 	m := make(map[Variable]int, len(variables))
 	for i, v := range variables {
 		m[v.name] = i

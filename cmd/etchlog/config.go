@@ -1,7 +1,9 @@
 package main
 
 import (
+	"bytes"
 	"context"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -37,12 +39,17 @@ func defaults(getenv func(string) string) config {
 	return c
 }
 
-// flags registers the shared flags on fs.
-func (c *config) flags(fs *flag.FlagSet) {
-	fs.StringVar(&c.Addr, "addr", c.Addr, "listen address (env ETCHLOG_ADDR)")
-	fs.StringVar(&c.DatabaseURL, "database-url", c.DatabaseURL, "PostgreSQL URL (env DATABASE_URL; empty: local default database)")
+// databaseFlags registers -database-url and -owner-database-url, which every
+// command that opens the database takes.
+func (c *config) databaseFlags(fs *flag.FlagSet) {
+	fs.StringVar(&c.DatabaseURL, "database-url", c.DatabaseURL, "PostgreSQL URL (env DATABASE_URL; empty: the local server, else a private cluster)")
 	fs.StringVar(&c.OwnerURL, "owner-database-url", c.OwnerURL,
 		"administrator's PostgreSQL URL for migrations and users (env ETCHLOG_OWNER_DATABASE_URL; empty: DATABASE_URL if its login is a superuser)")
+}
+
+// serverFlags registers the flags of the commands that serve HTTP.
+func (c *config) serverFlags(fs *flag.FlagSet) {
+	fs.StringVar(&c.Addr, "addr", c.Addr, "listen address (env ETCHLOG_ADDR)")
 	fs.StringVar(&c.LogLevel, "log-level", c.LogLevel, "debug, info, warn or error (env ETCHLOG_LOG_LEVEL)")
 	fs.StringVar(&c.BodyLimit, "body-limit", c.BodyLimit, "largest request body, e.g. 1MiB (binary) or 1M (10^6 bytes)")
 }
@@ -65,17 +72,50 @@ func (c config) logger(w io.Writer) *slog.Logger {
 	return slog.New(slog.NewJSONHandler(w, &slog.HandlerOptions{Level: l}))
 }
 
-// parse reads flags into a config and validates it.
-func parse(name string, args []string, getenv func(string) string, stderr io.Writer, extra func(*flag.FlagSet)) (config, error) {
-	c := defaults(getenv)
+// newFlagSet returns the flag set of the command name. Its usage shows the
+// synopsis (the command line after "etchlog"), says what the command does and
+// lists only the flags registered on it.
+func newFlagSet(name, synopsis, about string) *flag.FlagSet {
 	fs := flag.NewFlagSet("etchlog "+name, flag.ContinueOnError)
-	fs.SetOutput(stderr)
-	c.flags(fs)
-	if extra != nil {
-		extra(fs)
+	fs.Usage = func() {
+		fmt.Fprintf(fs.Output(), "usage: etchlog %s\n\n%s\n", synopsis, about)
+		n := 0
+		fs.VisitAll(func(*flag.Flag) { n++ })
+		if n > 0 {
+			fmt.Fprintln(fs.Output(), "\nflags:")
+			fs.PrintDefaults()
+		}
 	}
-	if err := fs.Parse(args); err != nil {
+	return fs
+}
+
+// parseFlags parses args with fs. Asked for help (-h, -help), it prints the
+// usage on stdout and returns flag.ErrHelp, which run turns into success; a
+// bad flag prints the usage on stderr and returns the error.
+func parseFlags(fs *flag.FlagSet, args []string, stdout, stderr io.Writer) error {
+	var out bytes.Buffer
+	fs.SetOutput(&out)
+	err := fs.Parse(args)
+	if errors.Is(err, flag.ErrHelp) {
+		_, _ = out.WriteTo(stdout)
+	} else {
+		_, _ = out.WriteTo(stderr)
+	}
+	return err
+}
+
+// parseServer reads the flags of a command that serves HTTP (serve, demo)
+// into a config and validates it.
+func parseServer(name, about string, args []string, getenv func(string) string, stdout, stderr io.Writer) (config, error) {
+	c := defaults(getenv)
+	fs := newFlagSet(name, name+" [flags]", about)
+	c.serverFlags(fs)
+	c.databaseFlags(fs)
+	if err := parseFlags(fs, args, stdout, stderr); err != nil {
 		return c, err
+	}
+	if fs.NArg() > 0 {
+		return c, fmt.Errorf("%s: unexpected argument %q", name, fs.Arg(0))
 	}
 	return c, c.validate()
 }

@@ -30,7 +30,8 @@ var demoUsers = []struct{ name, role, token string }{
 
 // cmdDemo loads the demo shop (once) into the local default database and serves it.
 func cmdDemo(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
-	c, err := parse("demo", args, getenv, stderr, nil)
+	c, err := parseServer("demo", "Loads the invented demo shop (once) into the database and serves it, printing\n"+
+		"the demo tokens and example requests.", args, getenv, stdout, stderr)
 	if err != nil {
 		return err
 	}

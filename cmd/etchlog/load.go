@@ -4,7 +4,6 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
-	"flag"
 	"fmt"
 	"io"
 	"net"
@@ -21,15 +20,18 @@ import (
 // baseline. The request count and the time are bounded, and only loopback
 // targets are accepted.
 func cmdLoad(ctx context.Context, args []string, _ func(string) string, stdout, stderr io.Writer) error {
-	fs := flag.NewFlagSet("etchlog load", flag.ContinueOnError)
-	fs.SetOutput(stderr)
+	fs := newFlagSet("load", "load [flags]", "Drives a running etchlog (loopback only) with coupon writes and list reads beside a\n"+
+		"no-database baseline (GET /healthz) and prints req/s, p50/p95/p99 latency and the ratio.")
 	target := fs.String("url", "http://127.0.0.1:8080", "base URL of a running etchlog (loopback only)")
 	token := fs.String("token", "demo-technician-token", "technician or engineer token")
 	n := fs.Int("n", 2000, "requests per scenario (at most 100000)")
 	conc := fs.Int("c", 8, "concurrent clients")
 	limit := fs.Duration("max-time", 60*time.Second, "stop each scenario after this long")
-	if err := fs.Parse(args); err != nil {
+	if err := parseFlags(fs, args, stdout, stderr); err != nil {
 		return err
+	}
+	if fs.NArg() > 0 {
+		return fmt.Errorf("load: unexpected argument %q", fs.Arg(0))
 	}
 	u, err := url.Parse(*target)
 	if err != nil || !isLoopback(u.Hostname()) {

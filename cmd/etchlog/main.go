@@ -10,6 +10,8 @@ package main
 
 import (
 	"context"
+	"errors"
+	"flag"
 	"fmt"
 	"io"
 	"os"
@@ -39,7 +41,16 @@ Run "etchlog <command> -h" for the flags of a command. Without DATABASE_URL,
 etchlog uses the local PostgreSQL server, or starts a private one.`
 
 // run is main without the process: a test can boot the whole server with it.
+// A command asked for its help (-h) prints it on stdout and succeeds.
 func run(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
+	if err := dispatch(ctx, args, getenv, stdout, stderr); !errors.Is(err, flag.ErrHelp) {
+		return err
+	}
+	return nil
+}
+
+// dispatch runs the command args[0] with the rest of args.
+func dispatch(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
 	if len(args) == 0 {
 		fmt.Fprintln(stderr, usage)
 		return fmt.Errorf("no command given")

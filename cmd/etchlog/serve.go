@@ -17,7 +17,8 @@ import (
 // cmdServe is the production entry: configuration from flags and environment,
 // JSON logs, graceful shutdown on SIGINT/SIGTERM.
 func cmdServe(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
-	c, err := parse("serve", args, getenv, stderr, nil)
+	c, err := parseServer("serve", "Runs the API server until SIGINT or SIGTERM, then drains requests for up to 10 s.\n"+
+		"Applies the embedded database migrations at start. Logs are JSON lines on stderr.", args, getenv, stdout, stderr)
 	if err != nil {
 		return err
 	}

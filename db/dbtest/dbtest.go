@@ -137,3 +137,41 @@ func Main(m interface{ Run() int }) {
 	}
 	os.Exit(code)
 }
+
+// EmptyDatabase creates a database of the calling test's own on the test
+// server, with no schema, and drops it when the test ends. It suits tests
+// that migrate themselves or need a database nobody else has written to
+// (the demo loads its fixed site once per database).
+func EmptyDatabase(tb testing.TB) string {
+	tb.Helper()
+	Store(tb) // skip or fail as every database test does without a server
+	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
+	defer cancel()
+	admin, err := pgx.Connect(ctx, serverURL())
+	if err != nil {
+		tb.Fatalf("dbtest: %v", err)
+	}
+	defer admin.Close(ctx)
+	b := make([]byte, 6)
+	_, _ = rand.Read(b)
+	name := "etchlog_test_" + hex.EncodeToString(b)
+	if _, err := admin.Exec(ctx, "CREATE DATABASE "+name); err != nil {
+		tb.Fatalf("dbtest: create %s: %v", name, err)
+	}
+	tb.Cleanup(func() {
+		ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+		defer cancel()
+		c, err := pgx.Connect(ctx, serverURL())
+		if err != nil {
+			tb.Errorf("dbtest: drop %s: %v", name, err)
+			return
+		}
+		defer c.Close(ctx)
+		if _, err := c.Exec(ctx, "DROP DATABASE IF EXISTS "+name+" WITH (FORCE)"); err != nil {
+			tb.Errorf("dbtest: drop %s: %v", name, err)
+		}
+	})
+	u, _ := url.Parse(serverURL())
+	u.Path = "/" + name
+	return u.String()
+}

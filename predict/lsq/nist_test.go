@@ -20,7 +20,6 @@ import (
 type nistCase struct {
 	name      string
 	degree    int
-	coefNeed  float64 // required digits on the coefficients
 	beta, sd  []float64
 	resSD, r2 float64
 	x         [][]float64 // predictor rows, as read

@@ -10,14 +10,9 @@ import (
 	"strconv"
 	"strings"
 
+	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
-)
-
-// SQLSTATE codes the probe reacts to.
-const (
-	codeInvalidCatalogName = "3D000" // database does not exist
-	codeDuplicateDatabase  = "42P04" // created concurrently by someone else
 )
 
 // FindLocalServer probes opt.Hosts on opt.Port as the current OS user, then as
@@ -75,7 +70,7 @@ func localURL(host string, port int, role, database string) string {
 func ensureDatabase(ctx context.Context, dbURL string, opt Options) error {
 	err := ping(ctx, dbURL, opt)
 	var pgErr *pgconn.PgError
-	if err == nil || !errors.As(err, &pgErr) || pgErr.Code != codeInvalidCatalogName {
+	if err == nil || !errors.As(err, &pgErr) || pgErr.Code != pgerrcode.InvalidCatalogName {
 		return err
 	}
 	cfg, err := pgx.ParseConfig(dbURL)
@@ -91,7 +86,7 @@ func ensureDatabase(ctx context.Context, dbURL string, opt Options) error {
 	}
 	defer conn.Close(ctx)
 	_, err = conn.Exec(ctx, "CREATE DATABASE "+pgx.Identifier{name}.Sanitize())
-	if errors.As(err, &pgErr) && pgErr.Code == codeDuplicateDatabase {
+	if errors.As(err, &pgErr) && pgErr.Code == pgerrcode.DuplicateDatabase {
 		err = nil
 	}
 	if err != nil {
