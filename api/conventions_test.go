@@ -453,3 +453,62 @@ func TestConventionErrorWords(t *testing.T) {
 		}
 	}
 }
+
+// ownedFields are the server-owned fields a read answers and a correction
+// may send back unchanged.
+var ownedFields = map[string]bool{"site": true, "id": true, "revision": true, "created_at": true, "created_by": true,
+	"voided": true, "coupon_id": true}
+
+// TestConventionRoundTrip: GET a record, change one field, PUT the body back
+// with base_revision and reason: accepted. A server-owned field that differs
+// from the base revision is refused (422, named); on a new record it is refused too.
+func TestConventionRoundTrip(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	coupon := e.mustCoupon(e.procedure())
+	for _, c := range []struct {
+		name, path, role, field string
+		value                   any
+	}{
+		{"Procedure", "/v1/procedures/" + e.mustProcedure(), "engineer", "title", "Fillet welds, corrected title"},
+		{"QualificationRecord", "/v1/qualification-records/" + e.mustQualificationRecord(), "engineer", "remarks", "re-read the chart"},
+		{"Coupon", "/v1/coupons/" + coupon, "technician", "current_a", 185.0},
+		{"Measurement", "/v1/measurements/" + e.mustMeasurement(coupon), "technician", "penetration_mm", 1.9},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			read := e.do(http.MethodGet, c.path, "auditor", nil).object(t)
+			for f := range ownedFields {
+				if _, ok := read[f]; !ok && f != "coupon_id" {
+					t.Fatalf("GET %s has no %s", c.path, f)
+				}
+			}
+			body := clone(read)
+			body[c.field], body["base_revision"], body["reason"] = c.value, read["revision"], "round trip"
+			// Each owned field changed alone is refused and named.
+			for f, v := range map[string]any{"site": "elsewhere", "id": uuid.NewString(), "revision": 9.0,
+				"created_at": "2020-01-01T00:00:00Z", "created_by": "someone-else", "voided": true, "coupon_id": uuid.NewString()} {
+				if _, ok := read[f]; !ok {
+					continue
+				}
+				bad := clone(body)
+				bad[f] = v
+				wantProblem(t, "PUT with "+f+" changed", e.do(http.MethodPut, c.path, c.role, bad), http.StatusUnprocessableEntity, f)
+			}
+			r := e.do(http.MethodPut, c.path, c.role, body)
+			if r.status != http.StatusOK {
+				t.Fatalf("PUT %s with the read body, %s changed = %d %s, want 200", c.path, c.field, r.status, r.body)
+			}
+			got := r.object(t)
+			if got["revision"] != 2.0 || got[c.field] != c.value || got["id"] != read["id"] || got["created_at"] == read["created_at"] {
+				t.Errorf("PUT answered id %v revision %v created_at %v, %s %v; want revision 2 of %v, written now, with %v",
+					got["id"], got["revision"], got["created_at"], c.field, got[c.field], read["id"], c.value)
+			}
+			// A new record may not carry them.
+			if c.name == "Coupon" {
+				fresh := couponBody(e.procedure(), "", uniq("C-RT"))
+				fresh["id"] = uuid.NewString()
+				wantProblem(t, "POST with id", e.do(http.MethodPost, "/v1/coupons", "technician", fresh), http.StatusUnprocessableEntity, "id")
+			}
+		})
+	}
+}

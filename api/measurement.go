@@ -1,8 +1,10 @@
 package api
 
 import (
-	"github.com/google/uuid"
+	"fmt"
 	"net/http"
+
+	"github.com/google/uuid"
 
 	"github.com/labstack/echo/v4"
 
@@ -26,19 +28,24 @@ func (in measurementIn) data(c echo.Context, s *Server) (db.MeasurementData, err
 	if err != nil {
 		return d, err
 	}
+	coupon := id
 	if c.Path() == couponMeasurementsPath { // create: the path names the coupon
 		if err := s.couponExists(c, id); err != nil {
 			return d, err
 		}
-		d.CouponID = id
-		return d, nil
+	} else { // correction: the measurement stays on its coupon
+		old, err := s.store.Measurement(c.Request().Context(), actorOf(c).Site, id, 0)
+		if err != nil {
+			return d, err
+		}
+		coupon = old.CouponID
 	}
-	// correction: the measurement stays on its coupon
-	old, err := s.store.Measurement(c.Request().Context(), actorOf(c).Site, id, 0)
-	if err != nil {
-		return d, err
+	// coupon_id is owned like the bookkeeping: sent back unchanged it is
+	// ignored, another coupon is refused.
+	if in.CouponID != uuid.Nil && in.CouponID != coupon {
+		return d, unprocessable(FieldIssue{"coupon_id", fmt.Sprintf("a section stays on its coupon %s; %s differs (leave coupon_id out or send it unchanged)", coupon, in.CouponID)})
 	}
-	d.CouponID = old.CouponID
+	d.CouponID = coupon
 	return d, nil
 }
 

@@ -15,10 +15,12 @@ import (
 	"etchlog/db"
 )
 
-// changeFields are the body fields of a correction; they must be absent on create.
+// changeFields are the body fields of a correction, which must be absent on
+// create, and the server-owned fields a correction may carry back unchanged.
 type changeFields struct {
 	BaseRevision *int    `json:"base_revision,omitempty"`
 	Reason       *string `json:"reason,omitempty"`
+	ownedFields
 }
 
 func (c changeFields) fields() changeFields { return c }
@@ -54,6 +56,9 @@ func handleCreate[In input[D], D any, R any](s *Server, r resource[In, D, R]) ec
 			}
 			return badRequest(field, "base_revision and reason belong to a correction (PUT), not to a new record")
 		}
+		if err := in.fields().onCreate(); err != nil {
+			return err
+		}
 		d, err := in.data(c, s)
 		if err != nil {
 			return err
@@ -82,6 +87,9 @@ func handleCorrect[In input[D], D any, R any](s *Server, r resource[In, D, R]) e
 		}
 		ch, err := change(in.fields())
 		if err != nil {
+			return err
+		}
+		if err := checkOwned(c.Request().Context(), c, r.get, id, ch.BaseRevision, in.fields().ownedFields); err != nil {
 			return err
 		}
 		d, err := in.data(c, s)

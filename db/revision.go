@@ -221,3 +221,6 @@ func noCheck(pgx.Tx) error { return nil }
 
 // RecordID returns the record's id.
 func (m Meta) RecordID() uuid.UUID { return m.ID }
+
+// RecordMeta returns the revision's bookkeeping.
+func (m Meta) RecordMeta() Meta { return m }
