@@ -252,3 +252,9 @@ func signOffsOf(ctx context.Context, q querier, site string) (map[signOffKey]*Si
 	}
 	return m, nil
 }
+
+// RecordSignOff returns the revision's sign-off, nil when unsigned.
+func (p Procedure) RecordSignOff() *SignOff { return p.SignOff }
+
+// RecordSignOff returns the revision's sign-off, nil when unsigned.
+func (q QualificationRecord) RecordSignOff() *SignOff { return q.SignOff }
