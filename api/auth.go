@@ -45,6 +45,11 @@ func (s *Server) requireRole(roles []string) echo.MiddlewareFunc {
 				return echo.NewHTTPError(http.StatusForbidden, "role "+u.Role+" may not do this; allowed: "+strings.Join(roles, ", "))
 			}
 			c.Set(ctxUser, u)
+			release, ok := s.limit.acquire(u.Site + "\x00" + u.Name)
+			if !ok {
+				return s.limit.tooMany()
+			}
+			defer release()
 			return next(c)
 		}
 	}

@@ -112,7 +112,7 @@ func TestConventionStatus(t *testing.T) {
 			map[string]any{"melting_rate_kg_h": 3, "extension_mm": 12}, 400, "lesnewich"},
 		{"ActivationNoReason", http.MethodPost, "/v1/calibrations/" + uuid.NewString() + "/activate", "engineer", map[string]any{}, 400, "reason"},
 		{"NarrowNoBase", http.MethodPost, "/v1/procedures/" + proc + "/ranges/narrow", "engineer",
-			map[string]any{"reason": "tighter", "variables": []any{map[string]any{"variable": "current_a", "max": 300}}}, 400, "base_version"},
+			map[string]any{"reason": "tighter", "variables": []any{map[string]any{"variable": "current_a", "max": 300}}}, 400, "base_revision"},
 
 		{"OutOfBounds", http.MethodPost, "/v1/coupons", "technician", withBad(func(b map[string]any) { b["current_a"] = 5000.0 }), 422, "current_a"},
 		{"NotAllowed", http.MethodPost, "/v1/coupons", "technician", withBad(func(b map[string]any) { b["polarity"] = "DC+" }), 422, "polarity"},
@@ -180,7 +180,7 @@ func TestConventionCreated(t *testing.T) {
 		{"/v1/rule-sets", "engineer", map[string]any{"id": "conv-" + uniq("rs"), "name": "convention test", "process": "GMAW",
 			"rules": []any{map[string]any{"variable": "current_a", "kind": "percent_band", "below_pct": 10, "above_pct": 10}}}},
 		{"/v1/procedures/" + proc + "/ranges", "engineer", map[string]any{"rule_set_id": "structural-style-gmaw"}},
-		{"/v1/procedures/" + proc + "/ranges/narrow", "engineer", map[string]any{"base_version": 2, "reason": "tighter",
+		{"/v1/procedures/" + proc + "/ranges/narrow", "engineer", map[string]any{"base_revision": 2, "reason": "tighter",
 			"variables": []any{map[string]any{"variable": "current_a", "max": 300}}}},
 		{"/v1/production-records", "technician", map[string]any{"records": []any{productionBody(proc, "CR-1", 280)}}},
 	} {
@@ -515,5 +515,47 @@ func TestConventionRoundTrip(t *testing.T) {
 				wantProblem(t, "POST with id", e.do(http.MethodPost, "/v1/coupons", "technician", fresh), http.StatusUnprocessableEntity, "id")
 			}
 		})
+	}
+}
+
+// TestConventionRevision: every numbered state is a revision: records, rule
+// sets and qualified ranges answer `revision`, are read at one with
+// ?revision=N and changed from one with base_revision.
+func TestConventionRevision(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	proc := e.rangedProcedure()
+	coupon := e.mustCoupon(proc)
+	r := e.do(http.MethodPost, "/v1/procedures/"+proc+"/ranges", "engineer", map[string]any{"rule_set_id": "structural-style-gmaw", "rule_set_revision": 1})
+	if r.status != http.StatusCreated || r.header.Get("Location") != "/v1/procedures/"+proc+"/ranges?revision=2" || r.object(t)["revision"] != 2.0 {
+		t.Fatalf("derive again = %d, Location %q, %s; want revision 2 located by ?revision=2", r.status, r.header.Get("Location"), r.body)
+	}
+	narrowed := e.create("/v1/procedures/"+proc+"/ranges/narrow", "engineer", map[string]any{"base_revision": 2, "reason": "shop limit",
+		"variables": []any{map[string]any{"variable": "current_a", "max": 300}}})
+	if narrowed["revision"] != 3.0 || narrowed["rule_set_revision"] != 1.0 {
+		t.Errorf("narrowed ranges: revision %v, rule_set_revision %v; want 3 and 1", narrowed["revision"], narrowed["rule_set_revision"])
+	}
+	e.do(http.MethodPut, "/v1/coupons/"+coupon, "technician", withRevision(e.do(http.MethodGet, "/v1/coupons/"+coupon, "auditor", nil).object(t), 1, "typo"))
+	for _, c := range []struct {
+		path string
+		want float64
+	}{
+		{"/v1/coupons/" + coupon + "?revision=1", 1},
+		{"/v1/coupons/" + coupon, 2},
+		{"/v1/rule-sets/structural-style-gmaw?revision=1", 1},
+		{"/v1/procedures/" + proc + "/ranges?revision=1", 1},
+		{"/v1/procedures/" + proc + "/ranges", 3},
+	} {
+		r := e.do(http.MethodGet, c.path, "auditor", nil)
+		if r.status != http.StatusOK || r.object(t)["revision"] != c.want {
+			t.Errorf("GET %s = %d %s, want revision %v", c.path, r.status, r.body, c.want)
+		}
+	}
+	for _, path := range []string{"/v1/rule-sets/structural-style-gmaw?version=1", "/v1/procedures/" + proc + "/ranges?version=1"} {
+		wantProblem(t, path, e.do(http.MethodGet, path, "auditor", nil), http.StatusBadRequest, "version")
+	}
+	sum := e.do(http.MethodGet, "/v1/procedures/"+proc+"/flag-summary", "auditor", nil).object(t)
+	if sum["ranges_revision"] != 3.0 {
+		t.Errorf("flag summary ranges_revision = %v, want 3", sum["ranges_revision"])
 	}
 }

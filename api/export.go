@@ -3,9 +3,16 @@ package api
 import (
 	"encoding/json"
 	"net/http"
+	"time"
 
 	"github.com/labstack/echo/v4"
 )
+
+// exportWriteWait is how long one write of the export may wait for the
+// client to read. The deadline moves forward as lines go out, so an export
+// of any size completes while the client keeps reading, instead of being cut
+// by the server's total write timeout.
+const exportWriteWait = 30 * time.Second
 
 // exportLine is one line of the NDJSON export.
 type exportLine struct {
@@ -20,8 +27,17 @@ func (s *Server) handleExport(c echo.Context) error {
 	w.Header().Set(echo.HeaderContentType, "application/x-ndjson")
 	w.Header().Set("Content-Disposition", `attachment; filename="etchlog-export.ndjson"`)
 	enc := json.NewEncoder(w)
+	rc := http.NewResponseController(w)
+	var extended time.Time
+	extend := func() {
+		if now := time.Now(); now.Sub(extended) > time.Second {
+			_ = rc.SetWriteDeadline(now.Add(exportWriteWait)) // unsupported by some test writers: then the server's applies
+			extended = now
+		}
+	}
 	started := false
 	sum, err := s.store.Export(c.Request().Context(), actorOf(c).Site, func(kind string, v any) error {
+		extend()
 		if !started {
 			w.WriteHeader(http.StatusOK)
 			started = true
@@ -30,6 +46,10 @@ func (s *Server) handleExport(c echo.Context) error {
 	})
 	if err != nil {
 		if started { // the status is sent; end the stream with an error line the reader sees
+			if c.Request().Context().Err() != nil {
+				s.log.Info("client closed request", "request_id", w.Header().Get(echo.HeaderXRequestID), "path", c.Request().URL.Path)
+				return nil
+			}
 			s.log.Error("export interrupted", "request_id", w.Header().Get(echo.HeaderXRequestID), "err", err)
 			return enc.Encode(exportLine{Kind: "error", Record: "export interrupted; discard this file"})
 		}
@@ -38,5 +58,6 @@ func (s *Server) handleExport(c echo.Context) error {
 	if !started {
 		w.WriteHeader(http.StatusOK)
 	}
+	extend()
 	return enc.Encode(exportLine{Kind: "summary", Record: sum})
 }

@@ -84,8 +84,8 @@ func TestIntegerBounds(t *testing.T) {
 	for _, path := range []string{
 		"/v1/coupons/" + id + "?revision=2147483648",
 		"/v1/coupons/" + id + "?revision=99999999999999999999",
-		"/v1/rule-sets/structural-style-gmaw?version=2147483648",
-		"/v1/procedures/" + e.procedure() + "/ranges?version=4294967296",
+		"/v1/rule-sets/structural-style-gmaw?revision=2147483648",
+		"/v1/procedures/" + e.procedure() + "/ranges?revision=4294967296",
 	} {
 		r := e.do(http.MethodGet, path, "auditor", nil)
 		if r.status != http.StatusBadRequest && r.status != http.StatusUnprocessableEntity {

@@ -44,6 +44,12 @@ func (l *lockedBuffer) String() string {
 // the test may cut it off without disturbing other tests. The server logs at
 // info into the returned buffer.
 func freshEnv(t *testing.T) (*testEnv, string, *pgx.Conn, *lockedBuffer) {
+	return freshEnvWith(t, api.Options{}, nil)
+}
+
+// freshEnvWith is freshEnv with server options and a change to the HTTP
+// server (e.g. its write timeout) made before it starts.
+func freshEnvWith(t *testing.T, opt api.Options, hs func(*http.Server)) (*testEnv, string, *pgx.Conn, *lockedBuffer) {
 	t.Helper()
 	url, name, admin := dbtest.Fresh(t)
 	ctx := context.Background()
@@ -62,11 +68,16 @@ func freshEnv(t *testing.T) (*testEnv, string, *pgx.Conn, *lockedBuffer) {
 	}
 	t.Cleanup(owner.Close)
 	logs := &lockedBuffer{}
-	srv, err := api.New(store, api.Options{Logger: slog.New(slog.NewJSONHandler(logs, nil))})
+	opt.Logger = slog.New(slog.NewJSONHandler(logs, nil))
+	srv, err := api.New(store, opt)
 	if err != nil {
 		t.Fatal(err)
 	}
-	ts := httptest.NewServer(srv)
+	ts := httptest.NewUnstartedServer(srv)
+	if hs != nil {
+		hs(ts.Config)
+	}
+	ts.Start()
 	t.Cleanup(ts.Close)
 	e := &testEnv{t: t, srv: srv, url: ts.URL, store: store, site: "outage", tokens: map[string]string{}, cache: map[string]string{}}
 	for _, role := range []string{db.RoleTechnician, db.RoleEngineer, db.RoleAuditor} {

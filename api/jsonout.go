@@ -54,6 +54,20 @@ func (jsonAnswer) Serialize(c echo.Context, v any, indent string) error {
 	return nil
 }
 
+// writeProblem writes a problem as every answer is written: numbers to
+// answerDigits significant digits, metric (problems name fields as sent).
+func writeProblem(w io.Writer, p any) error {
+	b, err := json.Marshal(p)
+	if err != nil {
+		return err
+	}
+	if r, err := rewriteAnswer(b, false); err == nil {
+		b = r
+	}
+	_, err = w.Write(append(b, '\n'))
+	return err
+}
+
 // roundAnswer rounds v to answerDigits significant digits.
 func roundAnswer(v float64) float64 {
 	if v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {

@@ -34,7 +34,8 @@ func TestRewriteAnswer(t *testing.T) {
 			`{"items":[{"ctwd_in":null,"group":{"wire_diameter_in":0.035}}],"next_cursor":""}`},
 		{"InchPoundInterval", `{"wire_feed_speed_m_min":{"min":2.54,"max":7.62,"min_limit":"x"}}`, true,
 			`{"wire_feed_speed_in_min":{"min":100,"max":300,"min_limit":"x"}}`},
-		{"InchPoundCoefficientsKept", `{"alpha_kg_h_a":0.5,"beta_kg_h_a2_mm":2e-6}`, true, `{"alpha_kg_h_a":0.5,"beta_kg_h_a2_mm":0.000002}`},
+		{"InchPoundCoefficientsKept", `{"alpha_kg_h_a":0.5,"beta_kg_h_a2_mm":2e-6,"k_mm":0.025,"k_std_err_mm":0.001}`, true,
+			`{"alpha_kg_h_a":0.5,"beta_kg_h_a2_mm":0.000002,"k_mm":0.025,"k_std_err_mm":0.001}`},
 		// A flag in °C: value and edges by t_F = 1.8·t_C + 32, the excess (a difference) by 1.8 alone.
 		{"InchPoundFlagCelsius", `{"variable":"preheat_c","unit":"°C","value":5,"min":10,"max":null,"excess":5,"excess_pct":50}`, true,
 			`{"variable":"preheat_f","unit":"°F","value":41,"min":50,"max":null,"excess":9,"excess_pct":50}`},

@@ -360,6 +360,6 @@ func errorHandler(log *slog.Logger) echo.HTTPErrorHandler {
 		}
 		c.Response().Header().Set(echo.HeaderContentType, "application/problem+json")
 		c.Response().WriteHeader(p.Status)
-		_ = json.NewEncoder(c.Response()).Encode(p)
+		_ = writeProblem(c.Response(), p)
 	}
 }

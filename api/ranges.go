@@ -13,7 +13,7 @@ import (
 // deriveIn is the request body of POST /v1/procedures/{id}/ranges.
 type deriveIn struct {
 	RuleSetID      string `json:"rule_set_id"`
-	RuleSetVersion int    `json:"rule_set_version"`
+	RuleSetVersion int    `json:"rule_set_revision"`
 }
 
 // narrowingIn tightens one variable; the variable's spelling gives the unit
@@ -27,7 +27,7 @@ type narrowingIn struct {
 
 // narrowIn is the request body of POST /v1/procedures/{id}/ranges/narrow.
 type narrowIn struct {
-	BaseVersion *int          `json:"base_version"`
+	BaseVersion *int          `json:"base_revision"`
 	Reason      *string       `json:"reason"`
 	Variables   []narrowingIn `json:"variables"`
 }
@@ -37,9 +37,9 @@ func (in narrowIn) narrowings() ([]predict.Narrowing, error) {
 	var issues issues
 	switch {
 	case in.BaseVersion == nil:
-		issues.missing("base_version", "is required: the ranges version this narrowing is based on")
+		issues.missing("base_revision", "is required: the ranges revision this narrowing is based on")
 	case *in.BaseVersion < 1:
-		issues.refused("base_version", fmt.Sprintf("%d is not a version: versions count from 1", *in.BaseVersion))
+		issues.refused("base_revision", fmt.Sprintf("%d is not a revision: revisions count from 1", *in.BaseVersion))
 	}
 	switch {
 	case in.Reason == nil:
@@ -82,7 +82,7 @@ func (s *Server) handleRangesDerive(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	c.Response().Header().Set(echo.HeaderLocation, fmt.Sprintf("/v1/procedures/%s/ranges?version=%d", id, pr.Version))
+	c.Response().Header().Set(echo.HeaderLocation, fmt.Sprintf("/v1/procedures/%s/ranges?revision=%d", id, pr.Version))
 	return c.JSON(http.StatusCreated, pr)
 }
 
@@ -91,7 +91,7 @@ func (s *Server) handleRangesGet(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	ver, err := queryInt(c, "version")
+	ver, err := queryInt(c, "revision")
 	if err != nil {
 		return err
 	}
@@ -119,6 +119,6 @@ func (s *Server) handleRangesNarrow(c echo.Context) error {
 	if err != nil {
 		return listIssue(err)
 	}
-	c.Response().Header().Set(echo.HeaderLocation, fmt.Sprintf("/v1/procedures/%s/ranges?version=%d", id, pr.Version))
+	c.Response().Header().Set(echo.HeaderLocation, fmt.Sprintf("/v1/procedures/%s/ranges?revision=%d", id, pr.Version))
 	return c.JSON(http.StatusCreated, pr)
 }

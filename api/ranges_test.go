@@ -18,8 +18,8 @@ func (e *testEnv) rangedProcedure() string {
 	pqr := e.mustQualificationRecord()
 	proc := e.create("/v1/procedures", "engineer", procedureBody(uniq("WPS"), pqr))["id"].(string)
 	r := e.create("/v1/procedures/"+proc+"/ranges", "engineer", map[string]any{"rule_set_id": "structural-style-gmaw"})
-	if r["version"] != 1.0 {
-		e.t.Fatalf("derived ranges version = %v, want 1", r["version"])
+	if r["revision"] != 1.0 {
+		e.t.Fatalf("derived ranges version = %v, want 1", r["revision"])
 	}
 	return proc
 }
@@ -77,10 +77,10 @@ func TestNarrowInInchesThroughAPI(t *testing.T) {
 	proc := e.rangedProcedure()
 	path := "/v1/procedures/" + proc + "/ranges/narrow"
 	// The structural-style set has no CTWD rule: a 0.5–0.75 in limit is 12.7–19.05 mm.
-	body := map[string]any{"base_version": 1, "reason": "shop practice", "variables": []any{
+	body := map[string]any{"base_revision": 1, "reason": "shop practice", "variables": []any{
 		map[string]any{"variable": "ctwd_in", "min": 0.5, "max": 0.75}}}
-	if r := e.create(path, "engineer", body); r["version"] != 2.0 {
-		t.Fatalf("narrowed version = %v, want 2", r["version"])
+	if r := e.create(path, "engineer", body); r["revision"] != 2.0 {
+		t.Fatalf("narrowed version = %v, want 2", r["revision"])
 	}
 	batch := []any{}
 	for i, ctwd := range []float64{12.7, 19.05, 19.06, 12.69} { // edge, edge, just outside, just outside
@@ -101,17 +101,17 @@ func TestNarrowInInchesThroughAPI(t *testing.T) {
 		status int
 		field  string
 	}{
-		{"Widens", map[string]any{"base_version": 2, "reason": "r", "variables": []any{map[string]any{"variable": "current_a", "max": 320}}}, 422, "variables[0].max"},
-		{"Stale", map[string]any{"base_version": 1, "reason": "r", "variables": []any{map[string]any{"variable": "current_a", "max": 300}}}, 409, ""},
-		{"UnknownVariable", map[string]any{"base_version": 2, "reason": "r", "variables": []any{map[string]any{"variable": "stickout_in", "max": 1}}}, 422, "variables[0].variable"},
-		{"NoReason", map[string]any{"base_version": 2, "reason": "", "variables": []any{map[string]any{"variable": "current_a", "max": 300}}}, 422, "reason"},
+		{"Widens", map[string]any{"base_revision": 2, "reason": "r", "variables": []any{map[string]any{"variable": "current_a", "max": 320}}}, 422, "variables[0].max"},
+		{"Stale", map[string]any{"base_revision": 1, "reason": "r", "variables": []any{map[string]any{"variable": "current_a", "max": 300}}}, 409, ""},
+		{"UnknownVariable", map[string]any{"base_revision": 2, "reason": "r", "variables": []any{map[string]any{"variable": "stickout_in", "max": 1}}}, 422, "variables[0].variable"},
+		{"NoReason", map[string]any{"base_revision": 2, "reason": "", "variables": []any{map[string]any{"variable": "current_a", "max": 300}}}, 422, "reason"},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			wantProblem(t, c.name, e.do(http.MethodPost, path, "engineer", c.body), c.status, c.field)
 		})
 	}
 	wantProblem(t, "technician narrows", e.do(http.MethodPost, path, "technician", body), http.StatusForbidden, "")
-	if v := e.do(http.MethodGet, "/v1/procedures/"+proc+"/ranges", "auditor", nil).object(t)["version"]; v != 2.0 {
+	if v := e.do(http.MethodGet, "/v1/procedures/"+proc+"/ranges", "auditor", nil).object(t)["revision"]; v != 2.0 {
 		t.Errorf("ranges version after refused narrowings = %v, want 2", v)
 	}
 }
@@ -164,10 +164,10 @@ func TestRuleSetsAPI(t *testing.T) {
 		map[string]any{"variable": "preheat_f", "kind": "absolute_band", "below": 25}}}
 	rs := e.create("/v1/rule-sets", "engineer", body)
 	rule := rs["rules"].([]any)[0].(map[string]any)
-	if rule["variable"] != "preheat_c" || rule["below"] != answered(125.0/9) || rs["version"] != 1.0 {
-		t.Errorf("stored rule = %v (version %v), want preheat_c below 13.889 °C, version 1", rule, rs["version"])
+	if rule["variable"] != "preheat_c" || rule["below"] != answered(125.0/9) || rs["revision"] != 1.0 {
+		t.Errorf("stored rule = %v (version %v), want preheat_c below 13.889 °C, version 1", rule, rs["revision"])
 	}
-	if v := e.do(http.MethodGet, "/v1/rule-sets/shop-gmaw", "technician", nil).object(t)["version"]; v != 1.0 {
+	if v := e.do(http.MethodGet, "/v1/rule-sets/shop-gmaw", "technician", nil).object(t)["revision"]; v != 1.0 {
 		t.Errorf("GET rule set version = %v, want 1", v)
 	}
 	body["rules"] = []any{map[string]any{"variable": "preheat_c", "kind": "percent_band", "below_pct": 10}}

@@ -86,7 +86,7 @@ func (s *Server) handleRuleSetCreate(c echo.Context) error {
 	if err != nil {
 		return listIssue(err)
 	}
-	c.Response().Header().Set(echo.HeaderLocation, fmt.Sprintf("/v1/rule-sets/%s?version=%d", rs.RuleSetID, rs.Version))
+	c.Response().Header().Set(echo.HeaderLocation, fmt.Sprintf("/v1/rule-sets/%s?revision=%d", rs.RuleSetID, rs.Version))
 	return c.JSON(http.StatusCreated, rs)
 }
 
@@ -99,7 +99,7 @@ func (s *Server) handleRuleSetList(c echo.Context) error {
 }
 
 func (s *Server) handleRuleSetGet(c echo.Context) error {
-	ver, err := queryInt(c, "version")
+	ver, err := queryInt(c, "revision")
 	if err != nil {
 		return err
 	}

@@ -20,6 +20,7 @@ import (
 type Options struct {
 	Logger    *slog.Logger
 	BodyLimit string // e.g. "1MiB" (1,048,576 bytes; "1M" would be 10^6); requests above it get 413
+	PerUser   int    // requests one user may have running at once (0: DefaultPerUser); more get 429
 }
 
 // Server serves etchlog's API over a Store.
@@ -29,6 +30,7 @@ type Server struct {
 	validate *validator.Validate
 	spec     *openapi3.T
 	echo     *echo.Echo
+	limit    *userLimiter
 }
 
 // New builds the server and registers every route. It fails when a route has
@@ -40,13 +42,16 @@ func New(store *db.Store, opt Options) (*Server, error) {
 	if opt.BodyLimit == "" {
 		opt.BodyLimit = "1MiB"
 	}
+	if opt.PerUser <= 0 {
+		opt.PerUser = DefaultPerUser
+	}
 	spec, err := loadSpec()
 	if err != nil {
 		return nil, err
 	}
 	e := echo.New()
 	e.HideBanner, e.HidePort = true, true
-	s := &Server{store: store, log: opt.Logger, validate: newValidator(), spec: spec, echo: e}
+	s := &Server{store: store, log: opt.Logger, validate: newValidator(), spec: spec, echo: e, limit: newUserLimiter(opt.PerUser)}
 	e.HTTPErrorHandler = errorHandler(opt.Logger)
 	e.JSONSerializer = jsonAnswer{}
 	e.Use(middleware.RequestID())

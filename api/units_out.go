@@ -60,9 +60,10 @@ var outUnits = map[string]struct {
 }
 
 // spellingOf finds the metric suffix of a field name. Model coefficients
-// (alpha_…, beta_…) keep their own units.
+// (alpha_…, beta_…, Jackson's k_…) keep their own units: their inch-pound
+// forms are not a change of one length or rate.
 func spellingOf(key string) (outSpelling, bool) {
-	if strings.HasPrefix(key, "alpha_") || strings.HasPrefix(key, "beta_") {
+	if strings.HasPrefix(key, "alpha_") || strings.HasPrefix(key, "beta_") || strings.HasPrefix(key, "k_") {
 		return outSpelling{}, false
 	}
 	for _, s := range outSpellings {

@@ -26,7 +26,7 @@ var inchPound = []struct {
 
 // inchTwin returns a metric field's inch-pound name and conversion.
 func inchTwin(key string) (string, func(float64) float64, bool) {
-	if strings.HasPrefix(key, "alpha_") || strings.HasPrefix(key, "beta_") {
+	if strings.HasPrefix(key, "alpha_") || strings.HasPrefix(key, "beta_") || strings.HasPrefix(key, "k_") {
 		return "", nil, false
 	}
 	for _, s := range inchPound {

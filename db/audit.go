@@ -99,7 +99,7 @@ var auditedTables = []table{procedures, qualificationRecords, coupons, measureme
 // shows up as a broken link, a changed payload, or a revision with no event.
 func (s *Store) VerifyAudit(ctx context.Context, site string) (Verification, error) {
 	v := Verification{At: s.now(), Problems: []string{}}
-	rows, err := s.pool.Query(ctx, `
+	rows, err := s.long.Query(ctx, `
 		SELECT seq, prev_hash, hash,
 		       etchlog_audit_hash(prev_hash, seq, at, actor, action, entity, entity_id, revision, reason, payload)
 		FROM audit_events WHERE site = $1 ORDER BY seq`, site)
@@ -131,7 +131,7 @@ func (s *Store) VerifyAudit(ctx context.Context, site string) (Verification, err
 		return v, err
 	}
 	for _, t := range auditedTables {
-		rows, err := s.pool.Query(ctx, `
+		rows, err := s.long.Query(ctx, `
 			SELECT coalesce(r.id, e.entity_id), coalesce(r.revision, e.revision),
 			       r.id IS NULL, e.seq IS NULL, coalesce(to_jsonb(r) = e.payload, false)
 			FROM (SELECT * FROM `+t.name+` WHERE site = $1) r

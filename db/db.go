@@ -64,8 +64,13 @@ func (e *DuplicateError) Is(target error) bool { return target == ErrConflict }
 // Store is the PostgreSQL-backed record store.
 type Store struct {
 	pool *pgxpool.Pool
+	long *pgxpool.Pool // long reads (export, audit verify): a pool of their own, so they cannot starve writes
 	now  func() time.Time
 }
+
+// LongReadConns is how many connections long reads (export, audit verify)
+// share; more of them wait for one, while writes keep the main pool.
+const LongReadConns = 2
 
 // Open connects the service to the database at url and checks that it
 // answers. It refuses a login that is a superuser or can act as the tables'
@@ -104,11 +109,22 @@ func open(ctx context.Context, url, role string, unprivileged bool) (*Store, err
 			return nil, fmt.Errorf("db: open: %w", err)
 		}
 	}
-	return &Store{pool: pool, now: func() time.Time { return time.Now().UTC().Truncate(time.Microsecond) }}, nil
+	lcfg := cfg.Copy()
+	lcfg.MaxConns = LongReadConns
+	lcfg.MinConns = 0
+	long, err := pgxpool.NewWithConfig(ctx, lcfg)
+	if err != nil {
+		pool.Close()
+		return nil, fmt.Errorf("db: connect: %w", err)
+	}
+	return &Store{pool: pool, long: long, now: func() time.Time { return time.Now().UTC().Truncate(time.Microsecond) }}, nil
 }
 
 // Close releases every connection.
-func (s *Store) Close() { s.pool.Close() }
+func (s *Store) Close() {
+	s.pool.Close()
+	s.long.Close()
+}
 
 // Pool exposes the connection pool for benchmarks that compare against raw inserts.
 func (s *Store) Pool() *pgxpool.Pool { return s.pool }

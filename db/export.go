@@ -31,7 +31,7 @@ type exportedEvent struct {
 // to emit, inside one repeatable-read snapshot so the parts agree.
 func (s *Store) Export(ctx context.Context, site string, emit func(kind string, v any) error) (ExportSummary, error) {
 	var sum ExportSummary
-	tx, err := s.pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
+	tx, err := s.long.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 	if err != nil {
 		return sum, fmt.Errorf("db: export: %w", err)
 	}

@@ -27,7 +27,7 @@ type Flag struct {
 	SubjectID     uuid.UUID `db:"subject_id" json:"subject_id"`
 	SubjectAt     time.Time `db:"subject_at" json:"subject_at"`
 	ProcedureID   uuid.UUID `db:"procedure_id" json:"procedure_id"`
-	RangesVersion int       `db:"ranges_version" json:"ranges_version"`
+	RangesVersion int       `db:"ranges_version" json:"ranges_revision"`
 	Kind          string    `db:"kind" json:"kind"`
 	Variable      string    `db:"variable" json:"variable"`
 	Unit          string    `db:"unit" json:"unit,omitempty"`

@@ -107,7 +107,7 @@ type FlagCount struct {
 // (requirement flags first: they are findings, the rest estimates), and how many coupons and production records carry at least one.
 type FlagSummary struct {
 	ProcedureID           uuid.UUID   `json:"procedure_id"`
-	RangesVersion         *int        `json:"ranges_version,omitempty"`
+	RangesVersion         *int        `json:"ranges_revision,omitempty"`
 	Total                 int         `json:"total"`
 	FlaggedCoupons        int         `json:"flagged_coupons"`
 	FlaggedProductionRecs int         `json:"flagged_production_records"`

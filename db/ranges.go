@@ -21,11 +21,11 @@ type ProcedureRanges struct {
 	Site              string                  `db:"site" json:"-"`
 	ProcedureID       uuid.UUID               `db:"procedure_id" json:"procedure_id"`
 	ProcedureRevision int                     `db:"procedure_revision" json:"procedure_revision"`
-	Version           int                     `db:"version" json:"version"`
+	Version           int                     `db:"version" json:"revision"`
 	Action            string                  `db:"action" json:"action"`
 	RuleSetSite       string                  `db:"rule_set_site" json:"-"`
 	RuleSetID         string                  `db:"rule_set_id" json:"rule_set_id"`
-	RuleSetVersion    int                     `db:"rule_set_version" json:"rule_set_version"`
+	RuleSetVersion    int                     `db:"rule_set_version" json:"rule_set_revision"`
 	Reason            string                  `db:"reason" json:"reason"`
 	Ranges            predict.QualifiedRanges `db:"ranges" json:"ranges"`
 	CreatedAt         time.Time               `db:"created_at" json:"created_at"`

@@ -33,7 +33,7 @@ type RuleSetData struct {
 type RuleSet struct {
 	RowID     uuid.UUID `db:"id" json:"-"`
 	Site      string    `db:"site" json:"-"`
-	Version   int       `db:"version" json:"version"`
+	Version   int       `db:"version" json:"revision"`
 	BuiltIn   bool      `db:"built_in" json:"built_in"`
 	CreatedAt time.Time `db:"created_at" json:"created_at"`
 	CreatedBy string    `db:"created_by" json:"created_by"`

@@ -166,34 +166,15 @@ type VariableSpelling struct {
 	Delta    func(float64) float64
 }
 
-// alternateSpellings maps the accepted non-stored spellings to their
-// variable and conversions (exact factors, NIST SP 811: 1 in = 25.4 mm).
-var alternateSpellings = map[string]VariableSpelling{
-	"ctwd_in":                {VarCTWD, InchToMM, InchToMM},
-	"wire_diameter_in":       {VarWireDiameter, InchToMM, InchToMM},
-	"thickness_in":           {VarThickness, InchToMM, InchToMM},
-	"travel_speed_in_min":    {VarTravelSpeed, InPerMinToMMPerS, InPerMinToMMPerS},
-	"travel_speed_mm_min":    {VarTravelSpeed, MMPerMinToMMPerS, MMPerMinToMMPerS},
-	"wire_feed_speed_in_min": {VarWireFeedSpeed, InPerMinToMPerMin, InPerMinToMPerMin},
-	"preheat_f":              {VarPreheat, FahrenheitToCelsius, fahrenheitDelta},
-	"interpass_f":            {VarInterpass, FahrenheitToCelsius, fahrenheitDelta},
-	"heat_input_kj_mm":       {VarHeatInput, KJPerMMToJPerMM, KJPerMMToJPerMM},
-	"heat_input_j_in":        {VarHeatInput, JPerInToJPerMM, JPerInToJPerMM},
-	"heat_input_kj_in":       {VarHeatInput, kJPerInToJPerMM, kJPerInToJPerMM},
-}
-
-// fahrenheitDelta converts a temperature difference in °F to °C (×5/9).
-func fahrenheitDelta(d float64) float64 { return d * 5 / 9 }
-
-// kJPerInToJPerMM converts a heat input in kJ/in to J/mm.
-func kJPerInToJPerMM(v float64) float64 { return KJPerMMToJPerMM(KJPerInToKJPerMM(v)) }
-
 // ParseVariable resolves a variable name as a request gives it: a stored
 // name (current_a, ctwd_mm...) or an accepted alternate spelling (ctwd_in,
 // preheat_f, heat_input_kj_in...). It reports false for an unknown name.
 func ParseVariable(name string) (VariableSpelling, bool) {
-	if s, ok := alternateSpellings[name]; ok {
-		return s, true
+	if q, ok := LookupQuantity(name); ok {
+		if _, _, known := Variable(q.Name).info(); known {
+			s, _ := q.Spelling(name)
+			return VariableSpelling{Variable(q.Name), s.ToStored, s.DifferenceToStored}, true
+		}
 	}
 	if _, _, ok := Variable(name).info(); ok {
 		return VariableSpelling{Variable(name), identity, identity}, true

@@ -24,6 +24,17 @@ type Spelling struct {
 	FromStored func(float64) float64
 }
 
+// DifferenceToStored converts a difference of two values (a band's width)
+// into the stored unit. Every conversion is proportional except the
+// Fahrenheit scale's, whose offset a difference does not carry: 25 °F of
+// difference is 25·5/9 °C, while a reading of 25 °F is −3.9 °C.
+func (s Spelling) DifferenceToStored(d float64) float64 {
+	if s.Unit == "°F" {
+		return d * 5 / 9
+	}
+	return s.ToStored(d)
+}
+
 // Measure is a kind of physical quantity: its stored spelling and the other
 // spellings a request may use for it.
 type Measure struct {

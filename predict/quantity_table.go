@@ -21,6 +21,7 @@ var (
 		Others: []Spelling{{"_lb_h", "lb/h", LbPerHToKgPerH, KgPerHToLbPerH}}}
 	heatInput = Measure{Stored: Spelling{"_j_mm", "J/mm", identity, identity},
 		Others: []Spelling{{"_kj_mm", "kJ/mm", KJPerMMToJPerMM, JPerMMToKJPerMM},
+			{"_j_in", "J/in", JPerInToJPerMM, JPerMMToJPerIn},
 			{"_kj_in", "kJ/in", func(v float64) float64 { return KJPerMMToJPerMM(KJPerInToKJPerMM(v)) },
 				func(v float64) float64 { return KJPerMMToKJPerIn(JPerMMToKJPerMM(v)) }}}}
 	// Lesnewich coefficients: α in kg/(h·A), β in kg/(h·A²·mm).
@@ -96,6 +97,7 @@ var quantities = []Quantity{
 	named("waveform_power_ratio", Quantity{Measure: plain, Min: 0, MinOpen: true, Max: 10},
 		"Measured average instantaneous power / (mean V × mean I)"),
 	named("max_heat_input", positiveHeat, "Largest heat input allowed"),
+	named("heat_input", positiveHeat, "Heat input as arc energy V·I/S"),
 	named("level", Quantity{Measure: plain, Min: 0, MinOpen: true, Max: 1, MaxOpen: true}, "Confidence level of intervals"),
 	named("alpha", Quantity{Measure: alphaPerA, Min: 0, Max: infinity}, "Lesnewich α, the arc-heating term"),
 	named("beta", Quantity{Measure: betaPerA2, Min: 0, Max: infinity}, "Lesnewich β, the resistive-heating term"),

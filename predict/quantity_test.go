@@ -139,3 +139,29 @@ func TestRegistryComplete(t *testing.T) {
 		}
 	}
 }
+
+// TestQuantityDifferences checks that every conversion but Fahrenheit's is
+// proportional, so a difference converts like a value, and that a
+// Fahrenheit difference drops the 32 °F offset (NIST SP 811 B.8: a
+// temperature interval of 1 °F = 5/9 K).
+func TestQuantityDifferences(t *testing.T) {
+	for _, q := range predict.Quantities() {
+		for _, n := range q.Spellings() {
+			s, _ := q.Spelling(n)
+			if s.Unit == "°F" {
+				checkRel(t, n+" difference of 45", s.DifferenceToStored(45), 25, 1e-15)
+				continue
+			}
+			if s.ToStored(0) != 0 || s.DifferenceToStored(7) != s.ToStored(7) {
+				t.Errorf("%s: conversion is not proportional (0 → %v)", n, s.ToStored(0))
+			}
+		}
+	}
+	for name, want := range map[string]float64{"heat_input_kj_in": 1000 / 25.4, "heat_input_j_in": 1 / 25.4, "heat_input_kj_mm": 1000} {
+		sp, ok := predict.ParseVariable(name)
+		if !ok || sp.Variable != predict.VarHeatInput {
+			t.Fatalf("ParseVariable(%q) = %v, %v", name, sp.Variable, ok)
+		}
+		checkRel(t, name+" of 1", sp.Value(1), want, 1e-15) // 1 in = 25.4 mm, 1 kJ = 1000 J
+	}
+}

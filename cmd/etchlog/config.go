@@ -11,6 +11,7 @@ import (
 	"net/url"
 	"strings"
 
+	"etchlog/api"
 	"etchlog/cmd/etchlog/localpg"
 	"etchlog/db"
 )
@@ -24,11 +25,12 @@ type config struct {
 	OwnerURL  string
 	LogLevel  string
 	BodyLimit string
+	PerUser   int
 }
 
 // defaults fills the configuration from the environment.
 func defaults(getenv func(string) string) config {
-	c := config{Addr: "127.0.0.1:8080", LogLevel: "info", BodyLimit: "1MiB", DatabaseURL: getenv("DATABASE_URL"),
+	c := config{Addr: "127.0.0.1:8080", LogLevel: "info", BodyLimit: "1MiB", PerUser: api.DefaultPerUser, DatabaseURL: getenv("DATABASE_URL"),
 		OwnerURL: getenv("ETCHLOG_OWNER_DATABASE_URL")}
 	if v := getenv("ETCHLOG_ADDR"); v != "" {
 		c.Addr = v
@@ -52,6 +54,7 @@ func (c *config) serverFlags(fs *flag.FlagSet) {
 	fs.StringVar(&c.Addr, "addr", c.Addr, "listen address (env ETCHLOG_ADDR)")
 	fs.StringVar(&c.LogLevel, "log-level", c.LogLevel, "debug, info, warn or error (env ETCHLOG_LOG_LEVEL)")
 	fs.StringVar(&c.BodyLimit, "body-limit", c.BodyLimit, "largest request body, e.g. 1MiB (binary) or 1M (10^6 bytes)")
+	fs.IntVar(&c.PerUser, "per-user", c.PerUser, "requests one user may have running at once; more get 429")
 }
 
 // validate checks the configuration before anything is opened.

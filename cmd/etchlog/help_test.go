@@ -13,7 +13,7 @@ import (
 // stdout naming the command, and it lists exactly the command's own flags.
 func TestHelp(t *testing.T) {
 	t.Parallel()
-	server := []string{"addr", "body-limit", "database-url", "log-level", "owner-database-url"}
+	server := []string{"addr", "body-limit", "database-url", "log-level", "owner-database-url", "per-user"}
 	flagLine := regexp.MustCompile(`(?m)^  -(\S+)`)
 	for _, c := range []struct {
 		args  []string

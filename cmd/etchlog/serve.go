@@ -36,7 +36,7 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 // serve runs the HTTP server until ctx ends, then drains it for up to 10 s.
 // ready is called with the base URL once the listener is open.
 func serve(ctx context.Context, c config, store *db.Store, log *slog.Logger, ready func(base string)) error {
-	srv, err := api.New(store, api.Options{Logger: log, BodyLimit: c.BodyLimit})
+	srv, err := api.New(store, api.Options{Logger: log, BodyLimit: c.BodyLimit, PerUser: c.PerUser})
 	if err != nil {
 		return err
 	}
