@@ -4,20 +4,27 @@ import (
 	"bufio"
 	"bytes"
 	"crypto/sha256"
+	"encoding/base64"
+	"encoding/binary"
 	"encoding/json"
 	"net/http"
 	"strconv"
 	"strings"
 	"testing"
-	"time"
+
+	"golang.org/x/mod/sumdb/note"
+
+	"etchlog/db/dbtest"
 )
 
-// TestExportRecomputesChain exports a site and recomputes its audit chain
-// from the file alone, with crypto/sha256 and the construction the API
-// description publishes: SHA-256 over the previous hash followed by seq, time
-// (epoch microseconds), actor, action, entity, entity id, revision, reason and
-// payload joined by U+001F. The last hash must equal the summary's chain head.
-func TestExportRecomputesChain(t *testing.T) {
+// TestExportRecomputesLog exports a site and recomputes its log from the file
+// alone, with crypto/sha256 and the constructions the README publishes: each
+// leaf's data is the length-prefixed encoding of its fact, its hash
+// SHA-256(0x00 || data), and the root the Merkle Tree Hash of RFC 9162
+// section 2.1.1, written out here by its recursive definition. The root
+// must be the one the export's checkpoint signs (signature checked with the
+// test key through golang.org/x/mod/sumdb/note).
+func TestExportRecomputesLog(t *testing.T) {
 	t.Parallel()
 	e := newEnv(t)
 	coupon := e.coupon()
@@ -28,17 +35,19 @@ func TestExportRecomputesChain(t *testing.T) {
 	if r := e.do(http.MethodPost, "/v1/coupons/"+id+"/void", "technician", map[string]any{"base_revision": 1, "reason": "export test"}); r.status != http.StatusOK {
 		t.Fatalf("void: status %d: %s", r.status, r.body)
 	}
+	e.do(http.MethodGet, "/v1/coupons", "auditor", nil) // a fresh list waits until the writes are logged
 
 	r := e.do(http.MethodGet, "/v1/export", "auditor", nil)
 	if r.status != http.StatusOK || !strings.HasPrefix(r.header.Get("Content-Type"), "application/x-ndjson") {
 		t.Fatalf("export: status %d, content type %q", r.status, r.header.Get("Content-Type"))
 	}
 	kinds := map[string]int{}
-	prev := make([]byte, 32)
+	var leaves [][]byte
+	var cpNote string
 	var summary struct {
-		Records   int64  `json:"record_revisions"`
-		Events    int64  `json:"audit_events"`
-		ChainHead []byte `json:"chain_head"`
+		Records        int64 `json:"record_revisions"`
+		Leaves         int64 `json:"leaves"`
+		CheckpointSize int64 `json:"checkpoint_size"`
 	}
 	sc := bufio.NewScanner(bytes.NewReader(r.body))
 	sc.Buffer(make([]byte, 1<<20), 1<<20)
@@ -52,30 +61,42 @@ func TestExportRecomputesChain(t *testing.T) {
 		}
 		kinds[line.Kind]++
 		switch line.Kind {
-		case "audit_event":
-			var ev struct {
-				Seq      int64     `json:"seq"`
-				At       time.Time `json:"at"`
-				Actor    string    `json:"actor"`
-				Action   string    `json:"action"`
-				Entity   string    `json:"entity"`
-				EntityID string    `json:"entity_id"`
-				Revision int       `json:"revision"`
-				Reason   string    `json:"reason"`
-				Payload  string    `json:"payload_text"`
-				PrevHash []byte    `json:"prev_hash"`
-				Hash     []byte    `json:"hash"`
+		case "leaf":
+			var l struct {
+				Index    int          `json:"index"`
+				Kind     string       `json:"fact_kind"`
+				Version  int          `json:"version"`
+				Fields   [][2]*string `json:"fields"`
+				LeafHash []byte       `json:"leaf_hash"`
 			}
-			if err := json.Unmarshal(line.Record, &ev); err != nil {
+			if err := json.Unmarshal(line.Record, &l); err != nil {
 				t.Fatal(err)
 			}
-			text := strings.Join([]string{strconv.FormatInt(ev.Seq, 10), strconv.FormatInt(ev.At.UnixMicro(), 10),
-				ev.Actor, ev.Action, ev.Entity, ev.EntityID, strconv.Itoa(ev.Revision), ev.Reason, ev.Payload}, "\x1f")
-			sum := sha256.Sum256(append(append([]byte{}, prev...), text...))
-			if !bytes.Equal(ev.PrevHash, prev) || !bytes.Equal(ev.Hash, sum[:]) {
-				t.Fatalf("event %d: recomputed hash %x, file says %x (prev link ok: %v)", ev.Seq, sum, ev.Hash, bytes.Equal(ev.PrevHash, prev))
+			str := func(b []byte, s string) []byte { return append(binary.BigEndian.AppendUint32(b, uint32(len(s))), s...) }
+			data := str(str(str(nil, "etchlog fact"), l.Kind), strconv.Itoa(l.Version))
+			data = binary.BigEndian.AppendUint32(data, uint32(len(l.Fields)))
+			for _, f := range l.Fields {
+				data = str(data, *f[0])
+				if f[1] == nil {
+					data = binary.BigEndian.AppendUint32(data, 0xFFFFFFFF)
+				} else {
+					data = str(data, *f[1])
+				}
 			}
-			prev = ev.Hash
+			h := sha256.Sum256(append([]byte{0}, data...))
+			if l.Index != len(leaves) || !bytes.Equal(h[:], l.LeafHash) {
+				t.Fatalf("leaf %d (position %d): recomputed hash %x, file says %x", l.Index, len(leaves), h, l.LeafHash)
+			}
+			leaves = append(leaves, h[:])
+			kinds["leaf/"+l.Kind]++
+		case "checkpoint":
+			var cp struct {
+				Note string `json:"note"`
+			}
+			if err := json.Unmarshal(line.Record, &cp); err != nil {
+				t.Fatal(err)
+			}
+			cpNote = cp.Note
 		case "summary":
 			if err := json.Unmarshal(line.Record, &summary); err != nil {
 				t.Fatal(err)
@@ -83,15 +104,47 @@ func TestExportRecomputesChain(t *testing.T) {
 		}
 	}
 	// Fixture writes: PQR + procedure (shared), two coupons (one voided: 2 revisions), one measurement.
-	for kind, want := range map[string]int{"procedure": 1, "coupon": 3, "measurement": 1, "summary": 1} {
+	for kind, want := range map[string]int{"procedure": 1, "coupon": 3, "measurement": 1, "summary": 1, "export": 1, "checkpoint": 1,
+		"leaf/procedure": 1, "leaf/coupon": 3, "leaf/measurement": 1} {
 		if kinds[kind] != want {
 			t.Errorf("export has %d %s line(s), want %d (all kinds: %v)", kinds[kind], kind, kinds[kind], kinds)
 		}
 	}
-	if int64(kinds["audit_event"]) != summary.Events || summary.Events == 0 {
-		t.Errorf("summary says %d events, file has %d", summary.Events, kinds["audit_event"])
+	if int64(len(leaves)) != summary.Leaves || summary.Leaves != summary.CheckpointSize {
+		t.Errorf("summary says %d leaves and checkpoint size %d, file has %d", summary.Leaves, summary.CheckpointSize, len(leaves))
 	}
-	if !bytes.Equal(summary.ChainHead, prev) {
-		t.Errorf("summary chain head %x, recomputed %x", summary.ChainHead, prev)
+	v, err := note.NewVerifier(dbtest.PublicKey)
+	if err != nil {
+		t.Fatal(err)
 	}
+	n, err := note.Open([]byte(cpNote), note.VerifierList(v))
+	if err != nil {
+		t.Fatalf("checkpoint signature: %v", err)
+	}
+	lines := strings.Split(n.Text, "\n")
+	if len(lines) < 3 || lines[1] != strconv.Itoa(len(leaves)) {
+		t.Fatalf("checkpoint text %q, want origin, size %d, root", n.Text, len(leaves))
+	}
+	if got := base64.StdEncoding.EncodeToString(mth(leaves)); got != lines[2] {
+		t.Errorf("recomputed root %s, the signed checkpoint says %s", got, lines[2])
+	}
+}
+
+// mth is the Merkle Tree Hash of RFC 9162 section 2.1.1 over leaf hashes:
+// for n > 1, k is the largest power of two below n and
+// MTH(D[n]) = SHA-256(0x01 || MTH(D[0:k]) || MTH(D[k:n])).
+func mth(leaves [][]byte) []byte {
+	switch len(leaves) {
+	case 0:
+		h := sha256.Sum256(nil)
+		return h[:]
+	case 1:
+		return leaves[0]
+	}
+	k := 1
+	for k*2 < len(leaves) {
+		k *= 2
+	}
+	h := sha256.Sum256(append(append([]byte{1}, mth(leaves[:k])...), mth(leaves[k:])...))
+	return h[:]
 }

@@ -78,7 +78,7 @@ func TestFailedWritesLeaveNothing(t *testing.T) {
 		t.Errorf("failed writes changed the site (-before +after):\n%s", d)
 	}
 	v := e.do(http.MethodGet, "/v1/audit/verify", "auditor", nil).object(t)
-	if v["ok"] != true || v["events_checked"] != float64(len(before.Events)) {
+	if v["ok"] != true || v["leaves_checked"] != float64(len(before.Events)) {
 		t.Errorf("GET /v1/audit/verify = %v, want ok over %d events", v, len(before.Events))
 	}
 }

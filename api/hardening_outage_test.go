@@ -67,6 +67,14 @@ func freshEnvWith(t *testing.T, opt api.Options, hs func(*http.Server)) (*testEn
 		t.Fatal(err)
 	}
 	t.Cleanup(owner.Close)
+	for _, s := range []*db.Store{store, owner} {
+		if err := s.SetLogKey(dbtest.PrivateKey); err != nil {
+			t.Fatal(err)
+		}
+	}
+	seqCtx, stopSeq := context.WithCancel(context.Background())
+	go store.RunSequencer(seqCtx, db.SequencerOptions{Retry: 100 * time.Millisecond}) //nolint:errcheck // ends with the test
+	t.Cleanup(stopSeq)
 	logs := &lockedBuffer{}
 	opt.Logger = slog.New(slog.NewJSONHandler(logs, nil))
 	srv, err := api.New(store, opt)

@@ -19,7 +19,7 @@ func TestPaginationWhileAdding(t *testing.T) {
 		key        string // the field that identifies an item
 	}{
 		{"Coupons", "/v1/coupons", "id"},
-		{"AuditEvents", "/v1/audit/events?entity=coupon", "seq"},
+		{"AuditEvents", "/v1/audit/events?entity=coupon", "index"},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			t.Parallel()
@@ -83,6 +83,9 @@ func TestPaginationWhileAdding(t *testing.T) {
 				}
 				next, _ := r.object(t)["next_cursor"].(string)
 				if next == "" {
+					t.Fatalf("page %d has no next_cursor; every page must carry one", pages)
+				}
+				if len(items) < 7 { // a short page: the end of what is logged now
 					break
 				}
 				cursor = next
@@ -120,12 +123,16 @@ func listAll(t *testing.T, e *testEnv, list, key string, size int) map[string]bo
 	cursor := ""
 	for {
 		r := e.do(http.MethodGet, withQuery(list, "limit", fmt.Sprint(size), "cursor", cursor), "auditor", nil)
-		for _, it := range r.items(t) {
+		items := r.items(t)
+		for _, it := range items {
 			out[fmt.Sprint(it[key])] = true
 		}
 		next, _ := r.object(t)["next_cursor"].(string)
-		if next == "" {
+		if len(items) < size {
 			return out
+		}
+		if next == "" {
+			t.Fatalf("%s: a full page without next_cursor", list)
 		}
 		cursor = next
 	}

@@ -86,19 +86,21 @@ func TestRevisions(t *testing.T) {
 	}
 }
 
-// checkAuditTrail compares a record's audit events with the actions,
-// reasons and actors expected, in order, with revisions 1, 2, 3...
+// checkAuditTrail compares a record's log entries with the actions,
+// reasons and actors expected, in order, with revisions 1, 2, 3..., and
+// checks each revision's inclusion proof against the signed checkpoint's
+// root with the RFC 9162 verifier of github.com/transparency-dev/merkle.
 func checkAuditTrail(t *testing.T, e *testEnv, id string, actions, reasons, actors []string) {
 	t.Helper()
 	var got, want []map[string]any
 	for _, ev := range e.do(http.MethodGet, "/v1/audit/events?entity_id="+id, "auditor", nil).items(t) {
 		got = append(got, map[string]any{"action": ev["action"], "reason": ev["reason"], "actor": ev["actor"],
-			"revision": ev["revision"], "payload_revision": ev["payload"].(map[string]any)["revision"]})
+			"revision": ev["revision"], "proved_revision": provedRevision(t, e, ev)})
 	}
 	for i := range actions {
 		rev := float64(i + 1)
 		want = append(want, map[string]any{"action": actions[i], "reason": reasons[i], "actor": actors[i],
-			"revision": rev, "payload_revision": rev})
+			"revision": rev, "proved_revision": rev})
 	}
 	if d := cmp.Diff(want, got); d != "" {
 		t.Errorf("audit events of %s (-want +got):\n%s", id, d)

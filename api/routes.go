@@ -55,6 +55,10 @@ func (s *Server) routes() error {
 
 		{http.MethodGet, "/v1/audit/events", s.handleAuditEvents, readers},
 		{http.MethodGet, "/v1/audit/verify", s.handleAuditVerify, readers},
+		{http.MethodGet, "/v1/log/checkpoint", s.handleCheckpoint, readers},
+		{http.MethodGet, "/v1/log/key", s.handleLogKey, readers},
+		{http.MethodGet, "/v1/log/inclusion", s.handleInclusion, readers},
+		{http.MethodGet, "/v1/log/consistency", s.handleConsistency, readers},
 
 		// rule sets, ranges and flags
 		{http.MethodGet, "/v1/rule-sets", s.handleRuleSetList, readers},

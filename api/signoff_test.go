@@ -7,7 +7,7 @@ import (
 
 // TestSignOffHTTP: engineers sign off a PQR, a procedure and a calibration
 // (201, Location); technicians and auditors get 403; the sign-off's hash is
-// the hash of the signed revision's audit event; reads, lists and the
+// the leaf hash of the signed revision in the log; reads, lists and the
 // revisions show the state; a correction shows unsigned; a stale revision is
 // 409 and a statement left out 400 or empty 422.
 func TestSignOffHTTP(t *testing.T) {
@@ -40,8 +40,8 @@ func TestSignOffHTTP(t *testing.T) {
 				t.Errorf("sign-off = %v", so)
 			}
 			ev := e.do(http.MethodGet, "/v1/audit/events?entity_id="+k.id, "auditor", nil).items(t)
-			if len(ev) == 0 || ev[0]["revision"] != 1.0 || ev[0]["hash"] != so["signed_hash"] {
-				t.Errorf("signed_hash %v, want the hash of revision 1's audit event %v", so["signed_hash"], ev)
+			if len(ev) == 0 || ev[0]["revision"] != 1.0 || ev[0]["leaf_hash"] != so["signed_hash"] || so["signed_hash_of"] != "log_leaf" {
+				t.Errorf("signed_hash %v, want the leaf hash of revision 1 in the log %v", so["signed_hash"], ev)
 			}
 			if got := e.do(http.MethodGet, rec, "auditor", nil).object(t)["sign_off"]; got == nil || got.(map[string]any)["id"] != so["id"] {
 				t.Errorf("GET %s after signing: sign_off = %v, want %v", rec, got, so["id"])

@@ -1,9 +1,7 @@
 package db
 
 import (
-	"bytes"
 	"context"
-	"encoding/json"
 	"fmt"
 	"time"
 
@@ -11,45 +9,25 @@ import (
 	"github.com/jackc/pgx/v5"
 )
 
-// AuditEvent is one link of a site's audit chain: who did what to which record
-// revision, when and why, with the revision's full content as written.
-type AuditEvent struct {
-	Site     string          `db:"site" json:"site"`
-	Seq      int64           `db:"seq" json:"seq"`
-	At       time.Time       `db:"at" json:"at"`
-	Actor    string          `db:"actor" json:"actor"`
-	Action   string          `db:"action" json:"action"`
-	Entity   string          `db:"entity" json:"entity"`
-	EntityID uuid.UUID       `db:"entity_id" json:"entity_id"`
-	Revision int             `db:"revision" json:"revision"`
-	Reason   string          `db:"reason" json:"reason"`
-	Payload  json.RawMessage `db:"payload" json:"payload"`
-	PrevHash []byte          `db:"prev_hash" json:"prev_hash"`
-	Hash     []byte          `db:"hash" json:"hash"`
+// LogEntry is one leaf of a site's log as listed: which fact (kind, record,
+// revision, encoding version), who did what when, the leaf hash, its index
+// and when the sequencer integrated it.
+type LogEntry struct {
+	Site         string    `db:"site" json:"site"`
+	Index        int64     `db:"leaf_index" json:"index"`
+	Entity       string    `db:"kind" json:"entity"`
+	EntityID     uuid.UUID `db:"record_id" json:"entity_id"`
+	Revision     int       `db:"revision" json:"revision"`
+	Version      int       `db:"version" json:"fact_version"`
+	Actor        string    `db:"actor" json:"actor"`
+	Action       string    `db:"action" json:"action"`
+	Reason       string    `db:"reason" json:"reason"`
+	At           time.Time `db:"at" json:"at"`
+	LeafHash     []byte    `db:"leaf_hash" json:"leaf_hash"`
+	IntegratedAt time.Time `db:"integrated_at" json:"integrated_at"`
 }
 
-// appendAudit links the revision just written into the site's chain. An advisory
-// lock per site serialises writers so the chain never forks.
-func appendAudit(ctx context.Context, tx pgx.Tx, t table, m Meta, action string) error {
-	if _, err := tx.Exec(ctx, "SELECT pg_advisory_xact_lock(hashtextextended('etchlog-audit:' || $1, 0))", m.Site); err != nil {
-		return err
-	}
-	var seq int64
-	prev := make([]byte, 32)
-	err := tx.QueryRow(ctx, `SELECT seq, hash FROM audit_events WHERE site = $1 ORDER BY seq DESC LIMIT 1`, m.Site).Scan(&seq, &prev)
-	if err != nil && err != pgx.ErrNoRows {
-		return err
-	}
-	_, err = tx.Exec(ctx, `
-		INSERT INTO audit_events (site, seq, at, actor, action, entity, entity_id, revision, reason, payload, prev_hash, hash)
-		SELECT $1, $2, $3, $4, $5, $6, $7, $8, $9, p.payload, $10,
-		       etchlog_audit_hash($10, $2, $3, $4, $5, $6, $7, $8, $9, p.payload)
-		FROM (SELECT to_jsonb(r) AS payload FROM `+t.name+` r WHERE r.id = $7 AND r.revision = $8) p`,
-		m.Site, seq+1, m.CreatedAt, m.CreatedBy, action, t.entity, m.ID, m.Revision, m.Reason, prev)
-	return err
-}
-
-// AuditFilter selects audit events.
+// AuditFilter selects log entries.
 type AuditFilter struct {
 	Entity   string
 	EntityID *uuid.UUID
@@ -57,114 +35,108 @@ type AuditFilter struct {
 	From, To *time.Time
 }
 
-// AuditEvents lists a site's events in chain order, after sequence number `after`.
-func (s *Store) AuditEvents(ctx context.Context, site string, af AuditFilter, after int64, limit int) ([]AuditEvent, error) {
+// AuditEvents lists a site's log in index order after the cursor.
+func (s *Store) AuditEvents(ctx context.Context, site string, af AuditFilter, cursor string, limit int) (Page[LogEntry], error) {
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
 	}
+	from, err := logCursor("audit_events", cursor)
+	if err != nil {
+		return Page[LogEntry]{}, fmt.Errorf("db: list log: %w", err)
+	}
+	s.awaitLogged(ctx, site)
 	rows, _ := s.pool.Query(ctx, `
-		SELECT site, seq, at, actor, action, entity, entity_id, revision, reason, payload, prev_hash, hash
-		FROM audit_events
-		WHERE site = $1 AND seq > $2
-		  AND ($3 = '' OR entity = $3)
-		  AND ($4::uuid IS NULL OR entity_id = $4)
+		SELECT site, leaf_index, kind, record_id, revision, version, actor, action, reason, at, leaf_hash, integrated_at, leaf_index
+		FROM log_leaves
+		WHERE site = $1 AND leaf_index >= $2
+		  AND ($3 = '' OR kind = $3)
+		  AND ($4::uuid IS NULL OR record_id = $4)
 		  AND ($5 = '' OR actor = $5)
 		  AND ($6::timestamptz IS NULL OR at >= $6)
 		  AND ($7::timestamptz IS NULL OR at < $7)
-		ORDER BY seq
-		LIMIT $8`, site, after, af.Entity, af.EntityID, af.Actor, af.From, af.To, limit)
-	ev, err := pgx.CollectRows(rows, pgx.RowToStructByName[AuditEvent])
+		ORDER BY leaf_index
+		LIMIT $8`, site, from, af.Entity, af.EntityID, af.Actor, af.From, af.To, limit)
+	ev, last, err := collectIndexed[LogEntry](rows)
 	if err != nil {
-		return nil, fmt.Errorf("db: audit events: %w", err)
+		return Page[LogEntry]{}, fmt.Errorf("db: list log: %w", err)
 	}
-	return ev, nil
+	return Page[LogEntry]{Items: ev, Next: nextLogCursor("audit_events", from, last, len(ev))}, nil
 }
 
-// Verification is the outcome of checking a site's audit chain and records.
+// Verification is the outcome of checking a site's log, its records and its
+// derived flags.
 type Verification struct {
-	Events   int64     `json:"events_checked"`
-	Records  int64     `json:"record_revisions_checked"`
-	OK       bool      `json:"ok"`
-	Problems []string  `json:"problems"`
-	At       time.Time `json:"verified_at"`
+	Leaves         uint64    `json:"leaves_checked"`
+	CheckpointSize uint64    `json:"checkpoint_size"`
+	Root           []byte    `json:"root"`
+	OK             bool      `json:"ok"`
+	Problems       []string  `json:"problems"`
+	NotListed      int       `json:"problems_not_listed"`
+	At             time.Time `json:"verified_at"`
 }
 
-// record tables whose revisions the audit chain covers.
-var auditedTables = []table{procedures, qualificationRecords, coupons, measurements, calibrationTable, activationTable,
-	ruleSetTable, rangesTable, productionBatchTable, users, signOffTable}
+// flagDigest is a flag row as text, for comparing stored flags with flags
+// recomputed from the records (computed_at aside).
+const flagDigest = `SELECT subject_id::text || ' ' || variable || ' ' || kind,
+	concat_ws('|', subject_kind, subject_at, procedure_id, ranges_version, unit, value, value_text, min, max,
+		allowed::text, direction, excess, excess_pct, detail)
+	FROM flags WHERE site = $1`
 
-// VerifyAudit recomputes every link of the site's chain and compares every
-// stored record revision with the content its audit event recorded. Any edit
-// made behind the service's back (with the append-only triggers disabled)
-// shows up as a broken link, a changed payload, or a revision with no event.
-func (s *Store) VerifyAudit(ctx context.Context, site string) (Verification, error) {
-	v := Verification{At: s.now(), Problems: []string{}}
-	rows, err := s.long.Query(ctx, `
-		SELECT seq, prev_hash, hash,
-		       etchlog_audit_hash(prev_hash, seq, at, actor, action, entity, entity_id, revision, reason, payload)
-		FROM audit_events WHERE site = $1 ORDER BY seq`, site)
+// checkFlags recomputes every flag of the site from the records in a
+// transaction it rolls back, and reports flags missing, extra or different.
+// Flags are derived data the service rewrites, so no leaf covers them; this
+// comparison is what shows a flag deleted or edited behind its back.
+func (s *Store) checkFlags(ctx context.Context, site string, problem func(string, ...any)) error {
+	tx, err := s.long.Begin(ctx) // a long read: on the pool that cannot starve writes
 	if err != nil {
-		return v, fmt.Errorf("db: verify audit: %w", err)
+		return err
 	}
-	prev := make([]byte, 32)
-	var want int64 = 1
-	for rows.Next() {
-		var seq int64
-		var p, h, re []byte
-		if err := rows.Scan(&seq, &p, &h, &re); err != nil {
-			rows.Close()
-			return v, err
-		}
-		v.Events++
-		switch {
-		case seq != want:
-			v.Problems = append(v.Problems, fmt.Sprintf("event %d: expected sequence %d (an event is missing)", seq, want))
-		case !bytes.Equal(p, prev):
-			v.Problems = append(v.Problems, fmt.Sprintf("event %d: previous-hash link broken", seq))
-		case !bytes.Equal(h, re):
-			v.Problems = append(v.Problems, fmt.Sprintf("event %d: content does not match its hash", seq))
-		}
-		prev, want = h, seq+1
+	defer tx.Rollback(ctx) //nolint:errcheck // nothing here is kept
+	read := func() (map[string]string, error) {
+		rows, _ := tx.Query(ctx, flagDigest, site)
+		m := map[string]string{}
+		var k, v string
+		_, err := pgx.ForEachRow(rows, []any{&k, &v}, func() error { m[k] = v; return nil })
+		return m, err
 	}
-	rows.Close()
-	if err := rows.Err(); err != nil {
-		return v, err
+	stored, err := read()
+	if err != nil {
+		return err
 	}
-	for _, t := range auditedTables {
-		rows, err := s.long.Query(ctx, `
-			SELECT coalesce(r.id, e.entity_id), coalesce(r.revision, e.revision),
-			       r.id IS NULL, e.seq IS NULL, coalesce(to_jsonb(r) = e.payload, false)
-			FROM (SELECT * FROM `+t.name+` WHERE site = $1) r
-			FULL JOIN (SELECT * FROM audit_events WHERE site = $1 AND entity = $2) e
-			  ON e.entity_id = r.id AND e.revision = r.revision`, site, t.entity)
+	rows, _ := tx.Query(ctx, `SELECT id FROM (SELECT DISTINCT ON (id) id, voided FROM procedures
+		WHERE site = $1 ORDER BY id, revision DESC) p WHERE NOT voided ORDER BY id`, site)
+	procs, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+	if err != nil {
+		return err
+	}
+	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1`, site); err != nil {
+		return err
+	}
+	for _, p := range procs {
+		pr, err := latestRanges(ctx, tx, site, p, 0)
 		if err != nil {
-			return v, fmt.Errorf("db: verify %s: %w", t.name, err)
+			pr = ProcedureRanges{Site: site, ProcedureID: p} // no ranges: model flags only
 		}
-		for rows.Next() {
-			var id uuid.UUID
-			var rev int
-			var noRow, noEvent, same bool
-			if err := rows.Scan(&id, &rev, &noRow, &noEvent, &same); err != nil {
-				rows.Close()
-				return v, err
-			}
-			if !noRow {
-				v.Records++
-			}
-			switch {
-			case noRow:
-				v.Problems = append(v.Problems, fmt.Sprintf("%s %s revision %d: recorded in the audit chain but missing from the table", t.entity, id, rev))
-			case noEvent:
-				v.Problems = append(v.Problems, fmt.Sprintf("%s %s revision %d: has no audit event", t.entity, id, rev))
-			case !same:
-				v.Problems = append(v.Problems, fmt.Sprintf("%s %s revision %d: differs from the content recorded when it was written", t.entity, id, rev))
-			}
-		}
-		rows.Close()
-		if err := rows.Err(); err != nil {
-			return v, err
+		if _, err := recomputeProcedure(ctx, tx, s.now(), pr); err != nil {
+			return err
 		}
 	}
-	v.OK = len(v.Problems) == 0
-	return v, nil
+	fresh, err := read()
+	if err != nil {
+		return err
+	}
+	for k, v := range fresh {
+		switch old, ok := stored[k]; {
+		case !ok:
+			problem("flag %s: recomputed from the records but missing from the flags table", k)
+		case old != v:
+			problem("flag %s: stored flag differs from the one recomputed from the records", k)
+		}
+	}
+	for k := range stored {
+		if _, ok := fresh[k]; !ok {
+			problem("flag %s: stored but not recomputed from the records", k)
+		}
+	}
+	return nil
 }

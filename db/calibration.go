@@ -173,7 +173,7 @@ func (s *Store) CreateCalibration(ctx context.Context, a Actor, spec Calibration
 			}
 			return err
 		}
-		return insertCalibration(ctx, tx, c)
+		return s.insertCalibration(ctx, tx, c)
 	})
 	if err != nil {
 		return Calibration{}, fmt.Errorf("db: create calibration: %w", err)
@@ -221,8 +221,8 @@ func fitSpec(ctx context.Context, tx pgx.Tx, c *Calibration) error {
 	return nil
 }
 
-// insertCalibration writes the calibration row and its audit event.
-func insertCalibration(ctx context.Context, tx pgx.Tx, c Calibration) error {
+// insertCalibration writes the calibration row and its leaf.
+func (s *Store) insertCalibration(ctx context.Context, tx pgx.Tx, c Calibration) error {
 	fit, err := json.Marshal(c.Fit)
 	if err != nil {
 		return fmt.Errorf("encode fit: %w", err)
@@ -242,5 +242,5 @@ func insertCalibration(ctx context.Context, tx pgx.Tx, c Calibration) error {
 	if err != nil {
 		return mapError(err)
 	}
-	return appendAudit(ctx, tx, calibrationTable, Meta{Site: c.Site, ID: c.ID, Revision: 1, CreatedAt: c.CreatedAt, CreatedBy: c.CreatedBy}, "create")
+	return s.AppendLeaf(ctx, tx, LeafEntry{Kind: "calibration", Site: c.Site, ID: c.ID, Revision: 1, Actor: c.CreatedBy, Action: "create", At: c.CreatedAt})
 }

@@ -106,7 +106,7 @@ func (s *Store) activationEvent(ctx context.Context, a Actor, calibrationID uuid
 		if err != nil {
 			return err
 		}
-		if err := lockSite(ctx, tx, a.Site); err != nil { // one choice per group at a time
+		if err := lockGroup(ctx, tx, a.Site, act.Model.Family(), act.CalibrationGroup); err != nil { // one choice per group at a time
 			return err
 		}
 		if action == ActionDeactivate {
@@ -124,8 +124,8 @@ func (s *Store) activationEvent(ctx context.Context, a Actor, calibrationID uuid
 			act.Process, act.WireDiameterMM, act.ShieldingGas, act.JointType); err != nil {
 			return mapError(err)
 		}
-		if err := appendAudit(ctx, tx, activationTable, Meta{Site: a.Site, ID: act.ID, Revision: 1,
-			CreatedAt: act.ActivatedAt, CreatedBy: act.ActivatedBy, Reason: reason}, action); err != nil {
+		if err := s.AppendLeaf(ctx, tx, LeafEntry{Kind: "calibration_activation", Site: a.Site, ID: act.ID, Revision: 1,
+			Actor: act.ActivatedBy, Action: action, Reason: reason, At: act.ActivatedAt}); err != nil {
 			return err
 		}
 		// The group's model flags follow the calibration now in use, in this transaction.

@@ -60,12 +60,12 @@ func TestCalibrationActivation(t *testing.T) {
 	if err != nil || len(acts) != 2 || acts[1].Reason != "back to the first fit" {
 		t.Errorf("CalibrationActivations(a) = %+v (err %v), want 2, the last with its reason", acts, err)
 	}
-	ev, _ := s.AuditEvents(ctx, site, db.AuditFilter{Entity: "calibration_activation"}, 0, 0)
+	ev := auditEvents(t, s, site, db.AuditFilter{Entity: "calibration_activation"})
 	if len(ev) != 3 || ev[0].Action != "activate" || ev[0].Reason != "first shop fit" {
 		t.Errorf("activation audit events = %d (first %+v), want 3 with action activate and the reason", len(ev), ev)
 	}
-	if v, err := s.VerifyAudit(ctx, site); err != nil || !v.OK {
-		t.Errorf("VerifyAudit = %+v (err %v), want ok", v, err)
+	if v, err := s.VerifyLog(ctx, site, nil); err != nil || !v.OK {
+		t.Errorf("VerifyLog = %+v (err %v), want ok", v, err)
 	}
 
 	t.Run("ErrNoReason", func(t *testing.T) {
@@ -147,7 +147,7 @@ func TestCalibrationRefused(t *testing.T) {
 	if err != nil || len(list.Items) != 0 {
 		t.Errorf("after refused fits: %d calibrations (err %v), want 0", len(list.Items), err)
 	}
-	if ev, _ := s.AuditEvents(ctx, site, db.AuditFilter{Entity: "calibration"}, 0, 0); len(ev) != 0 {
+	if ev := auditEvents(t, s, site, db.AuditFilter{Entity: "calibration"}); len(ev) != 0 {
 		t.Errorf("after refused fits: %d calibration audit events, want 0", len(ev))
 	}
 }

@@ -186,7 +186,7 @@ func TestCreateCalibrationStoresPredictFit(t *testing.T) {
 			}
 		})
 	}
-	if v, err := s.VerifyAudit(ctx, site); err != nil || !v.OK {
-		t.Errorf("VerifyAudit = %+v (err %v), want ok", v, err)
+	if v, err := s.VerifyLog(ctx, site, nil); err != nil || !v.OK {
+		t.Errorf("VerifyLog = %+v (err %v), want ok", v, err)
 	}
 }

@@ -69,7 +69,7 @@ func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon
 		c.checkLinks(ctx, a.Site),
 		claimMark(ctx, couponMark, a.Site, m.ID, c.CouponMark),
 		coupons.writeRevision(ctx, m, recordValues(c)),
-		logged(ctx, coupons, m, actionCreate),
+		s.logged(ctx, coupons, m, actionCreate),
 		couponFlags(ctx, m),
 	); err != nil {
 		return Coupon{}, s.duplicateMark(ctx, a.Site, c.CouponMark, err)
@@ -85,7 +85,7 @@ func (s *Store) CorrectCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Cha
 		c.checkLinks(ctx, a.Site),
 		claimMark(ctx, couponMark, a.Site, m.ID, c.CouponMark),
 		coupons.writeRevision(ctx, m, recordValues(c)),
-		logged(ctx, coupons, m, actionCorrect),
+		s.logged(ctx, coupons, m, actionCorrect),
 		couponFlags(ctx, m),
 	); err != nil {
 		return Coupon{}, err
@@ -99,7 +99,7 @@ func (s *Store) VoidCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Change
 	if err := s.write(ctx, "void coupon "+id.String(),
 		coupons.baseIs(ctx, a.Site, id, ch),
 		coupons.voidLatest(ctx, m),
-		logged(ctx, coupons, m, actionVoid),
+		s.logged(ctx, coupons, m, actionVoid),
 		couponFlags(ctx, m),
 	); err != nil {
 		return Coupon{}, err

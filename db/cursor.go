@@ -7,6 +7,8 @@ import (
 	"strconv"
 
 	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
 )
 
 // Every list hands out one cursor format: base64url (no padding) of a JSON
@@ -74,4 +76,44 @@ func AfterSeq(list, cursor string) (int64, error) {
 		return 0, fmt.Errorf("cursor %q: %w", cursor, ErrBadCursor)
 	}
 	return n, nil
+}
+
+// Lists in log order keep, as their cursor, the log index the next page
+// starts at, in the one cursor format (EncodeCursor).
+
+// logCursor decodes a log-order cursor of list; "" is the start, index 0.
+func logCursor(list, cursor string) (int64, error) { return AfterSeq(list, cursor) }
+
+// nextLogCursor is the cursor after a page: after its last item, or the
+// cursor it was asked with when the page is empty, so a client following
+// new records can always resume.
+func nextLogCursor(list string, from, lastIndex int64, n int) string {
+	if n == 0 {
+		return SeqCursor(list, from)
+	}
+	return SeqCursor(list, lastIndex+1)
+}
+
+// indexedRow hides a query's last column (the log index) from struct
+// scanning and scans it into idx instead.
+type indexedRow struct {
+	pgx.CollectableRow
+	idx *int64
+}
+
+func (r indexedRow) FieldDescriptions() []pgconn.FieldDescription {
+	fd := r.CollectableRow.FieldDescriptions()
+	return fd[:len(fd)-1]
+}
+
+func (r indexedRow) Scan(dest ...any) error { return r.CollectableRow.Scan(append(dest, r.idx)...) }
+
+// collectIndexed reads rows whose last column is the log index into T and
+// returns the index of the last row.
+func collectIndexed[T any](rows pgx.Rows) ([]T, int64, error) {
+	var last int64 = -1
+	items, err := pgx.CollectRows(rows, func(row pgx.CollectableRow) (T, error) {
+		return pgx.RowToStructByName[T](indexedRow{row, &last})
+	})
+	return items, last, err
 }

@@ -9,12 +9,15 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"sync/atomic"
 	"time"
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgxpool"
+
+	"etchlog/db/logfmt"
 )
 
 // Sentinel errors returned by Store methods; the HTTP layer maps them to status codes.
@@ -29,6 +32,8 @@ var (
 	ErrVoided = errors.New("record is voided")
 	// ErrForbidden means the actor's role may not make this write.
 	ErrForbidden = errors.New("the role may not do this")
+	// ErrNoLogKey means no log signing key was set (SetLogKey), so nothing can be written.
+	ErrNoLogKey = errors.New("no log signing key: run etchlog keygen and give the key to the service")
 	// ErrBadCursor means a list cursor is not one that the list handed out.
 	ErrBadCursor = errors.New("not a cursor returned by this list")
 )
@@ -66,6 +71,8 @@ type Store struct {
 	pool *pgxpool.Pool
 	long *pgxpool.Pool // long reads (export, audit verify): a pool of their own, so they cannot starve writes
 	now  func() time.Time
+	key  atomic.Pointer[logfmt.Signer] // signs checkpoints, tags pending leaves
+	kick chan struct{}                 // a write committed: the sequencer may have work
 }
 
 // LongReadConns is how many connections long reads (export, audit verify)
@@ -117,7 +124,8 @@ func open(ctx context.Context, url, role string, unprivileged bool) (*Store, err
 		pool.Close()
 		return nil, fmt.Errorf("db: connect: %w", err)
 	}
-	return &Store{pool: pool, long: long, now: func() time.Time { return time.Now().UTC().Truncate(time.Microsecond) }}, nil
+	return &Store{pool: pool, long: long, now: func() time.Time { return time.Now().UTC().Truncate(time.Microsecond) },
+		kick: make(chan struct{}, 1)}, nil
 }
 
 // Close releases every connection.

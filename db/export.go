@@ -4,38 +4,72 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"strings"
 
 	"github.com/jackc/pgx/v5"
+
+	"etchlog/db/logfmt"
 )
 
-// ExportSummary closes an export: how many revisions and events it held and
-// the hash at the head of the audit chain, so a copy can be checked later.
+// ExportSummary closes an export: how many record revisions and leaves it
+// held, and the size of the signed checkpoint it carries.
 type ExportSummary struct {
-	Records   int64  `json:"record_revisions"`
-	Events    int64  `json:"audit_events"`
-	ChainHead []byte `json:"chain_head"`
+	Records        int64  `json:"record_revisions"`
+	Leaves         int64  `json:"leaves"`
+	Unlogged       int64  `json:"unlogged"`
+	CheckpointSize int64  `json:"checkpoint_size"`
+	Root           []byte `json:"root"`
 }
 
-// exportedEvent is an audit event as exported: JSON encoders re-space the
-// payload object, so the exact text that entered the hash travels beside it.
-type exportedEvent struct {
-	AuditEvent
-	PayloadText string `json:"payload_text"`
-}
-
-// Export streams every revision of every record of a site (procedures,
-// qualification records, coupons, measurements, calibrations and their
-// activations, rule sets, qualified ranges, production batches and records,
-// users and sign-offs; procedure, PQR and calibration revisions carry their sign-off),
-// then the site's audit chain,
-// to emit, inside one repeatable-read snapshot so the parts agree.
+// Export streams, inside one repeatable-read snapshot so the parts agree: a
+// header naming the site, the latest signed checkpoint, every revision of
+// every record in its readable form (procedures, qualification records,
+// coupons, measurements, calibrations and their activations, rule sets,
+// qualified ranges, production batches and records, sign-offs; procedure, PQR
+// and calibration revisions carry their sign-off), every leaf of the log
+// in index order with its fact encoded again from the stored row, and every
+// stored fact that is not in the log. The line kinds are in logfmt.
 func (s *Store) Export(ctx context.Context, site string, emit func(kind string, v any) error) (ExportSummary, error) {
+	return s.export(ctx, site, true, emit)
+}
+
+func (s *Store) export(ctx context.Context, site string, records bool, emit func(kind string, v any) error) (ExportSummary, error) {
 	var sum ExportSummary
 	tx, err := s.long.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 	if err != nil {
 		return sum, fmt.Errorf("db: export: %w", err)
 	}
 	defer tx.Rollback(ctx) //nolint:errcheck // read-only
+	if err := emit(logfmt.LineHeader, logfmt.ExportHeader{Site: site, Format: 2}); err != nil {
+		return sum, err
+	}
+	var note string
+	err = tx.QueryRow(ctx, `SELECT size, root, note FROM log_checkpoints WHERE site = $1 ORDER BY size DESC LIMIT 1`, site).
+		Scan(&sum.CheckpointSize, &sum.Root, &note)
+	switch {
+	case err == nil:
+		if err := emit(logfmt.LineCheckpoint, logfmt.ExportCheckpoint{Note: note}); err != nil {
+			return sum, err
+		}
+	case err != pgx.ErrNoRows:
+		return sum, fmt.Errorf("db: export checkpoint: %w", err)
+	}
+	if records {
+		if sum.Records, err = exportRecords(ctx, tx, site, emit); err != nil {
+			return sum, err
+		}
+	}
+	if sum.Leaves, err = exportLeaves(ctx, tx, site, emit); err != nil {
+		return sum, fmt.Errorf("db: export leaves: %w", err)
+	}
+	if sum.Unlogged, err = s.exportUnlogged(ctx, tx, site, emit); err != nil {
+		return sum, fmt.Errorf("db: export unlogged: %w", err)
+	}
+	return sum, nil
+}
+
+// exportRecords emits every revision of every record in its readable form.
+func exportRecords(ctx context.Context, tx pgx.Tx, site string, emit func(string, any) error) (int64, error) {
 	steps := []func() (int64, error){
 		func() (int64, error) { return exportTable[Procedure](ctx, tx, procedures, site, emit) },
 		func() (int64, error) {
@@ -52,36 +86,19 @@ func (s *Store) Export(ctx context.Context, site string, emit func(kind string, 
 		{"calibrations", "calibration", false}, {"calibration_activations", "calibration_activation", false},
 		{"rule_sets", "rule_set", true}, {"procedure_ranges", "procedure_ranges", false},
 		{"production_batches", "production_batch", false}, {"production_records", "production_record", false},
-		{"api_users", "user", false}, {"sign_offs", "sign_off", false},
+		{"sign_offs", "sign_off", false},
 	} {
 		steps = append(steps, func() (int64, error) { return exportRaw(ctx, tx, r.name, r.kind, site, r.builtins, emit) })
 	}
+	var total int64
 	for _, step := range steps {
 		n, err := step()
 		if err != nil {
-			return sum, err
+			return total, err
 		}
-		sum.Records += n
+		total += n
 	}
-	rows, err := tx.Query(ctx, `
-		SELECT site, seq, at, actor, action, entity, entity_id, revision, reason, payload, prev_hash, hash
-		FROM audit_events WHERE site = $1 ORDER BY seq`, site)
-	if err != nil {
-		return sum, fmt.Errorf("db: export audit: %w", err)
-	}
-	defer rows.Close()
-	for rows.Next() {
-		ev, err := pgx.RowToStructByName[AuditEvent](rows)
-		if err != nil {
-			return sum, err
-		}
-		if err := emit("audit_event", exportedEvent{ev, string(ev.Payload)}); err != nil {
-			return sum, err
-		}
-		sum.Events++
-		sum.ChainHead = ev.Hash
-	}
-	return sum, rows.Err()
+	return total, nil
 }
 
 // exportTable emits every revision of one table's records at the site, by id and revision.
@@ -137,3 +154,6 @@ func exportRaw(ctx context.Context, tx pgx.Tx, name, kind, site string, builtins
 	}
 	return n, rows.Err()
 }
+
+// quoteLiteral quotes text for SQL (standard_conforming_strings is on).
+func quoteLiteral(s string) string { return "'" + strings.ReplaceAll(s, "'", "''") + "'" }

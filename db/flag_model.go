@@ -116,6 +116,9 @@ func measurementCoupon(ctx context.Context, q querier, site string, id uuid.UUID
 // calibration (ActivateCalibration), so model flags are never stale.
 func recomputeGroup(ctx context.Context, tx pgx.Tx, now time.Time, site string, g CalibrationGroup) error {
 	g = g.canonical()
+	if err := lockProcess(ctx, tx, site, g.Process); err != nil {
+		return err
+	}
 	rows, _ := tx.Query(ctx, `SELECT cur.id, p.process, cur.wire_diameter_mm, cur.shielding_gas, cur.joint_type FROM (
 			SELECT DISTINCT ON (id) id, voided, procedure_id, wire_diameter_mm, shielding_gas, joint_type
 			FROM coupons WHERE site = $1 ORDER BY id, revision DESC) cur

@@ -15,9 +15,8 @@ import (
 // records: a change of ranges rewrites every flag of the procedure, a coupon
 // write rewrites that coupon's flags, a production batch writes its rows'.
 // Each write method calls the step it needs explicitly, after appending to
-// the audit log. Every such transaction holds the site's write lock
-// (lockSite, also taken by the audit chain), so an evaluation never races a
-// change of ranges.
+// the log. Each such transaction holds the flag locks of the procedures
+// concerned (flag_lock.go), so an evaluation never races a change of ranges.
 
 // couponFlags is the step that rewrites the flags of coupon m.ID from its
 // latest revision.
@@ -47,6 +46,9 @@ func measuredCouponFlags(ctx context.Context, m Meta) step {
 // one has no flag step.)
 func procedureFlags(ctx context.Context, m Meta) step {
 	return func(tx pgx.Tx) error {
+		if err := lockProcedures(ctx, tx, m.Site, []uuid.UUID{m.ID}, true); err != nil {
+			return err
+		}
 		pr, err := latestRanges(ctx, tx, m.Site, m.ID, 0)
 		if errors.Is(err, ErrNotFound) { // no ranges yet: model flags only, as for a coupon write
 			pr, err = ProcedureRanges{Site: m.Site, ProcedureID: m.ID}, nil
@@ -63,6 +65,9 @@ func procedureFlags(ctx context.Context, m Meta) step {
 // m.ID: its records no longer answer to it.
 func dropProcedureFlags(ctx context.Context, m Meta) step {
 	return func(tx pgx.Tx) error {
+		if err := lockProcedures(ctx, tx, m.Site, []uuid.UUID{m.ID}, true); err != nil {
+			return err
+		}
 		_, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2`, m.Site, m.ID)
 		return err
 	}
@@ -71,6 +76,9 @@ func dropProcedureFlags(ctx context.Context, m Meta) step {
 // recomputeCoupon rewrites one coupon's flags from its latest revision: none
 // when it is voided, names no procedure, or its procedure is voided.
 func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID) (int, error) {
+	if err := lockCouponProcedures(ctx, tx, site, id); err != nil {
+		return 0, err
+	}
 	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2`, site, id); err != nil {
 		return 0, err
 	}

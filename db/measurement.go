@@ -64,7 +64,7 @@ func (s *Store) CreateMeasurement(ctx context.Context, a Actor, d MeasurementDat
 	if err := s.write(ctx, "create measurement",
 		d.checkCoupon(ctx, a.Site),
 		measurements.writeRevision(ctx, m, recordValues(d)),
-		logged(ctx, measurements, m, actionCreate),
+		s.logged(ctx, measurements, m, actionCreate),
 		measuredCouponFlags(ctx, m),
 	); err != nil {
 		return Measurement{}, err
@@ -80,7 +80,7 @@ func (s *Store) CorrectMeasurement(ctx context.Context, a Actor, id uuid.UUID, c
 		measurements.baseIs(ctx, a.Site, id, ch),
 		d.checkCoupon(ctx, a.Site),
 		measurements.writeRevision(ctx, m, recordValues(d)),
-		logged(ctx, measurements, m, actionCorrect),
+		s.logged(ctx, measurements, m, actionCorrect),
 		measuredCouponFlags(ctx, m),
 	); err != nil {
 		return Measurement{}, err
@@ -95,7 +95,7 @@ func (s *Store) VoidMeasurement(ctx context.Context, a Actor, id uuid.UUID, ch C
 	if err := s.write(ctx, "void measurement "+id.String(),
 		measurements.baseIs(ctx, a.Site, id, ch),
 		measurements.voidLatest(ctx, m),
-		logged(ctx, measurements, m, actionVoid),
+		s.logged(ctx, measurements, m, actionVoid),
 		measuredCouponFlags(ctx, m),
 	); err != nil {
 		return Measurement{}, err

@@ -70,7 +70,7 @@ func (s *Store) CreateProcedure(ctx context.Context, a Actor, p ProcedureData) (
 	if err := s.write(ctx, "create procedure",
 		p.checkSupport(ctx, a.Site),
 		procedures.writeRevision(ctx, m, recordValues(p)),
-		logged(ctx, procedures, m, actionCreate),
+		s.logged(ctx, procedures, m, actionCreate),
 	); err != nil {
 		return Procedure{}, s.duplicateKey(ctx, procedures, "code", a.Site, p.Code, err)
 	}
@@ -87,7 +87,7 @@ func (s *Store) CorrectProcedure(ctx context.Context, a Actor, id uuid.UUID, ch 
 		procedures.baseIs(ctx, a.Site, id, ch),
 		p.checkCorrection(ctx, a.Site, id),
 		procedures.writeRevision(ctx, m, recordValues(p)),
-		logged(ctx, procedures, m, actionCorrect),
+		s.logged(ctx, procedures, m, actionCorrect),
 		procedureFlags(ctx, m),
 	); err != nil {
 		return Procedure{}, err
@@ -116,7 +116,7 @@ func (s *Store) VoidProcedure(ctx context.Context, a Actor, id uuid.UUID, ch Cha
 	if err := s.write(ctx, "void procedure "+id.String(),
 		procedures.baseIs(ctx, a.Site, id, ch),
 		procedures.voidLatest(ctx, m),
-		logged(ctx, procedures, m, actionVoid),
+		s.logged(ctx, procedures, m, actionVoid),
 		dropProcedureFlags(ctx, m),
 	); err != nil {
 		return Procedure{}, err

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strings"
 	"time"
 
 	"github.com/google/uuid"
@@ -37,8 +38,6 @@ type ProductionRecord struct {
 	ProductionRecordData
 	Flags []Flag `db:"-" json:"flags"`
 }
-
-var productionBatchTable = table{name: "production_batches", entity: "production_batch"}
 
 var productionColumns = []string{"site", "id", "batch_id", "created_at", "created_by", "procedure_id", "weld_id",
 	"welder_id", "recorded_at", "current_a", "voltage_v", "travel_speed_mm_s", "wire_feed_speed_m_min", "ctwd_mm"}
@@ -87,7 +86,7 @@ func (s *Store) CreateProductionRecords(ctx context.Context, a Actor, recs []Pro
 		}
 	}
 	err = s.tx(ctx, func(tx pgx.Tx) error {
-		if err := lockSite(ctx, tx, a.Site); err != nil {
+		if err := lockProcedures(ctx, tx, a.Site, procs, false); err != nil {
 			return err
 		}
 		for _, p := range procs {
@@ -105,11 +104,22 @@ func (s *Store) CreateProductionRecords(ctx context.Context, a Actor, recs []Pro
 			VALUES ($1, $2, $3, $4, $5, $6, $7, $8)`, a.Site, batch, now, a.Name, len(recs), out[0].ID, out[len(out)-1].ID, procs); err != nil {
 			return mapError(err)
 		}
-		if err := appendAudit(ctx, tx, productionBatchTable, Meta{Site: a.Site, ID: batch, Revision: 1, CreatedAt: now, CreatedBy: a.Name}, "create"); err != nil {
+		entry := LeafEntry{Kind: "production_batch", Site: a.Site, ID: batch, Revision: 1, Actor: a.Name, Action: "create", At: now}
+		if err := s.AppendLeaf(ctx, tx, entry); err != nil {
 			return err
 		}
 		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"production_records"}, productionColumns, pgx.CopyFromRows(rows)); err != nil {
 			return mapError(err)
+		}
+		// One leaf per production record, each encoded from its stored row.
+		k, err := leafKind("production_record", 0)
+		if err != nil {
+			return err
+		}
+		recRows, _ := tx.Query(ctx, "SELECT "+strings.Join(k.Columns, ", ")+" FROM production_records WHERE site = $1 AND batch_id = $2 ORDER BY id", a.Site, batch)
+		entry.Kind = k.Kind
+		if err := s.appendRows(ctx, tx, k, recRows, entry); err != nil {
+			return err
 		}
 		return flagBatch(ctx, tx, now, a.Site, out)
 	})

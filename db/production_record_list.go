@@ -7,7 +7,6 @@ import (
 	"time"
 
 	"github.com/google/uuid"
-	"github.com/jackc/pgx/v5"
 )
 
 // ProductionRecordFilter selects production records; zero fields do not
@@ -21,20 +20,17 @@ type ProductionRecordFilter struct {
 	FlaggedOnly  bool
 }
 
-// ProductionRecords lists production records in creation order after the
-// cursor (keyset on the time-ordered id), each with its current flags.
+// ProductionRecords lists logged production records in log order after the
+// cursor (so a follower sees each exactly once), each with its current flags.
 func (s *Store) ProductionRecords(ctx context.Context, site string, pf ProductionRecordFilter, cursor string, limit int) (Page[ProductionRecord], error) {
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
 	}
-	f := filter{args: []any{site}}
-	if cursor != "" {
-		after, err := afterID("production_records", cursor)
-		if err != nil {
-			return Page[ProductionRecord]{}, fmt.Errorf("db: list production records: %w", err)
-		}
-		f.add("id > ?", after)
+	from, err := logCursor("production_records", cursor)
+	if err != nil {
+		return Page[ProductionRecord]{}, fmt.Errorf("db: list production records: %w", err)
 	}
+	f := filter{args: []any{site, from}}
 	if pf.ProcedureID != nil {
 		f.add("procedure_id = ?", *pf.ProcedureID)
 	}
@@ -53,22 +49,25 @@ func (s *Store) ProductionRecords(ctx context.Context, site string, pf Productio
 	if pf.FlaggedOnly {
 		f.add("EXISTS (SELECT 1 FROM flags fl WHERE fl.site = production_records.site AND fl.subject_id = production_records.id)")
 	}
-	where := "site = $1"
+	where := "true"
 	if len(f.conds) > 0 {
-		where += " AND " + strings.Join(f.conds, " AND ")
+		where = strings.Join(f.conds, " AND ")
 	}
-	f.args = append(f.args, limit+1)
-	cols := strings.Join(productionColumns, ", ")
-	rows, _ := s.pool.Query(ctx, "SELECT "+cols+" FROM production_records WHERE "+where+
-		fmt.Sprintf(" ORDER BY id LIMIT $%d", len(f.args)), f.args...)
-	items, err := pgx.CollectRows(rows, pgx.RowToStructByName[ProductionRecord])
+	f.args = append(f.args, limit)
+	cols := make([]string, len(productionColumns))
+	for i, c := range productionColumns {
+		cols[i] = "production_records." + c
+	}
+	s.awaitLogged(ctx, site)
+	rows, _ := s.pool.Query(ctx, "SELECT "+strings.Join(cols, ", ")+", lg.leaf_index FROM log_leaves lg"+
+		" JOIN production_records ON production_records.id = lg.record_id AND production_records.site = lg.site"+
+		" WHERE lg.site = $1 AND lg.kind = 'production_record' AND lg.leaf_index >= $2 AND "+where+
+		fmt.Sprintf(" ORDER BY lg.leaf_index LIMIT $%d", len(f.args)), f.args...)
+	items, last, err := collectIndexed[ProductionRecord](rows)
 	if err != nil {
 		return Page[ProductionRecord]{}, fmt.Errorf("db: list production records: %w", mapError(err))
 	}
-	p := Page[ProductionRecord]{Items: items}
-	if len(items) > limit {
-		p.Items, p.Next = items[:limit], idCursor("production_records", items[limit-1].ID)
-	}
+	p := Page[ProductionRecord]{Items: items, Next: nextLogCursor("production_records", from, last, len(items))}
 	ids := make([]uuid.UUID, len(p.Items))
 	for i := range p.Items {
 		ids[i] = p.Items[i].ID

@@ -63,7 +63,7 @@ func (s *Store) CreateQualificationRecord(ctx context.Context, a Actor, q Qualif
 	if err := s.write(ctx, "create qualification_record",
 		claimMark(ctx, recordNumber, a.Site, m.ID, q.RecordNumber),
 		qualificationRecords.writeRevision(ctx, m, recordValues(q)),
-		logged(ctx, qualificationRecords, m, actionCreate),
+		s.logged(ctx, qualificationRecords, m, actionCreate),
 	); err != nil {
 		return QualificationRecord{}, s.duplicateKey(ctx, qualificationRecords, "record_number", a.Site, q.RecordNumber, err)
 	}
@@ -77,7 +77,7 @@ func (s *Store) CorrectQualificationRecord(ctx context.Context, a Actor, id uuid
 		qualificationRecords.baseIs(ctx, a.Site, id, ch),
 		claimMark(ctx, recordNumber, a.Site, m.ID, q.RecordNumber),
 		qualificationRecords.writeRevision(ctx, m, recordValues(q)),
-		logged(ctx, qualificationRecords, m, actionCorrect),
+		s.logged(ctx, qualificationRecords, m, actionCorrect),
 	); err != nil {
 		return QualificationRecord{}, err
 	}
@@ -90,7 +90,7 @@ func (s *Store) VoidQualificationRecord(ctx context.Context, a Actor, id uuid.UU
 	if err := s.write(ctx, "void qualification_record "+id.String(),
 		qualificationRecords.baseIs(ctx, a.Site, id, ch),
 		qualificationRecords.voidLatest(ctx, m),
-		logged(ctx, qualificationRecords, m, actionVoid),
+		s.logged(ctx, qualificationRecords, m, actionVoid),
 	); err != nil {
 		return QualificationRecord{}, err
 	}

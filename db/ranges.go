@@ -50,7 +50,7 @@ const rangesColumns = `id, site, procedure_id, procedure_revision, version, acti
 func (s *Store) DeriveRanges(ctx context.Context, a Actor, procedureID uuid.UUID, ruleSetID string, ruleSetVersion int) (ProcedureRanges, error) {
 	pr := ProcedureRanges{Site: a.Site, ProcedureID: procedureID, Action: "derive", CreatedAt: s.now(), CreatedBy: a.Name}
 	err := s.tx(ctx, func(tx pgx.Tx) error {
-		if err := lockSite(ctx, tx, a.Site); err != nil {
+		if err := lockProcedures(ctx, tx, a.Site, []uuid.UUID{procedureID}, true); err != nil {
 			return err
 		}
 		p, err := getRecord[Procedure](ctx, tx, procedures, a.Site, procedureID, 0)
@@ -89,7 +89,7 @@ func (s *Store) DeriveRanges(ctx context.Context, a Actor, procedureID uuid.UUID
 func (s *Store) NarrowRanges(ctx context.Context, a Actor, procedureID uuid.UUID, baseVersion int, reason string, changes []predict.Narrowing) (ProcedureRanges, error) {
 	var pr ProcedureRanges
 	err := s.tx(ctx, func(tx pgx.Tx) error {
-		if err := lockSite(ctx, tx, a.Site); err != nil {
+		if err := lockProcedures(ctx, tx, a.Site, []uuid.UUID{procedureID}, true); err != nil {
 			return err
 		}
 		cur, err := latestRanges(ctx, tx, a.Site, procedureID, 0)
@@ -132,8 +132,8 @@ func (s *Store) storeRanges(ctx context.Context, tx pgx.Tx, pr *ProcedureRanges)
 		pr.RuleSetID, pr.RuleSetVersion, pr.Reason, pr.Ranges, pr.CreatedAt, pr.CreatedBy); err != nil {
 		return mapError(err)
 	}
-	if err := appendAudit(ctx, tx, rangesTable, Meta{Site: pr.Site, ID: pr.RowID, Revision: 1,
-		CreatedAt: pr.CreatedAt, CreatedBy: pr.CreatedBy, Reason: pr.Reason}, "create"); err != nil {
+	if err := s.AppendLeaf(ctx, tx, LeafEntry{Kind: "procedure_ranges", Site: pr.Site, ID: pr.RowID, Revision: 1,
+		Actor: pr.CreatedBy, Action: pr.Action, Reason: pr.Reason, At: pr.CreatedAt}); err != nil {
 		return err
 	}
 	pr.FlagsWritten, err = recomputeProcedure(ctx, tx, pr.CreatedAt, *pr)
@@ -185,11 +185,4 @@ func supportingValues(ctx context.Context, q querier, site string, p Procedure) 
 		out = append(out, predict.PQRValues{Label: r.RecordNumber, Values: pqrObservation(r.QualificationRecordData)})
 	}
 	return out, nil
-}
-
-// lockSite takes the site's write lock (the one the audit chain takes), so
-// flag evaluations and range changes at one site never interleave.
-func lockSite(ctx context.Context, tx pgx.Tx, site string) error {
-	_, err := tx.Exec(ctx, "SELECT pg_advisory_xact_lock(hashtextextended('etchlog-audit:' || $1, 0))", site)
-	return err
 }

@@ -14,8 +14,8 @@ import (
 // MaxPageSize caps how many records one list call returns.
 const MaxPageSize = 500
 
-// Page is one page of a keyset-paginated list. Next is the cursor for the
-// following page, empty on the last page.
+// Page is one page of a list. Next is the cursor to resume from, on every
+// page: the last page's cursor returns nothing until more is written.
 type Page[T any] struct {
 	Items []T
 	Next  string
@@ -106,43 +106,47 @@ func (f *filter) add(cond string, vals ...any) {
 	f.conds = append(f.conds, cond)
 }
 
-// listCurrent returns the current revisions matching f, ordered by id (ids are
-// time-ordered UUIDv7), after the cursor. Rows added while a client pages
-// through sort after every existing id, so each row is returned exactly once.
+// listCurrent returns the current revisions matching f in log order after
+// the cursor. Only logged revisions are listed (the sequencer gives a
+// revision its log index shortly after it commits), and log indexes are
+// handed out in commit order, so a client following the cursor sees every
+// revision exactly once, even while others write; a correction appears again
+// at the end as the record's new current revision.
 func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f filter, cursor string, limit int) (Page[T], error) {
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
 	}
-	after, err := afterID(t.name, cursor)
+	from, err := logCursor(t.name, cursor)
 	if err != nil {
 		return Page[T]{}, fmt.Errorf("db: list %s: %w", t.entity, err)
 	}
 	if len(f.args) < 2 {
 		f = newFilter()
 	}
-	f.args[0], f.args[1] = site, after
+	f.args[0], f.args[1] = site, from
 	where := "true"
 	if len(f.conds) > 0 {
 		where = strings.Join(f.conds, " AND ")
 	}
-	f.args = append(f.args, limit+1)
-	// "cur" is a revision with no later one. Written as an anti-join rather than
-	// DISTINCT ON so the planner walks the primary key in id order and stops at
-	// the limit instead of sorting every revision of the site for each page.
-	sql := "SELECT " + t.columns() + " FROM " + t.name + " cur WHERE site = $1 AND id > $2" +
-		" AND NOT EXISTS (SELECT 1 FROM " + t.name + " later WHERE later.id = cur.id AND later.revision > cur.revision)" +
-		" AND " + where + " ORDER BY id LIMIT $" + strconv.Itoa(len(f.args))
+	f.args = append(f.args, limit, t.entity)
+	cols := make([]string, 0, len(t.fields)+7)
+	for _, c := range strings.Split(t.columns(), ", ") {
+		cols = append(cols, "cur."+c)
+	}
+	s.awaitLogged(ctx, site) // a page shows every write acknowledged before it was asked for
+	// "cur" is a logged revision with no later logged one.
+	sql := "SELECT " + strings.Join(cols, ", ") + ", lg.leaf_index FROM log_leaves lg" +
+		" JOIN " + t.name + " cur ON cur.id = lg.record_id AND cur.revision = lg.revision AND cur.site = lg.site" +
+		" WHERE lg.site = $1 AND lg.kind = $" + strconv.Itoa(len(f.args)) + " AND lg.leaf_index >= $2" +
+		" AND NOT EXISTS (SELECT 1 FROM log_leaves later WHERE later.site = lg.site AND later.record_id = lg.record_id" +
+		" AND later.kind = lg.kind AND later.revision > lg.revision)" +
+		" AND " + where + " ORDER BY lg.leaf_index LIMIT $" + strconv.Itoa(len(f.args)-1)
 	rows, _ := s.pool.Query(ctx, sql, f.args...)
-	items, err := pgx.CollectRows(rows, pgx.RowToStructByName[T])
+	items, last, err := collectIndexed[T](rows)
 	if err != nil {
 		return Page[T]{}, fmt.Errorf("db: list %s: %w", t.entity, mapError(err))
 	}
-	p := Page[T]{Items: items}
-	if len(items) > limit {
-		p.Items = items[:limit]
-		p.Next = idCursor(t.name, metaOf(any(&p.Items[limit-1])).ID)
-	}
-	return p, attachSignOffs(ctx, s.pool, site, p.Items)
+	return Page[T]{Items: items, Next: nextLogCursor(t.name, from, last, len(items))}, attachSignOffs(ctx, s.pool, site, items)
 }
 
 // metaHolder is implemented by every record type through its embedded Meta.

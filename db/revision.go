@@ -160,7 +160,11 @@ func (s *Store) tx(ctx context.Context, fn func(tx pgx.Tx) error) error {
 	if err := markCommitted(ctx, tx); err != nil { // under an Idempotency-Key: only while the claim holds
 		return err
 	}
-	return tx.Commit(ctx)
+	if err := tx.Commit(ctx); err != nil {
+		return err
+	}
+	s.kickSequencer()
+	return nil
 }
 
 // step is one part of a write, run inside the write's transaction.
@@ -211,9 +215,15 @@ func (t table) baseIs(ctx context.Context, site string, id uuid.UUID, ch Change)
 	return func(tx pgx.Tx) error { return t.checkBase(ctx, tx, site, id, ch) }
 }
 
-// logged is the step that appends the revision just written to the site's audit log.
-func logged(ctx context.Context, t table, m Meta, action string) step {
-	return func(tx pgx.Tx) error { return appendAudit(ctx, tx, t, m, action) }
+// logged is the step that appends the revision just written to the site's
+// log: a pending leaf encoded from the row as stored (AppendLeaf).
+func (s *Store) logged(ctx context.Context, t table, m Meta, action string) step {
+	return func(tx pgx.Tx) error { return s.AppendLeaf(ctx, tx, m.leafEntry(t.entity, action)) }
+}
+
+// leafEntry names the revision m for the log.
+func (m Meta) leafEntry(kind, action string) LeafEntry {
+	return LeafEntry{Kind: kind, Site: m.Site, ID: m.ID, Revision: m.Revision, Actor: m.CreatedBy, Action: action, Reason: m.Reason, At: m.CreatedAt}
 }
 
 // noCheck is the validate step of a record kind with nothing to check in the database.

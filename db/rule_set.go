@@ -82,7 +82,7 @@ func (s *Store) CreateRuleSet(ctx context.Context, a Actor, d RuleSetData) (Rule
 			a.Site, id, d.RuleSetID, rs.Version, d.Name, d.Process, d.Notes, d.FromMemory, string(rules), rs.CreatedAt, a.Name); err != nil {
 			return mapError(err)
 		}
-		return appendAudit(ctx, tx, ruleSetTable, Meta{Site: a.Site, ID: id, Revision: 1, CreatedAt: rs.CreatedAt, CreatedBy: a.Name}, "create")
+		return s.AppendLeaf(ctx, tx, LeafEntry{Kind: "rule_set", Site: a.Site, ID: id, Revision: 1, Actor: a.Name, Action: "create", At: rs.CreatedAt})
 	})
 	if err != nil {
 		return RuleSet{}, fmt.Errorf("db: create rule set %s: %w", d.RuleSetID, err)

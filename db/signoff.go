@@ -12,10 +12,11 @@ import (
 )
 
 // SignOff is an engineer's statement that one revision of a record is right:
-// who, when, what they state, and the hash under which exactly that revision
-// entered the site's log (SignedHashOf names the log: "audit_event" for the
-// audit chain). It belongs to that revision only: a correction is a new
-// revision with no sign-off until an engineer signs it again.
+// who, when, what they state, and the leaf hash under which exactly that
+// revision entered the site's record log (SignedHashOf "log_leaf"; an
+// inclusion proof of the revision shows the same hash). It belongs to that
+// revision only: a correction is a new revision with no sign-off until an
+// engineer signs it again.
 type SignOff struct {
 	Site           string    `db:"site" json:"site"`
 	ID             uuid.UUID `db:"id" json:"id"`
@@ -50,6 +51,12 @@ var signKinds = map[string]struct {
 
 var signOffTable = table{name: "sign_offs", entity: "sign_off"}
 
+func init() {
+	RegisterLeafKind(LeafKind{Kind: "sign_off", Version: 1, Table: "sign_offs", Columns: []string{
+		"site", "id", "record_kind", "record_id", "record_revision", "statement", "signed_hash",
+		"signed_hash_of", "signed_by", "signer_role", "signed_at"}})
+}
+
 const signOffColumns = `site, id, record_kind, record_id, record_revision, statement, signed_hash,
 	signed_hash_of, signed_by, signer_role, signed_at`
 
@@ -83,12 +90,12 @@ func (s *Store) SignOffRecord(ctx context.Context, a Actor, kind string, id uuid
 		return SignOff{}, err
 	}
 	so := SignOff{Site: a.Site, ID: sid, RecordKind: kind, RecordID: id, RecordRevision: r.Revision,
-		Statement: r.Statement, SignedHashOf: "audit_event", SignedBy: a.Name, SignerRole: a.Role, SignedAt: s.now()}
+		Statement: r.Statement, SignedHashOf: "log_leaf", SignedBy: a.Name, SignerRole: a.Role, SignedAt: s.now()}
 	err = s.write(ctx, "sign off "+kind+" "+id.String(),
 		func(tx pgx.Tx) error { return checkSignable(ctx, tx, k.t, k.voided, a.Site, id, r.Revision) },
-		func(tx pgx.Tx) error {
-			return tx.QueryRow(ctx, `SELECT hash FROM audit_events WHERE site = $1 AND entity = $2 AND entity_id = $3 AND revision = $4`,
-				a.Site, k.t.entity, id, r.Revision).Scan(&so.SignedHash)
+		func(tx pgx.Tx) (err error) {
+			so.SignedHash, err = revisionLeafHash(ctx, tx, a.Site, k.t.entity, id, r.Revision)
+			return err
 		},
 		func(tx pgx.Tx) error {
 			var held uuid.UUID
@@ -106,12 +113,47 @@ func (s *Store) SignOffRecord(ctx context.Context, a Actor, kind string, id uuid
 				so.SignedHashOf, so.SignedBy, so.SignerRole, so.SignedAt)
 			return mapError(err)
 		},
-		logged(ctx, signOffTable, Meta{Site: a.Site, ID: sid, Revision: 1, CreatedAt: so.SignedAt, CreatedBy: a.Name}, actionCreate),
+		s.logged(ctx, signOffTable, Meta{Site: a.Site, ID: sid, Revision: 1, CreatedAt: so.SignedAt, CreatedBy: a.Name}, actionCreate),
 	)
 	if err != nil {
 		return SignOff{}, err
 	}
 	return so, nil
+}
+
+// revisionLeafHash is the leaf hash under which a record revision entered the
+// site's log: from its leaf, or its pending leaf before the sequencer has
+// integrated it. A revision stored before the log existed may wait as a
+// pending leaf without a hash; it is encoded from the stored row with the
+// pending leaf's version, exactly as the sequencer will.
+func revisionLeafHash(ctx context.Context, tx pgx.Tx, site, kind string, id uuid.UUID, rev int) ([]byte, error) {
+	var h []byte
+	var version int
+	err := tx.QueryRow(ctx, `
+		SELECT leaf_hash, version FROM log_leaves WHERE site = $1 AND kind = $2 AND record_id = $3 AND revision = $4
+		UNION ALL
+		SELECT leaf_hash, version FROM log_pending WHERE site = $1 AND kind = $2 AND record_id = $3 AND revision = $4
+		LIMIT 1`, site, kind, id, rev).Scan(&h, &version)
+	switch {
+	case errors.Is(err, pgx.ErrNoRows):
+		return nil, fmt.Errorf("%w: %s %s revision %d is not in the log", ErrConflict, kind, id, rev)
+	case err != nil || h != nil:
+		return h, err
+	}
+	k, err := leafKind(kind, version)
+	if err != nil {
+		return nil, err
+	}
+	rows, _ := tx.Query(ctx, k.selectRow(), site, id, rev)
+	defer rows.Close()
+	if !rows.Next() {
+		return nil, fmt.Errorf("%s %s revision %d: %w", kind, id, rev, ErrNotFound)
+	}
+	f, err := factOf(k, rows)
+	if err != nil {
+		return nil, err
+	}
+	return f.LeafHash(), nil
 }
 
 // checkSignable locks the record against corrections and checks that rev is

@@ -4,34 +4,32 @@ import (
 	"bytes"
 	"context"
 	"crypto/sha256"
-	"encoding/json"
 	"errors"
-	"strconv"
 	"strings"
 	"testing"
 
 	"github.com/google/uuid"
+	"github.com/transparency-dev/merkle/proof"
+	"github.com/transparency-dev/merkle/rfc6962"
 
 	"etchlog/db"
 	"etchlog/db/dbtest"
 )
 
-// eventHash recomputes an audit event's link from its fields with SHA-256
-// (FIPS 180-4) as the chain defines it (migrations/000001): the previous
-// hash, then sequence, time in epoch microseconds, actor, action, entity,
-// entity id, revision, reason and payload text, joined by U+001F.
-func eventHash(ev db.AuditEvent) []byte {
-	text := strings.Join([]string{strconv.FormatInt(ev.Seq, 10), strconv.FormatInt(ev.At.UnixMicro(), 10),
-		ev.Actor, ev.Action, ev.Entity, ev.EntityID.String(), strconv.Itoa(ev.Revision), ev.Reason, string(ev.Payload)}, "\x1f")
-	h := sha256.Sum256(append(append([]byte{}, ev.PrevHash...), text...))
+// leafHash is the RFC 9162 section 2.1.1 leaf hash, SHA-256(0x00 || data)
+// (SHA-256: FIPS 180-4), computed here with the standard library alone.
+func leafHash(data []byte) []byte {
+	h := sha256.Sum256(append([]byte{0}, data...))
 	return h[:]
 }
 
 // TestSignOff: an engineer signs the current revision of a PQR; the sign-off
-// holds the hash of exactly that revision's log entry (recomputed here from
-// the event), reads and lists show it, a correction starts unsigned, a stale
-// or repeated or voided sign-off is refused, other roles cannot sign, and
-// the sign-off is itself audited and verified.
+// holds the leaf hash of exactly that revision (recomputed here from its
+// fact, and proved included in the signed checkpoint with the RFC 9162
+// inclusion check of github.com/transparency-dev/merkle), reads and lists
+// show it, a correction starts unsigned, a stale or repeated or voided
+// sign-off is refused, other roles cannot sign, and the sign-off is itself a
+// leaf of the log that verify checks.
 func TestSignOff(t *testing.T) {
 	t.Parallel()
 	s, site, ctx := dbtest.Store(t), dbtest.Site(t), context.Background()
@@ -50,16 +48,25 @@ func TestSignOff(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	ev, err := s.AuditEvents(ctx, site, db.AuditFilter{EntityID: &q.ID}, 0, 10)
-	if err != nil || len(ev) != 1 {
-		t.Fatalf("audit events of the PQR = %d, %v; want 1", len(ev), err)
+	fact, err := s.Fact(ctx, db.SignQualificationRecord, site, q.ID, 1)
+	if err != nil {
+		t.Fatal(err)
 	}
-	var payload db.QualificationRecord
-	if err := json.Unmarshal(ev[0].Payload, &payload); err != nil || payload.Revision != 1 || payload.RecordNumber != "PQR-SIGN-1" {
-		t.Fatalf("the signed event's payload = %+v, %v; want revision 1 of PQR-SIGN-1", payload, err)
+	if !bytes.Contains(fact.Encode(), []byte("PQR-SIGN-1")) || !bytes.Equal(so.SignedHash, leafHash(fact.Encode())) || so.SignedHashOf != "log_leaf" {
+		t.Errorf("signed_hash = %x (%s), want the leaf hash %x of revision 1's fact", so.SignedHash, so.SignedHashOf, leafHash(fact.Encode()))
 	}
-	if !bytes.Equal(so.SignedHash, eventHash(ev[0])) || !bytes.Equal(so.SignedHash, ev[0].Hash) || so.SignedHashOf != "audit_event" {
-		t.Errorf("signed_hash = %x (%s), want the recomputed hash %x of revision 1's event", so.SignedHash, so.SignedHashOf, eventHash(ev[0]))
+	if err := s.AwaitLogged(ctx, site); err != nil {
+		t.Fatal(err)
+	}
+	inc, err := s.Inclusion(ctx, site, db.SignQualificationRecord, q.ID, 1)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(inc.LeafHash, so.SignedHash) {
+		t.Errorf("inclusion proof leaf hash %x, want the signed hash %x", inc.LeafHash, so.SignedHash)
+	}
+	if err := proof.VerifyInclusion(rfc6962.DefaultHasher, inc.Index, inc.Checkpoint.Size, so.SignedHash, inc.Hashes, inc.Checkpoint.Root); err != nil {
+		t.Errorf("the signed hash is not proved in the checkpoint: %v", err)
 	}
 
 	got, err := s.QualificationRecord(ctx, site, q.ID, 0)
@@ -109,11 +116,11 @@ func TestSignOff(t *testing.T) {
 	if err != nil || len(list.Items) != 2 || list.Items[0].ID != so.ID || list.Items[1].ID != so2.ID {
 		t.Errorf("SignOffs of the PQR = %+v, %v; want both, oldest first", list.Items, err)
 	}
-	sev, err := s.AuditEvents(ctx, site, db.AuditFilter{Entity: "sign_off"}, 0, 10)
-	if err != nil || len(sev) != 2 || sev[0].EntityID != so.ID || sev[0].Actor != eng.Name {
-		t.Errorf("sign-off audit events = %+v, %v; want one per sign-off", sev, err)
+	sev, err := s.AuditEvents(ctx, site, db.AuditFilter{Entity: "sign_off"}, "", 10)
+	if err != nil || len(sev.Items) != 2 || sev.Items[0].EntityID != so.ID || sev.Items[0].Actor != eng.Name {
+		t.Errorf("sign-off log entries = %+v, %v; want one per sign-off", sev.Items, err)
 	}
-	if v, err := s.VerifyAudit(ctx, site); err != nil || !v.OK {
+	if v, err := s.VerifyLog(ctx, site, nil); err != nil || !v.OK {
 		t.Fatalf("verify: %+v, %v", v, err)
 	}
 	if _, err := superuser(t).Exec(ctx, `ALTER TABLE sign_offs DISABLE TRIGGER sign_offs_append_only;
@@ -121,7 +128,7 @@ func TestSignOff(t *testing.T) {
 		ALTER TABLE sign_offs ENABLE TRIGGER sign_offs_append_only;`); err != nil {
 		t.Fatal(err)
 	}
-	if v, err := s.VerifyAudit(ctx, site); err != nil || v.OK || !strings.Contains(strings.Join(v.Problems, "\n"), so.ID.String()) {
+	if v, err := s.VerifyLog(ctx, site, nil); err != nil || v.OK || !strings.Contains(strings.Join(v.Problems, "\n"), so.ID.String()) {
 		t.Errorf("verify after editing a sign-off's statement: %+v, %v; want a problem naming it", v, err)
 	}
 }
@@ -158,7 +165,7 @@ func TestSignOffProcedureAndCalibration(t *testing.T) {
 	if err != nil || len(page.Items) != 1 || page.Items[0].SignOff == nil {
 		t.Errorf("calibration list: %+v, %v; want signed", page.Items, err)
 	}
-	if v, err := s.VerifyAudit(ctx, site); err != nil || !v.OK {
+	if v, err := s.VerifyLog(ctx, site, nil); err != nil || !v.OK {
 		t.Errorf("verify: %+v, %v", v, err)
 	}
 }

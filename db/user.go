@@ -90,7 +90,7 @@ func (s *Store) PutUser(ctx context.Context, u User, token string) error {
 		if err := users.writeRevision(ctx, m, []any{u.Name, u.Role, digest})(tx); err != nil {
 			return err
 		}
-		return logged(ctx, users, m, action)(tx)
+		return s.logged(ctx, users, m, action)(tx)
 	})
 	if err != nil {
 		return fmt.Errorf("db: put user %s: %w", u.Name, mapError(err))

@@ -92,11 +92,18 @@ func cmdUser(ctx context.Context, args []string, getenv func(string) string, std
 	if name == "" || !slices.Contains([]string{db.RoleTechnician, db.RoleEngineer, db.RoleAuditor}, role) {
 		return fmt.Errorf("user add: -name is required and -role must be technician, engineer or auditor")
 	}
+	skey, err := c.logKey() // a user change is a fact of the site's log
+	if err != nil {
+		return err
+	}
 	store, err := openOwner(ctx, c, c.logger(io.Discard))
 	if err != nil {
 		return err
 	}
 	defer store.Close()
+	if err := store.SetLogKey(skey); err != nil {
+		return err
+	}
 	token, err := db.NewToken()
 	if err != nil {
 		return err

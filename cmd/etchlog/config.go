@@ -22,16 +22,18 @@ type config struct {
 	DatabaseURL string
 	// OwnerURL is the administrator's login for migrations and users; empty
 	// means DATABASE_URL's login when that is a superuser (see databases).
-	OwnerURL  string
-	LogLevel  string
-	BodyLimit string
-	PerUser   int
+	OwnerURL   string
+	LogLevel   string
+	BodyLimit  string
+	PerUser    int
+	LogKey     string // the private log signing key text (env ETCHLOG_LOG_KEY)
+	LogKeyFile string // or a file holding it
 }
 
 // defaults fills the configuration from the environment.
 func defaults(getenv func(string) string) config {
 	c := config{Addr: "127.0.0.1:8080", LogLevel: "info", BodyLimit: "1MiB", PerUser: api.DefaultPerUser, DatabaseURL: getenv("DATABASE_URL"),
-		OwnerURL: getenv("ETCHLOG_OWNER_DATABASE_URL")}
+		OwnerURL: getenv("ETCHLOG_OWNER_DATABASE_URL"), LogKey: getenv("ETCHLOG_LOG_KEY"), LogKeyFile: getenv("ETCHLOG_LOG_KEY_FILE")}
 	if v := getenv("ETCHLOG_ADDR"); v != "" {
 		c.Addr = v
 	}
@@ -53,6 +55,7 @@ func (c *config) databaseFlags(fs *flag.FlagSet) {
 func (c *config) serverFlags(fs *flag.FlagSet) {
 	fs.StringVar(&c.Addr, "addr", c.Addr, "listen address (env ETCHLOG_ADDR)")
 	fs.StringVar(&c.LogLevel, "log-level", c.LogLevel, "debug, info, warn or error (env ETCHLOG_LOG_LEVEL)")
+	fs.StringVar(&c.LogKeyFile, "log-key-file", c.LogKeyFile, "file with the log signing key made by etchlog keygen (env ETCHLOG_LOG_KEY_FILE; or the key in ETCHLOG_LOG_KEY)")
 	fs.StringVar(&c.BodyLimit, "body-limit", c.BodyLimit, "largest request body, e.g. 1MiB (binary) or 1M (10^6 bytes)")
 	fs.IntVar(&c.PerUser, "per-user", c.PerUser, "requests one user may have running at once; more get 429")
 }

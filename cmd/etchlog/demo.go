@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -36,14 +37,28 @@ func cmdDemo(ctx context.Context, args []string, getenv func(string) string, std
 		return err
 	}
 	log := c.logger(stderr)
+	skey, err := c.logKey()
+	if errors.Is(err, errNoLogKey) { // the demo makes (once) and keeps its own key
+		skey, err = demoLogKey()
+	}
+	if err != nil {
+		return err
+	}
 	store, err := openStore(ctx, c, log)
 	if err != nil {
 		return err
 	}
 	defer store.Close()
+	if err := startLog(ctx, store, skey, log); err != nil {
+		return err
+	}
 	owner, err := openOwner(ctx, c, log)
 	if err != nil {
 		return fmt.Errorf("demo: %w", err)
+	}
+	if err := owner.SetLogKey(skey); err != nil {
+		owner.Close()
+		return err
 	}
 	loaded, err := loadDemo(ctx, owner, store)
 	owner.Close() // the server runs with the service's login only

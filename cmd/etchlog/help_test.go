@@ -13,7 +13,7 @@ import (
 // stdout naming the command, and it lists exactly the command's own flags.
 func TestHelp(t *testing.T) {
 	t.Parallel()
-	server := []string{"addr", "body-limit", "database-url", "log-level", "owner-database-url", "per-user"}
+	server := []string{"addr", "body-limit", "database-url", "log-key-file", "log-level", "owner-database-url", "per-user"}
 	flagLine := regexp.MustCompile(`(?m)^  -(\S+)`)
 	for _, c := range []struct {
 		args  []string
@@ -29,6 +29,8 @@ func TestHelp(t *testing.T) {
 		{[]string{"user", "-h"}, "usage: etchlog user add", nil},
 		{[]string{"user", "add", "-h"}, "usage: etchlog user add", []string{"database-url", "name", "owner-database-url", "role", "site"}},
 		{[]string{"load", "-h"}, "usage: etchlog load [flags]", []string{"c", "max-time", "n", "token", "url"}},
+		{[]string{"keygen", "-h"}, "usage: etchlog keygen [flags]", []string{"name", "out"}},
+		{[]string{"verify", "-h"}, "usage: etchlog verify --export FILE", []string{"checkpoint", "export", "key", "older-checkpoint"}},
 	} {
 		t.Run(strings.Join(c.args, " "), func(t *testing.T) {
 			var stdout, stderr bytes.Buffer

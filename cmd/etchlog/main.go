@@ -6,6 +6,8 @@
 //	etchlog migrate up|down  apply or roll back the schema
 //	etchlog user add         create an API user and print its token
 //	etchlog load             measure a running server (loopback only)
+//	etchlog keygen           make the log signing key
+//	etchlog verify           check an export against signed checkpoints, offline
 package main
 
 import (
@@ -36,6 +38,8 @@ commands:
   migrate up|down  apply or roll back the database schema
   user add         create or replace an API user and print its token
   load             measure a running server against a no-database baseline (loopback only)
+  keygen           make the log signing key (private key file and public key)
+  verify           check an export against signed checkpoints, offline (no database, no server)
 
 Run "etchlog <command> -h" for the flags of a command. Without DATABASE_URL,
 etchlog uses the local PostgreSQL server, or starts a private one.`
@@ -66,6 +70,10 @@ func dispatch(ctx context.Context, args []string, getenv func(string) string, st
 		return cmdUser(ctx, args[1:], getenv, stdout, stderr)
 	case "load":
 		return cmdLoad(ctx, args[1:], getenv, stdout, stderr)
+	case "keygen":
+		return cmdKeygen(ctx, args[1:], getenv, stdout, stderr)
+	case "verify":
+		return cmdVerify(ctx, args[1:], getenv, stdout, stderr)
 	case "help", "-h", "--help":
 		fmt.Fprintln(stdout, usage)
 		return nil

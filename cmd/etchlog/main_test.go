@@ -73,7 +73,7 @@ var listening = regexp.MustCompile(`listening on (http://\S+)`)
 // says where it listens.
 func start(t *testing.T, ctx context.Context, dbURL string, args ...string) *running {
 	t.Helper()
-	env := map[string]string{"DATABASE_URL": dbURL}
+	env := map[string]string{"DATABASE_URL": dbURL, "ETCHLOG_LOG_KEY": dbtest.PrivateKey}
 	r := &running{done: make(chan error, 1), stdout: newLineBuffer(), stderr: newLineBuffer()}
 	go func() { r.done <- run(ctx, args, func(k string) string { return env[k] }, r.stdout, r.stderr) }()
 	timeout := time.After(60 * time.Second)

@@ -23,11 +23,18 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 		return err
 	}
 	log := c.logger(stderr)
+	skey, err := c.logKey()
+	if err != nil {
+		return err
+	}
 	store, err := openStore(ctx, c, log)
 	if err != nil {
 		return err
 	}
 	defer store.Close()
+	if err := startLog(ctx, store, skey, log); err != nil {
+		return err
+	}
 	return serve(ctx, c, store, log, func(base string) {
 		fmt.Fprintf(stdout, "etchlog listening on %s\n", base)
 	})

@@ -17,6 +17,7 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"etchlog/db"
+	"etchlog/db/logfmt"
 )
 
 // DefaultServerURL is the maintenance database used when ETCHLOG_TEST_DATABASE_URL is unset.
@@ -68,8 +69,32 @@ func setup() {
 	if owner, setupEr = db.OpenOwner(ctx, dbURL); setupEr != nil {
 		return
 	}
-	store, setupEr = db.Open(ctx, appURL)
+	if store, setupEr = db.Open(ctx, appURL); setupEr != nil {
+		return
+	}
+	if setupEr = store.SetLogKey(PrivateKey); setupEr != nil {
+		return
+	}
+	if setupEr = owner.SetLogKey(PrivateKey); setupEr != nil {
+		return
+	}
+	var seqCtx context.Context
+	seqCtx, stopSequencer = context.WithCancel(context.Background())
+	go store.RunSequencer(seqCtx, db.SequencerOptions{Retry: 100 * time.Millisecond}) //nolint:errcheck // ends with the package
 }
+
+// PrivateKey and PublicKey are the package's log signing key pair, made
+// afresh for each test run; the package's stores sign with PrivateKey and
+// the service store runs a log sequencer.
+var PrivateKey, PublicKey = func() (string, string) {
+	skey, vkey, err := logfmt.GenerateKey("etchlog-test")
+	if err != nil {
+		panic(err) // crypto/rand failed: nothing can run
+	}
+	return skey, vkey
+}()
+
+var stopSequencer context.CancelFunc = func() {}
 
 // URL returns the superuser connection URL of the package's test database:
 // for tests that play an administrator or an attacker with SQL access.
@@ -127,6 +152,7 @@ func Main(m interface{ Run() int }) {
 		owner.Close()
 	}
 	if store != nil {
+		stopSequencer()
 		store.Close()
 		ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
 		if admin, err := pgx.Connect(ctx, serverURL()); err == nil {

@@ -1,0 +1,216 @@
+package db
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"strings"
+	"time"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+
+	"etchlog/db/logfmt"
+)
+
+// leafStream reads one (kind, version)'s leaves in index order through a
+// server-side cursor, joined to their stored rows.
+type leafStream struct {
+	name  string
+	k     LeafKind
+	known bool
+	buf   []logfmt.ExportLeaf
+	done  bool
+}
+
+const leafFetch = 1000
+
+// exportLeaves emits every leaf of the site in index order, its fact encoded
+// again from the stored row as it is now. The leaves of each kind come from
+// their own cursor; a merge on the index puts them back in log order, so the
+// export streams in constant memory.
+func exportLeaves(ctx context.Context, tx pgx.Tx, site string, emit func(string, any) error) (int64, error) {
+	rows, _ := tx.Query(ctx, `SELECT DISTINCT kind, version FROM log_leaves WHERE site = $1`, site)
+	type kv struct {
+		Kind    string `db:"kind"`
+		Version int    `db:"version"`
+	}
+	kinds, err := pgx.CollectRows(rows, pgx.RowToStructByName[kv])
+	if err != nil {
+		return 0, err
+	}
+	streams := make([]*leafStream, 0, len(kinds))
+	for i, kv := range kinds {
+		// The cursor's name fixes its columns: the driver caches a FETCH's
+		// result shape by its text, so one name never serves two shapes.
+		st := &leafStream{name: fmt.Sprintf("etchlog_leaves_%s_%d", identifier(kv.Kind), kv.Version)}
+		if !identifierOK(kv.Kind) {
+			st.name = fmt.Sprintf("etchlog_leaves_unknown_%d", i)
+		}
+		st.k, err = leafKind(kv.Kind, kv.Version)
+		st.known = err == nil
+		q := `SELECT lg.leaf_index, lg.kind, lg.version, lg.record_id, lg.revision, lg.leaf_hash,
+			lg.actor, lg.action, lg.reason, lg.at`
+		if st.known {
+			cols := make([]string, len(st.k.Columns))
+			for j, c := range st.k.Columns {
+				cols[j] = "r." + c
+			}
+			q += ", r.id IS NOT NULL, " + strings.Join(cols, ", ") + " FROM log_leaves lg LEFT JOIN " + st.k.Table +
+				" r ON r.site = lg.site AND r.id = lg.record_id AND " + st.k.revisionExpr("r") + " = lg.revision"
+		} else {
+			q += ", false FROM log_leaves lg"
+		}
+		q += " WHERE lg.site = " + quoteLiteral(site) + " AND lg.kind = " + quoteLiteral(kv.Kind) +
+			fmt.Sprintf(" AND lg.version = %d ORDER BY lg.leaf_index", kv.Version)
+		if _, err := tx.Exec(ctx, "DECLARE "+st.name+" NO SCROLL CURSOR FOR "+q); err != nil {
+			return 0, err
+		}
+		streams = append(streams, st)
+	}
+	var n int64
+	for {
+		var next *leafStream
+		for _, st := range streams {
+			if len(st.buf) == 0 && !st.done {
+				if err := st.fill(ctx, tx); err != nil {
+					return n, err
+				}
+			}
+			if len(st.buf) > 0 && (next == nil || st.buf[0].Index < next.buf[0].Index) {
+				next = st
+			}
+		}
+		if next == nil {
+			return n, nil
+		}
+		if err := emit(logfmt.LineLeaf, next.buf[0]); err != nil {
+			return n, err
+		}
+		next.buf = next.buf[1:]
+		n++
+	}
+}
+
+// fill fetches the stream's next leaves and encodes their facts.
+func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
+	rows, err := tx.Query(ctx, fmt.Sprintf("FETCH %d FROM %s", leafFetch, st.name))
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	st.buf = st.buf[:0]
+	for rows.Next() {
+		vals, err := rows.Values()
+		if err != nil {
+			return err
+		}
+		l := logfmt.ExportLeaf{Index: uint64(vals[0].(int64)), Kind: vals[1].(string), Version: int(vals[2].(int32)),
+			RecordID: uuid.UUID(vals[3].([16]byte)).String(), Revision: int(vals[4].(int32)), LeafHash: vals[5].([]byte),
+			Actor: vals[6].(string), Action: vals[7].(string), Reason: vals[8].(string),
+			At: vals[9].(time.Time).UTC().Format("2006-01-02T15:04:05.000000Z")}
+		switch {
+		case !st.known:
+			l.Missing = "this etchlog does not know the fact kind " + l.Kind
+		case !vals[10].(bool):
+			l.Missing = "no such row at the site"
+		default:
+			f, err := factFrom(st.k, rows.FieldDescriptions()[11:], vals[11:], rows.RawValues()[11:])
+			if err != nil {
+				return err
+			}
+			l.Fields = f.Fields
+		}
+		st.buf = append(st.buf, l)
+	}
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	st.done = len(st.buf) == 0
+	return nil
+}
+
+// exportUnlogged emits every stored fact with no leaf: rows with neither a
+// leaf nor an authentic pending leaf, and pending leaves the sequencer
+// refused. Authentic pending leaves are simply not logged yet.
+func (s *Store) exportUnlogged(ctx context.Context, tx pgx.Tx, site string, emit func(string, any) error) (int64, error) {
+	var n int64
+	key := s.logKey()
+	rows, _ := tx.Query(ctx, `SELECT kind, version, record_id, revision, leaf_hash, tag FROM log_pending WHERE site = $1 ORDER BY seq`, site)
+	type pending struct {
+		Kind      string    `db:"kind"`
+		Version   int       `db:"version"`
+		ID        uuid.UUID `db:"record_id"`
+		Rev       int       `db:"revision"`
+		Hash, Tag []byte
+	}
+	pend, err := pgx.CollectRows(rows, func(r pgx.CollectableRow) (pending, error) {
+		var p pending
+		return p, r.Scan(&p.Kind, &p.Version, &p.ID, &p.Rev, &p.Hash, &p.Tag)
+	})
+	if err != nil {
+		return n, err
+	}
+	var kind string
+	var id uuid.UUID
+	for _, p := range pend {
+		why := ""
+		switch {
+		case p.Hash == nil || key == nil || !key.TagOK(site, p.Hash, p.Tag):
+			why = "its pending leaf was not written by the service (no valid tag)"
+		default: // not yet in the tree: the row must still be what the leaf commits to
+			h, err := encodeStored(ctx, tx, p.Kind, p.Version, site, p.ID, p.Rev)
+			if err != nil || !bytes.Equal(h, p.Hash) {
+				why = "the stored row no longer matches its pending leaf (altered before it was logged)"
+			}
+		}
+		if why != "" {
+			n++
+			if err := emit(logfmt.LineUnlogged, logfmt.Unlogged{Kind: p.Kind, RecordID: p.ID.String(), Revision: p.Rev, Why: why}); err != nil {
+				return n, err
+			}
+		}
+	}
+	var rev int
+	rows, _ = tx.Query(ctx, `SELECT kind, record_id, revision, why FROM log_rejected WHERE site = $1 ORDER BY seq`, site)
+	var why string
+	if _, err := pgx.ForEachRow(rows, []any{&kind, &id, &rev, &why}, func() error {
+		n++
+		return emit(logfmt.LineUnlogged, logfmt.Unlogged{Kind: kind, RecordID: id.String(), Revision: rev, Why: "refused by the sequencer: " + why})
+	}); err != nil {
+		return n, err
+	}
+	for _, k := range registeredKinds() {
+		rev := k.revisionExpr("r")
+		rows, _ := tx.Query(ctx, `SELECT r.id, `+rev+` FROM `+k.Table+` r WHERE r.site = $1
+			AND NOT EXISTS (SELECT 1 FROM log_leaves lg WHERE lg.site = r.site AND lg.record_id = r.id AND lg.revision = `+rev+` AND lg.kind = $2)
+			AND NOT EXISTS (SELECT 1 FROM log_pending p WHERE p.site = r.site AND p.record_id = r.id AND p.revision = `+rev+` AND p.kind = $2)
+			AND NOT EXISTS (SELECT 1 FROM log_rejected x WHERE x.site = r.site AND x.record_id = r.id AND x.revision = `+rev+` AND x.kind = $2)
+			ORDER BY r.id`, site, k.Kind)
+		var r int
+		if _, err := pgx.ForEachRow(rows, []any{&id, &r}, func() error {
+			n++
+			return emit(logfmt.LineUnlogged, logfmt.Unlogged{Kind: k.Kind, RecordID: id.String(), Revision: r, Why: "no leaf in the log"})
+		}); err != nil {
+			return n, err
+		}
+	}
+	return n, nil
+}
+
+// identifierOK reports whether a kind name can be part of an SQL identifier.
+func identifierOK(s string) bool {
+	for _, r := range s {
+		if !(r >= 'a' && r <= 'z' || r == '_' || r >= '0' && r <= '9') {
+			return false
+		}
+	}
+	return s != "" && len(s) < 40
+}
+
+func identifier(s string) string {
+	if identifierOK(s) {
+		return s
+	}
+	return "x"
+}

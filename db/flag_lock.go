@@ -1,0 +1,70 @@
+package db
+
+import (
+	"context"
+	"slices"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// Flags derive from records, ranges and active calibrations, and are
+// rewritten in the transaction of the write that changes them. Writes that
+// flag one coupon or production record hold a shared lock on its procedure;
+// writes that change what a procedure's records are judged by (its ranges,
+// its revision, an active calibration of its process) hold that procedure's
+// lock exclusively. Record writes never wait for one another, only for a
+// change of judgement on the same procedure, and a re-evaluation never
+// misses a record written beside it. Locks are taken in id order so two
+// transactions cannot wait on each other in a cycle.
+
+// lockProcedures takes the flag lock of each procedure, shared or exclusive.
+func lockProcedures(ctx context.Context, tx pgx.Tx, site string, ids []uuid.UUID, exclusive bool) error {
+	if len(ids) == 0 {
+		return nil
+	}
+	ids = slices.Clone(ids)
+	slices.SortFunc(ids, func(a, b uuid.UUID) int { return slices.Compare(a[:], b[:]) })
+	ids = slices.Compact(ids)
+	fn := "pg_advisory_xact_lock_shared"
+	if exclusive {
+		fn = "pg_advisory_xact_lock"
+	}
+	_, err := tx.Exec(ctx, `SELECT `+fn+`(hashtextextended('etchlog-flags:' || $1 || ':' || p::text, 0))
+		FROM unnest($2::uuid[]) WITH ORDINALITY AS u(p, n) ORDER BY n`, site, ids)
+	return err
+}
+
+// lockCouponProcedures takes the shared flag lock of every procedure the
+// coupon names in any revision (a correction may move it to another).
+func lockCouponProcedures(ctx context.Context, tx pgx.Tx, site string, coupon uuid.UUID) error {
+	rows, _ := tx.Query(ctx, `SELECT DISTINCT procedure_id FROM coupons
+		WHERE site = $1 AND id = $2 AND procedure_id IS NOT NULL`, site, coupon)
+	ids, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+	if err != nil {
+		return err
+	}
+	return lockProcedures(ctx, tx, site, ids, false)
+}
+
+// lockProcess takes the exclusive flag lock of every procedure of a process
+// at the site, before an activation changes the model its coupons answer to.
+func lockProcess(ctx context.Context, tx pgx.Tx, site, process string) error {
+	rows, _ := tx.Query(ctx, `SELECT DISTINCT id FROM procedures WHERE site = $1 AND process = $2`, site, process)
+	ids, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+	if err != nil {
+		return err
+	}
+	return lockProcedures(ctx, tx, site, ids, true)
+}
+
+// lockGroup serialises the choice of calibration for one model family and
+// calibration group at a site: two activations of the same group never
+// interleave, while writes to other groups and all record writes go on.
+func lockGroup(ctx context.Context, tx pgx.Tx, site, family string, g CalibrationGroup) error {
+	g = g.canonical()
+	_, err := tx.Exec(ctx, `SELECT pg_advisory_xact_lock(hashtextextended(
+		concat_ws(chr(31), 'etchlog-calibration-group', $1::text, $2::text, $3::text, round($4::numeric, 3)::text, $5::text, $6::text), 0))`,
+		site, family, g.Process, g.WireDiameterMM, g.ShieldingGas, g.JointType)
+	return err
+}
