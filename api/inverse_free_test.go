@@ -30,7 +30,9 @@ type inverseReply struct {
 func (e *testEnv) inverseInGroup(solveFor string, given map[string]any) inverseReply {
 	e.t.Helper()
 	b := fitGroupBody()
-	b["solve_for"], b["penetration_mm"] = solveFor, 2.0
+	// These checks are of the median solve (the default with a calibration
+	// is the interval's lower bound: TestProcedureInverse).
+	b["solve_for"], b["penetration_mm"], b["basis"] = solveFor, 2.0, "median"
 	for k, v := range given {
 		b[k] = v
 	}

@@ -2,8 +2,10 @@ package api
 
 import (
 	"fmt"
+	"math"
 	"net/http"
 
+	"github.com/google/uuid"
 	"github.com/labstack/echo/v4"
 
 	"etchlog/db"
@@ -16,6 +18,8 @@ import (
 // its active jackson_fixed calibration, else the caller's K.
 type penetrationInverseIn struct {
 	groupFields
+	ProcedureID       *uuid.UUID  `json:"procedure_id"`
+	Basis             string      `json:"basis"`
 	SolveFor          string      `json:"solve_for"`
 	PenetrationMM     *float64    `json:"penetration_mm"`
 	CurrentA          *float64    `json:"current_a"`
@@ -27,6 +31,7 @@ type penetrationInverseIn struct {
 
 // penetrationInverse is the request in metric units, validated.
 type penetrationInverse struct {
+	Basis             string      `json:"basis"`
 	SolveFor          string      `json:"solve_for" validate:"required,oneof=current voltage travel_speed"`
 	PenetrationMM     float64     `json:"penetration_mm" validate:"required,quantity"`
 	CurrentA          *float64    `json:"current_a" validate:"omitempty,quantity"`
@@ -39,7 +44,13 @@ type penetrationInverse struct {
 func (in penetrationInverseIn) metric() (penetrationInverse, error) {
 	var u units
 	q := penetrationInverse{SolveFor: in.SolveFor, CurrentA: in.CurrentA, VoltageV: in.VoltageV, JacksonK: in.JacksonK,
-		PenetrationMM: u.req("penetration_mm", in.PenetrationMM), TravelSpeedMMPerS: in.TravelSpeedMMPerS, WireDiameterMM: in.WireDiameterMM,
+		TravelSpeedMMPerS: in.TravelSpeedMMPerS, WireDiameterMM: in.WireDiameterMM, Basis: in.Basis,
+	}
+	switch { // with a procedure, its required minimum is the default target
+	case in.PenetrationMM != nil:
+		q.PenetrationMM = *in.PenetrationMM
+	case in.ProcedureID == nil:
+		u.missing("penetration_mm")
 	}
 	for _, v := range []struct {
 		name  string
@@ -65,14 +76,46 @@ type penetrationInverseOut struct {
 	TravelSpeedMMPerS   float64        `json:"travel_speed_mm_s"`
 	TravelSpeedInPerMin float64        `json:"travel_speed_in_min"`
 	Penetration         penetrationOut `json:"penetration"`
-	Notes               []string       `json:"notes"`
-	Caution             string         `json:"caution"`
+	// Basis is how the target was met: lower_bound (the prediction
+	// interval's lower end at PenetrationLevel equals the target, LowerBoundMM)
+	// or median.
+	Basis            string   `json:"basis"`
+	PenetrationLevel *float64 `json:"penetration_level,omitempty"`
+	LowerBoundMM     *float64 `json:"lower_bound_mm,omitempty"`
+	// For a procedure: where the target and group came from, and whether
+	// the solved setting lies inside its qualified ranges.
+	ProcedureID            *uuid.UUID        `json:"procedure_id,omitempty"`
+	LimitsFrom             map[string]string `json:"limits_from,omitempty"`
+	WithinQualifiedRanges  *bool             `json:"within_qualified_ranges,omitempty"`
+	OutsideQualifiedRanges []string          `json:"outside_qualified_ranges,omitempty"`
+	Notes                  []string          `json:"notes"`
+	Caution                string            `json:"caution"`
 }
 
 // handleInversePenetration answers POST /v1/inverse/penetration.
 func (s *Server) handleInversePenetration(c echo.Context) error {
-	in, q, err := bindMetric[penetrationInverse, penetrationInverseIn](s, c)
+	var in penetrationInverseIn
+	if err := bind(c, &in); err != nil {
+		return err
+	}
+	q, err := in.metric()
 	if err != nil {
+		return err
+	}
+	var lim *procedureLimits
+	limitsFrom := map[string]string{}
+	if in.ProcedureID != nil {
+		if lim, err = s.procedureLimitsOf(c, *in.ProcedureID); err != nil {
+			return err
+		}
+		got, from := lim.minPenetration(in.PenetrationMM)
+		if got == nil {
+			return badRequest("penetration_mm", "is required: the procedure states no minimum penetration")
+		}
+		q.PenetrationMM, limitsFrom["penetration_mm"] = *got, from
+		lim.group(&in.groupFields, &q.WireDiameterMM, limitsFrom)
+	}
+	if err := s.check(q); err != nil {
 		return err
 	}
 	g, err := s.calibrationGroup(in.groupFields, q.WireDiameterMM)
@@ -85,32 +128,91 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 			return err
 		}
 	}
+	var solve func(q penetrationInverse) (penetrationInverseOut, error)
+	var cal *db.Calibration // the calibration solved with; nil: the request's K
+	var notes []string
 	if free != nil && free.Fit.Penetration != nil {
-		out, err := inverseFree(*free, q)
+		cal = free
+		solve = func(q penetrationInverse) (penetrationInverseOut, error) { return inverseFree(*free, q) }
+	} else {
+		k, fixed, err := s.jacksonKFor(c, g, q.JacksonK)
 		if err != nil {
 			return err
 		}
-		return c.JSON(http.StatusOK, out)
+		if k == nil {
+			return badRequest("jackson_k", "is required: give it, or the group of an active jackson_fixed calibration")
+		}
+		if q.JacksonK != nil { // say which calibration the explicit K was preferred to
+			passed, err := s.activeCalibration(c, g, db.CalibrationJacksonFree, db.CalibrationJacksonFixed)
+			if err != nil {
+				return err
+			}
+			if passed != nil {
+				notes = append(notes, "the group's active calibration "+passed.ID.String()+" was not used: the request's jackson_k was")
+			}
+		}
+		cal = fixed
+		solve = func(q penetrationInverse) (penetrationInverseOut, error) { return inverseK(*k, fixed, q) }
 	}
-	k, cal, err := s.jacksonKFor(c, g, q.JacksonK)
+	out, err := solveOnBasis(solve, cal, q)
 	if err != nil {
 		return err
 	}
-	if k == nil {
-		return badRequest("jackson_k", "is required: give it, or the group of an active jackson_fixed calibration")
+	out.Notes = append(out.Notes, notes...)
+	if lim != nil {
+		values := map[string]float64{"current_a": out.CurrentA, "voltage_v": out.VoltageV, "travel_speed_mm_s": out.TravelSpeedMMPerS}
+		inside, outside := lim.inside(values)
+		out.ProcedureID, out.LimitsFrom, out.WithinQualifiedRanges, out.OutsideQualifiedRanges = &lim.proc.ID, limitsFrom, &inside, outside
+		if lim.stale != "" {
+			out.Notes = append(out.Notes, "the qualified ranges may be out of date: "+lim.stale)
+		}
 	}
-	out := penetrationInverseOut{SolveFor: q.SolveFor, Notes: []string{}, Caution: predictionCaution}
-	if q.JacksonK != nil { // say which calibration the explicit K was preferred to
-		passed, err := s.activeCalibration(c, g, db.CalibrationJacksonFree, db.CalibrationJacksonFixed)
+	return c.JSON(http.StatusOK, out)
+}
+
+// solveOnBasis solves for the setting whose penetration meets the target:
+// on the median when the model has no interval (a request's K) or median
+// is asked for; else, by default, so that the lower end of the
+// calibration's prediction interval at its level equals the target (the
+// safe side), by iterating the median target T ← T·P/P_low, which converges
+// because the interval's relative width changes slowly with the setting.
+func solveOnBasis(solve func(penetrationInverse) (penetrationInverseOut, error), cal *db.Calibration, q penetrationInverse) (penetrationInverseOut, error) {
+	if cal == nil && q.Basis == predict.BasisLowerBound {
+		return penetrationInverseOut{}, unprocessable(FieldIssue{"basis", "lower_bound needs a calibration with a prediction interval; a jackson_k has none"})
+	}
+	if cal == nil || cal.Fit.Penetration == nil || q.Basis == predict.BasisMedian {
+		out, err := solve(q)
+		out.Basis = predict.BasisMedian
+		return out, err
+	}
+	want, target := q.PenetrationMM, q.PenetrationMM
+	var out penetrationInverseOut
+	for range 60 {
+		q.PenetrationMM = target
+		var err error
+		if out, err = solve(q); err != nil {
+			return out, err
+		}
+		iv, err := cal.Fit.Penetration.Predict(out.CurrentA, out.VoltageV, out.TravelSpeedMMPerS, cal.Level)
 		if err != nil {
-			return err
+			return out, err
 		}
-		if passed != nil {
-			out.Notes = append(out.Notes, "the group's active calibration "+passed.ID.String()+" was not used: the request's jackson_k was")
+		out.LowerBoundMM = ptrTo(iv.PredLowMM)
+		if math.Abs(iv.PredLowMM-want) <= 1e-10*want {
+			break
 		}
+		target *= want / iv.PredLowMM
 	}
-	if err := solveJackson(*k, q, &out); err != nil {
-		return renamed(err, jacksonFieldNames)
+	out.Basis, out.PenetrationLevel = predict.BasisLowerBound, ptrTo(cal.Level)
+	return out, nil
+}
+
+// inverseK solves with K and the published exponents: the request's K
+// (cal nil) or that of the group's active jackson_fixed calibration.
+func inverseK(k predict.JacksonK, cal *db.Calibration, q penetrationInverse) (penetrationInverseOut, error) {
+	out := penetrationInverseOut{SolveFor: q.SolveFor, Notes: []string{}, Caution: predictionCaution}
+	if err := solveJackson(k, q, &out); err != nil {
+		return out, renamed(err, jacksonFieldNames)
 	}
 	po := &out.Penetration
 	po.Source, po.Model = sourceRequest, string(predict.ModelJacksonFixed)
@@ -118,16 +220,22 @@ func (s *Server) handleInversePenetration(c echo.Context) error {
 		po.Source, po.Model, po.CalibrationID = sourceCalibration, string(db.CalibrationJacksonFixed), &cal.ID
 	}
 	po.Exponents = &exponentsOut{predict.JacksonCurrentExponent, predict.JacksonTravelExponent, predict.JacksonVoltageExponent}
-	if err := po.setK(*k); err != nil {
-		return err
+	if err := po.setK(k); err != nil {
+		return out, err
 	}
-	p, err := predict.PenetrationMM(*k, out.CurrentA, out.TravelSpeedMMPerS, out.VoltageV)
+	p, err := predict.PenetrationMM(k, out.CurrentA, out.TravelSpeedMMPerS, out.VoltageV)
 	if err != nil {
-		return err
+		return out, err
 	}
 	po.PenetrationMM, po.PenetrationIn = &p, ptrTo(predict.MMToInch(p))
+	if cal != nil { // the calibration's interval at the solution, at the default level
+		iv, err := cal.Fit.Penetration.Predict(out.CurrentA, out.VoltageV, out.TravelSpeedMMPerS, defaultLevel)
+		if err == nil {
+			po.Interval = &iv
+		}
+	}
 	finishInverse(&out)
-	return c.JSON(http.StatusOK, out)
+	return out, nil
 }
 
 // inverseFree solves with the shop's own exponents of an active jackson_free

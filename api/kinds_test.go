@@ -20,7 +20,7 @@ type inputKind struct {
 	path     func(e *testEnv) string
 	body     func(e *testEnv) map[string]any // every field, metric, unique where needed
 	data     func() any                      // the stored data type, carrying the validate tags
-	required []string                        // required quantities the schema cannot mark (one of several spellings)
+	required []string                        // quantities required in one of several spellings (the schema's allOf/anyOf)
 	// direct stores body through the Store, skipping the API's validation, so
 	// a test can see what the database's own CHECK rules refuse.
 	direct func(e *testEnv, body map[string]any) error

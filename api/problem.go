@@ -8,6 +8,7 @@ import (
 	"log/slog"
 	"net/http"
 	"regexp"
+	"slices"
 	"strings"
 
 	"github.com/getkin/kin-openapi/openapi3"
@@ -247,6 +248,16 @@ func requestIssues(re *openapi3filter.RequestError) []FieldIssue {
 				walk(e, param)
 			}
 		case errors.As(err, &se):
+			if name, reason, ok := missingSpelling(se); ok {
+				is := FieldIssue{Field: strings.TrimPrefix(strings.Join(append(se.JSONPointer(), name), "."), "."), Reason: reason}
+				if is.Field == "" {
+					is.Field = "body"
+				}
+				if !slices.Contains(issues, is) {
+					issues = append(issues, is)
+				}
+				return
+			}
 			field := strings.Join(se.JSONPointer(), ".")
 			if param != "" {
 				field = strings.TrimSuffix(param+"."+field, ".")
@@ -362,4 +373,35 @@ func errorHandler(log *slog.Logger) echo.HTTPErrorHandler {
 		c.Response().WriteHeader(p.Status)
 		_ = writeProblem(c.Response(), p)
 	}
+}
+
+// missingSpelling recognises a quantity required in one of its spellings
+// (an anyOf of required-only alternatives) that the body gives in none, and
+// names it as the request would: its first spelling, with the others. A
+// body that is not an object at all is named as such, once.
+func missingSpelling(se *openapi3.SchemaError) (string, string, bool) {
+	for e := se; e != nil; {
+		if e.SchemaField == "anyOf" && e.Schema != nil && len(e.Schema.AnyOf) > 1 {
+			if _, isObject := e.Value.(map[string]any); !isObject {
+				return "", "want a JSON object", true
+			}
+			var names []string
+			for _, alt := range e.Schema.AnyOf {
+				if alt.Value == nil || len(alt.Value.Required) != 1 || len(alt.Value.Properties) > 0 {
+					names = nil
+					break
+				}
+				names = append(names, alt.Value.Required[0])
+			}
+			if names != nil {
+				return names[0], "is required (as one of " + strings.Join(names, ", ") + ")", true
+			}
+		}
+		var next *openapi3.SchemaError
+		if !errors.As(e.Origin, &next) {
+			break
+		}
+		e = next
+	}
+	return "", "", false
 }

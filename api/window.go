@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"net/http"
 
+	"github.com/google/uuid"
 	"github.com/labstack/echo/v4"
 
 	"etchlog/predict"
@@ -27,8 +28,10 @@ func (r *rangeIn) rng() *predict.Range {
 // the targets to meet (each optional), each quantity in any registered spelling.
 type windowIn struct {
 	groupFields
-	CurrentA             rangeIn      `json:"current_a"`
-	VoltageV             rangeIn      `json:"voltage_v"`
+	ProcedureID          *uuid.UUID   `json:"procedure_id"`
+	Basis                string       `json:"basis"`
+	CurrentA             *rangeIn     `json:"current_a"`
+	VoltageV             *rangeIn     `json:"voltage_v"`
 	TravelSpeedMMPerS    *rangeIn     `json:"travel_speed_mm_s"`
 	WireFeedSpeedMPerMin *rangeIn     `json:"wire_feed_speed_m_min"`
 	ExtensionMM          *rangeIn     `json:"extension_mm"`
@@ -50,6 +53,9 @@ type windowIn struct {
 // window is the request in metric units; ranges are checked by checkRanges.
 type window struct {
 	in                 predict.WindowInput
+	current, voltage   *predict.Range // as given; merged with a procedure's ranges into in
+	travel             *predict.Range
+	Basis              string
 	MinPenetrationMM   *float64    `json:"min_penetration_mm" validate:"omitempty,quantity"`
 	JacksonK           *jacksonKIn `json:"jackson_k"`
 	Deposition         *predict.Range
@@ -72,21 +78,71 @@ func (in windowIn) metric() (window, error) {
 		VoltageSteps: in.VoltageSteps, TravelSpeedSteps: in.TravelSpeedSteps, ExtensionSteps: in.ExtensionSteps,
 		Deposition: in.DepositionRateKgH.rng(),
 	}
-	w.in.CurrentA, w.in.VoltageV = *in.CurrentA.rng(), *in.VoltageV.rng()
+	w.current, w.voltage, w.travel, w.Basis = in.CurrentA.rng(), in.VoltageV.rng(), in.TravelSpeedMMPerS.rng(), in.Basis
 	w.in.VoltageSteps, w.in.TravelSpeedSteps, w.in.ExtensionSteps = in.VoltageSteps, in.TravelSpeedSteps, in.ExtensionSteps
-	if s := in.TravelSpeedMMPerS.rng(); s != nil {
-		w.in.TravelSpeedMMPerS = *s
-	} else {
-		u.missing("travel_speed_mm_s")
-	}
 	w.in.WireFeedSpeedMPerMin, w.in.ExtensionMM = in.WireFeedSpeedMPerMin.rng(), in.ExtensionMM.rng()
 	if w.Deposition != nil && w.Efficiency == nil {
 		u.issues = append(u.issues, FieldIssue{"deposition_efficiency", "is required with a deposition rate target"})
 	}
-	if err := u.err(); err != nil {
-		return w, err
+	if in.ProcedureID == nil { // without a procedure the ranges come from the request
+		for _, r := range []struct {
+			field string
+			r     *predict.Range
+		}{{"current_a", w.current}, {"voltage_v", w.voltage}, {"travel_speed_mm_s", w.travel}} {
+			if r.r == nil {
+				u.missing(r.field)
+			}
+		}
 	}
-	return w, checkRanges(w.in, w.Deposition)
+	return w, u.err()
+}
+
+// scope fills the window's ranges, minimum penetration and group from the
+// procedure the request names (the request's own ranges narrow them), and
+// says where each came from; without a procedure the request's are used.
+func (s *Server) scope(c echo.Context, in *windowIn, w *window, out *windowOut) error {
+	pick := func(r *predict.Range) predict.Range {
+		if r == nil {
+			return predict.Range{}
+		}
+		return *r
+	}
+	if in.ProcedureID == nil {
+		w.in.CurrentA, w.in.VoltageV, w.in.TravelSpeedMMPerS = pick(w.current), pick(w.voltage), pick(w.travel)
+		return checkRanges(w.in, w.Deposition)
+	}
+	l, err := s.procedureLimitsOf(c, *in.ProcedureID)
+	if err != nil {
+		return err
+	}
+	out.ProcedureID, out.LimitsFrom = in.ProcedureID, map[string]string{}
+	var issues []FieldIssue
+	for _, r := range []struct {
+		field string
+		given *predict.Range
+		dst   *predict.Range
+	}{{"current_a", w.current, &w.in.CurrentA}, {"voltage_v", w.voltage, &w.in.VoltageV}, {"travel_speed_mm_s", w.travel, &w.in.TravelSpeedMMPerS}} {
+		got, from := l.merge(r.field, r.given)
+		if got == nil {
+			issues = append(issues, FieldIssue{r.field, "is required: " + l.from + " has no range of it"})
+			continue
+		}
+		*r.dst, out.LimitsFrom[r.field] = *got, from
+	}
+	if got, from := l.merge("wire_feed_speed_m_min", w.in.WireFeedSpeedMPerMin); got != nil {
+		w.in.WireFeedSpeedMPerMin, out.LimitsFrom["wire_feed_speed_m_min"] = got, from
+	}
+	if issues != nil {
+		return unprocessable(issues...)
+	}
+	if got, from := l.minPenetration(w.MinPenetrationMM); got != nil {
+		w.MinPenetrationMM, out.LimitsFrom["min_penetration_mm"] = got, from
+	}
+	l.group(&in.groupFields, &w.WireDiameterMM, out.LimitsFrom)
+	if l.stale != "" {
+		out.Notes = append(out.Notes, "the qualified ranges may be out of date: "+l.stale)
+	}
+	return checkRanges(w.in, w.Deposition)
 }
 
 // checkRanges refuses a range outside the registered plausible bounds of
@@ -120,11 +176,14 @@ func (s *Server) handleWindow(c echo.Context) error {
 	if err != nil {
 		return err
 	}
+	out := windowOut{Caution: predictionCaution}
+	if err := s.scope(c, &in, &w, &out); err != nil {
+		return err
+	}
 	g, err := s.calibrationGroup(in.groupFields, w.WireDiameterMM)
 	if err != nil {
 		return err
 	}
-	out := windowOut{Caution: predictionCaution}
 	if err := s.windowTargets(c, g, in, &w, &out); err != nil {
 		return err
 	}

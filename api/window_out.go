@@ -44,7 +44,16 @@ type windowOut struct {
 	LesnewichCalibrationID   *uuid.UUID      `json:"lesnewich_calibration_id,omitempty"`
 	HeatInputForm            string          `json:"heat_input_form,omitempty"`
 	HeatInputFactor          *float64        `json:"heat_input_factor,omitempty"`
-	Caution                  string          `json:"caution"`
+	// Basis is how the minimum penetration was judged: lower_bound (the
+	// prediction interval's lower end at PenetrationLevel) or median.
+	Basis            string   `json:"basis,omitempty"`
+	PenetrationLevel *float64 `json:"penetration_level,omitempty"`
+	// ProcedureID and LimitsFrom say, for a procedure-scoped window, where
+	// each range, the minimum penetration and the group came from.
+	ProcedureID *uuid.UUID        `json:"procedure_id,omitempty"`
+	LimitsFrom  map[string]string `json:"limits_from,omitempty"`
+	Notes       []string          `json:"notes,omitempty"`
+	Caution     string            `json:"caution"`
 }
 
 // windowPointOut is the nominal point and the model values there (left out
@@ -150,7 +159,7 @@ func (s *Server) windowPenetration(c echo.Context, g *db.CalibrationGroup, w *wi
 	if free != nil && free.Fit.Penetration != nil {
 		w.in.Penetration = &predict.PenetrationTarget{MinMM: *w.MinPenetrationMM, Fit: free.Fit.Penetration}
 		out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceCalibration, string(free.Model), &free.ID
-		return nil
+		return setBasis(w, free, out)
 	}
 	k, cal, err := s.jacksonKFor(c, g, w.JacksonK)
 	if err != nil {
@@ -164,6 +173,26 @@ func (s *Server) windowPenetration(c echo.Context, g *db.CalibrationGroup, w *wi
 	if cal != nil {
 		out.PenetrationSource, out.PenetrationModel, out.PenetrationCalibrationID = sourceCalibration, string(cal.Model), &cal.ID
 	}
+	return setBasis(w, cal, out)
+}
+
+// setBasis decides how the minimum penetration is judged: on the lower
+// bound of the calibration's prediction interval at its level (the default
+// when a calibration is used: the safe side), or on the median (the only
+// basis for a K without an interval, or when asked for).
+func setBasis(w *window, cal *db.Calibration, out *windowOut) error {
+	basis := w.Basis
+	switch {
+	case cal == nil && basis == predict.BasisLowerBound:
+		return unprocessable(FieldIssue{"basis", "lower_bound needs a calibration with a prediction interval; a jackson_k has none (use median, or the group of an active calibration)"})
+	case cal == nil || basis == predict.BasisMedian:
+		basis = predict.BasisMedian
+	default:
+		basis = predict.BasisLowerBound
+		w.in.Penetration.LowerBound, w.in.Penetration.Level = cal.Fit.Penetration, cal.Level
+		out.PenetrationLevel = ptrTo(cal.Level)
+	}
+	out.Basis = basis
 	return nil
 }
 

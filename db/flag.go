@@ -86,6 +86,9 @@ func (w *flagWriter) add(s *subject) {
 		w.scratch = s.model.Evaluate(&s.obs, s.measuredMM, w.scratch)
 	}
 	for _, f := range w.scratch {
+		if w.ranges.Stale != "" && (f.Kind == predict.FlagRange || f.Kind == predict.FlagNotCheckable) {
+			f.Detail += " (the ranges are stale: " + w.ranges.Stale + ")"
+		}
 		var text, dir *string
 		if f.ValueText != "" {
 			text = &f.ValueText

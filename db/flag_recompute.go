@@ -167,3 +167,40 @@ func evaluateProduction(ctx context.Context, tx pgx.Tx, w *flagWriter) error {
 	}
 	return rows.Err()
 }
+
+// recordFlags is the step that keeps flags in step with a corrected or
+// voided qualification record: the procedures it supports are re-evaluated
+// (their ranges may now be stale, and their flags say so), and so are the
+// other coupons that name it (its acceptance criterion applies to their
+// sections).
+func recordFlags(ctx context.Context, m Meta) step {
+	return func(tx pgx.Tx) error {
+		rows, _ := tx.Query(ctx, `SELECT id FROM (
+				SELECT DISTINCT ON (id) id, voided, supporting_record_ids FROM procedures
+				WHERE site = $1 ORDER BY id, revision DESC) cur
+			WHERE NOT voided AND $2 = ANY(supporting_record_ids)`, m.Site, m.ID)
+		procs, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+		if err != nil {
+			return fmt.Errorf("procedures supported by %s: %w", m.ID, err)
+		}
+		for _, p := range procs {
+			if err := procedureFlags(ctx, Meta{Site: m.Site, ID: p, CreatedAt: m.CreatedAt})(tx); err != nil {
+				return err
+			}
+		}
+		rows, _ = tx.Query(ctx, `SELECT id FROM (
+				SELECT DISTINCT ON (id) id, voided, qualification_record_id, procedure_id FROM coupons
+				WHERE site = $1 ORDER BY id, revision DESC) cur
+			WHERE NOT voided AND qualification_record_id = $2 AND NOT (procedure_id = ANY($3))`, m.Site, m.ID, procs)
+		cs, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+		if err != nil {
+			return fmt.Errorf("coupons of %s: %w", m.ID, err)
+		}
+		for _, c := range cs {
+			if _, err := recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, c); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+}

@@ -39,8 +39,9 @@ type ProductionRecord struct {
 	Flags []Flag `db:"-" json:"flags"`
 }
 
-var productionColumns = []string{"site", "id", "batch_id", "created_at", "created_by", "procedure_id", "weld_id",
-	"welder_id", "recorded_at", "current_a", "voltage_v", "travel_speed_mm_s", "wire_feed_speed_m_min", "ctwd_mm"}
+// productionColumns are the bookkeeping columns, then the data struct's (recordColumns).
+var productionColumns = append([]string{"site", "id", "batch_id", "created_at", "created_by"},
+	recordColumns(ProductionRecordData{})...)
 
 // CreateProductionRecords stores a batch of production records, their batch
 // row and audit event, and their flags, in one transaction: all or nothing.
@@ -78,8 +79,7 @@ func (s *Store) CreateProductionRecords(ctx context.Context, a Actor, recs []Pro
 		}
 		r.RecordedAt = r.RecordedAt.UTC().Truncate(time.Microsecond)
 		out[i] = ProductionRecord{Site: a.Site, ID: id, BatchID: batch, CreatedAt: now, CreatedBy: a.Name, ProductionRecordData: r, Flags: []Flag{}}
-		rows[i] = []any{a.Site, id, batch, now, a.Name, r.ProcedureID, r.WeldID, r.WelderID, r.RecordedAt,
-			r.CurrentA, r.VoltageV, r.TravelSpeedMMPerS, r.WireFeedSpeedMPerMin, r.CTWDMM}
+		rows[i] = append([]any{a.Site, id, batch, now, a.Name}, recordValues(r)...)
 		if _, ok := firstRow[r.ProcedureID]; !ok {
 			firstRow[r.ProcedureID] = i
 			procs = append(procs, r.ProcedureID)

@@ -78,6 +78,7 @@ func (s *Store) CorrectQualificationRecord(ctx context.Context, a Actor, id uuid
 		claimMark(ctx, recordNumber, a.Site, m.ID, q.RecordNumber),
 		qualificationRecords.writeRevision(ctx, m, recordValues(q)),
 		s.logged(ctx, qualificationRecords, m, actionCorrect),
+		recordFlags(ctx, m),
 	); err != nil {
 		return QualificationRecord{}, err
 	}
@@ -91,6 +92,7 @@ func (s *Store) VoidQualificationRecord(ctx context.Context, a Actor, id uuid.UU
 		qualificationRecords.baseIs(ctx, a.Site, id, ch),
 		qualificationRecords.voidLatest(ctx, m),
 		s.logged(ctx, qualificationRecords, m, actionVoid),
+		recordFlags(ctx, m),
 	); err != nil {
 		return QualificationRecord{}, err
 	}

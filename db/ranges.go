@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"strings"
 	"time"
 
 	"github.com/google/uuid"
@@ -36,6 +37,11 @@ type ProcedureRanges struct {
 	// derived from an older revision and may need deriving again.
 	CurrentProcedureRevision int  `db:"-" json:"current_procedure_revision,omitempty"`
 	DerivedFromOlderRevision bool `db:"-" json:"derived_from_older_revision"`
+	// Stale (not stored, filled on read) says why the ranges no longer
+	// follow their evidence: a supporting qualification record corrected
+	// or voided after they were derived. Empty when they do; flags carry it
+	// until an engineer derives the ranges again.
+	Stale string `db:"-" json:"stale,omitempty"`
 }
 
 var rangesTable = table{name: "procedure_ranges", entity: "procedure_ranges"}
@@ -164,7 +170,49 @@ func latestRanges(ctx context.Context, q querier, site string, procedureID uuid.
 	if errors.Is(err, pgx.ErrNoRows) {
 		return ProcedureRanges{}, fmt.Errorf("ranges of procedure %s (version %d; derive them first): %w", procedureID, ver, ErrNotFound)
 	}
+	if err != nil {
+		return pr, err
+	}
+	pr.Stale, err = rangesStale(ctx, q, pr)
 	return pr, err
+}
+
+// rangesStale names the supporting qualification records (of the procedure
+// revision the ranges were derived from) corrected or voided after the
+// latest derivation, or "" when none was.
+func rangesStale(ctx context.Context, q querier, pr ProcedureRanges) (string, error) {
+	rows, _ := q.Query(ctx, `
+		WITH derived AS (
+			SELECT max(created_at) AS at FROM procedure_ranges
+			WHERE site = $1 AND procedure_id = $2 AND action = 'derive' AND version <= $3),
+		support AS (
+			SELECT unnest(supporting_record_ids) AS id FROM procedures
+			WHERE site = $1 AND id = $2 AND revision = $4)
+		SELECT DISTINCT ON (r.id) r.record_number, r.revision, r.voided
+		FROM qualification_records r JOIN support s ON s.id = r.id, derived d
+		WHERE r.site = $1 AND r.created_at > d.at
+		ORDER BY r.id, r.revision DESC`, pr.Site, pr.ProcedureID, pr.Version, pr.ProcedureRevision)
+	type changed struct {
+		number   string
+		revision int
+		voided   bool
+	}
+	cs, err := pgx.CollectRows(rows, func(r pgx.CollectableRow) (changed, error) {
+		var c changed
+		return c, r.Scan(&c.number, &c.revision, &c.voided)
+	})
+	if err != nil || len(cs) == 0 {
+		return "", err
+	}
+	parts := make([]string, len(cs))
+	for i, c := range cs {
+		what := fmt.Sprintf("corrected (now revision %d)", c.revision)
+		if c.voided {
+			what = "voided"
+		}
+		parts[i] = "qualification record " + c.number + " was " + what
+	}
+	return strings.Join(parts, "; ") + " after the ranges were derived: derive them again", nil
 }
 
 // supportingValues reads the current revisions of a procedure's supporting

@@ -48,22 +48,27 @@ type variableInfo struct {
 
 // variables lists every known variable; the index is its ordinal.
 var variables = []variableInfo{
-	{VarCurrent, "A", true, true},
-	{VarVoltage, "V", true, true},
-	{VarTravelSpeed, "mm/s", true, true},
-	{VarWireFeedSpeed, "m/min", true, true},
-	{VarCTWD, "mm", true, true},
-	{VarWireDiameter, "mm", true, true},
-	{VarThickness, "mm", true, true},
-	{VarPreheat, "°C", true, false},
-	{VarInterpass, "°C", true, false},
-	{VarHeatInput, "J/mm", true, true},
+	numeric(VarCurrent, true),
+	numeric(VarVoltage, true),
+	numeric(VarTravelSpeed, true),
+	numeric(VarWireFeedSpeed, true),
+	numeric(VarCTWD, true),
+	numeric(VarWireDiameter, true),
+	numeric(VarThickness, true),
+	numeric(VarPreheat, false),
+	numeric(VarInterpass, false),
+	numeric(VarHeatInput, true),
 	{VarShieldingGas, "", false, false},
 	{VarTransferMode, "", false, false},
 	{VarPolarity, "", false, false},
 	{VarFiller, "", false, false},
 	{VarPosition, "", false, false},
 	{VarBaseMetal, "", false, false},
+}
+
+// numeric describes a numeric variable: a registered quantity, in its stored unit.
+func numeric(v Variable, ratio bool) variableInfo {
+	return variableInfo{v, MustQuantity(string(v)).Unit(), true, ratio}
 }
 
 // variableOrdinal numbers the variables for the uint32 bit sets of an

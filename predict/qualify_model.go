@@ -18,13 +18,17 @@ const (
 // PenetrationCheck compares records with a shop's active Jackson
 // calibration: a measured penetration outside the prediction interval for
 // one new coupon at Fit's level (the coupon does not behave like the ones
-// the model was fitted to), and a predicted median below the procedure's
-// required minimum (MinPenetrationMM, nil when the procedure states none).
+// the model was fitted to), and a predicted penetration below the
+// procedure's required minimum (MinPenetrationMM, nil when it states none).
+//
+// The minimum is judged on Basis: BasisLowerBound (the default, "") the
+// lower end of the prediction interval, the safe side; BasisMedian the median.
 type PenetrationCheck struct {
 	Fit              PenetrationFit
 	Level            float64
 	Label            string // names the calibration in flag details
 	MinPenetrationMM *float64
+	Basis            string
 }
 
 // Evaluate appends the model flags of one record welded with the
@@ -54,14 +58,20 @@ func (p PenetrationCheck) Evaluate(o *Observation, measuredMM *float64, dst []Fl
 			dst = append(dst, f)
 		}
 	}
-	if p.MinPenetrationMM != nil && iv.MedianMM < *p.MinPenetrationMM {
-		med, need := iv.MedianMM, *p.MinPenetrationMM
-		ex := need - med
+	if p.MinPenetrationMM == nil {
+		return dst
+	}
+	judged, basis := iv.PredLowMM, fmt.Sprintf("the lower bound of its %.0f %% prediction interval", p.Level*100)
+	if p.Basis == BasisMedian {
+		judged, basis = iv.MedianMM, "the median"
+	}
+	if need := *p.MinPenetrationMM; judged < need {
+		ex := need - judged
 		pct := ex / need * 100
-		dst = append(dst, Flag{Kind: FlagModel, Variable: VarPredictedPenetration, Unit: "mm", Value: &med, Min: &need,
+		dst = append(dst, Flag{Kind: FlagModel, Variable: VarPredictedPenetration, Unit: "mm", Value: &judged, Min: &need,
 			Direction: Below, Excess: &ex, ExcessPct: &pct,
-			Detail: fmt.Sprintf("calibration %s predicts %.3g mm penetration (median; %.0f %% interval %.3g–%.3g mm), below the procedure's required %.3g mm",
-				p.Label, med, p.Level*100, iv.PredLowMM, iv.PredHighMM, need)})
+			Detail: fmt.Sprintf("calibration %s predicts %.3g mm penetration on %s (median %.3g mm; %.0f %% interval %.3g–%.3g mm), below the procedure's required %.3g mm",
+				p.Label, judged, basis, iv.MedianMM, p.Level*100, iv.PredLowMM, iv.PredHighMM, need)})
 	}
 	return dst
 }

@@ -11,7 +11,8 @@ type windowModel struct {
 	in               WindowInput
 	km               float64 // metric Jackson K; 0 without a penetration target or with a fit
 	free             *freePenetration
-	heatFactor       float64 // F in H = F·V·I/S; 0 without a heat input target
+	lb               *lowerBound // nil: judged on the median
+	heatFactor       float64     // F in H = F·V·I/S; 0 without a heat input target
 	les              *Lesnewich
 	depLoMR, depHiMR float64 // melting rate band (kg/h) from the deposition band
 	wfsLoMR, wfsHiMR float64 // melting rate band (kg/h) from the WFS range; 0 unused
@@ -35,6 +36,11 @@ func newWindowModel(in WindowInput) (m windowModel, err error) {
 	if p := in.Penetration; p != nil {
 		if err := mustBePositive("minimum penetration mm", p.MinMM); err != nil {
 			return m, err
+		}
+		if p.LowerBound != nil {
+			if m.lb, err = newLowerBound(*p.LowerBound, p.Level); err != nil {
+				return m, err
+			}
 		}
 		if p.Fit != nil {
 			fp, err := newFreePenetration(*p.Fit)
@@ -116,10 +122,18 @@ func (m *windowModel) setDeposition() error {
 func (m *windowModel) cell(v, s, l float64) WindowCell {
 	iv := LimitedInterval{m.in.CurrentA.Min, m.in.CurrentA.Max, LimitCurrentMin, LimitCurrentMax}
 	if m.km > 0 { // P(I) ≥ Pmin ⇔ I ≥ (Pmin/K)^(3/4)·(S·V²)^(1/4)
-		iv.raise(jacksonCurrent(m.km, m.in.Penetration.MinMM, s, v), LimitPenetrationMin)
+		minMM := m.in.Penetration.MinMM
+		if m.lb != nil { // the lower bound reaches Pmin where the median reaches Pmin·e^h
+			minMM = m.lb.medianMin(minMM, s, v, nil)
+		}
+		iv.raise(jacksonCurrent(m.km, minMM, s, v), LimitPenetrationMin)
 	}
 	if m.free != nil {
-		m.free.bound(&iv, m.in.Penetration.MinMM, s, v)
+		minMM := m.in.Penetration.MinMM
+		if m.lb != nil {
+			minMM = m.lb.medianMin(minMM, s, v, func(x float64) float64 { return m.free.current(x, s, v) })
+		}
+		m.free.bound(&iv, minMM, s, v)
 	}
 	if m.heatFactor > 0 { // F·V·I/S ≤ Hmax ⇔ I ≤ Hmax·S/(F·V)
 		iv.lower(m.in.HeatInput.MaxJPerMM*s/(m.heatFactor*v), LimitHeatInputMax)

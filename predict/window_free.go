@@ -30,8 +30,7 @@ func newFreePenetration(f PenetrationFit) (freePenetration, error) {
 // when a > 0; when a < 0 penetration falls as current rises, so the same
 // value is an upper bound (still named LimitPenetrationMin).
 func (fp freePenetration) bound(iv *LimitedInterval, minMM, s, v float64) {
-	ln := (math.Log(minMM) - fp.c0 - fp.b*math.Log(s) - fp.c*math.Log(v)) / fp.a
-	i := math.Exp(math.Max(-maxWindowLn, math.Min(maxWindowLn, ln)))
+	i := fp.current(minMM, s, v)
 	if fp.a > 0 {
 		iv.raise(i, LimitPenetrationMin)
 	} else {
@@ -45,4 +44,12 @@ func (fp freePenetration) medianMM(i, s, v float64) float64 {
 	eta := fp.c0
 	eta += fp.a*math.Log(i) + fp.b*math.Log(s) + fp.c*math.Log(v)
 	return math.Exp(eta)
+}
+
+// current is the current (A) at which the fit's median is minMM at travel
+// speed s and voltage v: exp((ln Pmin − c0 − b·ln S − c·ln V)/a), clamped
+// so that it stays a finite positive number.
+func (fp freePenetration) current(minMM, s, v float64) float64 {
+	ln := (math.Log(minMM) - fp.c0 - fp.b*math.Log(s) - fp.c*math.Log(v)) / fp.a
+	return math.Exp(math.Max(-maxWindowLn, math.Min(maxWindowLn, ln)))
 }

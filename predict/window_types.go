@@ -71,10 +71,17 @@ func (iv *LimitedInterval) lower(v float64, lim Limit) {
 // PenetrationTarget asks for Jackson penetration of at least MinMM, with the
 // published exponents and K, or, when Fit is set, with the median of a
 // free-exponent fit (ModelJacksonFree; K is then not used).
+//
+// LowerBound, when set, judges on the safe side: the lower end of the
+// prediction interval for one new coupon at Level, from that calibration's
+// covariance and residual SD (the calibration K or Fit came from), must
+// reach MinMM, not the median.
 type PenetrationTarget struct {
-	MinMM float64
-	K     JacksonK
-	Fit   *PenetrationFit
+	MinMM      float64
+	K          JacksonK
+	Fit        *PenetrationFit
+	LowerBound *PenetrationFit
+	Level      float64
 }
 
 // DepositionTarget asks for a deposition rate in [MinKgPerH, MaxKgPerH] at
