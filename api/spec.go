@@ -36,13 +36,28 @@ func loadSpec() (*openapi3.T, error) {
 // same bounds (a test compares them with the registry).
 func leaveBoundsToRegistry(spec *openapi3.T) {
 	for _, ref := range spec.Components.Schemas {
-		if ref.Value == nil {
-			continue
-		}
-		for name, p := range ref.Value.Properties {
+		eachProperty(ref.Value, func(name string, p *openapi3.SchemaRef) {
 			if _, ok := predict.LookupQuantity(name); ok && p.Ref == "" && p.Value != nil {
 				p.Value.Min, p.Value.Max = nil, nil
 				p.Value.ExclusiveMin, p.Value.ExclusiveMax = openapi3.ExclusiveBound{}, openapi3.ExclusiveBound{}
+			}
+		})
+	}
+}
+
+// eachProperty calls fn for every property of s, those of its inline
+// allOf/anyOf/oneOf members included (a $ref member is a component of its own).
+func eachProperty(s *openapi3.Schema, fn func(name string, p *openapi3.SchemaRef)) {
+	if s == nil {
+		return
+	}
+	for name, p := range s.Properties {
+		fn(name, p)
+	}
+	for _, group := range [][]*openapi3.SchemaRef{s.AllOf, s.AnyOf, s.OneOf} {
+		for _, m := range group {
+			if m.Ref == "" {
+				eachProperty(m.Value, fn)
 			}
 		}
 	}
