@@ -21,8 +21,8 @@ type calibrationIn struct {
 	WireDiameterMM *float64            `json:"wire_diameter_mm"`
 	ShieldingGas   string              `json:"shielding_gas"`
 	JointType      string              `json:"joint_type"`
-	WeldedFrom     *db.Date            `json:"welded_from"`
-	WeldedTo       *db.Date            `json:"welded_to"`
+	WeldedFrom     *string             `json:"welded_from"`
+	WeldedTo       *string             `json:"welded_to"`
 	ProcedureID    *uuid.UUID          `json:"procedure_id"`
 	Level          *float64            `json:"level"`
 	ArcLengthMM    *float64            `json:"arc_length_mm"`
@@ -31,9 +31,17 @@ type calibrationIn struct {
 
 func (in calibrationIn) spec() (db.CalibrationSpec, error) {
 	var u units
+	from, err := dayBound("welded_from", in.WeldedFrom)
+	if err != nil {
+		return db.CalibrationSpec{}, err
+	}
+	to, err := dayBound("welded_to", in.WeldedTo)
+	if err != nil {
+		return db.CalibrationSpec{}, err
+	}
 	sp := db.CalibrationSpec{Model: in.Model, Process: in.Process, ShieldingGas: in.ShieldingGas, JointType: in.JointType,
 		WireDiameterMM: u.req("wire_diameter_mm", in.WireDiameterMM),
-		WeldedFrom:     in.WeldedFrom, WeldedTo: in.WeldedTo, ProcedureID: in.ProcedureID, Level: defaultLevel,
+		WeldedFrom:     from, WeldedTo: to, ProcedureID: in.ProcedureID, Level: defaultLevel,
 		ArcLengthMM: in.ArcLengthMM, Note: in.Note}
 	if in.Level != nil {
 		sp.Level = *in.Level

@@ -12,7 +12,7 @@ import (
 
 // SampleFilter selects the coupons of one group for a fit: current,
 // non-voided coupons of the group, optionally welded within [WeldedFrom,
-// WeldedTo] (inclusive) and on one procedure.
+// WeldedTo) (half-open) and on one procedure.
 type SampleFilter struct {
 	Group       CalibrationGroup
 	WeldedFrom  *Date
@@ -60,7 +60,7 @@ const siteCoupons = `
 			WHERE NOT sec.voided) m ON true
 		WHERE NOT cur.voided
 		  AND ($2::date IS NULL OR cur.welded_on >= $2)
-		  AND ($3::date IS NULL OR cur.welded_on <= $3)
+		  AND ($3::date IS NULL OR cur.welded_on < $3)
 		  AND ($4::uuid IS NULL OR cur.procedure_id = $4)
 		ORDER BY cur.id`
 

@@ -44,8 +44,6 @@ type ProcedureRanges struct {
 	Stale string `db:"-" json:"stale,omitempty"`
 }
 
-var rangesTable = table{name: "procedure_ranges", entity: "procedure_ranges"}
-
 const rangesColumns = `id, site, procedure_id, procedure_revision, version, action, rule_set_site,
 	rule_set_id, rule_set_version, reason, ranges, created_at, created_by`
 

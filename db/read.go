@@ -148,10 +148,3 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	}
 	return Page[T]{Items: items, Next: nextLogCursor(t.name, from, last, len(items))}, attachSignOffs(ctx, s.pool, site, items)
 }
-
-// metaHolder is implemented by every record type through its embedded Meta.
-type metaHolder interface{ meta() *Meta }
-
-func (m *Meta) meta() *Meta { return m }
-
-func metaOf(v any) *Meta { return v.(metaHolder).meta() }

@@ -226,9 +226,6 @@ func (m Meta) leafEntry(kind, action string) LeafEntry {
 	return LeafEntry{Kind: kind, Site: m.Site, ID: m.ID, Revision: m.Revision, Actor: m.CreatedBy, Action: action, Reason: m.Reason, At: m.CreatedAt}
 }
 
-// noCheck is the validate step of a record kind with nothing to check in the database.
-func noCheck(pgx.Tx) error { return nil }
-
 // RecordID returns the record's id.
 func (m Meta) RecordID() uuid.UUID { return m.ID }
 

@@ -40,8 +40,6 @@ type RuleSet struct {
 	RuleSetData
 }
 
-var ruleSetTable = table{name: "rule_sets", entity: "rule_set"}
-
 const ruleSetColumns = `id, site, version, site = '' AS built_in, created_at, created_by,
 	rule_set_id, name, process, notes, from_memory, rules`
 

@@ -1,10 +1,12 @@
 package main
 
 import (
+	"bufio"
 	"bytes"
 	"context"
 	"encoding/json"
 	"fmt"
+	"net/http"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -17,6 +19,7 @@ import (
 	"time"
 
 	"etchlog/db/dbtest"
+	"etchlog/openapi/spectest"
 )
 
 // TestREADME runs the README's API tour verbatim against "etchlog demo" on a
@@ -26,6 +29,7 @@ import (
 // and every ```json block must match the answer of the last curl before it:
 // each key it shows has the same value (numbers exactly), arrays show some of
 // the answer's items in order, and the string "…" stands for any value.
+// Every answer is also checked against openapi.yaml.
 // It needs bash, curl and jq, as a reader of the README does.
 func TestREADME(t *testing.T) {
 	t.Parallel()
@@ -74,15 +78,16 @@ func TestREADME(t *testing.T) {
 	addr := strings.TrimPrefix(r.base, "http://")
 	body := strings.NewReplacer("localhost:8080", addr, "127.0.0.1:8080", addr).Replace(script.String())
 
-	// curl is wrapped so that each call leaves its answer's headers and body
-	// in a directory, named by the time it started (calls run one by one).
+	// curl is wrapped so that each call leaves its method and URL, its
+	// answer's headers and its body in a directory, named by the time it
+	// started (calls run one by one); the output is unchanged.
 	logDir := t.TempDir()
 	prelude := `set -euo pipefail
 trap 'echo "README command failed (exit $?): $BASH_COMMAND" >&2' ERR
 curl() {
   local f
   f="$ETCHLOG_README_LOG/$(date +%s%N)"
-  command curl --dump-header "$f.head" "$@" | tee "$f.body"
+  command curl --dump-header "$f.head" --write-out '%{stderr}%{method} %{url_effective}\n' "$@" 2>"$f.req" | tee "$f.body"
 }
 `
 	cmd := exec.CommandContext(ctx, "bash", "-c", prelude+body)
@@ -108,6 +113,9 @@ curl() {
 	for i, c := range calls {
 		if c.status < 200 || c.status > 299 {
 			t.Errorf("README.md line %d: curl answered %d, want 2xx:\n%s", curls[i], c.status, tail(string(c.body), 600))
+		}
+		if err := spectest.Default.Check(c.req, c.status, c.header, c.body); err != nil {
+			t.Errorf("README.md line %d: %v", curls[i], err)
 		}
 	}
 	for _, s := range shows {
@@ -213,9 +221,12 @@ type shownAnswer struct {
 	call int
 }
 
-// loggedCall is one curl call of the tour: its final status and body.
+// loggedCall is one curl call of the tour: the request's method and URL,
+// and the answer's final status, headers and body.
 type loggedCall struct {
+	req    *http.Request
 	status int
+	header http.Header
 	body   []byte
 }
 
@@ -228,22 +239,35 @@ func loggedCalls(t *testing.T, dir string) []loggedCall {
 		b, _ := strconv.ParseInt(strings.TrimSuffix(filepath.Base(heads[j]), ".head"), 10, 64)
 		return a < b
 	})
-	status := regexp.MustCompile(`(?m)^HTTP/\S+ (\d{3})`)
 	var out []loggedCall
 	for _, h := range heads {
+		base := strings.TrimSuffix(h, ".head")
 		head, err := os.ReadFile(h)
 		if err != nil {
 			t.Fatal(err)
 		}
-		body, err := os.ReadFile(strings.TrimSuffix(h, ".head") + ".body")
+		body, err := os.ReadFile(base + ".body")
 		if err != nil {
 			t.Fatal(err)
 		}
-		c := loggedCall{body: body}
-		if m := status.FindAllStringSubmatch(string(head), -1); len(m) > 0 {
-			c.status, _ = strconv.Atoi(m[len(m)-1][1]) // after any 100 Continue
+		what, err := os.ReadFile(base + ".req") // "METHOD URL", or curl's complaint
+		if err != nil {
+			t.Fatal(err)
 		}
-		out = append(out, c)
+		method, target, _ := strings.Cut(strings.TrimSpace(string(what)), " ")
+		req, err := http.NewRequest(method, target, nil)
+		if err != nil {
+			t.Fatalf("curl call %s: %q: %v", filepath.Base(base), what, err)
+		}
+		// The last header block is the final answer (after any 100 Continue).
+		blocks := strings.Split(strings.TrimSpace(strings.ReplaceAll(string(head), "\r\n", "\n")), "\n\n")
+		last := blocks[len(blocks)-1] + "\n\n"
+		res, err := http.ReadResponse(bufio.NewReader(strings.NewReader(strings.ReplaceAll(last, "\n", "\r\n"))), req)
+		if err != nil {
+			t.Fatalf("curl call %s: headers %q: %v", filepath.Base(base), head, err)
+		}
+		res.Body.Close()
+		out = append(out, loggedCall{req: req, status: res.StatusCode, header: res.Header, body: body})
 	}
 	return out
 }

@@ -42,8 +42,8 @@ func findServerBinaries(ctx context.Context, opt Options, wantMajor string) (str
 		return "", fmt.Errorf("localpg: the data directory needs PostgreSQL %s server binaries, found only %s",
 			wantMajor, strings.Join(found, ", "))
 	}
-	return "", fmt.Errorf("localpg: no initdb/pg_ctl/postgres found via pg_config, %s or PATH: %w",
-		strings.Join(binGlobs, ", "), ErrNoPostgres)
+	return "", fmt.Errorf("localpg: no initdb/pg_ctl/postgres found via pg_config, %s or PATH",
+		strings.Join(binGlobs, ", "))
 }
 
 // binCandidates lists candidate directories in order of preference.

@@ -56,8 +56,10 @@ const DefaultDatabase = "etchlog"
 
 // ErrNoPostgres reports that no database was configured, none answered
 // locally and no server binaries were found to start one.
-var ErrNoPostgres = errors.New("no PostgreSQL found: set DATABASE_URL, or install the server " +
-	"(Debian/Ubuntu: apt-get install postgresql; Fedora: dnf install postgresql-server; macOS: brew install postgresql)")
+var ErrNoPostgres = errors.New("no PostgreSQL found: no server answers here and no server programs are installed " +
+	"to start a private one. Install the PostgreSQL server (Debian/Ubuntu: sudo apt-get install postgresql, " +
+	"which \"bash .ci/install-postgres\" does from the etchlog checkout; Fedora: sudo dnf install postgresql-server; " +
+	"macOS: brew install postgresql), or set DATABASE_URL")
 
 // Options tunes Resolve and the lower-level functions. The zero value gives
 // the documented defaults.
@@ -144,7 +146,7 @@ func Resolve(ctx context.Context, getenv func(string) string, opt Options) (Data
 	}
 	opt.Logf("localpg: no local server: %v", probeErr)
 	if _, err := FindServerBinaries(ctx, opt); err != nil {
-		return Database{}, fmt.Errorf("%w (local server: %v; binaries: %v)", ErrNoPostgres, probeErr, err)
+		return Database{}, fmt.Errorf("%w.\nWhat was tried:\n  %v\n  %v", ErrNoPostgres, err, probeErr)
 	}
 	return StartPrivateCluster(ctx, opt.DataDir, opt)
 }

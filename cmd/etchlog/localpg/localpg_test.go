@@ -109,7 +109,10 @@ func TestResolveNothingFound(t *testing.T) {
 	if !errors.Is(err, ErrNoPostgres) {
 		t.Errorf("Resolve() error = %v, want it to wrap ErrNoPostgres", err)
 	}
-	if !strings.Contains(err.Error(), "apt-get install postgresql") {
-		t.Errorf("Resolve() error = %q, want it to say what to install", err)
+	if !strings.HasPrefix(err.Error(), ErrNoPostgres.Error()) || !strings.Contains(err.Error(), "apt-get install postgresql") {
+		t.Errorf("Resolve() error = %q, want it to start by saying what to install", err)
+	}
+	if n := strings.Count(err.Error(), "no PostgreSQL found"); n != 1 {
+		t.Errorf("Resolve() error says \"no PostgreSQL found\" %d times, want once:\n%v", n, err)
 	}
 }
