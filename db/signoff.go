@@ -46,7 +46,7 @@ var signKinds = map[string]struct {
 }{
 	SignQualificationRecord: {qualificationRecords, "voided"},
 	SignProcedure:           {procedures, "voided"},
-	SignCalibration:         {calibrationTable, "false"},
+	SignCalibration:         {table{name: "calibrations", entity: "calibration"}, "false"},
 }
 
 var signOffTable = table{name: "sign_offs", entity: "sign_off"}
