@@ -111,7 +111,11 @@ func (s *Server) handleCouponModel(c echo.Context) error {
 		out.Notes = append(out.Notes, "no deposit area: the coupon has no wire feed speed")
 		return c.JSON(http.StatusOK, out)
 	}
-	a, err := predict.DepositAreaMM2(*cp.WireFeedSpeedMPerMin, cp.WireDiameterMM, eff, cp.TravelSpeedMMPerS)
+	if cp.WireDiameterMM == nil { // neither the coupon nor its procedure or record gives one
+		out.Notes = append(out.Notes, "no deposit area: the coupon has no wire diameter")
+		return c.JSON(http.StatusOK, out)
+	}
+	a, err := predict.DepositAreaMM2(*cp.WireFeedSpeedMPerMin, *cp.WireDiameterMM, eff, cp.TravelSpeedMMPerS)
 	if err != nil {
 		return err
 	}

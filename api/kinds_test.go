@@ -58,7 +58,7 @@ func inputKinds() []inputKind {
 			path:     func(*testEnv) string { return "/v1/coupons" },
 			body:     func(e *testEnv) map[string]any { return couponBody(e.procedure(), e.pqr(), uniq("C")) },
 			data:     func() any { return db.CouponData{} },
-			required: []string{"thickness_mm", "travel_speed_mm_s", "wire_diameter_mm"},
+			required: []string{"thickness_mm", "travel_speed_mm_s"},
 			direct: func(e *testEnv, b map[string]any) error {
 				d := decodeAs[db.CouponData](e.t, b)
 				_, err := e.store.CreateCoupon(context.Background(), e.actor(), d)

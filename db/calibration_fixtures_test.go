@@ -56,7 +56,7 @@ func (c storedCoupon) penetrationSample() predict.PenetrationSample {
 // meltingSample is the Lesnewich sample a fit should build with arc length arcMM.
 func (c storedCoupon) meltingSample(tb testing.TB, arcMM float64) predict.MeltingSample {
 	tb.Helper()
-	mr, err := predict.WireMeltingRateKgPerH(*c.data.WireFeedSpeedMPerMin, c.data.WireDiameterMM, predict.CarbonSteelDensityKgPerMM3)
+	mr, err := predict.WireMeltingRateKgPerH(*c.data.WireFeedSpeedMPerMin, *c.data.WireDiameterMM, predict.CarbonSteelDensityKgPerMM3)
 	if err != nil {
 		tb.Fatal(err)
 	}

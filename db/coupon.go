@@ -8,7 +8,9 @@ import (
 )
 
 // CouponData is what was welded on one test coupon. Units: mm, mm/s (travel
-// speed), m/min (wire feed speed), A, V, °C.
+// speed), m/min (wire feed speed), A, V, °C. Wire diameter, polarity and
+// shielding gas may be left out (NULL, or '' for the gas): the coupon was
+// welded with its procedure's, else its qualification record's.
 type CouponData struct {
 	ProcedureID           *uuid.UUID `db:"procedure_id" json:"procedure_id,omitempty" validate:"required_without=QualificationRecordID"`
 	QualificationRecordID *uuid.UUID `db:"qualification_record_id" json:"qualification_record_id,omitempty"`
@@ -25,18 +27,24 @@ type CouponData struct {
 	TravelSpeedMMPerS     float64    `db:"travel_speed_mm_s" json:"travel_speed_mm_s" validate:"required,quantity"`
 	WireFeedSpeedMPerMin  *float64   `db:"wire_feed_speed_m_min" json:"wire_feed_speed_m_min,omitempty" validate:"omitempty,quantity"`
 	CTWDMM                *float64   `db:"ctwd_mm" json:"ctwd_mm,omitempty" validate:"omitempty,quantity"`
-	WireDiameterMM        float64    `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,quantity"`
+	WireDiameterMM        *float64   `db:"wire_diameter_mm" json:"wire_diameter_mm,omitempty" validate:"omitempty,quantity"`
 	ShieldingGas          string     `db:"shielding_gas" json:"shielding_gas" validate:"max=64"`
-	Polarity              string     `db:"polarity" json:"polarity" validate:"required,enum"`
+	Polarity              *string    `db:"polarity" json:"polarity,omitempty" validate:"omitempty,enum"`
 	Position              string     `db:"position" json:"position" validate:"required,max=8"`
 	PreheatC              *float64   `db:"preheat_c" json:"preheat_c,omitempty" validate:"omitempty,quantity"`
 	InterpassC            *float64   `db:"interpass_c" json:"interpass_c,omitempty" validate:"omitempty,quantity"`
 }
 
-// Coupon is one stored revision of a coupon.
+// Coupon is one stored revision of a coupon as read: the fields it leaves
+// out carry the effective value taken from its procedure (else its
+// qualification record), named in Inherited, and Process is always taken
+// from there (a coupon has no process of its own). The row itself keeps
+// what was written.
 type Coupon struct {
 	Meta
 	CouponData
+	Process   string   `db:"-" json:"process"`
+	Inherited []string `db:"-" json:"inherited"`
 }
 
 var coupons = table{name: "coupons", entity: "coupon", fields: recordColumns(CouponData{})}
@@ -74,7 +82,9 @@ func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon
 	); err != nil {
 		return Coupon{}, s.duplicateMark(ctx, a.Site, c.CouponMark, err)
 	}
-	return Coupon{m, c}, nil
+	out := []Coupon{{Meta: m, CouponData: c}}
+	err = s.inheritCoupons(ctx, s.pool, a.Site, out)
+	return out[0], err
 }
 
 // CorrectCoupon stores the next revision of a coupon and rewrites its flags.
@@ -90,7 +100,9 @@ func (s *Store) CorrectCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Cha
 	); err != nil {
 		return Coupon{}, err
 	}
-	return Coupon{m, c}, nil
+	out := []Coupon{{Meta: m, CouponData: c}}
+	err := s.inheritCoupons(ctx, s.pool, a.Site, out)
+	return out[0], err
 }
 
 // VoidCoupon voids a coupon with a reason; a voided coupon has no flags.
@@ -109,12 +121,22 @@ func (s *Store) VoidCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Change
 
 // Coupon reads the latest revision of a coupon, or revision rev when rev > 0.
 func (s *Store) Coupon(ctx context.Context, site string, id uuid.UUID, rev int) (Coupon, error) {
-	return readOne[Coupon](ctx, s, coupons, site, id, rev)
+	c, err := readOne[Coupon](ctx, s, coupons, site, id, rev)
+	if err != nil {
+		return c, err
+	}
+	one := []Coupon{c}
+	err = s.inheritCoupons(ctx, s.pool, site, one)
+	return one[0], err
 }
 
 // CouponRevisions lists every revision of a coupon, oldest first.
 func (s *Store) CouponRevisions(ctx context.Context, site string, id uuid.UUID) ([]Coupon, error) {
-	return revisions[Coupon](ctx, s, coupons, site, id)
+	v, err := revisions[Coupon](ctx, s, coupons, site, id)
+	if err != nil {
+		return nil, err
+	}
+	return v, s.inheritCoupons(ctx, s.pool, site, v)
 }
 
 // CouponFilter selects coupons in a list. Acceptance "reject" keeps coupons
@@ -170,5 +192,10 @@ func (s *Store) Coupons(ctx context.Context, site string, cf CouponFilter, curso
 	default:
 		return Page[Coupon]{}, &FieldError{Field: "acceptance", Reason: "want accept or reject"}
 	}
-	return listCurrent[Coupon](ctx, s, coupons, site, f, cursor, limit)
+	p, err := listCurrent[Coupon](ctx, s, coupons, site, f, cursor, limit)
+	if err != nil {
+		return p, err
+	}
+	err = s.inheritCoupons(ctx, s.pool, site, p.Items)
+	return p, err
 }

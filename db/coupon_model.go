@@ -16,9 +16,9 @@ type CouponModelData struct {
 	Group          CalibrationGroup
 	PenetrationsMM []float64
 	FusedAreasMM2  []float64
-	// Inherited names the group fields the coupon leaves out and takes from
-	// its procedure (else its qualification record): process always, the
-	// shielding gas when the coupon records none.
+	// Inherited names the fields the coupon leaves out and takes from its
+	// procedure (else its qualification record): process always, wire
+	// diameter, shielding gas and polarity when the coupon records none.
 	Inherited []string
 }
 
@@ -29,22 +29,12 @@ func (s *Store) CouponForModel(ctx context.Context, site string, id uuid.UUID) (
 	if err != nil {
 		return CouponModelData{}, err
 	}
-	d := CouponModelData{Coupon: c, Group: CalibrationGroup{WireDiameterMM: c.WireDiameterMM,
-		ShieldingGas: c.ShieldingGas, JointType: c.JointType}}
-	var gas string
-	err = s.pool.QueryRow(ctx, `
-		SELECT coalesce(p.process, r.process, ''), coalesce(p.shielding_gas, r.shielding_gas, '')
-		FROM (SELECT 1) one
-		LEFT JOIN LATERAL (SELECT process, shielding_gas FROM procedures WHERE site = $1 AND id = $2 ORDER BY revision DESC LIMIT 1) p ON true
-		LEFT JOIN LATERAL (SELECT process, shielding_gas FROM qualification_records WHERE site = $1 AND id = $3 ORDER BY revision DESC LIMIT 1) r ON true`,
-		site, c.ProcedureID, c.QualificationRecordID).Scan(&d.Group.Process, &gas)
-	if err != nil {
-		return d, fmt.Errorf("db: coupon %s process: %w", id, err)
-	}
-	d.Inherited = []string{"process"}
-	if d.Group.ShieldingGas == "" && gas != "" {
-		d.Group.ShieldingGas = gas
-		d.Inherited = append(d.Inherited, "shielding_gas")
+	// s.Coupon has filled what the coupon leaves out from its procedure (else
+	// its qualification record): the group is the coupon's effective one.
+	d := CouponModelData{Coupon: c, Group: CalibrationGroup{Process: c.Process,
+		ShieldingGas: c.ShieldingGas, JointType: c.JointType}, Inherited: c.Inherited}
+	if c.WireDiameterMM != nil {
+		d.Group.WireDiameterMM = *c.WireDiameterMM
 	}
 	d.Group = d.Group.canonical()
 	rows, err := s.pool.Query(ctx, `

@@ -32,8 +32,8 @@ func couponData(procedureID uuid.UUID, mark string) db.CouponData {
 		ProcedureID: &procedureID, CouponMark: mark, WelderID: "W-07", PowerSourceID: "PS-2",
 		FillerLot: "L2231", WeldedOn: db.DateOf(time.Date(2026, 11, 3, 0, 0, 0, 0, time.UTC)),
 		JointType: "fillet", ThicknessMM: 6, PassNumber: 1, CurrentA: 180, VoltageV: 21,
-		TravelSpeedMMPerS: 5, WireFeedSpeedMPerMin: ptr(7.6), CTWDMM: ptr(15.0), WireDiameterMM: 0.9,
-		ShieldingGas: "Ar-25CO2", Polarity: "DCEP", Position: "2F", PreheatC: ptr(20.0),
+		TravelSpeedMMPerS: 5, WireFeedSpeedMPerMin: ptr(7.6), CTWDMM: ptr(15.0), WireDiameterMM: ptr(0.9),
+		ShieldingGas: "Ar-25CO2", Polarity: ptr("DCEP"), Position: "2F", PreheatC: ptr(20.0),
 	}
 }
 

@@ -80,6 +80,7 @@ func couponRequirements(ctx context.Context, q querier, site string, c Coupon, p
 // its sections with the requirements they answer to, and its model check
 // when a calibration is active for its group.
 func couponSubject(ctx context.Context, q querier, site string, c Coupon, p Procedure) (*subject, error) {
+	c.inherit(procedureDefaults(p)) // a field the coupon leaves out was welded as its procedure says
 	s := &subject{kind: SubjectCoupon, id: c.ID, at: c.WeldedOn.Time, obs: couponObservation(c.CouponData)}
 	var err error
 	if s.sections, err = couponSections(ctx, q, site, c.ID); err != nil {
@@ -88,10 +89,7 @@ func couponSubject(ctx context.Context, q querier, site string, c Coupon, p Proc
 	if s.reqs, err = couponRequirements(ctx, q, site, c, p); err != nil {
 		return nil, err
 	}
-	g := CalibrationGroup{Process: p.Process, WireDiameterMM: c.WireDiameterMM, ShieldingGas: c.ShieldingGas, JointType: c.JointType}
-	if g.ShieldingGas == "" { // a coupon that records no gas welded with its procedure's
-		g.ShieldingGas = p.ShieldingGas
-	}
+	g := CalibrationGroup{Process: c.Process, WireDiameterMM: *c.WireDiameterMM, ShieldingGas: c.ShieldingGas, JointType: c.JointType}
 	check, err := penetrationCheck(ctx, q, site, g, p.MinPenetrationMM)
 	if err != nil || check == nil {
 		return s, err
@@ -122,11 +120,11 @@ func recomputeGroup(ctx context.Context, tx pgx.Tx, now time.Time, site string, 
 	if err := lockProcess(ctx, tx, site, g.Process); err != nil {
 		return err
 	}
-	rows, _ := tx.Query(ctx, `SELECT cur.id, p.process, cur.wire_diameter_mm,
+	rows, _ := tx.Query(ctx, `SELECT cur.id, p.process, coalesce(cur.wire_diameter_mm, p.wire_diameter_mm),
 			coalesce(nullif(cur.shielding_gas, ''), p.shielding_gas), cur.joint_type FROM (
 			SELECT DISTINCT ON (id) id, voided, procedure_id, wire_diameter_mm, shielding_gas, joint_type
 			FROM coupons WHERE site = $1 ORDER BY id, revision DESC) cur
-		JOIN LATERAL (SELECT process, shielding_gas FROM procedures p WHERE p.site = $1 AND p.id = cur.procedure_id
+		JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas FROM procedures p WHERE p.site = $1 AND p.id = cur.procedure_id
 			ORDER BY revision DESC LIMIT 1) p ON true
 		WHERE NOT cur.voided AND p.process = $2 AND cur.joint_type = $3`, site, g.Process, g.JointType)
 	type member struct {

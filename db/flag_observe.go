@@ -28,7 +28,8 @@ func pqrObservation(q QualificationRecordData) predict.Observation {
 	return o
 }
 
-// couponObservation is what a coupon records. Coupons have no transfer
+// couponObservation is what a coupon records, after it has taken the fields
+// it leaves out from its procedure (Coupon.inherit). Coupons have no transfer
 // mode, filler classification or base-metal group field: out of scope.
 func couponObservation(c CouponData) predict.Observation {
 	var o predict.Observation
@@ -37,12 +38,16 @@ func couponObservation(c CouponData) predict.Observation {
 	o.SetNumber(predict.VarTravelSpeed, c.TravelSpeedMMPerS)
 	o.SetOptional(predict.VarWireFeedSpeed, c.WireFeedSpeedMPerMin)
 	o.SetOptional(predict.VarCTWD, c.CTWDMM)
-	o.SetNumber(predict.VarWireDiameter, c.WireDiameterMM)
+	o.SetOptional(predict.VarWireDiameter, c.WireDiameterMM)
 	o.SetNumber(predict.VarThickness, c.ThicknessMM)
 	o.SetOptional(predict.VarPreheat, c.PreheatC)
 	o.SetOptional(predict.VarInterpass, c.InterpassC)
 	o.SetText(predict.VarShieldingGas, c.ShieldingGas)
-	o.SetText(predict.VarPolarity, c.Polarity)
+	if c.Polarity != nil {
+		o.SetText(predict.VarPolarity, *c.Polarity)
+	} else {
+		o.SetMissing(predict.VarPolarity)
+	}
 	o.SetText(predict.VarPosition, c.Position)
 	return o
 }

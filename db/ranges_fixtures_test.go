@@ -50,7 +50,7 @@ func rangesProcedure(t *testing.T, s *db.Store, a db.Actor) db.Procedure {
 func rangesCoupon(p uuid.UUID, mark string, currentA, voltageV float64) db.CouponData {
 	c := couponData(p, mark)
 	c.CurrentA, c.VoltageV, c.TravelSpeedMMPerS, c.WireFeedSpeedMPerMin = currentA, voltageV, 6, ptr(8.0)
-	c.WireDiameterMM, c.ShieldingGas, c.Position, c.ThicknessMM = 1.2, "Ar-10CO2", "2G", 10
+	c.WireDiameterMM, c.ShieldingGas, c.Position, c.ThicknessMM = ptr(1.2), "Ar-10CO2", "2G", 10
 	return c
 }
 

@@ -204,8 +204,8 @@ func loadDemo(ctx context.Context, owner, s *db.Store) (bool, error) {
 				FillerLot: fmt.Sprintf("H%05d", 41200+fi*7+i%4), WeldedOn: day(7 + n/3), JointType: f.joint,
 				ThicknessMM: f.thickness, PassNumber: 1, CurrentA: round(cur, 0), VoltageV: round(volt, 1),
 				TravelSpeedMMPerS: round(speed, 2), WireFeedSpeedMPerMin: ptr(round(wfs, 2)),
-				CTWDMM: ptr(round(ctwd, 1)), WireDiameterMM: f.wireMM, ShieldingGas: f.proc.ShieldingGas,
-				Polarity: "DCEP", Position: f.position, PreheatC: ptr(round(15+8*rng.Float64(), 0)),
+				CTWDMM: ptr(round(ctwd, 1)), WireDiameterMM: ptr(f.wireMM), ShieldingGas: f.proc.ShieldingGas,
+				Polarity: ptr("DCEP"), Position: f.position, PreheatC: ptr(round(15+8*rng.Float64(), 0)),
 			})
 			if err != nil {
 				return false, err

@@ -102,7 +102,7 @@ func TestAuditorOfflineVerify(t *testing.T) {
 	fetch("/v1/log/checkpoint", "visit1.cp")
 	mark := db.CouponData{ProcedureID: &proc.ID, CouponMark: "C-V-1", WelderID: "W-07", WeldedOn: db.DateOf(proc.CreatedAt),
 		JointType: "fillet", ThicknessMM: 6, PassNumber: 1, CurrentA: 180, VoltageV: 21, TravelSpeedMMPerS: 5,
-		WireDiameterMM: 0.9, Polarity: "DCEP", Position: "2F"}
+		WireDiameterMM: ptr(0.9), Polarity: ptr("DCEP"), Position: "2F"}
 	c, err := store.CreateCoupon(ctx, a, mark)
 	if err != nil {
 		t.Fatal(err)
