@@ -42,7 +42,7 @@ func wantEffective(t *testing.T, what string, c map[string]any, wireMM float64, 
 
 // TestCouponInheritsFromProcedure: a coupon that leaves out its wire
 // diameter, polarity and shielding gas is stored with them left out (NULL,
-// NULL, '' in its row; its log leaf still verifies with the RFC 9162
+// NULL, ” in its row; its log leaf still verifies with the RFC 9162
 // verifier) and every read (create answer, single, list, revisions, model
 // view) shows the procedure's values, naming them in inherited. A correction
 // that states the wire diameter stores and shows it as the coupon's own.

@@ -9,7 +9,7 @@ import (
 
 // CouponData is what was welded on one test coupon. Units: mm, mm/s (travel
 // speed), m/min (wire feed speed), A, V, °C. Wire diameter, polarity and
-// shielding gas may be left out (NULL, or '' for the gas): the coupon was
+// shielding gas may be left out (NULL, or ” for the gas): the coupon was
 // welded with its procedure's, else its qualification record's.
 type CouponData struct {
 	ProcedureID           *uuid.UUID `db:"procedure_id" json:"procedure_id,omitempty" validate:"required_without=QualificationRecordID"`
