@@ -56,6 +56,7 @@ type calibrationOut struct {
 	db.Calibration
 	Diagnostics *predict.Diagnostics       `json:"diagnostics,omitempty"`
 	Activations []db.CalibrationActivation `json:"activations"`
+	GasClass    *gasClassOut               `json:"shielding_gas_class,omitempty"`
 	Caution     string                     `json:"caution"`
 }
 
@@ -71,7 +72,7 @@ func withDiagnostics(cal db.Calibration, acts []db.CalibrationActivation) (calib
 	if cal.Fit.Melting != nil { // both coefficient forms, also for fits stored before the inch-pound one
 		cal.Fit.Melting.WithInchPound()
 	}
-	out := calibrationOut{Calibration: cal, Activations: acts, Caution: predictionCaution}
+	out := calibrationOut{Calibration: cal, Activations: acts, GasClass: gasClassOf(cal.ShieldingGas), Caution: predictionCaution}
 	if out.Activations == nil {
 		out.Activations = []db.CalibrationActivation{}
 	}
