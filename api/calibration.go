@@ -21,8 +21,8 @@ type calibrationIn struct {
 	WireDiameterMM *float64            `json:"wire_diameter_mm"`
 	ShieldingGas   string              `json:"shielding_gas"`
 	JointType      string              `json:"joint_type"`
-	WeldedFrom     *db.Date            `json:"welded_from"`
-	WeldedTo       *db.Date            `json:"welded_to"`
+	WeldedFrom     *string             `json:"welded_from"`
+	WeldedTo       *string             `json:"welded_to"`
 	ProcedureID    *uuid.UUID          `json:"procedure_id"`
 	Level          *float64            `json:"level"`
 	ArcLengthMM    *float64            `json:"arc_length_mm"`
@@ -31,9 +31,17 @@ type calibrationIn struct {
 
 func (in calibrationIn) spec() (db.CalibrationSpec, error) {
 	var u units
+	from, err := dayBound("welded_from", in.WeldedFrom)
+	if err != nil {
+		return db.CalibrationSpec{}, err
+	}
+	to, err := dayBound("welded_to", in.WeldedTo)
+	if err != nil {
+		return db.CalibrationSpec{}, err
+	}
 	sp := db.CalibrationSpec{Model: in.Model, Process: in.Process, ShieldingGas: in.ShieldingGas, JointType: in.JointType,
 		WireDiameterMM: u.req("wire_diameter_mm", in.WireDiameterMM),
-		WeldedFrom:     in.WeldedFrom, WeldedTo: in.WeldedTo, ProcedureID: in.ProcedureID, Level: defaultLevel,
+		WeldedFrom:     from, WeldedTo: to, ProcedureID: in.ProcedureID, Level: defaultLevel,
 		ArcLengthMM: in.ArcLengthMM, Note: in.Note}
 	if in.Level != nil {
 		sp.Level = *in.Level
@@ -48,6 +56,7 @@ type calibrationOut struct {
 	db.Calibration
 	Diagnostics *predict.Diagnostics       `json:"diagnostics,omitempty"`
 	Activations []db.CalibrationActivation `json:"activations"`
+	GasClass    *gasClassOut               `json:"shielding_gas_class,omitempty"`
 	Caution     string                     `json:"caution"`
 }
 
@@ -63,7 +72,7 @@ func withDiagnostics(cal db.Calibration, acts []db.CalibrationActivation) (calib
 	if cal.Fit.Melting != nil { // both coefficient forms, also for fits stored before the inch-pound one
 		cal.Fit.Melting.WithInchPound()
 	}
-	out := calibrationOut{Calibration: cal, Activations: acts, Caution: predictionCaution}
+	out := calibrationOut{Calibration: cal, Activations: acts, GasClass: gasClassOf(cal.ShieldingGas), Caution: predictionCaution}
 	if out.Activations == nil {
 		out.Activations = []db.CalibrationActivation{}
 	}

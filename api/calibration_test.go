@@ -124,9 +124,9 @@ func TestActivationSwitchesCouponModel(t *testing.T) {
 	e := newEnv(t)
 	cs := e.storeFitCoupons(8, 0)
 	all := e.fit(calibrationBody("jackson_fixed", nil))
-	early := e.fit(calibrationBody("jackson_fixed", map[string]any{"welded_to": "2026-11-04"}))
+	early := e.fit(calibrationBody("jackson_fixed", map[string]any{"welded_to": "2026-11-05"}))
 	if len(early.CouponIDs) != 4 || all.Fit.Penetration.KMM == early.Fit.Penetration.KMM {
-		t.Fatalf("fixture fits: %d coupons up to 2026-11-04, K %v vs %v; want 4 and different K", len(early.CouponIDs), early.Fit.Penetration.KMM, all.Fit.Penetration.KMM)
+		t.Fatalf("fixture fits: %d coupons before 2026-11-05, K %v vs %v; want 4 and different K", len(early.CouponIDs), early.Fit.Penetration.KMM, all.Fit.Penetration.KMM)
 	}
 	view := func() map[string]any {
 		t.Helper()

@@ -554,3 +554,27 @@ func TestConventionRevision(t *testing.T) {
 		t.Errorf("flag summary ranges_revision = %v, want 3", sum["ranges_revision"])
 	}
 }
+
+// TestConventionFitDays: a fit selects its coupons' welding days half-open
+// too, takes a day or an RFC 3339 time, and answers the bound as given.
+func TestConventionFitDays(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	e.storeFitCoupons(6, 0) // welded 2026-11-01 to 2026-11-06, one a day
+	cal := e.fit(calibrationBody("jackson_fixed", map[string]any{"welded_from": "2026-11-02", "welded_to": "2026-11-04T12:00:00Z"}))
+	if len(cal.CouponIDs) != 3 {
+		t.Errorf("fit over [2026-11-02, 2026-11-04T12:00Z) used %d coupons, want 3 (days 2, 3 and 4)", len(cal.CouponIDs))
+	}
+	got := e.do(http.MethodGet, "/v1/calibrations/"+cal.ID, "auditor", nil).object(t)
+	if got["welded_from"] != "2026-11-02" || got["welded_to"] != "2026-11-05" {
+		t.Errorf("fit days = [%v, %v), want [2026-11-02, 2026-11-05)", got["welded_from"], got["welded_to"])
+	}
+	same := e.fit(calibrationBody("jackson_fixed", map[string]any{"welded_from": got["welded_from"], "welded_to": got["welded_to"]}))
+	if !slices.Equal(same.CouponIDs, cal.CouponIDs) {
+		t.Errorf("the answered days sent again select %v, want %v", same.CouponIDs, cal.CouponIDs)
+	}
+	wantProblem(t, "empty day range", e.do(http.MethodPost, "/v1/calibrations", "engineer",
+		calibrationBody("jackson_fixed", map[string]any{"welded_from": "2026-11-03", "welded_to": "2026-11-03"})), http.StatusUnprocessableEntity, "welded_to")
+	wantProblem(t, "not a day", e.do(http.MethodPost, "/v1/calibrations", "engineer",
+		calibrationBody("jackson_fixed", map[string]any{"welded_to": "11/03/2026"})), http.StatusBadRequest, "welded_to")
+}

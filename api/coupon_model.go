@@ -16,8 +16,12 @@ import (
 // penetration calibration predicts at the coupon's current, voltage and
 // travel speed, and gives its heat input and deposit area.
 type couponModelOut struct {
-	CouponID    uuid.UUID            `json:"coupon_id"`
-	Group       db.CalibrationGroup  `json:"group"`
+	CouponID uuid.UUID           `json:"coupon_id"`
+	Group    db.CalibrationGroup `json:"group"`
+	// Inherited names the group fields taken from the procedure (else the
+	// qualification record) because the coupon leaves them out.
+	Inherited   []string             `json:"inherited"`
+	GasClass    *gasClassOut         `json:"shielding_gas_class,omitempty"`
 	Level       float64              `json:"level"`
 	Penetration couponPenetrationOut `json:"penetration"`
 	heatOut
@@ -91,7 +95,8 @@ func (s *Server) handleCouponModel(c echo.Context) error {
 		return err
 	}
 	cp := d.Coupon
-	out := couponModelOut{CouponID: cp.ID, Group: d.Group, Level: level, Notes: []string{}, Caution: predictionCaution}
+	out := couponModelOut{CouponID: cp.ID, Group: d.Group, Inherited: d.Inherited, GasClass: gasClassOf(d.Group.ShieldingGas),
+		Level: level, Notes: []string{}, Caution: predictionCaution}
 	var process *string
 	if d.Group.Process != "" {
 		process = &d.Group.Process

@@ -8,6 +8,7 @@ import (
 	"log/slog"
 	"net/http"
 	"net/http/httptest"
+	"regexp"
 	"strings"
 	"sync"
 	"testing"
@@ -161,8 +162,17 @@ func (e *testEnv) doAuth(method, path, auth string, body any) reply {
 	if r.status >= 500 {
 		e.t.Errorf("%s %s = %d %s, want no server error", method, path, r.status, b)
 	}
+	if r.status >= 400 {
+		if m := serverWords.Find(b); m != nil {
+			e.t.Errorf("%s %s = %d speaks the server's words (%q), want the user's (DEVELOPERS.md, Conventions): %s", method, path, r.status, m, b)
+		}
+	}
 	return r
 }
+
+// serverWords are package prefixes, constraint names and SQLSTATEs: no
+// refusal may carry them (convention "errors in the user's words").
+var serverWords = regexp.MustCompile(`\b(?:db|api|predict|pgx|pgconn|openapi3filter): |\b[a-z_]+_(?:key|check|fkey|pkey)\b|SQLSTATE|\b(?:23505|23514|23503|22021|22P02)\b`)
 
 // object decodes a JSON object answer.
 func (r reply) object(tb testing.TB) map[string]any {

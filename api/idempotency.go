@@ -24,7 +24,7 @@ const (
 	headerReplayed       = "Idempotent-Replayed"
 	// claimLease is how long a running request holds its key before a retry
 	// may take over a claim that wrote nothing.
-	claimLease = 10 * time.Second
+	claimLease = 3 * time.Second
 	// retryWait is how long a retry waits for the first request's answer.
 	retryWait = 5 * time.Second
 	// maxRemembered is the largest answer kept for a replay.

@@ -357,6 +357,9 @@ func errorHandler(log *slog.Logger) echo.HTTPErrorHandler {
 		if sent, ok := c.Get(sentKey).(sentAs); ok {
 			sent.reword(p.Errors)
 		}
+		for i := range p.Errors { // reasons passed up from the store or the models lose their package prefixes
+			p.Errors[i].Reason = pkgPrefix.ReplaceAllString(p.Errors[i].Reason, "")
+		}
 		p.bound()
 		p.Instance = c.Request().URL.Path
 		p.RequestID = c.Response().Header().Get(echo.HeaderXRequestID)

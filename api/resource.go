@@ -227,7 +227,11 @@ func queryUUID(c echo.Context, name string) (*uuid.UUID, error) {
 // midnight UTC) or an RFC 3339 time. Every time filter is half-open,
 // [from, to): from is included, to is not.
 func queryTime(c echo.Context, name string) (*time.Time, error) {
-	v := c.QueryParam(name)
+	return timeBound(name, c.QueryParam(name))
+}
+
+// timeBound parses one bound of a half-open time range ("" is no bound).
+func timeBound(name, v string) (*time.Time, error) {
 	if v == "" {
 		return nil, nil
 	}
@@ -245,7 +249,16 @@ func queryTime(c echo.Context, name string) (*time.Time, error) {
 // its midnight UTC, so a bound inside a day moves to the next midnight
 // (welded_to=2026-11-03T12:00Z includes 2026-11-03, welded_to=2026-11-03 does not).
 func queryDay(c echo.Context, name string) (*db.Date, error) {
-	t, err := queryTime(c, name)
+	v := c.QueryParam(name)
+	return dayBound(name, &v)
+}
+
+// dayBound is queryDay for a bound given in a body (nil or "" is no bound).
+func dayBound(name string, v *string) (*db.Date, error) {
+	if v == nil {
+		return nil, nil
+	}
+	t, err := timeBound(name, *v)
 	if t == nil || err != nil {
 		return nil, err
 	}

@@ -63,12 +63,16 @@ type CalibrationSpec struct {
 	WireDiameterMM float64          `db:"wire_diameter_mm" json:"wire_diameter_mm" validate:"required,quantity"`
 	ShieldingGas   string           `db:"shielding_gas" json:"shielding_gas" validate:"max=64"`
 	JointType      string           `db:"joint_type" json:"joint_type" validate:"required,enum"`
-	WeldedFrom     *Date            `db:"welded_from" json:"welded_from,omitempty"`
-	WeldedTo       *Date            `db:"welded_to" json:"welded_to,omitempty"`
-	ProcedureID    *uuid.UUID       `db:"procedure_id" json:"procedure_id,omitempty"`
-	Level          float64          `db:"level" json:"level" validate:"quantity"`
-	ArcLengthMM    *float64         `db:"arc_length_mm" json:"arc_length_mm,omitempty" validate:"omitempty,quantity"`
-	Note           string           `db:"note" json:"note" validate:"max=2000"`
+	// WeldedFrom and WeldedTo select the coupons by welding day, half-open
+	// like every time filter: WeldedFrom included, WeldedTo not. The table
+	// keeps its column's first meaning, the last day included: insertCalibration
+	// writes the day before WeldedTo and calibrationColumns reads it back + 1.
+	WeldedFrom  *Date      `db:"welded_from" json:"welded_from,omitempty"`
+	WeldedTo    *Date      `db:"welded_to" json:"welded_to,omitempty"`
+	ProcedureID *uuid.UUID `db:"procedure_id" json:"procedure_id,omitempty"`
+	Level       float64    `db:"level" json:"level" validate:"quantity"`
+	ArcLengthMM *float64   `db:"arc_length_mm" json:"arc_length_mm,omitempty" validate:"omitempty,quantity"`
+	Note        string     `db:"note" json:"note" validate:"max=2000"`
 }
 
 // Group returns the spec's group key.
@@ -127,8 +131,8 @@ func (c CalibrationSpec) validate() error {
 	if !(c.Level > 0 && c.Level < 1) {
 		return &FieldError{Field: "level", Reason: "must be between 0 and 1 (e.g. 0.95)"}
 	}
-	if c.WeldedFrom != nil && c.WeldedTo != nil && c.WeldedTo.Before(c.WeldedFrom.Time) {
-		return &FieldError{Field: "welded_to", Reason: "is before welded_from"}
+	if c.WeldedFrom != nil && c.WeldedTo != nil && !c.WeldedTo.After(c.WeldedFrom.Time) {
+		return &FieldError{Field: "welded_to", Reason: fmt.Sprintf("%s selects no day: it must come after welded_from %s (welded_to itself is not included)", c.WeldedTo, c.WeldedFrom)}
 	}
 	return nil
 }
@@ -229,10 +233,20 @@ func (s *Store) insertCalibration(ctx context.Context, tx pgx.Tx, c Calibration)
 			fit, samples, coupon_ids, note)
 		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18)`,
 		c.Site, c.ID, c.CreatedAt, c.CreatedBy, c.Model, c.Process, c.WireDiameterMM,
-		c.ShieldingGas, c.JointType, c.WeldedFrom, c.WeldedTo, c.ProcedureID, c.Level, c.ArcLengthMM,
+		c.ShieldingGas, c.JointType, c.WeldedFrom, lastDayBefore(c.WeldedTo), c.ProcedureID, c.Level, c.ArcLengthMM,
 		string(fit), string(samples), c.CouponIDs, c.Note)
 	if err != nil {
 		return mapError(err)
 	}
 	return s.AppendLeaf(ctx, tx, LeafEntry{Kind: "calibration", Site: c.Site, ID: c.ID, Revision: 1, Actor: c.CreatedBy, Action: "create", At: c.CreatedAt})
+}
+
+// lastDayBefore is the last day a half-open bound [.., to) includes, as the
+// calibrations table stores it.
+func lastDayBefore(to *Date) *Date {
+	if to == nil {
+		return nil
+	}
+	d := Date{to.AddDate(0, 0, -1)}
+	return &d
 }

@@ -14,7 +14,7 @@ import (
 
 // calibrationColumns are the stored columns of a calibration, read from "c".
 const calibrationColumns = `c.site, c.id, c.created_at, c.created_by, c.model, c.process,
-	c.wire_diameter_mm, c.shielding_gas, c.joint_type, c.welded_from, c.welded_to, c.procedure_id,
+	c.wire_diameter_mm, c.shielding_gas, c.joint_type, c.welded_from, c.welded_to + 1 AS welded_to, c.procedure_id,
 	c.level, c.arc_length_mm, c.fit, c.coupon_ids, c.note`
 
 // latestActivations is, per group and model family, the calibration in

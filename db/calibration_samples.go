@@ -12,7 +12,7 @@ import (
 
 // SampleFilter selects the coupons of one group for a fit: current,
 // non-voided coupons of the group, optionally welded within [WeldedFrom,
-// WeldedTo] (inclusive) and on one procedure.
+// WeldedTo) (half-open) and on one procedure.
 type SampleFilter struct {
 	Group       CalibrationGroup
 	WeldedFrom  *Date
@@ -37,8 +37,8 @@ type groupCoupon struct {
 }
 
 // siteCoupons is the current, non-voided coupons of a site with their
-// process (the coupon's procedure's, else its qualification record's) and
-// sections, welded within the filter's dates and on its procedure.
+// process (the coupon's procedure's, else its qualification record's), their
+// shielding gas (their own, else inherited the same way) and sections, welded within the filter's dates and on its procedure.
 const siteCoupons = `
 		WITH cur AS (
 			SELECT DISTINCT ON (id) id, voided, procedure_id, qualification_record_id, welded_on,
@@ -46,13 +46,14 @@ const siteCoupons = `
 			       ctwd_mm, wire_diameter_mm, shielding_gas
 			FROM coupons WHERE site = $1 ORDER BY id, revision DESC
 		)
-		SELECT cur.id, coalesce(p.process, r.process, '') AS process, cur.joint_type, cur.shielding_gas,
+		SELECT cur.id, coalesce(p.process, r.process, '') AS process, cur.joint_type,
+		       coalesce(nullif(cur.shielding_gas, ''), p.shielding_gas, r.shielding_gas, '') AS shielding_gas,
 		       cur.current_a, cur.voltage_v, cur.travel_speed_mm_s, cur.wire_feed_speed_m_min,
 		       cur.ctwd_mm, cur.wire_diameter_mm, coalesce(m.pens, '{}') AS penetrations_mm
 		FROM cur
-		LEFT JOIN LATERAL (SELECT process FROM procedures p WHERE p.site = $1 AND p.id = cur.procedure_id
+		LEFT JOIN LATERAL (SELECT process, shielding_gas FROM procedures p WHERE p.site = $1 AND p.id = cur.procedure_id
 		                   ORDER BY revision DESC LIMIT 1) p ON true
-		LEFT JOIN LATERAL (SELECT process FROM qualification_records r WHERE r.site = $1 AND r.id = cur.qualification_record_id
+		LEFT JOIN LATERAL (SELECT process, shielding_gas FROM qualification_records r WHERE r.site = $1 AND r.id = cur.qualification_record_id
 		                   ORDER BY revision DESC LIMIT 1) r ON true
 		LEFT JOIN LATERAL (SELECT array_agg(sec.penetration_mm ORDER BY sec.id) AS pens FROM (
 			SELECT DISTINCT ON (id) id, voided, penetration_mm FROM measurements
@@ -60,7 +61,7 @@ const siteCoupons = `
 			WHERE NOT sec.voided) m ON true
 		WHERE NOT cur.voided
 		  AND ($2::date IS NULL OR cur.welded_on >= $2)
-		  AND ($3::date IS NULL OR cur.welded_on <= $3)
+		  AND ($3::date IS NULL OR cur.welded_on < $3)
 		  AND ($4::uuid IS NULL OR cur.procedure_id = $4)
 		ORDER BY cur.id`
 

@@ -82,7 +82,7 @@ func TestCalibrationSamples(t *testing.T) {
 	}{
 		{"Group", db.SampleFilter{Group: fitGroup}, want(0, 1, 3, 4, 5)},
 		{"WireDiameterInInches", db.SampleFilter{Group: db.CalibrationGroup{Process: "GMAW", WireDiameterMM: 0.9 + 4e-4, ShieldingGas: "Ar-25CO2", JointType: "fillet"}}, want(0, 1, 3, 4, 5)},
-		{"DateRange", db.SampleFilter{Group: fitGroup, WeldedFrom: day(2), WeldedTo: day(4)}, want(1, 3)},
+		{"DateRange", db.SampleFilter{Group: fitGroup, WeldedFrom: day(2), WeldedTo: day(5)}, want(1, 3)}, // half-open: days 2, 3 and 4
 		{"OtherProcedure", db.SampleFilter{Group: fitGroup, ProcedureID: &otherProc}, nil},
 		{"OtherProcess", db.SampleFilter{Group: db.CalibrationGroup{Process: "FCAW", WireDiameterMM: 0.9, ShieldingGas: "Ar-25CO2", JointType: "fillet"}}, nil},
 	} {

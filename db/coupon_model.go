@@ -16,6 +16,10 @@ type CouponModelData struct {
 	Group          CalibrationGroup
 	PenetrationsMM []float64
 	FusedAreasMM2  []float64
+	// Inherited names the group fields the coupon leaves out and takes from
+	// its procedure (else its qualification record): process always, the
+	// shielding gas when the coupon records none.
+	Inherited []string
 }
 
 // CouponForModel reads a coupon with its group and current sections. The
@@ -27,13 +31,20 @@ func (s *Store) CouponForModel(ctx context.Context, site string, id uuid.UUID) (
 	}
 	d := CouponModelData{Coupon: c, Group: CalibrationGroup{WireDiameterMM: c.WireDiameterMM,
 		ShieldingGas: c.ShieldingGas, JointType: c.JointType}}
+	var gas string
 	err = s.pool.QueryRow(ctx, `
-		SELECT coalesce(
-			(SELECT process FROM procedures WHERE site = $1 AND id = $2 ORDER BY revision DESC LIMIT 1),
-			(SELECT process FROM qualification_records WHERE site = $1 AND id = $3 ORDER BY revision DESC LIMIT 1),
-			'')`, site, c.ProcedureID, c.QualificationRecordID).Scan(&d.Group.Process)
+		SELECT coalesce(p.process, r.process, ''), coalesce(p.shielding_gas, r.shielding_gas, '')
+		FROM (SELECT 1) one
+		LEFT JOIN LATERAL (SELECT process, shielding_gas FROM procedures WHERE site = $1 AND id = $2 ORDER BY revision DESC LIMIT 1) p ON true
+		LEFT JOIN LATERAL (SELECT process, shielding_gas FROM qualification_records WHERE site = $1 AND id = $3 ORDER BY revision DESC LIMIT 1) r ON true`,
+		site, c.ProcedureID, c.QualificationRecordID).Scan(&d.Group.Process, &gas)
 	if err != nil {
 		return d, fmt.Errorf("db: coupon %s process: %w", id, err)
+	}
+	d.Inherited = []string{"process"}
+	if d.Group.ShieldingGas == "" && gas != "" {
+		d.Group.ShieldingGas = gas
+		d.Inherited = append(d.Inherited, "shielding_gas")
 	}
 	d.Group = d.Group.canonical()
 	rows, err := s.pool.Query(ctx, `

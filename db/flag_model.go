@@ -89,6 +89,9 @@ func couponSubject(ctx context.Context, q querier, site string, c Coupon, p Proc
 		return nil, err
 	}
 	g := CalibrationGroup{Process: p.Process, WireDiameterMM: c.WireDiameterMM, ShieldingGas: c.ShieldingGas, JointType: c.JointType}
+	if g.ShieldingGas == "" { // a coupon that records no gas welded with its procedure's
+		g.ShieldingGas = p.ShieldingGas
+	}
 	check, err := penetrationCheck(ctx, q, site, g, p.MinPenetrationMM)
 	if err != nil || check == nil {
 		return s, err
@@ -119,10 +122,11 @@ func recomputeGroup(ctx context.Context, tx pgx.Tx, now time.Time, site string, 
 	if err := lockProcess(ctx, tx, site, g.Process); err != nil {
 		return err
 	}
-	rows, _ := tx.Query(ctx, `SELECT cur.id, p.process, cur.wire_diameter_mm, cur.shielding_gas, cur.joint_type FROM (
+	rows, _ := tx.Query(ctx, `SELECT cur.id, p.process, cur.wire_diameter_mm,
+			coalesce(nullif(cur.shielding_gas, ''), p.shielding_gas), cur.joint_type FROM (
 			SELECT DISTINCT ON (id) id, voided, procedure_id, wire_diameter_mm, shielding_gas, joint_type
 			FROM coupons WHERE site = $1 ORDER BY id, revision DESC) cur
-		JOIN LATERAL (SELECT process FROM procedures p WHERE p.site = $1 AND p.id = cur.procedure_id
+		JOIN LATERAL (SELECT process, shielding_gas FROM procedures p WHERE p.site = $1 AND p.id = cur.procedure_id
 			ORDER BY revision DESC LIMIT 1) p ON true
 		WHERE NOT cur.voided AND p.process = $2 AND cur.joint_type = $3`, site, g.Process, g.JointType)
 	type member struct {

@@ -5,6 +5,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"fmt"
 	"io"
 	"net"
 	"net/http"
@@ -22,7 +23,16 @@ import (
 	"etchlog/openapi/spectest"
 )
 
-func TestMain(m *testing.M) { dbtest.Main(m) }
+func TestMain(m *testing.M) { dbtest.Main(counted{m}) }
+
+// counted runs the tests, then says how many answers were checked against the spec.
+type counted struct{ m *testing.M }
+
+func (c counted) Run() int {
+	code := c.m.Run()
+	fmt.Printf("spectest: %d answers checked against openapi/openapi.yaml\n", spectest.Default.Checked())
+	return code
+}
 
 // lineBuffer collects what a command writes, safe for the command's
 // goroutines and the test, and hands each complete line to a channel.
