@@ -457,7 +457,11 @@ func TestConventionErrorWords(t *testing.T) {
 // ownedFields are the server-owned fields a read answers and a correction
 // may send back unchanged.
 var ownedFields = map[string]bool{"site": true, "id": true, "revision": true, "created_at": true, "created_by": true,
-	"voided": true, "coupon_id": true}
+	"voided": true, "coupon_id": true, "sign_off": true}
+
+// kindOwned are owned fields only some kinds have: a section's coupon, the
+// sign-off of procedures and PQRs.
+var kindOwned = map[string]bool{"coupon_id": true, "sign_off": true}
 
 // TestConventionRoundTrip: GET a record, change one field, PUT the body back
 // with base_revision and reason: accepted. A server-owned field that differs
@@ -478,7 +482,7 @@ func TestConventionRoundTrip(t *testing.T) {
 		t.Run(c.name, func(t *testing.T) {
 			read := e.do(http.MethodGet, c.path, "auditor", nil).object(t)
 			for f := range ownedFields {
-				if _, ok := read[f]; !ok && f != "coupon_id" {
+				if _, ok := read[f]; !ok && !kindOwned[f] {
 					t.Fatalf("GET %s has no %s", c.path, f)
 				}
 			}
@@ -486,7 +490,8 @@ func TestConventionRoundTrip(t *testing.T) {
 			body[c.field], body["base_revision"], body["reason"] = c.value, read["revision"], "round trip"
 			// Each owned field changed alone is refused and named.
 			for f, v := range map[string]any{"site": "elsewhere", "id": uuid.NewString(), "revision": 9.0,
-				"created_at": "2020-01-01T00:00:00Z", "created_by": "someone-else", "voided": true, "coupon_id": uuid.NewString()} {
+				"created_at": "2020-01-01T00:00:00Z", "created_by": "someone-else", "voided": true, "coupon_id": uuid.NewString(),
+				"sign_off": map[string]any{"id": uuid.NewString()}} {
 				if _, ok := read[f]; !ok {
 					continue
 				}

@@ -2,6 +2,7 @@ package api
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 	"strconv"
 	"time"
@@ -24,6 +25,9 @@ type ownedFields struct {
 	CreatedAt *time.Time `json:"created_at,omitempty"`
 	CreatedBy *string    `json:"created_by,omitempty"`
 	Voided    *bool      `json:"voided,omitempty"`
+	// SignOff is the read's sign-off (null when unsigned), kept raw so that
+	// null and absent differ.
+	SignOff json.RawMessage `json:"sign_off,omitempty"`
 }
 
 // given lists the owned fields a body carries, by JSON name.
@@ -33,7 +37,8 @@ func (o ownedFields) given() []string {
 		name string
 		set  bool
 	}{{"site", o.Site != nil}, {"id", o.ID != nil}, {"revision", o.Revision != nil},
-		{"created_at", o.CreatedAt != nil}, {"created_by", o.CreatedBy != nil}, {"voided", o.Voided != nil}} {
+		{"created_at", o.CreatedAt != nil}, {"created_by", o.CreatedBy != nil}, {"voided", o.Voided != nil},
+		{"sign_off", len(o.SignOff) > 0}} {
 		if f.set {
 			names = append(names, f.name)
 		}
@@ -51,9 +56,22 @@ func (o ownedFields) onCreate() error {
 }
 
 // against compares the owned fields a correction carries with the stored
-// revision it is based on.
-func (o ownedFields) against(m db.Meta) error {
+// revision it is based on and that revision's sign-off (nil: unsigned).
+func (o ownedFields) against(m db.Meta, signed *db.SignOff) error {
 	var v issues
+	if len(o.SignOff) > 0 {
+		var sent *struct {
+			ID uuid.UUID `json:"id"`
+		}
+		switch err := json.Unmarshal(o.SignOff, &sent); {
+		case err != nil:
+			v.refused("sign_off", "is owned by the server: send it back as read (an object or null) or leave it out")
+		case sent == nil && signed != nil:
+			v.refused("sign_off", fmt.Sprintf("is owned by the server: null differs from the stored sign-off %s; leave it out or send it unchanged", signed.ID))
+		case sent != nil && (signed == nil || sent.ID != signed.ID):
+			v.refused("sign_off", "is owned by the server: it differs from the base revision's sign-off; leave it out or send it unchanged")
+		}
+	}
 	differs := func(name, sent, stored string) {
 		v.refused(name, fmt.Sprintf("is owned by the server: %s differs from the stored %s; leave it out or send it unchanged", sent, stored))
 	}
@@ -90,7 +108,11 @@ func checkOwned[R any](ctx context.Context, c echo.Context, get func(context.Con
 	if err != nil {
 		return nil
 	}
-	return o.against(metaOf(rec))
+	var signed *db.SignOff
+	if s, ok := any(rec).(interface{ RecordSignOff() *db.SignOff }); ok {
+		signed = s.RecordSignOff()
+	}
+	return o.against(metaOf(rec), signed)
 }
 
 // metaOf returns the bookkeeping of a stored record revision.

@@ -136,6 +136,8 @@ func problemFor(err error) Problem {
 	case errors.As(err, &dup):
 		return Problem{Type: "urn:etchlog:problem:conflict", Title: "The write conflicts with stored records", Status: http.StatusConflict,
 			Detail: userDetail(dup), Errors: []FieldIssue{{dup.Field, dup.Reason}}, ExistingID: dup.ExistingID.String()}
+	case errors.Is(err, db.ErrForbidden):
+		return Problem{Type: "about:blank", Title: http.StatusText(http.StatusForbidden), Status: http.StatusForbidden, Detail: userDetail(err)}
 	case errors.Is(err, db.ErrNotFound):
 		return Problem{Type: "urn:etchlog:problem:not-found", Title: "No such record", Status: http.StatusNotFound, Detail: userDetail(err)}
 	case errors.Is(err, db.ErrConflict):

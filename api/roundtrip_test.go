@@ -93,6 +93,9 @@ func checkRoundTrip(t *testing.T, e *testEnv, k inputKind, want, body map[string
 		"created_by": userName(k.role), "reason": "", "voided": false} {
 		want[f] = v
 	}
+	if k.name == "Procedure" || k.name == "QualificationRecord" {
+		want["sign_off"] = nil // a new revision is unsigned
+	}
 	if d := cmp.Diff(want, got); d != "" {
 		t.Errorf("POST %s answer (-want +got):\n%s", k.path(e), d)
 	}

@@ -4,6 +4,8 @@ import (
 	"net/http"
 
 	"github.com/labstack/echo/v4"
+
+	"etchlog/db"
 )
 
 // routes registers every route, in the order of the OpenAPI document, with
@@ -33,6 +35,8 @@ func (s *Server) routes() error {
 		{http.MethodPut, "/v1/qualification-records/:id", handleCorrect(s, qr), engineers},
 		{http.MethodPost, "/v1/qualification-records/:id/void", handleVoid(qr), engineers},
 		{http.MethodGet, "/v1/qualification-records/:id/revisions", handleRevisions(qr), readers},
+		{http.MethodPost, "/v1/procedures/:id/sign-off", s.handleSignOff(db.SignProcedure), engineers},
+		{http.MethodPost, "/v1/qualification-records/:id/sign-off", s.handleSignOff(db.SignQualificationRecord), engineers},
 
 		{http.MethodPost, "/v1/coupons", handleCreate(s, cp), recorders},
 		{http.MethodGet, "/v1/coupons", s.handleCouponList, readers},
@@ -77,6 +81,9 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/calibrations/:id", s.handleCalibrationGet, readers},
 		{http.MethodPost, "/v1/calibrations/:id/activate", s.handleCalibrationActivate, engineers},
 		{http.MethodPost, "/v1/calibrations/:id/deactivate", s.handleCalibrationActivate, engineers},
+		{http.MethodPost, "/v1/calibrations/:id/sign-off", s.handleSignOff(db.SignCalibration), engineers},
+		{http.MethodGet, "/v1/sign-offs", s.handleSignOffList, readers},
+		{http.MethodGet, "/v1/sign-offs/:id", s.handleSignOffGet, readers},
 		{http.MethodGet, "/v1/coupons/:id/model", s.handleCouponModel, readers},
 		{http.MethodPost, "/v1/inverse/current-for-deposition", s.handleInverseDeposition, readers},
 		{http.MethodPost, "/v1/inverse/hold-penetration", s.handleInverseHold, readers},

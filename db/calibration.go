@@ -112,6 +112,8 @@ type Calibration struct {
 	CouponIDs []uuid.UUID         `db:"coupon_ids" json:"coupon_ids"`
 	// Active is true when this calibration is its group's latest activation for its model.
 	Active bool `db:"active" json:"active"`
+	// SignOff is the calibration's sign-off by an engineer; null until signed.
+	SignOff *SignOff `db:"-" json:"sign_off"`
 }
 
 // validate checks what the database's rules would refuse, naming the field.

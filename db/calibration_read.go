@@ -39,7 +39,9 @@ func (s *Store) Calibration(ctx context.Context, site string, id uuid.UUID) (Cal
 	if err != nil {
 		return c, fmt.Errorf("db: calibration %s: %w", id, err)
 	}
-	return c, nil
+	one := []Calibration{c}
+	err = attachSignOffs(ctx, s.pool, site, one)
+	return one[0], err
 }
 
 // CalibrationFilter selects calibrations in a list; zero fields do not filter.
@@ -102,7 +104,7 @@ func (s *Store) Calibrations(ctx context.Context, site string, cf CalibrationFil
 		p.Items = items[:limit]
 		p.Next = idCursor("calibrations", p.Items[limit-1].ID)
 	}
-	return p, nil
+	return p, attachSignOffs(ctx, s.pool, site, p.Items)
 }
 
 // ActiveCalibration returns the calibration in use for the group if it is

@@ -30,6 +30,8 @@ var (
 	ErrInvalid = errors.New("invalid value")
 	// ErrVoided means the record was voided and can no longer be corrected.
 	ErrVoided = errors.New("record is voided")
+	// ErrForbidden means the actor's role may not make this write.
+	ErrForbidden = errors.New("the role may not do this")
 	// ErrNoLogKey means no log signing key was set (SetLogKey), so nothing can be written.
 	ErrNoLogKey = errors.New("no log signing key: run etchlog keygen and give the key to the service")
 	// ErrBadCursor means a list cursor is not one that the list handed out.

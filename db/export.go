@@ -25,7 +25,8 @@ type ExportSummary struct {
 // header naming the site, the latest signed checkpoint, every revision of
 // every record in its readable form (procedures, qualification records,
 // coupons, measurements, calibrations and their activations, rule sets,
-// qualified ranges, production batches and records), every leaf of the log
+// qualified ranges, production batches and records, sign-offs; procedure, PQR
+// and calibration revisions carry their sign-off), every leaf of the log
 // in index order with its fact encoded again from the stored row, and every
 // stored fact that is not in the log. The line kinds are in logfmt.
 func (s *Store) Export(ctx context.Context, site string, emit func(kind string, v any) error) (ExportSummary, error) {
@@ -85,6 +86,7 @@ func exportRecords(ctx context.Context, tx pgx.Tx, site string, emit func(string
 		{"calibrations", "calibration", false}, {"calibration_activations", "calibration_activation", false},
 		{"rule_sets", "rule_set", true}, {"procedure_ranges", "procedure_ranges", false},
 		{"production_batches", "production_batch", false}, {"production_records", "production_record", false},
+		{"sign_offs", "sign_off", false},
 	} {
 		steps = append(steps, func() (int64, error) { return exportRaw(ctx, tx, r.name, r.kind, site, r.builtins, emit) })
 	}
@@ -101,6 +103,10 @@ func exportRecords(ctx context.Context, tx pgx.Tx, site string, emit func(string
 
 // exportTable emits every revision of one table's records at the site, by id and revision.
 func exportTable[T any](ctx context.Context, tx pgx.Tx, t table, site string, emit func(string, any) error) (int64, error) {
+	signed, err := signOffsOf(ctx, tx, site) // read first: the connection serves one query at a time
+	if err != nil {
+		return 0, err
+	}
 	rows, err := tx.Query(ctx, "SELECT "+t.columns()+" FROM "+t.name+" WHERE site = $1 ORDER BY id, revision", site)
 	if err != nil {
 		return 0, fmt.Errorf("db: export %s: %w", t.name, err)
@@ -111,6 +117,10 @@ func exportTable[T any](ctx context.Context, tx pgx.Tx, t table, site string, em
 		v, err := pgx.RowToStructByName[T](rows)
 		if err != nil {
 			return n, err
+		}
+		if sg, ok := any(&v).(signable); ok {
+			kind, id, rev, slot := sg.signOffSlot()
+			*slot = signed[signOffKey{kind, id, rev}]
 		}
 		if err := emit(t.entity, v); err != nil {
 			return n, err

@@ -32,6 +32,8 @@ type ProcedureData struct {
 type Procedure struct {
 	Meta
 	ProcedureData
+	// SignOff is this revision's sign-off by an engineer; null until signed.
+	SignOff *SignOff `db:"-" json:"sign_off"`
 }
 
 var procedures = table{name: "procedures", entity: "procedure", fields: recordColumns(ProcedureData{})}
@@ -72,7 +74,7 @@ func (s *Store) CreateProcedure(ctx context.Context, a Actor, p ProcedureData) (
 	); err != nil {
 		return Procedure{}, s.duplicateKey(ctx, procedures, "code", a.Site, p.Code, err)
 	}
-	return Procedure{m, p}, nil
+	return Procedure{Meta: m, ProcedureData: p}, nil
 }
 
 // CorrectProcedure stores the next revision of a procedure and re-evaluates
@@ -90,7 +92,7 @@ func (s *Store) CorrectProcedure(ctx context.Context, a Actor, id uuid.UUID, ch 
 	); err != nil {
 		return Procedure{}, err
 	}
-	return Procedure{m, p}, nil
+	return Procedure{Meta: m, ProcedureData: p}, nil
 }
 
 // checkCorrection verifies that a correction keeps the procedure's code and

@@ -45,6 +45,8 @@ type QualificationRecordData struct {
 type QualificationRecord struct {
 	Meta
 	QualificationRecordData
+	// SignOff is this revision's sign-off by an engineer; null until signed.
+	SignOff *SignOff `db:"-" json:"sign_off"`
 }
 
 var qualificationRecords = table{name: "qualification_records", entity: "qualification_record", fields: recordColumns(QualificationRecordData{})}
@@ -65,7 +67,7 @@ func (s *Store) CreateQualificationRecord(ctx context.Context, a Actor, q Qualif
 	); err != nil {
 		return QualificationRecord{}, s.duplicateKey(ctx, qualificationRecords, "record_number", a.Site, q.RecordNumber, err)
 	}
-	return QualificationRecord{m, q}, nil
+	return QualificationRecord{Meta: m, QualificationRecordData: q}, nil
 }
 
 // CorrectQualificationRecord stores the next revision of a PQR.
@@ -80,7 +82,7 @@ func (s *Store) CorrectQualificationRecord(ctx context.Context, a Actor, id uuid
 	); err != nil {
 		return QualificationRecord{}, err
 	}
-	return QualificationRecord{m, q}, nil
+	return QualificationRecord{Meta: m, QualificationRecordData: q}, nil
 }
 
 // VoidQualificationRecord voids a PQR with a reason.

@@ -47,7 +47,13 @@ type querier interface {
 
 // readOne reads a record outside any write transaction.
 func readOne[T any](ctx context.Context, s *Store, t table, site string, id uuid.UUID, rev int) (T, error) {
-	return getRecord[T](ctx, s.pool, t, site, id, rev)
+	v, err := getRecord[T](ctx, s.pool, t, site, id, rev)
+	if err != nil {
+		return v, err
+	}
+	one := []T{v}
+	err = attachSignOffs(ctx, s.pool, site, one)
+	return one[0], err
 }
 
 // exists checks, inside a write, that a referenced record exists at the site and
@@ -78,7 +84,7 @@ func revisions[T any](ctx context.Context, s *Store, t table, site string, id uu
 	if len(v) == 0 {
 		return nil, fmt.Errorf("db: %s %s: %w", t.entity, id, ErrNotFound)
 	}
-	return v, nil
+	return v, attachSignOffs(ctx, s.pool, site, v)
 }
 
 // filter collects WHERE conditions on the current revision ("cur") of a list.
@@ -140,5 +146,5 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	if err != nil {
 		return Page[T]{}, fmt.Errorf("db: list %s: %w", t.entity, mapError(err))
 	}
-	return Page[T]{Items: items, Next: nextLogCursor(t.name, from, last, len(items))}, nil
+	return Page[T]{Items: items, Next: nextLogCursor(t.name, from, last, len(items))}, attachSignOffs(ctx, s.pool, site, items)
 }

@@ -148,6 +148,11 @@ func loadDemo(ctx context.Context, owner, s *db.Store) (bool, error) {
 	if err != nil {
 		return false, err
 	}
+	// The engineer has signed off the fillet PQR; the groove one waits for review.
+	if _, err := s.SignOffRecord(ctx, eng, db.SignQualificationRecord, pqrFillet.ID, db.SignOffRequest{Revision: 1,
+		Statement: "Fillet break and macro reviewed against the shop's code of record; accepted (invented demo sign-off)."}); err != nil {
+		return false, err
+	}
 	groove, err := s.CreateProcedure(ctx, eng, db.ProcedureData{
 		Code: "WPS-TR-204", Title: "Groove welds, carbon steel, 0.045 in wire, spray transfer",
 		Process: "GMAW", FillerClassification: "ER70S-6", WireDiameterMM: predict.InchToMM(0.045),
