@@ -1,0 +1,10 @@
+DROP INDEX IF EXISTS measurements_rejected;
+DROP INDEX IF EXISTS production_records_weld;
+DROP INDEX IF EXISTS production_records_recorded_at;
+DROP INDEX IF EXISTS production_records_welder;
+DROP INDEX IF EXISTS qualification_records_welded_on;
+DROP INDEX IF EXISTS qualification_records_welder;
+DROP INDEX IF EXISTS coupons_welded_on;
+DROP INDEX IF EXISTS coupons_welder;
+DROP INDEX IF EXISTS coupons_qualification_record;
+DROP INDEX IF EXISTS coupons_procedure;
