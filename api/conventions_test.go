@@ -457,11 +457,12 @@ func TestConventionErrorWords(t *testing.T) {
 // ownedFields are the server-owned fields a read answers and a correction
 // may send back unchanged.
 var ownedFields = map[string]bool{"site": true, "id": true, "revision": true, "created_at": true, "created_by": true,
-	"voided": true, "coupon_id": true, "sign_off": true}
+	"voided": true, "coupon_id": true, "sign_off": true, "process": true, "inherited": true}
 
 // kindOwned are owned fields only some kinds have: a section's coupon, the
-// sign-off of procedures and PQRs.
-var kindOwned = map[string]bool{"coupon_id": true, "sign_off": true}
+// sign-off of procedures and PQRs, a coupon's process and inherited (taken
+// from its procedure).
+var kindOwned = map[string]bool{"coupon_id": true, "sign_off": true, "process": true, "inherited": true}
 
 // TestConventionRoundTrip: GET a record, change one field, PUT the body back
 // with base_revision and reason: accepted. A server-owned field that differs
@@ -491,8 +492,8 @@ func TestConventionRoundTrip(t *testing.T) {
 			// Each owned field changed alone is refused and named.
 			for f, v := range map[string]any{"site": "elsewhere", "id": uuid.NewString(), "revision": 9.0,
 				"created_at": "2020-01-01T00:00:00Z", "created_by": "someone-else", "voided": true, "coupon_id": uuid.NewString(),
-				"sign_off": map[string]any{"id": uuid.NewString()}} {
-				if _, ok := read[f]; !ok {
+				"sign_off": map[string]any{"id": uuid.NewString()}, "process": "SAW", "inherited": []any{"polarity"}} {
+				if _, ok := read[f]; !ok || (f == "process" || f == "inherited") && c.name != "Coupon" { // a procedure's process is its own
 					continue
 				}
 				bad := clone(body)

@@ -165,3 +165,37 @@ func TestInheritedValuesGroupFitAndFlag(t *testing.T) {
 		t.Errorf("the fixture coupon (0.9 mm, Ar-25CO2 against a 1.2 mm Ar-10CO2 record) has no range flags; the comparison proves nothing")
 	}
 }
+
+// TestInheritingCouponRoundTrip: a read of a coupon that leaves its wire
+// diameter and polarity out, sent back as a correction with one other field
+// changed, keeps them left out (the stored row stays NULL); the same read
+// with the wire diameter changed makes that value the coupon's own. On a new
+// record process and inherited are refused (set by the server).
+func TestInheritingCouponRoundTrip(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	proc := e.mustProcedure()
+	b := couponBody(proc, "", uniq("C-RT"))
+	delete(b, "wire_diameter_mm")
+	delete(b, "polarity")
+	id := e.create("/v1/coupons", "technician", b)["id"].(string)
+	read := e.do(http.MethodGet, "/v1/coupons/"+id+"?units=inch-pound", "auditor", nil).object(t)
+	body := clone(read)
+	body["current_a"], body["base_revision"], body["reason"] = 185.0, 1, "current re-read from the log"
+	r := e.do(http.MethodPut, "/v1/coupons/"+id, "technician", body)
+	if r.status != http.StatusOK {
+		t.Fatalf("PUT the inch-pound read back: %d %s", r.status, r.body)
+	}
+	wantEffective(t, "round trip", e.do(http.MethodGet, "/v1/coupons/"+id, "auditor", nil).object(t), 0.9, "process", "wire_diameter_mm", "polarity")
+
+	body = clone(e.do(http.MethodGet, "/v1/coupons/"+id, "auditor", nil).object(t))
+	body["wire_diameter_mm"], body["base_revision"], body["reason"] = 1.2, 2, "wire diameter read from the spool label"
+	if r := e.do(http.MethodPut, "/v1/coupons/"+id, "technician", body); r.status != http.StatusOK {
+		t.Fatalf("PUT with the wire changed: %d %s", r.status, r.body)
+	}
+	wantEffective(t, "changed wire", e.do(http.MethodGet, "/v1/coupons/"+id, "auditor", nil).object(t), 1.2, "process", "polarity")
+
+	fresh := couponBody(proc, "", uniq("C-RT"))
+	fresh["inherited"] = []any{"process"}
+	wantProblem(t, "POST with inherited", e.do(http.MethodPost, "/v1/coupons", "technician", fresh), http.StatusUnprocessableEntity, "inherited")
+}
