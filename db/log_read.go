@@ -29,7 +29,7 @@ func (s *Store) Checkpoint(ctx context.Context, site string, size uint64) (LogCh
 	s.awaitLogged(ctx, site)
 	var c LogCheckpoint
 	err := s.pool.QueryRow(ctx, `SELECT size, root, note FROM log_checkpoints
-		WHERE site = $1 AND ($2 = 0 OR size = $2) ORDER BY size DESC LIMIT 1`, site, int64(size)).Scan(&c.Size, &c.Root, &c.Note)
+		WHERE site = $1 AND ($2::bigint = 0 OR size = $2::bigint) ORDER BY size DESC LIMIT 1`, site, int64(size)).Scan(&c.Size, &c.Root, &c.Note)
 	switch {
 	case errors.Is(err, pgx.ErrNoRows) && size == 0:
 		key := s.logKey()
