@@ -99,6 +99,13 @@ var seedStatements = []string{
 	SELECT @site, 'production_record', md5(@site::text || 'r' || g)::uuid, timestamptz '2019-01-01' + g * interval '30 minutes',
 		md5(@site::text || 'p' || (g * 13 % @procids::int))::uuid, 1, 'range', 'current_a', 'seeded', now()
 	FROM generate_series(0, @production::int - 1, 5) g`,
+	// Every PQR and every procedure is signed off once, by one of a few engineers.
+	`INSERT INTO sign_offs (site, id, record_kind, record_id, record_revision, statement, signed_hash,
+		signed_hash_of, signed_by, signer_role, signed_at)
+	SELECT @site, md5(@site::text || 's' || kind || g)::uuid, kind, md5(@site::text || left(kind, 1) || g)::uuid, 1,
+		'Reviewed.', sha256(g::text::bytea), 'log_leaf', 'E' || g % 7, 'engineer', now()
+	FROM (SELECT 'qualification_record' AS kind, g FROM generate_series(0, @pqrs::int - 1) g
+		UNION ALL SELECT 'procedure', g FROM generate_series(0, @procedures::int - 1) g) signed`,
 	// The log: procedures, then PQRs, then coupons with their sections and
 	// production records interleaved as they arrive (leaf indexes computed,
 	// not sorted: procedures, PQRs, then four slots per coupon number).

@@ -21,7 +21,7 @@ import (
 // never read one of them whole.
 var recordTables = map[string]bool{
 	"procedures": true, "qualification_records": true, "coupons": true, "measurements": true,
-	"production_records": true, "flags": true, "log_leaves": true,
+	"production_records": true, "flags": true, "log_leaves": true, "sign_offs": true,
 }
 
 // listTracer keeps the last list statement (the one with ORDER BY ... LIMIT)
@@ -33,7 +33,7 @@ type listTracer struct {
 }
 
 func (t *listTracer) TraceQueryStart(ctx context.Context, _ *pgx.Conn, d pgx.TraceQueryStartData) context.Context {
-	if strings.Contains(d.SQL, " ORDER BY ") && strings.Contains(d.SQL, " LIMIT $") {
+	if strings.Contains(d.SQL, "ORDER BY ") && strings.Contains(d.SQL, " LIMIT $") {
 		t.mu.Lock()
 		t.sql, t.args = d.SQL, d.Args
 		t.mu.Unlock()
@@ -158,6 +158,12 @@ func TestListPlansUseIndexes(t *testing.T) {
 		"procedure_id+from+to": {ProcedureID: &proc, From: &fat, To: &funtil},
 	} {
 		add("flags/"+name, func() error { _, err := s.Flags(ctx, planSite, f, "", 50); return err })
+	}
+	signed := seededID("q", 42)
+	for name, f := range map[string]db.SignOffFilter{
+		"none": {}, "record_kind": {RecordKind: "procedure"}, "record_id": {RecordID: &signed}, "signed_by": {SignedBy: "E3"},
+	} {
+		add("sign_offs/"+name, func() error { _, err := s.SignOffs(ctx, planSite, f, "", 50); return err })
 	}
 
 	for _, c := range cases {
