@@ -33,10 +33,13 @@ func TestRoundTrip(t *testing.T) {
 		},
 		"Coupon": func() (map[string]any, map[string]any) {
 			b := couponBody(e.procedure(), "", uniq("C"))
-			for _, k := range []string{"power_source_id", "filler_lot", "wire_feed_speed_m_min", "ctwd_mm", "shielding_gas", "preheat_c", "interpass_c"} {
+			for _, k := range []string{"power_source_id", "filler_lot", "wire_feed_speed_m_min", "ctwd_mm", "shielding_gas", "preheat_c", "interpass_c",
+				"wire_diameter_mm", "polarity"} {
 				delete(b, k)
 			}
-			return b, map[string]any{"power_source_id": "", "filler_lot": "", "shielding_gas": ""}
+			// Left out, wire diameter, gas and polarity read as the procedure's (procedureBody), named in inherited.
+			return b, map[string]any{"power_source_id": "", "filler_lot": "", "shielding_gas": "Ar-25CO2", "wire_diameter_mm": 0.9,
+				"polarity": "DCEP", "process": "GMAW", "inherited": []any{"process", "wire_diameter_mm", "shielding_gas", "polarity"}}
 		},
 		"Measurement": func() (map[string]any, map[string]any) {
 			b := measurementBody("B")
@@ -61,6 +64,9 @@ func TestRoundTrip(t *testing.T) {
 					}
 					if k.name == "Measurement" {
 						want["coupon_id"] = e.coupon() // from the path
+					}
+					if k.name == "Coupon" && c.defaults == nil { // a coupon has no process of its own: its procedure's
+						want["process"], want["inherited"] = "GMAW", []any{"process"}
 					}
 					checkRoundTrip(t, e, k, want, c.body)
 				})
