@@ -55,18 +55,21 @@ type CalibrationFilter struct {
 	ActiveOnly     bool
 }
 
-// Calibrations lists calibrations oldest first after the cursor (keyset on the
-// time-ordered id), without their samples.
+// Calibrations lists calibrations in log order after the cursor, without
+// their samples. Like the record lists it pages by the calibration's log
+// index, which follows commit order, so a client following the cursor sees
+// every committed calibration exactly once, and every page (an empty one
+// too) returns a cursor to resume from.
 func (s *Store) Calibrations(ctx context.Context, site string, cf CalibrationFilter, cursor string, limit int) (Page[Calibration], error) {
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
 	}
-	after, err := afterID("calibrations", cursor)
+	from, err := logCursor("calibrations", cursor)
 	if err != nil {
 		return Page[Calibration]{}, fmt.Errorf("db: list calibrations: %w", err)
 	}
 	f := newFilter()
-	f.args[0], f.args[1] = site, after
+	f.args[0], f.args[1] = site, from
 	if cf.Model != "" {
 		f.add("c.model = ?", cf.Model)
 	}
@@ -89,21 +92,20 @@ func (s *Store) Calibrations(ctx context.Context, site string, cf CalibrationFil
 	if len(f.conds) > 0 {
 		where = strings.Join(f.conds, " AND ")
 	}
-	f.args = append(f.args, limit+1)
+	f.args = append(f.args, limit)
+	s.awaitLogged(ctx, site) // a page shows every calibration acknowledged before it was asked for
 	rows, _ := s.pool.Query(ctx, `WITH `+latestActivations+`
-		SELECT `+calibrationColumns+`, NULL::jsonb AS samples, l.calibration_id IS NOT NULL AS active
-		FROM calibrations c LEFT JOIN latest l ON l.calibration_id = c.id
-		WHERE c.site = $1 AND c.id > $2 AND `+where+`
-		ORDER BY c.id LIMIT $`+strconv.Itoa(len(f.args)), f.args...)
-	items, err := pgx.CollectRows(rows, pgx.RowToStructByName[Calibration])
+		SELECT `+calibrationColumns+`, NULL::jsonb AS samples, l.calibration_id IS NOT NULL AS active, lg.leaf_index
+		FROM log_leaves lg
+		JOIN calibrations c ON c.site = lg.site AND c.id = lg.record_id
+		LEFT JOIN latest l ON l.calibration_id = c.id
+		WHERE lg.site = $1 AND lg.kind = 'calibration' AND lg.leaf_index >= $2 AND `+where+`
+		ORDER BY lg.leaf_index LIMIT $`+strconv.Itoa(len(f.args)), f.args...)
+	items, last, err := collectIndexed[Calibration](rows)
 	if err != nil {
 		return Page[Calibration]{}, fmt.Errorf("db: list calibrations: %w", mapError(err))
 	}
-	p := Page[Calibration]{Items: items}
-	if len(items) > limit {
-		p.Items = items[:limit]
-		p.Next = idCursor("calibrations", p.Items[limit-1].ID)
-	}
+	p := Page[Calibration]{Items: items, Next: nextLogCursor("calibrations", from, last, len(items))}
 	return p, attachSignOffs(ctx, s.pool, site, p.Items)
 }
 
