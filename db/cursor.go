@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"strconv"
 
-	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
 )
@@ -36,25 +35,6 @@ func DecodeCursor(s, list string, n int) ([]string, error) {
 		return nil, bad
 	}
 	return parts[1:], nil
-}
-
-// idCursor encodes the id keyset position of list.
-func idCursor(list string, id uuid.UUID) string { return EncodeCursor(list, id.String()) }
-
-// afterID decodes an id cursor of list; the empty cursor is the list's start.
-func afterID(list, cursor string) (uuid.UUID, error) {
-	if cursor == "" {
-		return uuid.Nil, nil
-	}
-	parts, err := DecodeCursor(cursor, list, 1)
-	if err != nil {
-		return uuid.Nil, err
-	}
-	id, err := uuid.Parse(parts[0])
-	if err != nil {
-		return uuid.Nil, fmt.Errorf("cursor %q: %w", cursor, ErrBadCursor)
-	}
-	return id, nil
 }
 
 // SeqCursor encodes a position in a sequence-numbered list (the audit events).

@@ -196,29 +196,39 @@ type SignOffFilter struct {
 	SignedBy   string
 }
 
-// SignOffs lists a site's sign-offs oldest first after the cursor.
+// SignOffs lists a site's sign-offs in log order after the cursor: like the
+// record lists it pages by the log index, which follows commit order, so a
+// client following the cursor sees each sign-off once, and every page (an
+// empty one too) returns a cursor to resume from.
 func (s *Store) SignOffs(ctx context.Context, site string, f SignOffFilter, cursor string, limit int) (Page[SignOff], error) {
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
 	}
-	after, err := afterID("sign-offs", cursor)
+	from, err := logCursor("sign-offs", cursor)
 	if err != nil {
 		return Page[SignOff]{}, fmt.Errorf("db: list sign-offs: %w", err)
 	}
-	rows, _ := s.pool.Query(ctx, `SELECT `+signOffColumns+` FROM sign_offs
-		WHERE site = $1 AND id > $2 AND ($3 = '' OR record_kind = $3) AND ($4::uuid IS NULL OR record_id = $4)
-		  AND ($5 = '' OR signed_by = $5)
-		ORDER BY id LIMIT $6`, site, after, f.RecordKind, f.RecordID, f.SignedBy, limit+1)
-	items, err := pgx.CollectRows(rows, pgx.RowToStructByName[SignOff])
+	s.awaitLogged(ctx, site) // a page shows every sign-off acknowledged before it was asked for
+	rows, _ := s.pool.Query(ctx, `SELECT `+prefixed("so.", signOffColumns)+`, lg.leaf_index
+		FROM log_leaves lg JOIN sign_offs so ON so.site = lg.site AND so.id = lg.record_id
+		WHERE lg.site = $1 AND lg.kind = 'sign_off' AND lg.leaf_index >= $2
+		  AND ($3 = '' OR so.record_kind = $3) AND ($4::uuid IS NULL OR so.record_id = $4)
+		  AND ($5 = '' OR so.signed_by = $5)
+		ORDER BY lg.leaf_index LIMIT $6`, site, from, f.RecordKind, f.RecordID, f.SignedBy, limit)
+	items, last, err := collectIndexed[SignOff](rows)
 	if err != nil {
-		return Page[SignOff]{}, fmt.Errorf("db: list sign-offs: %w", err)
+		return Page[SignOff]{}, fmt.Errorf("db: list sign-offs: %w", mapError(err))
 	}
-	p := Page[SignOff]{Items: items}
-	if len(items) > limit {
-		p.Items = items[:limit]
-		p.Next = idCursor("sign-offs", p.Items[limit-1].ID)
+	return Page[SignOff]{Items: items, Next: nextLogCursor("sign-offs", from, last, len(items))}, nil
+}
+
+// prefixed qualifies each column of a comma-separated list with p.
+func prefixed(p, columns string) string {
+	cols := strings.Split(columns, ",")
+	for i, c := range cols {
+		cols[i] = p + strings.TrimSpace(c)
 	}
-	return p, nil
+	return strings.Join(cols, ", ")
 }
 
 // signable is a record revision that shows its sign-off: qualification
