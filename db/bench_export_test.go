@@ -10,10 +10,7 @@ import (
 	"strconv"
 	"testing"
 
-	"github.com/jackc/pgx/v5"
-
 	"etchlog/db"
-	"etchlog/db/dbtest"
 )
 
 // BenchmarkExport streams a whole site through Store.Export (every coupon
@@ -30,14 +27,8 @@ func BenchmarkExport(b *testing.B) {
 		n = v
 	}
 	ctx := context.Background()
-	dbURL, _, _ := dbtest.Fresh(b)
-	conn, err := pgx.Connect(ctx, dbURL)
-	if err != nil {
-		b.Fatal(err)
-	}
-	defer conn.Close(ctx)
+	dbURL, conn, _ := benchSite(b, n)
 	const site = "bench"
-	seedBenchCoupons(b, conn, site, n)
 	appURL, err := db.AppURL(dbURL)
 	if err != nil {
 		b.Fatal(err)

@@ -26,14 +26,8 @@ const benchCoupons = 100000
 // the Store statement's EXPLAIN ANALYZE.
 func BenchmarkCouponListFiltered(b *testing.B) {
 	ctx := context.Background()
-	dbURL, _, _ := dbtest.Fresh(b)
-	conn, err := pgx.Connect(ctx, dbURL)
-	if err != nil {
-		b.Fatal(err)
-	}
-	defer conn.Close(ctx)
+	dbURL, _, proc := benchSite(b, benchCoupons)
 	const site = "bench"
-	proc := seedBenchCoupons(b, conn, site, benchCoupons)
 	appURL, err := db.AppURL(dbURL)
 	if err != nil {
 		b.Fatal(err)
@@ -80,13 +74,22 @@ func BenchmarkCouponListFiltered(b *testing.B) {
 	})
 }
 
-// seedBenchCoupons COPYs n coupons and one log leaf each into site (60
-// procedures, 250 welders, 2,500 welding days) and analyzes both tables; it
-// returns the procedure id of coupon i. The leaves carry no valid tag: the
-// benchmarks that use this read and stream, they never verify.
-func seedBenchCoupons(b *testing.B, conn *pgx.Conn, site string, n int) func(int) uuid.UUID {
+// benchSite makes a fresh database whose site "bench" holds n coupons and one
+// log leaf each, COPYed in (60 procedures, 250 welders, 2,500 welding days),
+// with both tables analyzed. It returns the database URL, a superuser
+// connection closed at the end, and the procedure id of coupon i. The leaves
+// carry no valid tag: the benchmarks that use this read and stream, they
+// never verify.
+func benchSite(b *testing.B, n int) (string, *pgx.Conn, func(int) uuid.UUID) {
 	b.Helper()
 	ctx := context.Background()
+	dbURL, _, _ := dbtest.Fresh(b)
+	conn, err := pgx.Connect(ctx, dbURL)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.Cleanup(func() { conn.Close(ctx) })
+	const site = "bench"
 	proc := func(i int) uuid.UUID { return uuid.NewSHA1(uuid.Nil, []byte(fmt.Sprint("procedure", i%60))) }
 	day0 := time.Date(2019, 1, 1, 0, 0, 0, 0, time.UTC)
 	ids := make([]uuid.UUID, n)
@@ -114,5 +117,5 @@ func seedBenchCoupons(b *testing.B, conn *pgx.Conn, site string, n int) func(int
 	if _, err := conn.Exec(ctx, "ANALYZE coupons; ANALYZE log_leaves"); err != nil {
 		b.Fatal(err)
 	}
-	return proc
+	return dbURL, conn, proc
 }
