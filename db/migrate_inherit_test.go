@@ -2,14 +2,12 @@ package db_test
 
 import (
 	"context"
-	"net/url"
 	"strings"
 	"testing"
 
 	"github.com/jackc/pgx/v5"
 
 	"etchlog/db"
-	"etchlog/db/dbtest"
 )
 
 // TestMigrateDownRefusesLeftOutWire: once a coupon has left its wire
@@ -19,33 +17,11 @@ import (
 func TestMigrateDownRefusesLeftOutWire(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()
-	admin, err := pgx.Connect(ctx, dbtest.URL(t))
-	if err != nil {
+	name, u := scratchDatabase(t)
+	if err := db.Migrate(u, "up"); err != nil {
 		t.Fatal(err)
 	}
-	defer admin.Close(ctx)
-	name := "etchlog_inherit_" + randomSuffix(t)
-	if _, err := admin.Exec(ctx, "CREATE DATABASE "+name); err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() {
-		ctx := context.Background()
-		c, err := pgx.Connect(ctx, dbtest.URL(t))
-		if err != nil {
-			t.Errorf("drop %s: %v", name, err)
-			return
-		}
-		defer c.Close(ctx)
-		if _, err := c.Exec(ctx, "DROP DATABASE IF EXISTS "+name+" WITH (FORCE)"); err != nil {
-			t.Errorf("drop %s: %v", name, err)
-		}
-	})
-	u, _ := url.Parse(dbtest.URL(t))
-	u.Path = "/" + name
-	if err := db.Migrate(u.String(), "up"); err != nil {
-		t.Fatal(err)
-	}
-	conn, err := pgx.Connect(ctx, u.String())
+	conn, err := pgx.Connect(ctx, u)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -55,7 +31,7 @@ func TestMigrateDownRefusesLeftOutWire(t *testing.T) {
 		VALUES ('s', gen_random_uuid(), 1, now(), 'tester', gen_random_uuid(), 'C-1', 'W-1', '2026-11-03', 'fillet', 6, 1, 180, 21, 5, '2F')`); err != nil {
 		t.Fatal(err)
 	}
-	err = db.MigrateDown(u.String(), name)
+	err = db.MigrateDown(u, name)
 	if err == nil || !strings.Contains(err.Error(), "wire_diameter_mm or polarity") {
 		t.Fatalf("MigrateDown with a coupon leaving its wire out: %v; want a refusal naming wire_diameter_mm or polarity", err)
 	}

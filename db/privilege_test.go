@@ -283,31 +283,14 @@ func TestFlagsAreDerived(t *testing.T) {
 }
 
 // scratchDatabase creates an empty database of the test's own on the test
-// server and drops it at the end; it returns the name and the superuser URL.
+// server (dbtest.EmptyDatabase, dropped at the end); it returns the name and
+// the superuser URL.
 func scratchDatabase(t *testing.T) (string, string) {
 	t.Helper()
-	ctx := context.Background()
-	name := "etchlog_scratch_" + randomSuffix(t)
-	admin, err := pgx.Connect(ctx, dbtest.URL(t))
+	u := dbtest.EmptyDatabase(t)
+	parsed, err := url.Parse(u)
 	if err != nil {
 		t.Fatal(err)
 	}
-	defer admin.Close(ctx)
-	if _, err := admin.Exec(ctx, "CREATE DATABASE "+name); err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(func() {
-		c, err := pgx.Connect(ctx, dbtest.URL(t))
-		if err != nil {
-			t.Errorf("drop %s: %v", name, err)
-			return
-		}
-		defer c.Close(ctx)
-		if _, err := c.Exec(ctx, "DROP DATABASE IF EXISTS "+name+" WITH (FORCE)"); err != nil {
-			t.Errorf("drop %s: %v", name, err)
-		}
-	})
-	u, _ := url.Parse(dbtest.URL(t))
-	u.Path = "/" + name
-	return name, u.String()
+	return strings.TrimPrefix(parsed.Path, "/"), u
 }
