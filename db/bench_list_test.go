@@ -28,16 +28,7 @@ func BenchmarkCouponListFiltered(b *testing.B) {
 	ctx := context.Background()
 	dbURL, _, proc := benchSite(b, benchCoupons)
 	const site = "bench"
-	appURL, err := db.AppURL(dbURL)
-	if err != nil {
-		b.Fatal(err)
-	}
-	tr := &listTracer{}
-	s, err := db.OpenTraced(ctx, appURL, tr)
-	if err != nil {
-		b.Fatal(err)
-	}
-	defer s.Close()
+	s, tr := tracedStore(b, dbURL)
 	var cols string
 	if err := s.Pool().QueryRow(ctx, `SELECT string_agg(column_name, ', ' ORDER BY ordinal_position)
 		FROM information_schema.columns WHERE table_name = 'coupons'`).Scan(&cols); err != nil {

@@ -24,6 +24,23 @@ var recordTables = map[string]bool{
 	"production_records": true, "flags": true, "log_leaves": true, "sign_offs": true,
 }
 
+// tracedStore opens the service's store on the database at dbURL (through
+// its application login) with a listTracer watching it; it closes at the end.
+func tracedStore(tb testing.TB, dbURL string) (*db.Store, *listTracer) {
+	tb.Helper()
+	appURL, err := db.AppURL(dbURL)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	tr := &listTracer{}
+	s, err := db.OpenTraced(context.Background(), appURL, tr)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	tb.Cleanup(s.Close)
+	return s, tr
+}
+
 // listTracer keeps the last list statement (the one with ORDER BY ... LIMIT)
 // a store sent, with its arguments.
 type listTracer struct {
@@ -84,16 +101,7 @@ func TestListPlansUseIndexes(t *testing.T) {
 	start := time.Now()
 	seedPlans(ctx, t, conn)
 	t.Logf("seeded in %v", time.Since(start).Round(time.Millisecond))
-	appURL, err := db.AppURL(dbURL)
-	if err != nil {
-		t.Fatal(err)
-	}
-	tr := &listTracer{}
-	s, err := db.OpenTraced(ctx, appURL, tr)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer s.Close()
+	s, tr := tracedStore(t, dbURL)
 
 	proc := seededID("p", 7)
 	pqr := seededID("q", 11)
