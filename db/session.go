@@ -73,7 +73,7 @@ func (s *Store) SessionUser(ctx context.Context, id string) (User, error) {
 		JOIN api_users u ON u.site = ses.site AND u.name = ses.user_name AND u.revision = ses.user_revision
 		WHERE ses.id_sha256 = $1 AND ses.expires_at > $2 AND NOT u.voided
 		  AND NOT EXISTS (SELECT 1 FROM api_users l WHERE l.id = u.id AND l.revision > u.revision)
-		  AND NOT EXISTS (SELECT 1 FROM lab_sign_outs o WHERE o.session_sha256 = ses.id_sha256)`,
+		  AND NOT EXISTS (SELECT 1 FROM lab_sign_outs o WHERE o.site = ses.site AND o.session_sha256 = ses.id_sha256)`,
 		sessionDigest(id), s.now()).Scan(&u.Site, &u.Name, &u.Role)
 	if errors.Is(err, pgx.ErrNoRows) {
 		return User{}, ErrNotFound
@@ -88,9 +88,9 @@ func (s *Store) SessionUser(ctx context.Context, id string) (User, error) {
 // an unknown or already ended session does nothing.
 func (s *Store) EndSession(ctx context.Context, id string) error {
 	_, err := s.pool.Exec(ctx, `
-		INSERT INTO lab_sign_outs (session_sha256, signed_out_at)
-		SELECT id_sha256, $2 FROM lab_sessions WHERE id_sha256 = $1
-		ON CONFLICT (session_sha256) DO NOTHING`, sessionDigest(id), s.now())
+		INSERT INTO lab_sign_outs (site, session_sha256, signed_out_at)
+		SELECT site, id_sha256, $2 FROM lab_sessions WHERE id_sha256 = $1
+		ON CONFLICT (site, session_sha256) DO NOTHING`, sessionDigest(id), s.now())
 	if err != nil {
 		return fmt.Errorf("db: end session: %w", mapError(err))
 	}
