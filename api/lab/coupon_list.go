@@ -17,8 +17,8 @@ func init() {
 // couponFilters are the list's filters, each passed to the API as it is.
 var couponFilters = []string{"procedure_id", "welder_id", "coupon_mark", "acceptance", "welded_from", "welded_to", "include_voided"}
 
-// couponRow is one row of the coupon list.
-type couponRow struct {
+// couponListRow is one row of the coupon list.
+type couponListRow struct {
 	Coupon     db.Coupon
 	Procedure  string
 	Sections   string // "A, B, C" or "none"
@@ -28,7 +28,7 @@ type couponRow struct {
 
 // couponListView is the coupon list's data.
 type couponListView struct {
-	Rows       []couponRow
+	Rows       []couponListRow
 	Items      []db.Coupon
 	NextCursor string
 	Limit      int
@@ -41,7 +41,7 @@ type couponListView struct {
 // couponList shows one page of coupons, newest in the log last, with each
 // coupon's procedure, sections and acceptance; the filters go to the API.
 func couponList(rq *Request) error {
-	q := url.Values{"limit": {strconv.Itoa(pageLimit)}}
+	q := url.Values{"limit": {strconv.Itoa(couponPageLimit)}}
 	filter := url.Values{}
 	for _, name := range couponFilters {
 		if v := strings.TrimSpace(rq.URL.Query().Get(name)); v != "" {
@@ -61,20 +61,20 @@ func couponList(rq *Request) error {
 	if err != nil {
 		return err
 	}
-	v := couponListView{Items: page.Items, NextCursor: page.NextCursor, Limit: pageLimit, Filter: filter,
+	v := couponListView{Items: page.Items, NextCursor: page.NextCursor, Limit: couponPageLimit, Filter: filter,
 		Procedures: all, Accept: enumValues("acceptance"), Recorder: rq.User.Role != db.RoleAuditor}
 	for _, c := range page.Items {
 		secs, err := allPages[db.Measurement](rq.API, "/v1/coupons/"+c.ID.String()+"/measurements", nil)
 		if err != nil {
 			return err
 		}
-		v.Rows = append(v.Rows, sectionSummary(couponRow{Coupon: c, Procedure: ps.name(c.ProcedureID)}, secs))
+		v.Rows = append(v.Rows, sectionSummary(couponListRow{Coupon: c, Procedure: ps.name(c.ProcedureID)}, secs))
 	}
 	return rq.Render(http.StatusOK, "coupons.html", "Coupons", v)
 }
 
 // sectionSummary fills a row's sections and acceptance in words.
-func sectionSummary(r couponRow, secs []db.Measurement) couponRow {
+func sectionSummary(r couponListRow, secs []db.Measurement) couponListRow {
 	if len(secs) == 0 {
 		r.Sections, r.Acceptance = "none", "no sections"
 		return r

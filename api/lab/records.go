@@ -9,8 +9,8 @@ import (
 	"etchlog/db"
 )
 
-// pageLimit is how many rows a list page asks the API for.
-const pageLimit = 50
+// couponPageLimit is how many coupons a page of the coupon list shows.
+const couponPageLimit = 50
 
 // allPages reads every page of an API list (for short lists a page shows
 // whole, such as a coupon's sections or flags, or a form's procedure choice):

@@ -10,9 +10,6 @@ import (
 	"github.com/chromedp/chromedp"
 )
 
-// screenshotDir is where the browser tests leave their screenshots for the README.
-var screenshotDir = filepath.Join("..", "..", "testdata", "screenshots")
-
 // fill types values into the fields with these ids.
 func fill(values map[string]string) chromedp.Action[chromedp.Void] {
 	var steps []chromedp.Action[chromedp.Void]
