@@ -11,6 +11,8 @@ END $$;
 DROP FUNCTION etchlog_detach_production_month(date, text);
 DROP VIEW production_records_all;
 ALTER TABLE production_records RENAME TO production_records_by_month;
+ALTER TABLE production_records_by_month DROP CONSTRAINT production_records_site_batch_id_fkey;
+ALTER TABLE production_batches DROP CONSTRAINT production_batches_pkey, ADD PRIMARY KEY (id);
 DROP INDEX production_records_procedure, production_records_welder, production_records_recorded_at, production_records_weld;
 CREATE TABLE production_records (
     site                  text        NOT NULL,

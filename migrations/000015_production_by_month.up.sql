@@ -11,13 +11,17 @@
 -- Detaching a month keeps its welds: a weld once logged stays logged.
 
 ALTER TABLE production_records RENAME TO production_records_before_months;
+-- Keys hold site (one shard per site, as every other table of a site's data):
+-- a record names its batch by site and id.
+ALTER TABLE production_records_before_months DROP CONSTRAINT production_records_batch_id_fkey;
+ALTER TABLE production_batches DROP CONSTRAINT production_batches_pkey, ADD PRIMARY KEY (site, id);
 DROP INDEX production_records_site_id, production_records_procedure, production_records_weld_key,
     production_records_welder, production_records_recorded_at, production_records_weld;
 
 CREATE TABLE production_records (
     site                  text        NOT NULL,
     id                    uuid        NOT NULL,
-    batch_id              uuid        NOT NULL REFERENCES production_batches (id),
+    batch_id              uuid        NOT NULL,
     procedure_id          uuid        NOT NULL,
     weld_id               text        NOT NULL CHECK (length(weld_id) BETWEEN 1 AND 64),
     welder_id             text        NOT NULL CHECK (length(welder_id) BETWEEN 1 AND 64),
@@ -29,7 +33,8 @@ CREATE TABLE production_records (
     ctwd_mm               double precision CHECK (ctwd_mm BETWEEN 3 AND 50),
     created_at            timestamptz NOT NULL,
     created_by            text        NOT NULL CHECK (created_by <> ''),
-    PRIMARY KEY (site, id, recorded_at)
+    PRIMARY KEY (site, id, recorded_at),
+    FOREIGN KEY (site, batch_id) REFERENCES production_batches (site, id)
 ) PARTITION BY RANGE (recorded_at);
 CREATE INDEX production_records_procedure ON production_records (site, procedure_id, id);
 CREATE INDEX production_records_welder ON production_records (site, welder_id, recorded_at);
