@@ -69,11 +69,12 @@ func (e *DuplicateError) Is(target error) bool { return target == ErrConflict }
 
 // Store is the PostgreSQL-backed record store.
 type Store struct {
-	pool *pgxpool.Pool
-	long *pgxpool.Pool // long reads (export, audit verify): a pool of their own, so they cannot starve writes
-	now  func() time.Time
-	key  atomic.Pointer[logfmt.Signer] // signs checkpoints, tags pending leaves
-	kick chan struct{}                 // a write committed: the sequencer may have work
+	pool    *pgxpool.Pool
+	long    *pgxpool.Pool // long reads (export, audit verify): a pool of their own, so they cannot starve writes
+	standby *standby      // a streaming standby the export may read from (UseStandby), or nil
+	now     func() time.Time
+	key     atomic.Pointer[logfmt.Signer] // signs checkpoints, tags pending leaves
+	kick    chan struct{}                 // a write committed: the sequencer may have work
 	// months are the production months (UTC, first day) known to have a
 	// partition, so a write asks the database only about a month it has not seen.
 	months sync.Map
@@ -136,6 +137,9 @@ func open(ctx context.Context, url, role string, unprivileged bool) (*Store, err
 func (s *Store) Close() {
 	s.pool.Close()
 	s.long.Close()
+	if s.standby != nil {
+		s.standby.pool.Close()
+	}
 }
 
 // Pool exposes the connection pool for benchmarks that compare against raw inserts.
