@@ -39,6 +39,7 @@ type Stream struct {
 	n      int
 	gram   []acc2 // XᵀX, row-major p×p (upper triangle used)
 	xty    []acc2 // Xᵀy
+	sx     []acc2 // Σx, per column
 	sy     acc2   // Σy
 	syy    acc2   // Σy²
 	first  []float64
@@ -55,7 +56,7 @@ func NewStream(p int) (*Stream, error) {
 		return nil, fmt.Errorf("%w: p = %d", ErrDimension, p)
 	}
 	s := &Stream{p: p, block: mat.NewDense(p+blockRows, p, nil),
-		gram: make([]acc2, p*p), xty: make([]acc2, p), constC: make([]bool, p)}
+		gram: make([]acc2, p*p), xty: make([]acc2, p), sx: make([]acc2, p), constC: make([]bool, p)}
 	return s, nil
 }
 
@@ -87,6 +88,7 @@ func (s *Stream) Add(x []float64, y float64) error {
 			s.gram[j*p+k].addProd(v, x[k])
 		}
 		s.xty[j].addProd(v, y)
+		s.sx[j].add(v)
 	}
 	s.sy.add(y)
 	s.syy.addProd(y, y)
@@ -274,4 +276,31 @@ func (s *Stream) Solve() (*Result, error) {
 func (res *Result) LeverageAt(x []float64) float64 {
 	v := mat.NewVecDense(len(x), append([]float64(nil), x...))
 	return mat.Inner(v, res.XtXInv, v)
+}
+
+// N is the number of rows added so far.
+func (s *Stream) N() int { return s.n }
+
+// Scatter returns the column means of the rows added so far and their
+// centred cross-products Σ(xⱼ − x̄ⱼ)(xₖ − x̄ₖ), computed from the sums kept
+// in twice the working precision (the input of a correlation matrix).
+func (s *Stream) Scatter() (mean []float64, scatter *mat.SymDense) {
+	p, n := s.p, float64(s.n)
+	mean = make([]float64, p)
+	scatter = mat.NewSymDense(p, nil)
+	if s.n == 0 {
+		return mean, scatter
+	}
+	for j := 0; j < p; j++ {
+		mean[j] = s.sx[j].value() / n
+	}
+	for j := 0; j < p; j++ {
+		for k := j; k < p; k++ {
+			a := s.gram[j*p+k]
+			a.addProd(-mean[j], s.sx[k].hi)
+			a.addProd(-mean[j], s.sx[k].lo)
+			scatter.SetSym(j, k, a.value())
+		}
+	}
+	return mean, scatter
 }
