@@ -20,23 +20,23 @@ import (
 // narrower ranges than the procedure's, a heat input limit and a production
 // setting whose prediction should narrow most. Metric units only.
 type couponPlanIn struct {
-	ProcedureID           *uuid.UUID          `json:"procedure_id"`
-	Model                 db.CalibrationModel `json:"model"`
-	JointType             *string             `json:"joint_type"`
-	Count                 *int                `json:"count"`
-	CurrentA              *rangeIn            `json:"current_a"`
-	VoltageV              *rangeIn            `json:"voltage_v"`
-	TravelSpeedMMPerS     *rangeIn            `json:"travel_speed_mm_s"`
-	CTWDMM                *rangeIn            `json:"ctwd_mm"`
-	CurrentStepA          *float64            `json:"current_step_a"`
-	VoltageStepV          *float64            `json:"voltage_step_v"`
-	TravelSpeedStepMMPerS *float64            `json:"travel_speed_step_mm_s"`
-	CTWDStepMM            *float64            `json:"ctwd_step_mm"`
-	ArcLengthMM           *float64            `json:"arc_length_mm"`
-	MaxHeatInputJMM       *float64            `json:"max_heat_input_j_mm"`
-	HeatInputForm         string              `json:"heat_input_form"`
-	ThermalEfficiency     *float64            `json:"thermal_efficiency"`
-	At                    *settingIn          `json:"at"`
+	ProcedureID           *uuid.UUID          `json:"procedure_id,omitempty"`
+	Model                 db.CalibrationModel `json:"model,omitempty"`
+	JointType             *string             `json:"joint_type,omitempty"`
+	Count                 *int                `json:"count,omitempty"`
+	CurrentA              *rangeIn            `json:"current_a,omitempty"`
+	VoltageV              *rangeIn            `json:"voltage_v,omitempty"`
+	TravelSpeedMMPerS     *rangeIn            `json:"travel_speed_mm_s,omitempty"`
+	CTWDMM                *rangeIn            `json:"ctwd_mm,omitempty"`
+	CurrentStepA          *float64            `json:"current_step_a,omitempty"`
+	VoltageStepV          *float64            `json:"voltage_step_v,omitempty"`
+	TravelSpeedStepMMPerS *float64            `json:"travel_speed_step_mm_s,omitempty"`
+	CTWDStepMM            *float64            `json:"ctwd_step_mm,omitempty"`
+	ArcLengthMM           *float64            `json:"arc_length_mm,omitempty"`
+	MaxHeatInputJMM       *float64            `json:"max_heat_input_j_mm,omitempty"`
+	HeatInputForm         string              `json:"heat_input_form,omitempty"`
+	ThermalEfficiency     *float64            `json:"thermal_efficiency,omitempty"`
+	At                    *settingIn          `json:"at,omitempty"`
 }
 
 // settingIn is one welding setting (a production operating point).

@@ -142,3 +142,47 @@ func TestDriftCharts(t *testing.T) {
 	}
 	wantProblem(t, "no melting calibration", e.do(http.MethodGet, q+"&family=melting", "auditor", nil), http.StatusNotFound, "")
 }
+
+// TestCouponPlanRecord: a plan stores its proposals with reserved marks
+// (logged, 201 with Location); a second plan with the same prefix is 409
+// naming the first; a coupon recorded with a planned mark comes back in the
+// plan, with the fit's standard errors now beside those the plan expected;
+// the printable sheet lists the marks and the caution.
+func TestCouponPlanRecord(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	e.storeFitCoupons(8, 0)
+	proc := e.rangedProcedure()
+	prefix := uniq("PLAN")
+	body := map[string]any{"procedure_id": proc, "joint_type": "fillet", "model": "jackson_free", "count": 2,
+		"current_step_a": 5, "mark_prefix": prefix, "note": "two coupons to pin the exponents"}
+	r := e.do(http.MethodPost, "/v1/coupon-plans", "engineer", body)
+	plan := r.object(t)
+	if r.status != http.StatusCreated || plan["marks"].([]any)[1] != prefix+"-02" {
+		t.Fatalf("create plan: %d %s", r.status, r.body)
+	}
+	wantProblem(t, "same marks", e.do(http.MethodPost, "/v1/coupon-plans", "engineer", body), http.StatusConflict, "mark_prefix")
+	first := plan["coupons"].([]any)[0].(map[string]any)
+	b := couponBody(proc, "", prefix+"-01")
+	b["current_a"], b["voltage_v"], b["travel_speed_mm_s"] = first["current_a"], first["voltage_v"], first["travel_speed_mm_s"]
+	id := e.create("/v1/coupons", "technician", b)["id"].(string)
+	m := measurementBody("A")
+	m["penetration_mm"] = 3.1
+	e.create("/v1/coupons/"+id+"/measurements", "technician", m)
+	got := e.do(http.MethodGet, "/v1/coupon-plans/"+plan["id"].(string), "auditor", nil).object(t)
+	back := got["coupons"].([]any)[0].(map[string]any)
+	prog, _ := got["progress"].(map[string]any)
+	if back["coupon_id"] != id || prog == nil || prog["welded"] != 1.0 || prog["coupons_now"] != 9.0 {
+		t.Fatalf("plan after one coupon came back: coupons %v, progress %v", got["coupons"], got["progress"])
+	}
+	for _, c := range prog["coefficients"].([]any) {
+		c := c.(map[string]any)
+		if c["std_err_expected"] == nil || c["std_err_now"] == nil || c["std_err_before"] == nil {
+			t.Errorf("progress of %v lacks a standard error", c)
+		}
+	}
+	sheet := e.do(http.MethodGet, "/v1/coupon-plans/"+plan["id"].(string)+"/sheet", "auditor", nil)
+	if sheet.status != http.StatusOK || !strings.Contains(string(sheet.body), prefix+"-02") || !strings.Contains(string(sheet.body), "CAUTION") {
+		t.Errorf("sheet: %d %s", sheet.status, sheet.body)
+	}
+}

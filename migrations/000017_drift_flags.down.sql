@@ -1,3 +1,5 @@
+DROP TABLE coupon_plan_marks;
+DROP TABLE coupon_plans;
 -- Drift flags are derived: dropping them loses nothing a recompute cannot give back.
 DELETE FROM flags WHERE kind = 'drift';
 DROP INDEX flags_drift_group;
