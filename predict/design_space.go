@@ -91,7 +91,7 @@ func designAxis(r Range, step float64, field string) ([]float64, error) {
 		return nil, &InputError{Field: field + " step", Value: step,
 			Reason: fmt.Sprintf("no multiple of the step lies within the range %g–%g", r.Min, r.Max)}
 	}
-	if hi-lo+1 > maxDesignCandidates {
+	if n := hi - lo + 1; !(n <= maxDesignCandidates) { // also NaN and ∞: a step too small for the range
 		return nil, &InputError{Field: field + " step", Value: step, Reason: "gives too many values; choose a coarser step"}
 	}
 	out := make([]float64, 0, int(hi-lo)+1)
