@@ -124,7 +124,7 @@ func recomputeCouponOf(ctx context.Context, tx pgx.Tx, now time.Time, site strin
 	}
 	if !fresh {
 		queued = append(queued,
-			queueExec(ctx, tx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2`, site, id),
+			queueExec(ctx, tx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2 AND kind <> 'drift'`, site, id),
 			queueRows(ctx, tx, func(rows pgx.Rows) (err error) { in.sections, err = readSections(rows); return err },
 				sectionsSQL, site, id))
 	}
