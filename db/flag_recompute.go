@@ -22,8 +22,10 @@ import (
 // latest revision.
 func couponFlags(ctx context.Context, m Meta) step {
 	return func(tx pgx.Tx) error {
-		_, err := recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, m.ID)
-		return err
+		if _, err := recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, m.ID); err != nil {
+			return err
+		}
+		return couponDrift(ctx, tx, m.CreatedAt, m.Site, m.ID)
 	}
 }
 
@@ -35,8 +37,10 @@ func measuredCouponFlags(ctx context.Context, m Meta) step {
 		if err != nil {
 			return err
 		}
-		_, err = recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, id)
-		return err
+		if _, err = recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, id); err != nil {
+			return err
+		}
+		return couponDrift(ctx, tx, m.CreatedAt, m.Site, id)
 	}
 }
 
@@ -56,8 +60,11 @@ func procedureFlags(ctx context.Context, m Meta) step {
 		if err != nil {
 			return err
 		}
-		_, err = recomputeProcedure(ctx, tx, m.CreatedAt, pr)
-		return err
+		if _, err = recomputeProcedure(ctx, tx, m.CreatedAt, pr); err != nil {
+			return err
+		}
+		// A correction of the procedure's process, wire or gas moves its coupons between groups.
+		return siteDrift(ctx, tx, m.CreatedAt, m.Site)
 	}
 }
 
@@ -68,54 +75,15 @@ func dropProcedureFlags(ctx context.Context, m Meta) step {
 		if err := lockProcedures(ctx, tx, m.Site, []uuid.UUID{m.ID}, true); err != nil {
 			return err
 		}
-		_, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2`, m.Site, m.ID)
+		_, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2 AND kind <> 'drift'`, m.Site, m.ID)
 		return err
 	}
-}
-
-// recomputeCoupon rewrites one coupon's flags from its latest revision: none
-// when it is voided, names no procedure, or its procedure is voided.
-func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID) (int, error) {
-	if err := lockCouponProcedures(ctx, tx, site, id); err != nil {
-		return 0, err
-	}
-	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2`, site, id); err != nil {
-		return 0, err
-	}
-	c, err := getRecord[Coupon](ctx, tx, coupons, site, id, 0)
-	if err != nil {
-		return 0, err
-	}
-	if c.Voided || c.ProcedureID == nil {
-		return 0, nil
-	}
-	p, err := getRecord[Procedure](ctx, tx, procedures, site, *c.ProcedureID, 0)
-	if err != nil {
-		return 0, err
-	}
-	if p.Voided { // a voided procedure's records answer to nothing: no new flags
-		return 0, nil
-	}
-	pr, err := latestRanges(ctx, tx, site, p.ID, 0)
-	if errors.Is(err, ErrNotFound) { // no ranges yet: model flags only
-		pr, err = ProcedureRanges{Site: site, ProcedureID: p.ID}, nil
-	}
-	if err != nil {
-		return 0, err
-	}
-	sub, err := couponSubject(ctx, tx, site, c, p)
-	if err != nil {
-		return 0, err
-	}
-	w := newFlagWriter(site, now, pr)
-	w.add(sub)
-	return w.flush(ctx, tx)
 }
 
 // recomputeProcedure rewrites every flag of a procedure under ranges pr:
 // its current, non-voided coupons and all its production records.
 func recomputeProcedure(ctx context.Context, tx pgx.Tx, now time.Time, pr ProcedureRanges) (int, error) {
-	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2`, pr.Site, pr.ProcedureID); err != nil {
+	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2 AND kind <> 'drift'`, pr.Site, pr.ProcedureID); err != nil {
 		return 0, fmt.Errorf("clear flags: %w", err)
 	}
 	w := newFlagWriter(pr.Site, now, pr)
