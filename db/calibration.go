@@ -200,7 +200,7 @@ func (s *Store) CreateCalibration(ctx context.Context, a Actor, spec Calibration
 		}
 		c.Samples, c.CouponIDs = run.Samples, run.IDs
 		c.listSampleIDs()
-		c.SampleCheck = &SampleCheck{Status: "fitted", Note: fmt.Sprintf("the %d samples just fitted", run.Count)}
+		c.SampleCheck = &SampleCheck{Finding: "fitted", Note: fmt.Sprintf("the %d samples just fitted", run.Count)}
 		if c.Samples == nil {
 			c.SampleCheck.Note += fmt.Sprintf("; more than %d samples: their ids, values and per-coupon diagnostics are not listed", InlineSampleLimit)
 		}

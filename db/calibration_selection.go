@@ -58,13 +58,13 @@ func (sel CalibrationSelection) filter() SampleFilter {
 }
 
 // SampleCheck says how a calibration's samples were obtained and whether
-// they are the ones fitted. Status is "inline" (stored with the
+// they are the ones fitted. Finding is "inline" (stored with the
 // calibration, before selections were stored), "fitted" (the answer to the
 // fit itself), "matches" (re-derived from the selection: count and digest
 // equal the stored ones) or "differs" (they do not; Note says how).
 type SampleCheck struct {
-	Status string `json:"status"`
-	Note   string `json:"note"`
+	Finding string `json:"finding"`
+	Note    string `json:"note"`
 }
 
 // sampleDigest is the SHA-256 of the fitted samples' coupons and the
@@ -174,7 +174,7 @@ func runSelection(ctx context.Context, q querier, site string, f SampleFilter, m
 func (s *Store) rederive(ctx context.Context, c *Calibration) error {
 	if c.Selection == nil {
 		if c.Samples != nil {
-			c.SampleCheck = &SampleCheck{Status: "inline", Note: "the samples were stored with the calibration"}
+			c.SampleCheck = &SampleCheck{Finding: "inline", Note: "the samples were stored with the calibration"}
 		}
 		return nil
 	}
@@ -186,7 +186,7 @@ func (s *Store) rederive(ctx context.Context, c *Calibration) error {
 	run, err := runSelection(ctx, s.long, c.Site, sel.filter(), sel.Model, arc, InlineSampleLimit, false)
 	var fe *FieldError
 	if errors.As(err, &fe) { // a stored coupon the rules now refuse: the re-derivation differs
-		c.SampleCheck = &SampleCheck{Status: "differs", Note: "the selection could not be re-derived: " + fe.Reason}
+		c.SampleCheck = &SampleCheck{Finding: "differs", Note: "the selection could not be re-derived: " + fe.Reason}
 		return nil
 	}
 	if err != nil {
@@ -196,11 +196,11 @@ func (s *Store) rederive(ctx context.Context, c *Calibration) error {
 	got := hex.EncodeToString(run.Digest)
 	switch {
 	case run.Count == c.SampleCount && got == c.SampleDigest:
-		c.SampleCheck = &SampleCheck{Status: "matches", Note: fmt.Sprintf(
+		c.SampleCheck = &SampleCheck{Finding: "matches", Note: fmt.Sprintf(
 			"the %d samples re-derived from the selection as of %s have the stored count and digest",
 			run.Count, sel.AsOf.UTC().Format(time.RFC3339Nano))}
 	default:
-		c.SampleCheck = &SampleCheck{Status: "differs", Note: fmt.Sprintf(
+		c.SampleCheck = &SampleCheck{Finding: "differs", Note: fmt.Sprintf(
 			"the selection as of %s now gives %d samples with digest %s, but %d samples with digest %s were fitted: "+
 				"a revision was committed after the fit with a creation time at or before it, or the stored rows changed; "+
 				"the samples and diagnostics shown are the re-derived ones, not the fitted ones",
@@ -229,4 +229,28 @@ func (c *Calibration) listSampleIDs() {
 	if m := c.Fit.Melting; m != nil && m.SampleIDs == nil {
 		m.SampleIDs = ids
 	}
+}
+
+// selectedIDs are the coupons selection sel gives samples of at site, in
+// selection order: the coupons a calibration stored by its selection was
+// fitted to, unless its check says it differs.
+func selectedIDs(ctx context.Context, q querier, site string, sel CalibrationSelection) ([]uuid.UUID, error) {
+	arc := 0.0
+	if sel.ArcLengthMM != nil {
+		arc = *sel.ArcLengthMM
+	}
+	var ids []uuid.UUID
+	err := forGroupCoupons(ctx, q, site, sel.filter(), func(c *groupCoupon) error {
+		ok := false
+		if sel.Model == CalibrationLesnewich {
+			_, ok, _ = meltingSampleOf(c, arc)
+		} else {
+			_, ok = penetrationSampleOf(c)
+		}
+		if ok {
+			ids = append(ids, c.ID)
+		}
+		return nil
+	})
+	return ids, err
 }

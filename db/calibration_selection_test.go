@@ -86,7 +86,7 @@ func TestCalibrationStoresSelection(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if read.SampleCheck == nil || read.SampleCheck.Status != "matches" || len(read.CouponIDs) != len(cs) ||
+	if read.SampleCheck == nil || read.SampleCheck.Finding != "matches" || len(read.CouponIDs) != len(cs) ||
 		read.Samples.Penetration[1].CurrentA != cs[1].data.CurrentA {
 		t.Fatalf("read after later writes: check %+v, %d coupons, coupon 1 at %v A; want matches, %d, %v A",
 			read.SampleCheck, len(read.CouponIDs), read.Samples.Penetration[1].CurrentA, len(cs), cs[1].data.CurrentA)
@@ -115,7 +115,7 @@ func TestCalibrationStoresSelection(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if read.SampleCheck == nil || read.SampleCheck.Status != "differs" || !strings.Contains(read.SampleCheck.Note, c.SampleDigest) {
+	if read.SampleCheck == nil || read.SampleCheck.Finding != "differs" || !strings.Contains(read.SampleCheck.Note, c.SampleDigest) {
 		t.Errorf("read after a late section: check %+v; want differs, naming the fitted digest %s", read.SampleCheck, c.SampleDigest)
 	}
 }

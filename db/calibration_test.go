@@ -133,19 +133,6 @@ func fitIDs(f db.CalibrationFit) []string {
 	return f.Melting.SampleIDs
 }
 
-// bitsEqual reports whether two float slices hold identical bits.
-func bitsEqual(a, b []float64) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if math.Float64bits(a[i]) != math.Float64bits(b[i]) {
-			return false
-		}
-	}
-	return true
-}
-
 // TestCreateCalibrationStoresPredictFit checks the plumbing: the stored fit
 // equals predict's fit of the same samples bit for bit, before and after the
 // jsonb round trip. (The regression itself is checked against gonum and NIST
@@ -230,7 +217,7 @@ func TestCreateCalibrationStoresPredictFit(t *testing.T) {
 					}
 				}
 			}
-			if read.SampleCheck == nil || read.SampleCheck.Status != "matches" || read.SampleDigest != c.SampleDigest {
+			if read.SampleCheck == nil || read.SampleCheck.Finding != "matches" || read.SampleDigest != c.SampleDigest {
 				t.Errorf("read back check %+v, digest %s; want matches %s", read.SampleCheck, read.SampleDigest, c.SampleDigest)
 			}
 		})
