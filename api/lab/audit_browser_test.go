@@ -44,8 +44,9 @@ func TestAuditorRecordInBrowser(t *testing.T) {
 		t.Fatal(err)
 	}
 	contains(t, "the record view", text, append([]string{shop.code, shop.number, "Caution", "governing welding code", auditStatement,
-		// The correction: voltage 21 V → 21.5 V, by whom and why; the void of section B.
-		"Voltage: 21 V → 21.5 V", "by lab-technician", auditCorrection, auditVoid, "Voided: no → yes",
+		// The correction: voltage 21 V → 21.5 V, by whom and why; the void of section B
+		// (the arrow is said in words to screen readers, so the text holds both).
+		"Voltage: 21 V → changed to 21.5 V", "by lab-technician", auditCorrection, auditVoid, "Voided: no → changed to yes",
 		// 200 A against 175 A ± 10 % (structural-style rule, from memory): 157.5–192.5 A.
 		"200 A is above the qualified 157.5–192.5 A"}, shop.marks...)...)
 	if ids := unlabelled(t, ctx); len(ids) > 0 {

@@ -1,6 +1,7 @@
 package lab
 
 import (
+	"html/template"
 	"net/http"
 	"net/url"
 	"regexp"
@@ -44,6 +45,16 @@ var csvLists = map[string]csvList{
 // csvLink is one download link of the audit start page: the list's name
 // and the query it is asked with.
 type csvLink struct{ Name, Query, Label string }
+
+// Href is the link's address (built here from fixed parts, so the
+// template keeps its query as written).
+func (l csvLink) Href() template.URL {
+	h := Prefix + "/audit/csv/" + l.Name
+	if l.Query != "" {
+		h += "?" + l.Query
+	}
+	return template.URL(h)
+}
 
 // siteLists are the whole-site downloads, in the order the start page lists them.
 var siteLists = []csvLink{
