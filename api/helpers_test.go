@@ -122,6 +122,12 @@ func (e *testEnv) do(method, path, role string, body any) reply {
 // doAuth is do with a raw Authorization header ("" sends none).
 func (e *testEnv) doAuth(method, path, auth string, body any) reply {
 	e.t.Helper()
+	return e.sendTyped(method, path, auth, "application/json", body)
+}
+
+// sendTyped is doAuth with the body's Content-Type (used when there is a body).
+func (e *testEnv) sendTyped(method, path, auth, contentType string, body any) reply {
+	e.t.Helper()
 	var rd io.Reader
 	switch b := body.(type) {
 	case nil:
@@ -141,7 +147,7 @@ func (e *testEnv) doAuth(method, path, auth string, body any) reply {
 		e.t.Fatal(err)
 	}
 	if rd != nil {
-		req.Header.Set("Content-Type", "application/json")
+		req.Header.Set("Content-Type", contentType)
 	}
 	if auth != "" {
 		req.Header.Set("Authorization", auth)

@@ -58,22 +58,30 @@ func couponSections(ctx context.Context, q querier, site string, couponID uuid.U
 // coupon's sections: its procedure's and its qualification record's
 // acceptance criterion, each named as the document and revision that state it.
 func couponRequirements(ctx context.Context, q querier, site string, c Coupon, p Procedure) ([]predict.Requirement, error) {
-	var reqs []predict.Requirement
-	if p.MinPenetrationMM != nil {
-		reqs = append(reqs, predict.Requirement{MinPenetrationMM: *p.MinPenetrationMM,
-			Source: fmt.Sprintf("%s rev %d", p.Code, p.Revision), Verb: "requires"})
-	}
+	var rec *QualificationRecord
 	if c.QualificationRecordID != nil {
 		r, err := getRecord[QualificationRecord](ctx, q, qualificationRecords, site, *c.QualificationRecordID, 0)
 		if err != nil {
 			return nil, err
 		}
-		if r.MinPenetrationMM != nil && !r.Voided {
-			reqs = append(reqs, predict.Requirement{MinPenetrationMM: *r.MinPenetrationMM,
-				Source: fmt.Sprintf("%s rev %d", r.RecordNumber, r.Revision), Verb: "states as its acceptance criterion"})
-		}
+		rec = &r
 	}
-	return reqs, nil
+	return requirementsOf(p, rec), nil
+}
+
+// requirementsOf lists the minimum penetrations procedure p and the
+// coupon's qualification record r (latest revision; nil: none) state.
+func requirementsOf(p Procedure, r *QualificationRecord) []predict.Requirement {
+	var reqs []predict.Requirement
+	if p.MinPenetrationMM != nil {
+		reqs = append(reqs, predict.Requirement{MinPenetrationMM: *p.MinPenetrationMM,
+			Source: fmt.Sprintf("%s rev %d", p.Code, p.Revision), Verb: "requires"})
+	}
+	if r != nil && r.MinPenetrationMM != nil && !r.Voided {
+		reqs = append(reqs, predict.Requirement{MinPenetrationMM: *r.MinPenetrationMM,
+			Source: fmt.Sprintf("%s rev %d", r.RecordNumber, r.Revision), Verb: "states as its acceptance criterion"})
+	}
+	return reqs
 }
 
 // couponSubject builds the evaluation subject of a coupon on procedure p:
@@ -81,18 +89,34 @@ func couponRequirements(ctx context.Context, q querier, site string, c Coupon, p
 // when a calibration is active for its group.
 func couponSubject(ctx context.Context, q querier, site string, c Coupon, p Procedure) (*subject, error) {
 	c.inherit(procedureDefaults(p)) // a field the coupon leaves out was welded as its procedure says
-	s := &subject{kind: SubjectCoupon, id: c.ID, at: c.WeldedOn.Time, obs: couponObservation(c.CouponData)}
-	var err error
-	if s.sections, err = couponSections(ctx, q, site, c.ID); err != nil {
+	secs, err := couponSections(ctx, q, site, c.ID)
+	if err != nil {
 		return nil, err
 	}
-	if s.reqs, err = couponRequirements(ctx, q, site, c, p); err != nil {
+	reqs, err := couponRequirements(ctx, q, site, c, p)
+	if err != nil {
 		return nil, err
 	}
-	g := CalibrationGroup{Process: c.Process, WireDiameterMM: *c.WireDiameterMM, ShieldingGas: c.ShieldingGas, JointType: c.JointType}
-	check, err := penetrationCheck(ctx, q, site, g, p.MinPenetrationMM)
-	if err != nil || check == nil {
-		return s, err
+	check, err := penetrationCheck(ctx, q, site, c.group(), p.MinPenetrationMM)
+	if err != nil {
+		return nil, err
+	}
+	return newCouponSubject(c, secs, reqs, check), nil
+}
+
+// group is the calibration group of a coupon that has taken its procedure's
+// defaults (inherit).
+func (c Coupon) group() CalibrationGroup {
+	return CalibrationGroup{Process: c.Process, WireDiameterMM: *c.WireDiameterMM, ShieldingGas: c.ShieldingGas, JointType: c.JointType}
+}
+
+// newCouponSubject is the evaluation subject of coupon c (its procedure's
+// defaults taken) with its current sections, the requirements they answer
+// to and the model check of its group (nil: none in use).
+func newCouponSubject(c Coupon, secs []predict.Section, reqs []predict.Requirement, check *predict.PenetrationCheck) *subject {
+	s := &subject{kind: SubjectCoupon, id: c.ID, at: c.WeldedOn.Time, obs: couponObservation(c.CouponData), sections: secs, reqs: reqs}
+	if check == nil {
+		return s
 	}
 	pens := make([]float64, len(s.sections))
 	for i, sec := range s.sections {
@@ -102,7 +126,7 @@ func couponSubject(ctx context.Context, q querier, site string, c Coupon, p Proc
 	if iv, err := check.Fit.Predict(c.CurrentA, c.VoltageV, c.TravelSpeedMMPerS, check.Level); err == nil {
 		s.predicted = &iv.MedianMM
 	}
-	return s, nil
+	return s
 }
 
 // measurementCoupon returns the coupon a measurement belongs to.
