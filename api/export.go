@@ -6,6 +6,8 @@ import (
 	"time"
 
 	"github.com/labstack/echo/v4"
+
+	"etchlog/db"
 )
 
 // exportWriteWait is how long one write of the export may wait for the
@@ -13,6 +15,10 @@ import (
 // of any size completes while the client keeps reading, instead of being cut
 // by the server's total write timeout.
 const exportWriteWait = 30 * time.Second
+
+// headerReadFrom names the server an export was read from: "primary", or
+// "standby" when a streaming standby (DATABASE_READ_URL) kept up.
+const headerReadFrom = "Etchlog-Read-From"
 
 // exportLine is one line of the NDJSON export.
 type exportLine struct {
@@ -36,7 +42,8 @@ func (s *Server) handleExport(c echo.Context) error {
 		}
 	}
 	started := false
-	sum, err := s.store.Export(c.Request().Context(), actorOf(c).Site, func(kind string, v any) error {
+	ctx := db.NoteReadSource(c.Request().Context(), func(src string) { w.Header().Set(headerReadFrom, src) })
+	sum, err := s.store.Export(ctx, actorOf(c).Site, func(kind string, v any) error {
 		extend()
 		if !started {
 			w.WriteHeader(http.StatusOK)

@@ -156,7 +156,7 @@ type CouponFilter struct {
 // currentMeasurement selects the latest, non-voided revision of measurement m
 // that belongs to the coupon row "cur".
 const currentMeasurement = `SELECT 1 FROM measurements m WHERE m.coupon_id = cur.id AND NOT m.voided
-	AND m.revision = (SELECT max(m2.revision) FROM measurements m2 WHERE m2.id = m.id)`
+	AND m.revision = (SELECT max(m2.revision) FROM measurements m2 WHERE m2.site = m.site AND m2.id = m.id)`
 
 // Coupons lists current coupons after the cursor.
 func (s *Store) Coupons(ctx context.Context, site string, cf CouponFilter, cursor string, limit int) (Page[Coupon], error) {
