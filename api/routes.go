@@ -27,14 +27,14 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/procedures/:id", handleGet(pr), readers},
 		{http.MethodPut, "/v1/procedures/:id", handleCorrect(s, pr), engineers},
 		{http.MethodPost, "/v1/procedures/:id/void", handleVoid(pr), engineers},
-		{http.MethodGet, "/v1/procedures/:id/revisions", handleRevisions(pr), readers},
+		{http.MethodGet, "/v1/procedures/:id/revisions", handleRevisions(s, pr), readers},
 
 		{http.MethodPost, "/v1/qualification-records", handleCreate(s, qr), engineers},
 		{http.MethodGet, "/v1/qualification-records", s.handleQualificationRecordList, readers},
 		{http.MethodGet, "/v1/qualification-records/:id", handleGet(qr), readers},
 		{http.MethodPut, "/v1/qualification-records/:id", handleCorrect(s, qr), engineers},
 		{http.MethodPost, "/v1/qualification-records/:id/void", handleVoid(qr), engineers},
-		{http.MethodGet, "/v1/qualification-records/:id/revisions", handleRevisions(qr), readers},
+		{http.MethodGet, "/v1/qualification-records/:id/revisions", handleRevisions(s, qr), readers},
 		{http.MethodPost, "/v1/procedures/:id/sign-off", s.handleSignOff(db.SignProcedure), engineers},
 		{http.MethodPost, "/v1/qualification-records/:id/sign-off", s.handleSignOff(db.SignQualificationRecord), engineers},
 
@@ -44,7 +44,7 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/coupons/:id", handleGet(cp), readers},
 		{http.MethodPut, "/v1/coupons/:id", handleCorrect(s, cp), recorders},
 		{http.MethodPost, "/v1/coupons/:id/void", handleVoid(cp), recorders},
-		{http.MethodGet, "/v1/coupons/:id/revisions", handleRevisions(cp), readers},
+		{http.MethodGet, "/v1/coupons/:id/revisions", handleRevisions(s, cp), readers},
 		{http.MethodPost, couponMeasurementsPath, handleCreate(s, ms), recorders},
 		{http.MethodGet, couponMeasurementsPath, s.handleMeasurementList, readers},
 
@@ -52,7 +52,7 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/measurements/:id", handleGet(ms), readers},
 		{http.MethodPut, "/v1/measurements/:id", handleCorrect(s, ms), recorders},
 		{http.MethodPost, "/v1/measurements/:id/void", handleVoid(ms), recorders},
-		{http.MethodGet, "/v1/measurements/:id/revisions", handleRevisions(ms), readers},
+		{http.MethodGet, "/v1/measurements/:id/revisions", handleRevisions(s, ms), readers},
 
 		{http.MethodGet, "/v1/audit/events", s.handleAuditEvents, readers},
 		{http.MethodGet, "/v1/audit/verify", s.handleAuditVerify, readers},
