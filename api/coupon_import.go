@@ -117,13 +117,3 @@ func (s *Server) importCSV(c echo.Context, body []byte, firstRow int, commit boo
 	rep.Errors = b.merge(res.Issues)
 	return rep, nil
 }
-
-// csvReason words a CSV reader's fault without its position (the report
-// names the row).
-func csvReason(err error) string {
-	var pe *csv.ParseError
-	if errors.As(err, &pe) {
-		return pe.Err.Error()
-	}
-	return err.Error()
-}

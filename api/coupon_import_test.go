@@ -80,7 +80,7 @@ func (e *testEnv) importAs(tb testing.TB, mode, file string) importReport {
 	if mode != "" {
 		path += "?mode=" + mode
 	}
-	r := e.sendTyped(http.MethodPost, path, "Bearer "+e.tokens["technician"], "text/csv", file)
+	r := e.doType(http.MethodPost, path, "technician", "text/csv", file)
 	if r.status != http.StatusOK {
 		tb.Fatalf("import (%s) = %d %s, want 200", mode, r.status, r.body)
 	}
@@ -319,7 +319,6 @@ func TestImportRefusalsInTheFilesUnits(t *testing.T) {
 func TestImportFileShape(t *testing.T) {
 	t.Parallel()
 	e := newEnv(t)
-	auth := "Bearer " + e.tokens["technician"]
 	for _, c := range []struct {
 		name, ctype, body, field string
 	}{
@@ -331,13 +330,13 @@ func TestImportFileShape(t *testing.T) {
 		{"JSONBody", "application/json", `{"coupon_mark":"C-1"}`, "Content-Type"},
 	} {
 		t.Run(c.name, func(t *testing.T) {
-			r := e.sendTyped(http.MethodPost, "/v1/coupons/import", auth, c.ctype, c.body)
+			r := e.doType(http.MethodPost, "/v1/coupons/import", "technician", c.ctype, c.body)
 			wantProblem(t, c.name, r, http.StatusBadRequest, c.field)
 		})
 	}
-	r := e.sendTyped(http.MethodPost, "/v1/coupons/import?mode=apply", auth, "text/csv", "coupon_mark\nC-1\n")
+	r := e.doType(http.MethodPost, "/v1/coupons/import?mode=apply", "technician", "text/csv", "coupon_mark\nC-1\n")
 	wantProblem(t, "mode=apply", r, http.StatusUnprocessableEntity, "mode")
-	r = e.sendTyped(http.MethodPost, "/v1/coupons/import", "Bearer "+e.tokens["auditor"], "text/csv", "coupon_mark\nC-1\n")
+	r = e.doType(http.MethodPost, "/v1/coupons/import", "auditor", "text/csv", "coupon_mark\nC-1\n")
 	if r.status != http.StatusForbidden {
 		t.Errorf("an auditor's import = %d, want 403", r.status)
 	}

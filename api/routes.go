@@ -71,6 +71,7 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/procedures/:id/flag-summary", s.handleFlagSummary, readers},
 		{http.MethodPost, "/v1/production-records", s.handleProductionCreate, recorders},
 		{http.MethodGet, "/v1/production-records", s.handleProductionList, readers},
+		{http.MethodPost, streamPath, s.handleProductionStream, recorders},
 		{http.MethodGet, "/v1/flags", s.handleFlagList, readers},
 		// end of rule sets, ranges and flags
 		{http.MethodGet, "/v1/export", s.handleExport, readers},

@@ -22,6 +22,7 @@ var ErrRecordsExist = errors.New("the database holds records")
 // roll-back would destroy them.
 var recordTables = []string{"procedures", "qualification_records", "coupons", "measurements", "audit_events",
 	"calibrations", "calibration_activations", "rule_sets", "procedure_ranges", "production_batches", "production_records",
+	"production_records_detached", "production_detachments", "production_welds",
 	"api_users", "sign_offs"}
 
 // Migrate applies every embedded migration that the database at url lacks
