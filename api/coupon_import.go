@@ -48,6 +48,9 @@ const (
 )
 
 func (s *Server) handleCouponImport(c echo.Context) error {
+	if !isCSV(c.Request()) {
+		return badRequest("Content-Type", "must be text/csv: the import takes a CSV file")
+	}
 	mode := c.QueryParam("mode")
 	if mode == "" {
 		mode = importDryRun

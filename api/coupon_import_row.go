@@ -9,6 +9,7 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 
 	"github.com/google/uuid"
 
@@ -42,7 +43,6 @@ type importColumns struct {
 // the request's shape (400), naming each column.
 func newImportColumns(header []string) (*importColumns, error) {
 	coupon, section := fieldsByName(couponDataType), fieldsByName(sectionDataType)
-	delete(section, "coupon_id")
 	im := &importColumns{mark: -1, spelling: map[string]string{}}
 	var v issues
 	seen := map[string]bool{}
@@ -53,7 +53,7 @@ func newImportColumns(header []string) (*importColumns, error) {
 		}
 		col := importColumn{name: name, stored: stored}
 		f, inCoupon := coupon[stored]
-		if !inCoupon {
+		if !inCoupon && stored != "coupon_id" { // each section belongs to its row's coupon
 			f, col.section = section[stored]
 		}
 		switch {
@@ -86,12 +86,29 @@ func newImportColumns(header []string) (*importColumns, error) {
 	return im, v.err()
 }
 
-// fieldsByName maps the JSON names of t's fields to them.
-func fieldsByName(t reflect.Type) map[string]jsonField {
-	m := map[string]jsonField{}
-	for _, f := range jsonFields(t) {
-		m[f.name] = f
+// namedField is a struct field found by its JSON name: its type and index.
+type namedField struct {
+	jsonField
+	index int
+}
+
+// fieldsOf keeps fieldsByName's answer per type (a read-only map).
+var fieldsOf sync.Map // reflect.Type → map[string]namedField
+
+// fieldsByName maps the JSON names of t's own fields (a flat struct: a
+// coupon's or a section's data) to them.
+func fieldsByName(t reflect.Type) map[string]namedField {
+	if v, ok := fieldsOf.Load(t); ok {
+		return v.(map[string]namedField)
 	}
+	m := map[string]namedField{}
+	for i := range t.NumField() {
+		f := t.Field(i)
+		if name, _, _ := strings.Cut(f.Tag.Get("json"), ","); name != "" && name != "-" && !f.Anonymous {
+			m[name] = namedField{jsonField{name, f.Type}, i}
+		}
+	}
+	fieldsOf.Store(t, m)
 	return m
 }
 
@@ -238,7 +255,7 @@ func (b *importBatch) read(row int, rec []string, section bool, v any) bool {
 		if !ok {
 			continue // a spelling given twice: named above
 		}
-		if err := json.Unmarshal(raw, rv.FieldByIndex(fieldIndex(t, name)).Addr().Interface()); err != nil {
+		if err := json.Unmarshal(raw, rv.Field(f.index).Addr().Interface()); err != nil {
 			found = append(found, FieldIssue{name, decodeReason(f.typ, err)})
 		}
 	}
@@ -257,16 +274,6 @@ func (b *importBatch) read(row int, rec []string, section bool, v any) bool {
 		b.fault(row, b.cols.column(is.Field), is.Reason)
 	}
 	return len(found) == 0
-}
-
-// fieldIndex finds the index of the struct field of t with JSON name name.
-func fieldIndex(t reflect.Type, name string) []int {
-	for i := range t.NumField() {
-		if n, _, _ := strings.Cut(t.Field(i).Tag.Get("json"), ","); n == name {
-			return []int{i}
-		}
-	}
-	return nil
 }
 
 // decodeReason words a cell that does not decode into its field's type.

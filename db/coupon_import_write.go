@@ -10,6 +10,7 @@ import (
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgtype"
 
 	"etchlog/predict"
 )
@@ -31,12 +32,12 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 	var sectionRows [][]any
 	for i, pc := range p.create {
 		couponIDs[i] = pc.id
-		couponRows[i] = append([]any{a.Site, pc.id, 1, now, a.Name, "", false}, recordValues(pc.in.Data)...)
+		couponRows[i] = copyValues(append([]any{a.Site, pc.id, 1, now, a.Name, "", false}, recordValues(pc.in.Data)...))
 		for k, sec := range pc.in.Sections {
 			d := sec.Data
 			d.CouponID = pc.id
 			sectionIDs = append(sectionIDs, pc.sections[k])
-			sectionRows = append(sectionRows, append([]any{a.Site, pc.sections[k], 1, now, a.Name, "", false}, recordValues(d)...))
+			sectionRows = append(sectionRows, copyValues(append([]any{a.Site, pc.sections[k], 1, now, a.Name, "", false}, recordValues(d)...)))
 		}
 	}
 	if err := copyRevisions(ctx, tx, coupons, couponRows); err != nil {
@@ -81,6 +82,24 @@ func (p *importPlan) claimMarks(ctx context.Context, tx pgx.Tx) error {
 		}
 	}
 	return nil
+}
+
+// copyValues gives a row's record ids to COPY as 16 bytes each (pgx would
+// otherwise write each uuid.UUID through its text form).
+func copyValues(row []any) []any {
+	for i, v := range row {
+		switch id := v.(type) {
+		case uuid.UUID:
+			row[i] = pgtype.UUID{Bytes: id, Valid: true}
+		case *uuid.UUID:
+			if id == nil {
+				row[i] = pgtype.UUID{}
+			} else {
+				row[i] = pgtype.UUID{Bytes: *id, Valid: true}
+			}
+		}
+	}
+	return row
 }
 
 // copyRevisions copies revision rows (metaColumns, then t's fields) into t.

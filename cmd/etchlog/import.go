@@ -43,7 +43,7 @@ func cmdImport(ctx context.Context, args []string, getenv func(string) string, s
 	target := fs.String("url", "http://127.0.0.1:8080", "base URL of the running etchlog")
 	token := fs.String("token", getenv("ETCHLOG_TOKEN"), "technician or engineer token (default $ETCHLOG_TOKEN)")
 	commit := fs.Bool("commit", false, "write the coupons that pass (default: a dry run, nothing written)")
-	partSize := fs.Int("part-size", 900<<10, "largest part sent at once, in bytes (keep it under the server's -body-limit)")
+	partSize := fs.Int("part-size", 256<<10, "size of the parts sent, in bytes, cut between coupons (at most the server's -body-limit)")
 	if err := parseFlags(fs, args[1:], stdout, stderr); err != nil {
 		return err
 	}
