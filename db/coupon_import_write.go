@@ -161,7 +161,7 @@ func (p *importPlan) writeFlags(ctx context.Context, tx pgx.Tx, now time.Time) e
 		}
 		c := Coupon{Meta: Meta{Site: p.site, ID: pc.id, Revision: 1, CreatedAt: now}, CouponData: pc.in.Data}
 		c.inherit(procedureDefaults(proc))
-		key := checkKey{c.group().canonical(), proc.ID}
+		key := checkKey{couponGroup(c).canonical(), proc.ID}
 		check, ok := checks[key]
 		if !ok {
 			var err error
