@@ -119,4 +119,6 @@ var seedStatements = []string{
 		UNION ALL SELECT 'production_record', md5(@site::text || 'r' || g)::uuid, @procedures::int + @pqrs::int + 4 * (g * @coupons::int / @production::int) + 2 + g % 2
 		FROM generate_series(0, @production::int - 1) g
 	) leaves`,
+	// The coupons list's key, as the sequencer would have written it.
+	`INSERT INTO coupon_list SELECT * FROM coupon_list_derived WHERE site = @site`,
 }

@@ -1,0 +1,60 @@
+-- The coupons list's key, kept beside the columns the list filters on.
+-- Lists page in log order; the log index lives in log_leaves, the filtered
+-- columns in coupons, so a filtered page used to walk the site's leaves in
+-- order and look each coupon up. coupon_list holds one row per logged
+-- coupon: its latest logged revision, that revision's log index, the filter
+-- columns, and the verdict of its current logged sections ('' none,
+-- 'accept' measured with no rejected section, 'reject' at least one).
+-- The log sequencer rewrites a coupon's row in the transaction that gives
+-- the coupon's (or one of its sections') leaf its index, from
+-- coupon_list_derived; the table is derived from records and log and
+-- Store.RecheckCouponList compares it with the view.
+CREATE VIEW coupon_list_derived AS
+SELECT lg.site, lg.record_id AS id, lg.leaf_index, c.revision, c.voided, c.procedure_id,
+       c.qualification_record_id, c.welder_id, c.coupon_mark, c.welded_on,
+       date_trunc('month', c.welded_on)::date AS welded_month,
+       (   SELECT CASE WHEN count(*) = 0 THEN '' WHEN bool_or(cm.acceptance = 'reject') THEN 'reject' ELSE 'accept' END
+           FROM (SELECT DISTINCT h.id FROM measurements h WHERE h.coupon_id = lg.record_id AND h.site = lg.site) h
+           CROSS JOIN LATERAL (
+               SELECT m.coupon_id, m.voided, m.acceptance
+               FROM log_leaves ml JOIN measurements m ON m.id = ml.record_id AND m.revision = ml.revision
+               WHERE ml.site = lg.site AND ml.record_id = h.id AND ml.kind = 'measurement'
+               ORDER BY ml.revision DESC LIMIT 1) cm
+           WHERE cm.coupon_id = lg.record_id AND NOT cm.voided) AS verdict
+FROM (SELECT DISTINCT ON (site, record_id) site, record_id, revision, leaf_index
+      FROM log_leaves WHERE kind = 'coupon'
+      ORDER BY site, record_id, revision DESC) lg
+JOIN coupons c ON c.site = lg.site AND c.id = lg.record_id AND c.revision = lg.revision;
+
+CREATE TABLE coupon_list (
+    site                    text    NOT NULL,
+    id                      uuid    NOT NULL,
+    leaf_index              bigint  NOT NULL,
+    revision                integer NOT NULL,
+    voided                  boolean NOT NULL,
+    procedure_id            uuid,
+    qualification_record_id uuid,
+    welder_id               text    NOT NULL,
+    coupon_mark             text    NOT NULL,
+    welded_on               date    NOT NULL,
+    welded_month            date    NOT NULL,
+    verdict                 text    NOT NULL CHECK (verdict IN ('', 'accept', 'reject')),
+    PRIMARY KEY (site, id)
+);
+-- Coupons logged before this migration (filled before the indexes exist:
+-- one sort per index instead of a million insertions into each).
+INSERT INTO coupon_list SELECT * FROM coupon_list_derived;
+
+-- Each equality filter pages through its own index in log order; a
+-- welding-day range without one walks each month (and verdict) of the
+-- range in log order and merges the heads (db/coupon_list.go).
+CREATE INDEX coupon_list_log ON coupon_list (site, leaf_index);
+CREATE INDEX coupon_list_procedure ON coupon_list (site, procedure_id, leaf_index);
+CREATE INDEX coupon_list_qualification_record ON coupon_list (site, qualification_record_id, leaf_index);
+CREATE INDEX coupon_list_welder ON coupon_list (site, welder_id, leaf_index);
+CREATE INDEX coupon_list_mark ON coupon_list (site, coupon_mark, leaf_index);
+CREATE INDEX coupon_list_verdict ON coupon_list (site, verdict, leaf_index);
+CREATE INDEX coupon_list_month ON coupon_list (site, welded_month, verdict, leaf_index);
+-- Derived: the sequencer deletes a coupon's row and writes it again.
+GRANT DELETE ON coupon_list TO etchlog_app;
+
