@@ -1,11 +1,12 @@
 package api
 
 import (
-	"encoding/json"
 	"net/http"
 	"time"
 
 	"github.com/labstack/echo/v4"
+
+	"etchlog/db"
 )
 
 // exportWriteWait is how long one write of the export may wait for the
@@ -14,19 +15,13 @@ import (
 // by the server's total write timeout.
 const exportWriteWait = 30 * time.Second
 
-// exportLine is one line of the NDJSON export.
-type exportLine struct {
-	Kind   string `json:"kind"`
-	Record any    `json:"record"`
-}
-
 // handleExport streams the site's records, every revision, and its audit
 // chain as newline-delimited JSON, ending with a summary line.
 func (s *Server) handleExport(c echo.Context) error {
 	w := c.Response()
 	w.Header().Set(echo.HeaderContentType, "application/x-ndjson")
 	w.Header().Set("Content-Disposition", `attachment; filename="etchlog-export.ndjson"`)
-	enc := json.NewEncoder(w)
+	out := db.NewExportWriter(w)
 	rc := http.NewResponseController(w)
 	var extended time.Time
 	extend := func() {
@@ -42,7 +37,7 @@ func (s *Server) handleExport(c echo.Context) error {
 			w.WriteHeader(http.StatusOK)
 			started = true
 		}
-		return enc.Encode(exportLine{Kind: kind, Record: v})
+		return out.Line(kind, v)
 	})
 	if err != nil {
 		if started { // the status is sent; end the stream with an error line the reader sees
@@ -51,7 +46,10 @@ func (s *Server) handleExport(c echo.Context) error {
 				return nil
 			}
 			s.log.Error("export interrupted", "request_id", w.Header().Get(echo.HeaderXRequestID), "err", err)
-			return enc.Encode(exportLine{Kind: "error", Record: "export interrupted; discard this file"})
+			if err := out.Line("error", "export interrupted; discard this file"); err != nil {
+				return err
+			}
+			return out.Flush()
 		}
 		return err
 	}
@@ -59,5 +57,8 @@ func (s *Server) handleExport(c echo.Context) error {
 		w.WriteHeader(http.StatusOK)
 	}
 	extend()
-	return enc.Encode(exportLine{Kind: "summary", Record: sum})
+	if err := out.Line("summary", sum); err != nil {
+		return err
+	}
+	return out.Flush()
 }

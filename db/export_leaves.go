@@ -3,12 +3,16 @@ package db
 import (
 	"bytes"
 	"context"
+	"encoding/binary"
 	"fmt"
+	"math"
 	"strings"
 	"time"
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
+	"github.com/jackc/pgx/v5/pgtype"
 
 	"etchlog/db/logfmt"
 )
@@ -100,22 +104,27 @@ func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
 	}
 	defer rows.Close()
 	st.buf = st.buf[:0]
+	tm := tx.Conn().TypeMap()
 	for rows.Next() {
-		vals, err := rows.Values()
-		if err != nil {
-			return err
+		l, ok := leafOfRaw(rows.FieldDescriptions(), rows.RawValues())
+		if !ok {
+			vals, err := rows.Values()
+			if err != nil {
+				return err
+			}
+			l = logfmt.ExportLeaf{Index: uint64(vals[0].(int64)), Kind: vals[1].(string), Version: int(vals[2].(int32)),
+				RecordID: uuid.UUID(vals[3].([16]byte)).String(), Revision: int(vals[4].(int32)), LeafHash: vals[5].([]byte),
+				Actor: vals[6].(string), Action: vals[7].(string), Reason: vals[8].(string),
+				At: vals[9].(time.Time).UTC().Format("2006-01-02T15:04:05.000000Z")}
 		}
-		l := logfmt.ExportLeaf{Index: uint64(vals[0].(int64)), Kind: vals[1].(string), Version: int(vals[2].(int32)),
-			RecordID: uuid.UUID(vals[3].([16]byte)).String(), Revision: int(vals[4].(int32)), LeafHash: vals[5].([]byte),
-			Actor: vals[6].(string), Action: vals[7].(string), Reason: vals[8].(string),
-			At: vals[9].(time.Time).UTC().Format("2006-01-02T15:04:05.000000Z")}
+		raw := rows.RawValues()
 		switch {
 		case !st.known:
 			l.Missing = "this etchlog does not know the fact kind " + l.Kind
-		case !vals[10].(bool):
+		case len(raw[10]) != 1 || raw[10][0] == 0:
 			l.Missing = "no such row at the site"
 		default:
-			f, err := factFrom(st.k, rows.FieldDescriptions()[11:], vals[11:], rows.RawValues()[11:])
+			f, err := factFromRaw(st.k, rows.FieldDescriptions()[11:], raw[11:], tm)
 			if err != nil {
 				return err
 			}
@@ -128,6 +137,27 @@ func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
 	}
 	st.done = len(st.buf) == 0
 	return nil
+}
+
+// leafOfRaw reads a leaf's listing (the first ten columns of a leafStream
+// row) from PostgreSQL's binary format, or reports false.
+func leafOfRaw(fds []pgconn.FieldDescription, raw [][]byte) (logfmt.ExportLeaf, bool) {
+	for i := range 11 {
+		if fds[i].Format != pgtype.BinaryFormatCode || raw[i] == nil {
+			return logfmt.ExportLeaf{}, false
+		}
+	}
+	if len(raw[0]) != 8 || len(raw[2]) != 4 || len(raw[3]) != 16 || len(raw[4]) != 4 || len(raw[9]) != 8 {
+		return logfmt.ExportLeaf{}, false
+	}
+	us := int64(binary.BigEndian.Uint64(raw[9]))
+	if us == math.MaxInt64 || us == math.MinInt64 {
+		return logfmt.ExportLeaf{}, false
+	}
+	return logfmt.ExportLeaf{Index: binary.BigEndian.Uint64(raw[0]), Kind: string(raw[1]),
+		Version: int(int32(binary.BigEndian.Uint32(raw[2]))), RecordID: uuid.UUID(raw[3]).String(),
+		Revision: int(int32(binary.BigEndian.Uint32(raw[4]))), LeafHash: bytes.Clone(raw[5]),
+		Actor: string(raw[6]), Action: string(raw[7]), Reason: string(raw[8]), At: rawTime(us)}, true
 }
 
 // exportUnlogged emits every stored fact with no leaf: rows with neither a
