@@ -26,6 +26,9 @@ func TestTokenRequired(t *testing.T) {
 	e := newEnv(t)
 	for _, route := range e.srv.Routes() {
 		method, path, _ := strings.Cut(route, " ")
+		if path == "/" {
+			continue // a public redirect to the lab pages, which TestPage checks without a token
+		}
 		if !strings.HasPrefix(path, "/v1/") {
 			t.Run(route, func(t *testing.T) {
 				if r := e.do(method, path, "", nil); r.status != http.StatusOK {

@@ -15,6 +15,10 @@ import (
 // by the server's total write timeout.
 const exportWriteWait = 30 * time.Second
 
+// headerReadFrom names the server an export was read from: "primary", or
+// "standby" when a streaming standby (DATABASE_READ_URL) kept up.
+const headerReadFrom = "Etchlog-Read-From"
+
 // handleExport streams the site's records, every revision, and its audit
 // chain as newline-delimited JSON, ending with a summary line.
 func (s *Server) handleExport(c echo.Context) error {
@@ -31,7 +35,8 @@ func (s *Server) handleExport(c echo.Context) error {
 		}
 	}
 	started := false
-	sum, err := s.store.Export(c.Request().Context(), actorOf(c).Site, func(kind string, v any) error {
+	ctx := db.NoteReadSource(c.Request().Context(), func(src string) { w.Header().Set(headerReadFrom, src) })
+	sum, err := s.store.Export(ctx, actorOf(c).Site, func(kind string, v any) error {
 		extend()
 		if !started {
 			w.WriteHeader(http.StatusOK)

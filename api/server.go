@@ -13,6 +13,7 @@ import (
 	"github.com/labstack/echo/v4"
 	"github.com/labstack/echo/v4/middleware"
 
+	"etchlog/api/lab"
 	"etchlog/db"
 )
 
@@ -31,6 +32,7 @@ type Server struct {
 	spec     *openapi3.T
 	echo     *echo.Echo
 	limit    *userLimiter
+	lab      *lab.Lab
 }
 
 // New builds the server and registers every route. It fails when a route has
@@ -62,11 +64,22 @@ func New(store *db.Store, opt Options) (*Server, error) {
 	if err := s.routes(); err != nil {
 		return nil, err
 	}
+	// The lab pages call the API in process, as their signed-in user.
+	if s.lab, err = lab.New(lab.Options{API: e, Store: store, Logger: opt.Logger}); err != nil {
+		return nil, err
+	}
 	return s, nil
 }
 
-// ServeHTTP lets the server be used as an http.Handler.
-func (s *Server) ServeHTTP(w http.ResponseWriter, r *http.Request) { s.echo.ServeHTTP(w, r) }
+// ServeHTTP lets the server be used as an http.Handler: the lab pages under
+// /lab, the API and the rest through echo.
+func (s *Server) ServeHTTP(w http.ResponseWriter, r *http.Request) {
+	if lab.Handles(r.URL.Path) {
+		s.lab.ServeHTTP(w, r)
+		return
+	}
+	s.echo.ServeHTTP(w, r)
+}
 
 // Routes lists the registered method and path pairs, with OpenAPI-style {params}.
 func (s *Server) Routes() []string {

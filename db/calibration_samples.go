@@ -65,71 +65,85 @@ const siteCoupons = `
 		  AND ($4::uuid IS NULL OR cur.procedure_id = $4)
 		ORDER BY cur.id`
 
-// groupCoupons runs the selection and keeps the coupons of the filter's
-// group, compared as the trade does (nominal wire size, gas composition):
-// done here, not in SQL, because the gas is parsed.
-func groupCoupons(ctx context.Context, q querier, site string, f SampleFilter) ([]groupCoupon, error) {
+// forGroupCoupons runs the selection and calls fn with each coupon of the
+// filter's group, compared as the trade does (nominal wire size, gas
+// composition): done here, not in SQL, because the gas is parsed. The rows
+// stream: memory does not grow with the group.
+func forGroupCoupons(ctx context.Context, q querier, site string, f SampleFilter, fn func(*groupCoupon) error) error {
 	g := f.Group.canonical()
 	rows, _ := q.Query(ctx, siteCoupons, site, f.WeldedFrom, f.WeldedTo, f.ProcedureID)
-	cs, err := pgx.CollectRows(rows, pgx.RowToStructByName[groupCoupon])
-	if err != nil {
-		return nil, fmt.Errorf("select coupons: %w", err)
-	}
-	out := cs[:0]
-	for _, c := range cs {
-		if g.has(c.Process, c.WireDiameterMM, c.ShieldingGas, c.JointType) {
-			out = append(out, c)
+	var c groupCoupon
+	_, err := pgx.ForEachRow(rows, []any{&c.ID, &c.Process, &c.JointType, &c.ShieldingGas, &c.CurrentA, &c.VoltageV,
+		&c.TravelSpeedMMPerS, &c.WireFeedSpeedMPerMin, &c.CTWDMM, &c.WireDiameterMM, &c.PenetrationsMM}, func() error {
+		if !g.has(c.Process, c.WireDiameterMM, c.ShieldingGas, c.JointType) {
+			return nil
 		}
+		return fn(&c)
+	})
+	if err != nil {
+		return fmt.Errorf("select coupons: %w", err)
 	}
-	return out, nil
+	return nil
 }
 
-// penetrationSamples gives one Jackson sample per measured coupon: the
+// penetrationSampleOf is the Jackson sample of a measured coupon: the
 // coupon is the experimental unit (its sections share one current, voltage
 // and travel speed), so its penetration is the mean of its current,
-// non-voided sections. Coupons without a section are left out.
-func penetrationSamples(ctx context.Context, q querier, site string, f SampleFilter) ([]predict.PenetrationSample, error) {
-	cs, err := groupCoupons(ctx, q, site, f)
-	if err != nil {
-		return nil, err
+// non-voided sections. A coupon without a section gives none (false).
+func penetrationSampleOf(c *groupCoupon) (predict.PenetrationSample, bool) {
+	if len(c.PenetrationsMM) == 0 {
+		return predict.PenetrationSample{}, false
 	}
-	out := make([]predict.PenetrationSample, 0, len(cs))
-	for _, c := range cs {
-		if len(c.PenetrationsMM) == 0 {
-			continue
-		}
-		out = append(out, predict.PenetrationSample{ID: c.ID.String(), CurrentA: c.CurrentA, VoltageV: c.VoltageV,
-			TravelSpeedMMPerS: c.TravelSpeedMMPerS, PenetrationMM: *predict.SectionMean(c.PenetrationsMM)})
-	}
-	return out, nil
+	return predict.PenetrationSample{ID: c.ID.String(), CurrentA: c.CurrentA, VoltageV: c.VoltageV,
+		TravelSpeedMMPerS: c.TravelSpeedMMPerS, PenetrationMM: *predict.SectionMean(c.PenetrationsMM)}, true
 }
 
-// meltingSamples gives one Lesnewich sample per coupon with a wire feed speed
-// and a CTWD: the melting rate is the wire fed (steady state: what is fed is
-// melted), WFS·(π·d²/4)·ρ with the carbon steel density 7.85 g/cm³, and the
-// electrode extension is CTWD − arcLengthMM, the arc length the caller states
-// for the whole group (it is not recorded per coupon).
-func meltingSamples(ctx context.Context, q querier, site string, f SampleFilter, arcLengthMM float64) ([]predict.MeltingSample, error) {
-	cs, err := groupCoupons(ctx, q, site, f)
+// meltingSampleOf is the Lesnewich sample of a coupon with a wire feed speed
+// and a CTWD (false without them): the melting rate is the wire fed (steady
+// state: what is fed is melted), WFS·(π·d²/4)·ρ with the carbon steel
+// density 7.85 g/cm³, and the electrode extension is CTWD − arcLengthMM, the
+// arc length the caller states for the whole group (it is not recorded per
+// coupon).
+func meltingSampleOf(c *groupCoupon, arcLengthMM float64) (predict.MeltingSample, bool, error) {
+	if c.WireFeedSpeedMPerMin == nil || c.CTWDMM == nil {
+		return predict.MeltingSample{}, false, nil
+	}
+	mr, err := predict.WireMeltingRateKgPerH(*c.WireFeedSpeedMPerMin, c.WireDiameterMM, predict.CarbonSteelDensityKgPerMM3)
 	if err != nil {
-		return nil, err
+		return predict.MeltingSample{}, false, &FieldError{Field: "coupons", Reason: fmt.Sprintf("coupon %s: %v", c.ID, err)}
 	}
-	out := make([]predict.MeltingSample, 0, len(cs))
-	for _, c := range cs {
-		if c.WireFeedSpeedMPerMin == nil || c.CTWDMM == nil {
-			continue
-		}
-		mr, err := predict.WireMeltingRateKgPerH(*c.WireFeedSpeedMPerMin, c.WireDiameterMM, predict.CarbonSteelDensityKgPerMM3)
-		if err != nil {
-			return nil, &FieldError{Field: "coupons", Reason: fmt.Sprintf("coupon %s: %v", c.ID, err)}
-		}
-		ext, err := predict.ExtensionFromCTWD(*c.CTWDMM, arcLengthMM)
-		if err != nil {
-			return nil, &FieldError{Field: "arc_length_mm", Reason: fmt.Sprintf("coupon %s: %v", c.ID, err)}
-		}
-		out = append(out, predict.MeltingSample{ID: c.ID.String(), CurrentA: c.CurrentA, ExtensionMM: ext, MeltingRateKgPerH: mr})
+	ext, err := predict.ExtensionFromCTWD(*c.CTWDMM, arcLengthMM)
+	if err != nil {
+		return predict.MeltingSample{}, false, &FieldError{Field: "arc_length_mm", Reason: fmt.Sprintf("coupon %s: %v", c.ID, err)}
 	}
-	return out, nil
+	return predict.MeltingSample{ID: c.ID.String(), CurrentA: c.CurrentA, ExtensionMM: ext, MeltingRateKgPerH: mr}, true, nil
+}
+
+// penetrationSamples gives the Jackson samples of the group's measured
+// coupons (penetrationSampleOf).
+func penetrationSamples(ctx context.Context, q querier, site string, f SampleFilter) ([]predict.PenetrationSample, error) {
+	out := []predict.PenetrationSample{}
+	err := forGroupCoupons(ctx, q, site, f, func(c *groupCoupon) error {
+		if smp, ok := penetrationSampleOf(c); ok {
+			out = append(out, smp)
+		}
+		return nil
+	})
+	return out, err
+}
+
+// meltingSamples gives the Lesnewich samples of the group's coupons that
+// have a wire feed speed and a CTWD (meltingSampleOf).
+func meltingSamples(ctx context.Context, q querier, site string, f SampleFilter, arcLengthMM float64) ([]predict.MeltingSample, error) {
+	out := []predict.MeltingSample{}
+	err := forGroupCoupons(ctx, q, site, f, func(c *groupCoupon) error {
+		smp, ok, err := meltingSampleOf(c, arcLengthMM)
+		if ok {
+			out = append(out, smp)
+		}
+		return err
+	})
+	return out, err
 }
 
 // PenetrationSamples returns the Jackson samples a fit over f would use.

@@ -68,11 +68,12 @@ func (e *DuplicateError) Is(target error) bool { return target == ErrConflict }
 
 // Store is the PostgreSQL-backed record store.
 type Store struct {
-	pool *pgxpool.Pool
-	long *pgxpool.Pool // long reads (export, audit verify): a pool of their own, so they cannot starve writes
-	now  func() time.Time
-	key  atomic.Pointer[logfmt.Signer] // signs checkpoints, tags pending leaves
-	kick chan struct{}                 // a write committed: the sequencer may have work
+	pool    *pgxpool.Pool
+	long    *pgxpool.Pool // long reads (export, audit verify): a pool of their own, so they cannot starve writes
+	standby *standby      // a streaming standby the export may read from (UseStandby), or nil
+	now     func() time.Time
+	key     atomic.Pointer[logfmt.Signer] // signs checkpoints, tags pending leaves
+	kick    chan struct{}                 // a write committed: the sequencer may have work
 }
 
 // LongReadConns is how many connections long reads (export, audit verify)
@@ -132,6 +133,9 @@ func open(ctx context.Context, url, role string, unprivileged bool) (*Store, err
 func (s *Store) Close() {
 	s.pool.Close()
 	s.long.Close()
+	if s.standby != nil {
+		s.standby.pool.Close()
+	}
 }
 
 // Pool exposes the connection pool for benchmarks that compare against raw inserts.

@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgxpool"
 
 	"etchlog/db/logfmt"
 )
@@ -28,14 +29,16 @@ type ExportSummary struct {
 // qualified ranges, production batches and records, sign-offs; procedure, PQR
 // and calibration revisions carry their sign-off), every leaf of the log
 // in index order with its fact encoded again from the stored row, and every
-// stored fact that is not in the log. The line kinds are in logfmt.
+// stored fact that is not in the log. The line kinds are in logfmt. It
+// reads from the standby while one is set (UseStandby) and keeps up, else
+// from the primary; NoteReadSource tells which.
 func (s *Store) Export(ctx context.Context, site string, emit func(kind string, v any) error) (ExportSummary, error) {
-	return s.export(ctx, site, true, emit)
+	return s.export(ctx, s.longRead(ctx), site, true, emit)
 }
 
-func (s *Store) export(ctx context.Context, site string, records bool, emit func(kind string, v any) error) (ExportSummary, error) {
+func (s *Store) export(ctx context.Context, pool *pgxpool.Pool, site string, records bool, emit func(kind string, v any) error) (ExportSummary, error) {
 	var sum ExportSummary
-	tx, err := s.long.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
+	tx, err := pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 	if err != nil {
 		return sum, fmt.Errorf("db: export: %w", err)
 	}

@@ -41,7 +41,7 @@ func (s *Store) RecheckFlags(ctx context.Context, site string) (FlagCheck, error
 		return c, err
 	}
 	rows, _ := tx.Query(ctx, `SELECT id FROM procedures cur WHERE site = $1 AND NOT voided
-		AND NOT EXISTS (SELECT 1 FROM procedures l WHERE l.id = cur.id AND l.revision > cur.revision)`, site)
+		AND NOT EXISTS (SELECT 1 FROM procedures l WHERE l.site = cur.site AND l.id = cur.id AND l.revision > cur.revision)`, site)
 	ids, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
 	if err != nil {
 		return c, fmt.Errorf("db: recheck flags: %w", err)

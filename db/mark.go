@@ -62,10 +62,10 @@ func (s *Store) RecheckMarks(ctx context.Context, site string) ([]string, error)
 	rows, _ := s.pool.Query(ctx, `
 		WITH want AS (
 			SELECT 'coupon_mark' AS kind, coupon_mark AS mark, id FROM coupons cur WHERE site = $1
-			  AND NOT EXISTS (SELECT 1 FROM coupons l WHERE l.id = cur.id AND l.revision > cur.revision)
+			  AND NOT EXISTS (SELECT 1 FROM coupons l WHERE l.site = cur.site AND l.id = cur.id AND l.revision > cur.revision)
 			UNION ALL
 			SELECT 'record_number', record_number, id FROM qualification_records cur WHERE site = $1
-			  AND NOT EXISTS (SELECT 1 FROM qualification_records l WHERE l.id = cur.id AND l.revision > cur.revision)),
+			  AND NOT EXISTS (SELECT 1 FROM qualification_records l WHERE l.site = cur.site AND l.id = cur.id AND l.revision > cur.revision)),
 		have AS (SELECT kind, mark, record_id AS id FROM current_marks WHERE site = $1)
 		SELECT format('%s %s %s: %s', coalesce(w.kind, h.kind), coalesce(w.mark, h.mark), coalesce(w.id, h.id),
 		              CASE WHEN h.id IS NULL THEN 'not in current_marks' ELSE 'in current_marks, not current' END)

@@ -210,7 +210,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 			return 0, fmt.Errorf("%s: %w", c.table, err)
 		}
 	}
-	if _, err := tx.Exec(ctx, `DELETE FROM log_pending WHERE seq = ANY($1)`, seqs); err != nil {
+	if _, err := tx.Exec(ctx, `DELETE FROM log_pending WHERE site = $1 AND seq = ANY($2)`, site, seqs); err != nil {
 		return 0, err
 	}
 	if err := listed.refresh(ctx, tx, site); err != nil {

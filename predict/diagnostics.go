@@ -16,10 +16,14 @@ const (
 // Diagnostics are per-sample regression diagnostics of one calibration fit.
 // Observed, Fitted and Residual are in the Response space.
 type Diagnostics struct {
-	Model    ModelKind          `json:"model"`
-	Response string             `json:"response"`
-	Level    float64            `json:"level"`
-	Samples  []SampleDiagnostic `json:"samples"`
+	Model    ModelKind `json:"model"`
+	Response string    `json:"response"`
+	Level    float64   `json:"level"`
+	// LeverageCutoff (2p/n) and CooksDistanceCutoff (4/n) are the values
+	// above which a sample is marked high_leverage or high_cooks_distance.
+	LeverageCutoff      float64            `json:"leverage_cutoff"`
+	CooksDistanceCutoff float64            `json:"cooks_distance_cutoff"`
+	Samples             []SampleDiagnostic `json:"samples"`
 }
 
 // SampleDiagnostic describes how one sample sits in its fit. With e the
@@ -42,6 +46,12 @@ type SampleDiagnostic struct {
 	StudentizedExternal float64 `json:"studentized_external"`
 	CooksDistance       float64 `json:"cooks_distance"`
 	OutsidePrediction   bool    `json:"outside_prediction_interval"`
+	// HighLeverage is h > 2p/n, twice the mean leverage: the sample's
+	// setting lies far from the others' and pulls the fit towards itself.
+	// HighCooksDistance is D > 4/n: leaving the sample out moves the
+	// fitted values noticeably. Both are screening marks, not verdicts.
+	HighLeverage      bool `json:"high_leverage"`
+	HighCooksDistance bool `json:"high_cooks_distance"`
 }
 
 // DiagnosePenetration fits model (ModelJacksonFixed or ModelJacksonFree)
@@ -81,7 +91,9 @@ func DiagnoseMeltingRate(samples []MeltingSample, level float64) (Diagnostics, e
 
 // diagnose computes the per-sample diagnostics of a solved fit.
 func (s calSolution) diagnose(model ModelKind, response string, level float64) Diagnostics {
-	d := Diagnostics{Model: model, Response: response, Level: level, Samples: make([]SampleDiagnostic, len(s.y))}
+	n := float64(len(s.y))
+	d := Diagnostics{Model: model, Response: response, Level: level, Samples: make([]SampleDiagnostic, len(s.y)),
+		LeverageCutoff: 2 * float64(s.p) / n, CooksDistanceCutoff: 4 / n}
 	nu := float64(s.dof)
 	crit := math.Inf(1)
 	if s.dof >= 2 {
@@ -106,6 +118,7 @@ func (s calSolution) diagnose(model ModelKind, response string, level float64) D
 				sd.OutsidePrediction = true
 			}
 		}
+		sd.HighLeverage, sd.HighCooksDistance = h > d.LeverageCutoff, sd.CooksDistance > d.CooksDistanceCutoff
 		d.Samples[i] = sd
 	}
 	return d

@@ -80,11 +80,29 @@ func TestDiagnosticsMatchLeaveOneOut(t *testing.T) {
 		name    string
 		got     Diagnostics
 		want    []SampleDiagnostic
+		p       int
 		outlier int
-	}{{"PenetrationFree", dp, looReference(t, Xp, yp, level), 7}, {"MeltingRate", dm, looReference(t, Xm, ym, level), 3}} {
+	}{{"PenetrationFree", dp, looReference(t, Xp, yp, level), 4, 7}, {"MeltingRate", dm, looReference(t, Xm, ym, level), 2, 3}} {
 		t.Run(tc.name, func(t *testing.T) {
+			// Screening cut-offs: leverage above twice its mean 2p/n (Hoaglin and
+			// Welsch, "The hat matrix in regression and ANOVA", The American
+			// Statistician 32(1), 1978, from memory); Cook's D above 4/n (common
+			// practice, no source).
+			n := float64(len(tc.want))
+			levCut, cookCut := 2*float64(tc.p)/n, 4/n
+			if !closeRel(tc.got.LeverageCutoff, levCut, 1e-15) || !closeRel(tc.got.CooksDistanceCutoff, cookCut, 1e-15) {
+				t.Errorf("cut-offs = %g, %g; want 2p/n = %g, 4/n = %g", tc.got.LeverageCutoff, tc.got.CooksDistanceCutoff, levCut, cookCut)
+			}
+			marked := 0
 			for i, w := range tc.want {
 				g := tc.got.Samples[i]
+				if g.HighLeverage != (w.Leverage > levCut) || g.HighCooksDistance != (w.CooksDistance > cookCut) {
+					t.Errorf("sample %d marks high_leverage %v, high_cooks_distance %v; want %v (h %.4g vs %.4g), %v (D %.4g vs %.4g)",
+						i, g.HighLeverage, g.HighCooksDistance, w.Leverage > levCut, w.Leverage, levCut, w.CooksDistance > cookCut, w.CooksDistance, cookCut)
+				}
+				if g.HighCooksDistance {
+					marked++
+				}
 				for _, c := range []struct {
 					name      string
 					got, want float64
@@ -102,6 +120,10 @@ func TestDiagnosticsMatchLeaveOneOut(t *testing.T) {
 			}
 			if !tc.got.Samples[tc.outlier].OutsidePrediction {
 				t.Errorf("planted outlier %d OutsidePrediction = false, want true", tc.outlier)
+			}
+			if !tc.got.Samples[tc.outlier].HighCooksDistance || marked == len(tc.want) {
+				t.Errorf("planted outlier %d high_cooks_distance %v with %d of %d marked; want it marked, not all",
+					tc.outlier, tc.got.Samples[tc.outlier].HighCooksDistance, marked, len(tc.want))
 			}
 		})
 	}
@@ -122,6 +144,9 @@ func TestDiagnoseFixed(t *testing.T) {
 		r := s.StudentizedInternal
 		if !closeRel(s.Leverage, 1.0/12, 1e-15) || !closeRel(s.CooksDistance, r*r/11, 1e-12) {
 			t.Errorf("sample %d leverage %.15g, Cook's D %.12g; want %.15g, %.12g", i, s.Leverage, s.CooksDistance, 1.0/12, r*r/11)
+		}
+		if s.HighLeverage { // equal leverage p/n is half the 2p/n cut-off
+			t.Errorf("sample %d high_leverage with leverage 1/n", i)
 		}
 	}
 	if _, err := DiagnosePenetration(pen, ModelLesnewich, 0.95); err == nil {

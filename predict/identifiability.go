@@ -43,14 +43,21 @@ func identifiability(li, ls, lv []float64) Identifiability {
 	}
 	var r mat.SymDense
 	stat.CorrelationMatrix(&r, x, nil)
+	return identifiabilityOf(&r)
+}
+
+// identifiabilityOf reads the correlations and VIFs (the diagonal of the
+// inverse correlation matrix) of ln I, ln S, ln V from their correlation
+// matrix r.
+func identifiabilityOf(r *mat.SymDense) Identifiability {
 	id := Identifiability{MaxVIF: MaxVIF, CorrCurrentTravel: r.At(0, 1), CorrCurrentVoltage: r.At(0, 2), CorrTravelVoltage: r.At(1, 2)}
 	var inv mat.Dense
-	if err := inv.Inverse(&r); err != nil {
+	if err := inv.Inverse(r); err != nil {
 		inf := math.Inf(1)
 		id.ConditionNumber, id.VIFLnCurrent, id.VIFLnTravel, id.VIFLnVoltage = inf, inf, inf, inf
 		return id
 	}
-	id.ConditionNumber = math.Sqrt(mat.Cond(&r, 2))
+	id.ConditionNumber = math.Sqrt(mat.Cond(r, 2))
 	id.VIFLnCurrent, id.VIFLnTravel, id.VIFLnVoltage = inv.At(0, 0), inv.At(1, 1), inv.At(2, 2)
 	return id
 }

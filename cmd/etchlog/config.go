@@ -10,6 +10,7 @@ import (
 	"log/slog"
 	"net/url"
 	"strings"
+	"time"
 
 	"etchlog/api"
 	"etchlog/cmd/etchlog/localpg"
@@ -28,12 +29,17 @@ type config struct {
 	PerUser    int
 	LogKey     string // the private log signing key text (env ETCHLOG_LOG_KEY)
 	LogKeyFile string // or a file holding it
+	// ReadURL is a streaming standby the export may read from (env
+	// DATABASE_READ_URL), while its replay lag stays within ReadMaxLag.
+	ReadURL    string
+	ReadMaxLag time.Duration
 }
 
 // defaults fills the configuration from the environment.
 func defaults(getenv func(string) string) config {
 	c := config{Addr: "127.0.0.1:8080", LogLevel: "info", BodyLimit: "1MiB", PerUser: api.DefaultPerUser, DatabaseURL: getenv("DATABASE_URL"),
-		OwnerURL: getenv("ETCHLOG_OWNER_DATABASE_URL"), LogKey: getenv("ETCHLOG_LOG_KEY"), LogKeyFile: getenv("ETCHLOG_LOG_KEY_FILE")}
+		OwnerURL: getenv("ETCHLOG_OWNER_DATABASE_URL"), LogKey: getenv("ETCHLOG_LOG_KEY"), LogKeyFile: getenv("ETCHLOG_LOG_KEY_FILE"),
+		ReadURL: getenv("DATABASE_READ_URL"), ReadMaxLag: 5 * time.Second}
 	if v := getenv("ETCHLOG_ADDR"); v != "" {
 		c.Addr = v
 	}
@@ -58,6 +64,9 @@ func (c *config) serverFlags(fs *flag.FlagSet) {
 	fs.StringVar(&c.LogKeyFile, "log-key-file", c.LogKeyFile, "file with the log signing key made by etchlog keygen (env ETCHLOG_LOG_KEY_FILE; or the key in ETCHLOG_LOG_KEY)")
 	fs.StringVar(&c.BodyLimit, "body-limit", c.BodyLimit, "largest request body, e.g. 1MiB (binary) or 1M (10^6 bytes)")
 	fs.IntVar(&c.PerUser, "per-user", c.PerUser, "requests one user may have running at once; more get 429")
+	fs.StringVar(&c.ReadURL, "database-read-url", c.ReadURL,
+		"PostgreSQL streaming standby the export reads from while it keeps up (env DATABASE_READ_URL; empty: none)")
+	fs.DurationVar(&c.ReadMaxLag, "read-max-lag", c.ReadMaxLag, "replay lag past which the export reads the primary instead of the standby")
 }
 
 // validate checks the configuration before anything is opened.
@@ -179,7 +188,16 @@ func openStore(ctx context.Context, c config, log *slog.Logger) (*db.Store, erro
 	} else {
 		log.Info("no administrator login: migrations are not applied (set -owner-database-url)")
 	}
-	return db.Open(ctx, dbs.app)
+	store, err := db.Open(ctx, dbs.app)
+	if err != nil || c.ReadURL == "" {
+		return store, err
+	}
+	if err := store.UseStandby(ctx, c.ReadURL, c.ReadMaxLag); err != nil {
+		store.Close()
+		return nil, err
+	}
+	log.Info("export reads from the standby while it keeps up", "max_lag", c.ReadMaxLag.String())
+	return store, nil
 }
 
 // openOwner connects as the administrator (db.OwnerRole), for user changes.

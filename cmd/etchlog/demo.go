@@ -73,7 +73,7 @@ func cmdDemo(ctx context.Context, args []string, getenv func(string) string, std
 		}
 		fmt.Fprintf(stdout, `etchlog demo listening on %[1]s  (Ctrl-C stops it)
 
-Open %[1]s/ in a browser and paste the auditor token to see the coupons.
+Open %[1]s/lab/ in a browser and sign in with one of the tokens (each role sees its own pages).
 Tokens (demo only): technician %[2]s, engineer %[3]s, auditor %[4]s
 
 Try:

@@ -13,7 +13,7 @@ import (
 // stdout naming the command, and it lists exactly the command's own flags.
 func TestHelp(t *testing.T) {
 	t.Parallel()
-	server := []string{"addr", "body-limit", "database-url", "log-key-file", "log-level", "owner-database-url", "per-user"}
+	server := []string{"addr", "body-limit", "database-read-url", "database-url", "log-key-file", "log-level", "owner-database-url", "per-user", "read-max-lag"}
 	flagLine := regexp.MustCompile(`(?m)^  -(\S+)`)
 	for _, c := range []struct {
 		args  []string
@@ -28,7 +28,7 @@ func TestHelp(t *testing.T) {
 		{[]string{"migrate", "-h"}, "usage: etchlog migrate [up|down] [flags]", []string{"database-url", "destroy", "owner-database-url"}},
 		{[]string{"user", "-h"}, "usage: etchlog user add", nil},
 		{[]string{"user", "add", "-h"}, "usage: etchlog user add", []string{"database-url", "name", "owner-database-url", "role", "site"}},
-		{[]string{"load", "-h"}, "usage: etchlog load [flags]", []string{"c", "max-time", "n", "token", "url"}},
+		{[]string{"load", "-h"}, "usage: etchlog load [flags]", []string{"auditor-token", "c", "database-url", "duration", "exporters", "max-time", "mixed", "n", "pagers", "producers", "token", "url", "writers"}},
 		{[]string{"keygen", "-h"}, "usage: etchlog keygen [flags]", []string{"name", "out"}},
 		{[]string{"verify", "-h"}, "usage: etchlog verify --export FILE", []string{"checkpoint", "export", "key", "older-checkpoint"}},
 	} {

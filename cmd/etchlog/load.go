@@ -19,14 +19,25 @@ import (
 // and prints throughput and latency percentiles with the ratio to the
 // baseline. The request count and the time are bounded, and only loopback
 // targets are accepted.
-func cmdLoad(ctx context.Context, args []string, _ func(string) string, stdout, stderr io.Writer) error {
+func cmdLoad(ctx context.Context, args []string, getenv func(string) string, stdout, stderr io.Writer) error {
 	fs := newFlagSet("load", "load [flags]", "Drives a running etchlog (loopback only) with coupon writes and list reads beside a\n"+
-		"no-database baseline (GET /healthz) and prints req/s, p50/p95/p99 latency and the ratio.")
+		"no-database baseline (GET /healthz) and prints req/s, p50/p95/p99 latency and the ratio.\n"+
+		"With -mixed: technicians, auditors and weld monitors at once for -duration, each part's\n"+
+		"rate and p95 beside the same mix run as raw PostgreSQL on -database-url.")
 	target := fs.String("url", "http://127.0.0.1:8080", "base URL of a running etchlog (loopback only)")
 	token := fs.String("token", "demo-technician-token", "technician or engineer token")
 	n := fs.Int("n", 2000, "requests per scenario (at most 100000)")
 	conc := fs.Int("c", 8, "concurrent clients")
 	limit := fs.Duration("max-time", 60*time.Second, "stop each scenario after this long")
+	mixed := fs.Bool("mixed", false, "run the mixed scenario instead: every part at once for -duration")
+	duration := fs.Duration("duration", 30*time.Second, "mixed: how long each phase (etchlog, then raw) runs (at most 10m)")
+	auditorToken := fs.String("auditor-token", "demo-auditor-token-00", "mixed: the auditors' token")
+	dbURL := fs.String("database-url", getenv("DATABASE_URL"), "mixed: the server's database, for the raw baseline; a login that may create a schema (env DATABASE_URL; empty: no baseline)")
+	var mc mixCounts
+	fs.IntVar(&mc.writers, "writers", 8, "mixed: technicians writing coupons")
+	fs.IntVar(&mc.pagers, "pagers", 4, "mixed: auditors paging the coupon list")
+	fs.IntVar(&mc.exporters, "exporters", 1, "mixed: auditors exporting the site")
+	fs.IntVar(&mc.producers, "producers", 1, "mixed: weld monitors sending production records (500 a request)")
 	if err := parseFlags(fs, args, stdout, stderr); err != nil {
 		return err
 	}
@@ -44,6 +55,14 @@ func cmdLoad(ctx context.Context, args []string, _ func(string) string, stdout, 
 	procID, err := cl.firstProcedure(ctx)
 	if err != nil {
 		return err
+	}
+	if *mixed {
+		if *duration <= 0 || *duration > 10*time.Minute || mc.writers < 0 || mc.pagers < 0 || mc.exporters < 0 || mc.producers < 0 ||
+			mc.writers+mc.pagers+mc.exporters+mc.producers == 0 || mc.writers+mc.pagers+mc.exporters+mc.producers > 256 {
+			return fmt.Errorf("load: want 0 < duration <= 10m and 1 to 256 workers in all")
+		}
+		auditor := &client{base: *target, token: *auditorToken, http: &http.Client{Timeout: *duration + time.Minute}}
+		return loadMixed(ctx, cl, auditor, procID, *dbURL, *duration, mc, stdout)
 	}
 	stamp := time.Now().UnixNano()
 	scenarios := []struct {

@@ -1,0 +1,9 @@
+package lab_test
+
+import (
+	"testing"
+
+	"etchlog/db/dbtest"
+)
+
+func TestMain(m *testing.M) { dbtest.Main(m) }

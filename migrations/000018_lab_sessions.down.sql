@@ -1,0 +1,2 @@
+DROP TABLE lab_sign_outs;
+DROP TABLE lab_sessions;
