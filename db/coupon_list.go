@@ -46,9 +46,14 @@ func (l *listedLeaves) refresh(ctx context.Context, tx pgx.Tx, site string) erro
 	const ids = `SELECT unnest($2::uuid[]) UNION SELECT coupon_id FROM measurements WHERE site = $1 AND id = ANY($3::uuid[])`
 	b := &pgx.Batch{}
 	b.Queue(`DELETE FROM coupon_list WHERE site = $1 AND id IN (`+ids+`)`, site, l.coupons, l.sections)
-	b.Queue(`INSERT INTO coupon_list SELECT * FROM coupon_list_derived WHERE site = $1 AND id IN (`+ids+`)`, site, l.coupons, l.sections)
+	b.Queue(`INSERT INTO coupon_list (`+couponListColumns+`) SELECT `+couponListColumns+
+		` FROM coupon_list_derived WHERE site = $1 AND id IN (`+ids+`)`, site, l.coupons, l.sections)
 	return tx.SendBatch(ctx, b).Close()
 }
+
+// couponListColumns are coupon_list's columns, named (a column the table or
+// the view lacks fails every list and every sequencer pass).
+var couponListColumns = coupons.columns() + ", leaf_index, welded_month, verdict"
 
 // verdicts are the values of coupon_list.verdict, the acceptance of a
 // coupon's current logged sections: none, measured with none rejected, at
@@ -115,12 +120,12 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 		f.add("k.welded_month = m.month::date AND k.verdict = a.verdict")
 		f.args = append(f.args, monthOf(cf.WeldedFrom, 0), monthOf(cf.WeldedTo, -1), accepted, limit)
 		n := len(f.args)
-		keys = `SELECT b.site, b.id, b.revision, b.leaf_index
+		keys = `SELECT b.*
 			FROM (SELECT min(welded_month) AS lo, max(welded_month) AS hi FROM coupon_list WHERE site = $1) span
 			CROSS JOIN generate_series(greatest(span.lo, $` + strconv.Itoa(n-3) + `::date), least(span.hi, $` + strconv.Itoa(n-2) +
 			`::date), interval '1 month') m(month)
 			CROSS JOIN unnest($` + strconv.Itoa(n-1) + `::text[]) a(verdict)
-			CROSS JOIN LATERAL (SELECT k.site, k.id, k.revision, k.leaf_index FROM coupon_list k
+			CROSS JOIN LATERAL (SELECT ` + prefixed("k.", couponListColumns) + ` FROM coupon_list k
 				WHERE k.site = $1 AND k.leaf_index >= $2 AND ` + strings.Join(f.conds, " AND ") + `
 				ORDER BY k.leaf_index LIMIT $` + strconv.Itoa(n) + `) b
 			ORDER BY b.leaf_index LIMIT $` + strconv.Itoa(n)
@@ -130,22 +135,23 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 		if len(f.conds) > 0 {
 			where = " AND " + strings.Join(f.conds, " AND ")
 		}
-		keys = `SELECT k.site, k.id, k.revision, k.leaf_index FROM coupon_list k
+		keys = `SELECT ` + prefixed("k.", couponListColumns) + ` FROM coupon_list k
 			WHERE k.site = $1 AND k.leaf_index >= $2` + where + `
 			ORDER BY k.leaf_index LIMIT $` + strconv.Itoa(len(f.args))
 	}
-	// One statement reads the page with what each coupon inherits from its
-	// procedure (latest revision), else its qualification record.
-	sql := `SELECT ` + prefixed("cur.", coupons.columns()) + `, k.leaf_index,
+	// One statement reads the page, from coupon_list alone, with what each
+	// coupon inherits from its procedure (latest revision), else its
+	// qualification record.
+	sql := `SELECT ` + prefixed("k.", coupons.columns()) + `, k.leaf_index,
 			coalesce(p.process, r.process, '') AS inherited_process,
 			coalesce(p.wire_diameter_mm, r.wire_diameter_mm) AS inherited_wire_diameter_mm,
 			coalesce(p.shielding_gas, r.shielding_gas, '') AS inherited_shielding_gas,
 			coalesce(p.polarity, r.polarity) AS inherited_polarity
-		FROM (` + keys + `) k JOIN coupons cur ON cur.id = k.id AND cur.revision = k.revision AND cur.site = k.site
+		FROM (` + keys + `) k
 		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas, polarity FROM procedures
-			WHERE site = $1 AND id = cur.procedure_id ORDER BY revision DESC LIMIT 1) p ON true
+			WHERE site = $1 AND id = k.procedure_id ORDER BY revision DESC LIMIT 1) p ON true
 		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas, polarity FROM qualification_records
-			WHERE site = $1 AND id = cur.qualification_record_id ORDER BY revision DESC LIMIT 1) r ON true
+			WHERE site = $1 AND id = k.qualification_record_id ORDER BY revision DESC LIMIT 1) r ON true
 		ORDER BY k.leaf_index`
 	// A page shows every write acknowledged before it was asked for: the
 	// newest pending leaf is read in the same round trip as the page, and
@@ -205,8 +211,8 @@ func monthOf(d *Date, days int) *Date {
 // returns each difference; none means the list key is derived exactly.
 func (s *Store) RecheckCouponList(ctx context.Context, site string) ([]string, error) {
 	rows, _ := s.pool.Query(ctx, `
-		WITH want AS (SELECT * FROM coupon_list_derived WHERE site = $1),
-		     have AS (SELECT * FROM coupon_list WHERE site = $1)
+		WITH want AS (SELECT `+couponListColumns+` FROM coupon_list_derived WHERE site = $1),
+		     have AS (SELECT `+couponListColumns+` FROM coupon_list WHERE site = $1)
 		SELECT format('coupon %s: %s', coalesce(w.id, h.id), CASE WHEN h.id IS NULL THEN 'not in coupon_list'
 		              WHEN w.id IS NULL THEN 'in coupon_list, not logged' ELSE 'differs: ' || to_jsonb(h)::text END)
 		FROM want w FULL JOIN have h ON h.id = w.id

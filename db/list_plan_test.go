@@ -101,7 +101,7 @@ func seqScans(node map[string]any) []string {
 // every record the site keeps. The plan is PostgreSQL's own choice under
 // default settings (no enable_* switched off).
 func TestListPlansUseIndexes(t *testing.T) {
-	ctx, cancel := context.WithTimeout(context.Background(), 2*time.Minute)
+	ctx, cancel := context.WithTimeout(context.Background(), 4*time.Minute)
 	defer cancel()
 	dbURL, _, _ := dbtest.Fresh(t)
 	conn, err := pgx.Connect(ctx, dbURL)

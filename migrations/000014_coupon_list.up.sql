@@ -2,17 +2,16 @@
 -- Lists page in log order; the log index lives in log_leaves, the filtered
 -- columns in coupons, so a filtered page used to walk the site's leaves in
 -- order and look each coupon up. coupon_list holds one row per logged
--- coupon: its latest logged revision, that revision's log index, the filter
--- columns, and the verdict of its current logged sections ('' none,
--- 'accept' measured with no rejected section, 'reject' at least one).
+-- coupon: its latest logged revision as stored (every column), that
+-- revision's log index, its welding month, and the verdict of its current
+-- logged sections ('' none, 'accept' measured with no rejected section,
+-- 'reject' at least one). A page reads this table alone.
 -- The log sequencer rewrites a coupon's row in the transaction that gives
 -- the coupon's (or one of its sections') leaf its index, from
 -- coupon_list_derived; the table is derived from records and log and
 -- Store.RecheckCouponList compares it with the view.
 CREATE VIEW coupon_list_derived AS
-SELECT lg.site, lg.record_id AS id, lg.leaf_index, c.revision, c.voided, c.procedure_id,
-       c.qualification_record_id, c.welder_id, c.coupon_mark, c.welded_on,
-       date_trunc('month', c.welded_on)::date AS welded_month,
+SELECT c.*, lg.leaf_index, date_trunc('month', c.welded_on)::date AS welded_month,
        (   SELECT CASE WHEN count(*) = 0 THEN '' WHEN bool_or(cm.acceptance = 'reject') THEN 'reject' ELSE 'accept' END
            FROM (SELECT DISTINCT h.id FROM measurements h WHERE h.coupon_id = lg.record_id AND h.site = lg.site) h
            CROSS JOIN LATERAL (
@@ -26,21 +25,15 @@ FROM (SELECT DISTINCT ON (site, record_id) site, record_id, revision, leaf_index
       ORDER BY site, record_id, revision DESC) lg
 JOIN coupons c ON c.site = lg.site AND c.id = lg.record_id AND c.revision = lg.revision;
 
-CREATE TABLE coupon_list (
-    site                    text    NOT NULL,
-    id                      uuid    NOT NULL,
-    leaf_index              bigint  NOT NULL,
-    revision                integer NOT NULL,
-    voided                  boolean NOT NULL,
-    procedure_id            uuid,
-    qualification_record_id uuid,
-    welder_id               text    NOT NULL,
-    coupon_mark             text    NOT NULL,
-    welded_on               date    NOT NULL,
-    welded_month            date    NOT NULL,
-    verdict                 text    NOT NULL CHECK (verdict IN ('', 'accept', 'reject')),
-    PRIMARY KEY (site, id)
-);
+-- The table has the view's columns: the coupon revision as stored (a page
+-- reads nothing else), then the list keys.
+CREATE TABLE coupon_list AS SELECT * FROM coupon_list_derived WITH NO DATA;
+ALTER TABLE coupon_list ADD PRIMARY KEY (site, id),
+    ALTER COLUMN leaf_index SET NOT NULL,
+    ALTER COLUMN welded_month SET NOT NULL,
+    ALTER COLUMN verdict SET NOT NULL,
+    ADD CONSTRAINT coupon_list_verdict_check CHECK (verdict IN ('', 'accept', 'reject'));
+
 -- Coupons logged before this migration (filled before the indexes exist:
 -- one sort per index instead of a million insertions into each).
 INSERT INTO coupon_list SELECT * FROM coupon_list_derived;
