@@ -63,8 +63,9 @@ func BenchmarkCouponListScale(b *testing.B) {
 		{"procedure_id", db.CouponFilter{ProcedureID: &p}, "", "procedure_id = $2 ORDER BY welded_on", []any{p}},
 		{"procedure_id/deep", db.CouponFilter{ProcedureID: &p}, deep, "procedure_id = $2 ORDER BY welded_on", []any{p}},
 		{"welder_id", db.CouponFilter{WelderID: "W17"}, "", "welder_id = $2 ORDER BY welded_on", []any{"W17"}},
-		{"procedure_id+welder_id", db.CouponFilter{ProcedureID: &p, WelderID: "W17"}, "",
-			"procedure_id = $2 AND welder_id = $3 ORDER BY welded_on", []any{p, "W17"}},
+		// Coupon 19 has procedure 7 and welder 89 (benchSite: procedure 13i mod 60, welder 31i mod 250).
+		{"procedure_id+welder_id", db.CouponFilter{ProcedureID: &p, WelderID: "W89"}, "",
+			"procedure_id = $2 AND welder_id = $3 ORDER BY welded_on", []any{p, "W89"}},
 		{"welded_from+to(late week)", db.CouponFilter{WeldedFrom: day(n * 8 / 10), WeldedTo: day(n*8/10 + n/300)}, "",
 			"welded_on >= $2 AND welded_on < $3 ORDER BY welded_on", []any{day(n * 8 / 10), day(n*8/10 + n/300)}},
 		{"welded_from(last tenth)", db.CouponFilter{WeldedFrom: day(n * 9 / 10)}, "",

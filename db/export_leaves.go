@@ -25,6 +25,7 @@ type leafStream struct {
 	known bool
 	buf   []logfmt.ExportLeaf
 	done  bool
+	rows  *rowWindow // the kind's rows, read beside the leaves; nil: joined in the cursor
 }
 
 const leafFetch = 1000
@@ -55,14 +56,26 @@ func exportLeaves(ctx context.Context, tx pgx.Tx, site string, emit func(string,
 		st.known = err == nil
 		q := `SELECT lg.leaf_index, lg.kind, lg.version, lg.record_id, lg.revision, lg.leaf_hash,
 			lg.actor, lg.action, lg.reason, lg.at`
-		if st.known {
+		versions := 0
+		for _, o := range kinds {
+			if o.Kind == kv.Kind {
+				versions++
+			}
+		}
+		switch {
+		case st.known && versions == 1: // the table's rows are all this version's
+			if st.rows, err = newRowWindow(ctx, tx, st.k, site, st.name+"_rows"); err != nil {
+				return 0, err
+			}
+			q += ", true FROM log_leaves lg"
+		case st.known:
 			cols := make([]string, len(st.k.Columns))
 			for j, c := range st.k.Columns {
 				cols[j] = "r." + c
 			}
 			q += ", r.id IS NOT NULL, " + strings.Join(cols, ", ") + " FROM log_leaves lg LEFT JOIN " + st.k.Table +
 				" r ON r.site = lg.site AND r.id = lg.record_id AND " + st.k.revisionExpr("r") + " = lg.revision"
-		} else {
+		default:
 			q += ", false FROM log_leaves lg"
 		}
 		q += " WHERE lg.site = " + quoteLiteral(site) + " AND lg.kind = " + quoteLiteral(kv.Kind) +
@@ -121,6 +134,7 @@ func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
 		switch {
 		case !st.known:
 			l.Missing = "this etchlog does not know the fact kind " + l.Kind
+		case st.rows != nil: // read below, once this FETCH is done
 		case len(raw[10]) != 1 || raw[10][0] == 0:
 			l.Missing = "no such row at the site"
 		default:
@@ -135,7 +149,23 @@ func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
 	if err := rows.Err(); err != nil {
 		return err
 	}
+	rows.Close()
 	st.done = len(st.buf) == 0
+	if st.rows != nil {
+		for i := range st.buf {
+			l := &st.buf[i]
+			id, err := uuid.Parse(l.RecordID)
+			if err != nil {
+				return err
+			}
+			if l.Fields, err = st.rows.fields(ctx, tx, id, l.Revision); err != nil {
+				return err
+			}
+			if l.Fields == nil {
+				l.Missing = "no such row at the site"
+			}
+		}
+	}
 	return nil
 }
 
