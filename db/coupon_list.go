@@ -120,15 +120,19 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 		f.add("k.welded_month = m.month::date AND k.verdict = a.verdict")
 		f.args = append(f.args, monthOf(cf.WeldedFrom, 0), monthOf(cf.WeldedTo, -1), accepted, limit)
 		n := len(f.args)
-		keys = `SELECT b.*
-			FROM (SELECT min(welded_month) AS lo, max(welded_month) AS hi FROM coupon_list WHERE site = $1) span
-			CROSS JOIN generate_series(greatest(span.lo, $` + strconv.Itoa(n-3) + `::date), least(span.hi, $` + strconv.Itoa(n-2) +
+		// The walk reads index entries only (the month index carries the
+		// day, the void mark and the id); the page's rows are read by key.
+		keys = `SELECT ` + prefixed("c.", couponListColumns) + `
+			FROM (SELECT b.id, b.leaf_index
+				FROM (SELECT min(welded_month) AS lo, max(welded_month) AS hi FROM coupon_list WHERE site = $1) span
+				CROSS JOIN generate_series(greatest(span.lo, $` + strconv.Itoa(n-3) + `::date), least(span.hi, $` + strconv.Itoa(n-2) +
 			`::date), interval '1 month') m(month)
-			CROSS JOIN unnest($` + strconv.Itoa(n-1) + `::text[]) a(verdict)
-			CROSS JOIN LATERAL (SELECT ` + prefixed("k.", couponListColumns) + ` FROM coupon_list k
-				WHERE k.site = $1 AND k.leaf_index >= $2 AND ` + strings.Join(f.conds, " AND ") + `
-				ORDER BY k.leaf_index LIMIT $` + strconv.Itoa(n) + `) b
-			ORDER BY b.leaf_index LIMIT $` + strconv.Itoa(n)
+				CROSS JOIN unnest($` + strconv.Itoa(n-1) + `::text[]) a(verdict)
+				CROSS JOIN LATERAL (SELECT k.id, k.leaf_index FROM coupon_list k
+					WHERE k.site = $1 AND k.leaf_index >= $2 AND ` + strings.Join(f.conds, " AND ") + `
+					ORDER BY k.leaf_index LIMIT $` + strconv.Itoa(n) + `) b
+				ORDER BY b.leaf_index LIMIT $` + strconv.Itoa(n) + `) b
+			JOIN coupon_list c ON c.site = $1 AND c.id = b.id`
 	} else {
 		f.args = append(f.args, limit)
 		where := ""

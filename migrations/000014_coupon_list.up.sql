@@ -47,7 +47,7 @@ CREATE INDEX coupon_list_qualification_record ON coupon_list (site, qualificatio
 CREATE INDEX coupon_list_welder ON coupon_list (site, welder_id, leaf_index);
 CREATE INDEX coupon_list_mark ON coupon_list (site, coupon_mark, leaf_index);
 CREATE INDEX coupon_list_verdict ON coupon_list (site, verdict, leaf_index);
-CREATE INDEX coupon_list_month ON coupon_list (site, welded_month, verdict, leaf_index);
+CREATE INDEX coupon_list_month ON coupon_list (site, welded_month, verdict, leaf_index) INCLUDE (welded_on, voided, id);
 -- Derived: the sequencer deletes a coupon's row and writes it again.
 GRANT DELETE ON coupon_list TO etchlog_app;
 
