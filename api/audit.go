@@ -1,6 +1,7 @@
 package api
 
 import (
+	"context"
 	"encoding/base64"
 	"net/http"
 	"strconv"
@@ -12,10 +13,7 @@ import (
 
 // handleAuditEvents lists the site's log in index order, after an opaque cursor.
 func (s *Server) handleAuditEvents(c echo.Context) error {
-	limit, err := queryInt(c, "limit")
-	if err != nil {
-		return err
-	}
+	var err error
 	f := db.AuditFilter{Entity: c.QueryParam("entity"), Actor: c.QueryParam("actor")}
 	if f.EntityID, err = queryUUID(c, "entity_id"); err != nil {
 		return err
@@ -26,11 +24,10 @@ func (s *Server) handleAuditEvents(c echo.Context) error {
 	if f.To, err = queryTime(c, "to"); err != nil {
 		return err
 	}
-	p, err := s.store.AuditEvents(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)
-	if err != nil {
-		return err
-	}
-	return c.JSON(http.StatusOK, pageOf(p))
+	site := actorOf(c).Site
+	return answerList(s, c, "audit-events", func(ctx context.Context, cursor string, limit int) (db.Page[db.LogEntry], error) {
+		return s.store.AuditEvents(ctx, site, f, cursor, limit)
+	})
 }
 
 // handleAuditVerify checks the site's log, records and flags; a checkpoint

@@ -1,6 +1,7 @@
 package api
 
 import (
+	"context"
 	"net/http"
 	"strconv"
 	"strings"
@@ -139,10 +140,6 @@ func (s *Server) handleCalibrationGet(c echo.Context) error {
 
 // handleCalibrationList answers GET /v1/calibrations.
 func (s *Server) handleCalibrationList(c echo.Context) error {
-	limit, err := queryInt(c, "limit")
-	if err != nil {
-		return err
-	}
 	f := db.CalibrationFilter{Model: db.CalibrationModel(c.QueryParam("model")), Process: c.QueryParam("process"),
 		JointType: c.QueryParam("joint_type"), ActiveOnly: c.QueryParam("active") == "true"}
 	if c.QueryParams().Has("shielding_gas") {
@@ -155,11 +152,10 @@ func (s *Server) handleCalibrationList(c echo.Context) error {
 		}
 		f.WireDiameterMM = &d
 	}
-	p, err := s.store.Calibrations(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)
-	if err != nil {
-		return err
-	}
-	return c.JSON(http.StatusOK, pageOf(p))
+	site := actorOf(c).Site
+	return answerList(s, c, "calibrations", func(ctx context.Context, cursor string, limit int) (db.Page[db.Calibration], error) {
+		return s.store.Calibrations(ctx, site, f, cursor, limit)
+	})
 }
 
 // activationIn is the body of an activation: why this calibration is to be used.

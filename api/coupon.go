@@ -1,9 +1,9 @@
 package api
 
 import (
+	"context"
 	"fmt"
 	"math"
-	"net/http"
 	"slices"
 
 	"github.com/labstack/echo/v4"
@@ -94,10 +94,7 @@ func (s *Server) couponResource() resource[couponIn, db.CouponData, db.Coupon] {
 }
 
 func (s *Server) handleCouponList(c echo.Context) error {
-	limit, err := queryInt(c, "limit")
-	if err != nil {
-		return err
-	}
+	var err error
 	f := db.CouponFilter{WelderID: c.QueryParam("welder_id"), CouponMark: c.QueryParam("coupon_mark"), Acceptance: c.QueryParam("acceptance"),
 		IncludeVoided: c.QueryParam("include_voided") == "true"}
 	if f.ProcedureID, err = queryUUID(c, "procedure_id"); err != nil {
@@ -112,9 +109,8 @@ func (s *Server) handleCouponList(c echo.Context) error {
 	if f.WeldedTo, err = queryDay(c, "welded_to"); err != nil {
 		return err
 	}
-	p, err := s.store.Coupons(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)
-	if err != nil {
-		return err
-	}
-	return c.JSON(http.StatusOK, pageOf(p))
+	site := actorOf(c).Site
+	return answerList(s, c, "coupons", func(ctx context.Context, cursor string, limit int) (db.Page[db.Coupon], error) {
+		return s.store.Coupons(ctx, site, f, cursor, limit)
+	})
 }

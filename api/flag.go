@@ -1,6 +1,7 @@
 package api
 
 import (
+	"context"
 	"net/http"
 
 	"github.com/labstack/echo/v4"
@@ -9,12 +10,12 @@ import (
 )
 
 func (s *Server) handleFlagList(c echo.Context) error {
-	limit, err := queryInt(c, "limit")
-	if err != nil {
-		return err
-	}
+	var err error
 	f := db.FlagFilter{SubjectKind: c.QueryParam("subject_kind"), Kind: c.QueryParam("kind"), Variable: c.QueryParam("variable")}
 	if f.ProcedureID, err = queryUUID(c, "procedure_id"); err != nil {
+		return err
+	}
+	if f.SubjectID, err = queryUUID(c, "subject_id"); err != nil {
 		return err
 	}
 	if f.From, err = queryTime(c, "from"); err != nil {
@@ -23,11 +24,10 @@ func (s *Server) handleFlagList(c echo.Context) error {
 	if f.To, err = queryTime(c, "to"); err != nil {
 		return err
 	}
-	p, err := s.store.Flags(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)
-	if err != nil {
-		return err
-	}
-	return c.JSON(http.StatusOK, pageOf(p))
+	site := actorOf(c).Site
+	return answerList(s, c, "flags", func(ctx context.Context, cursor string, limit int) (db.Page[db.Flag], error) {
+		return s.store.Flags(ctx, site, f, cursor, limit)
+	})
 }
 
 func (s *Server) handleFlagSummary(c echo.Context) error {

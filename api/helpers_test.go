@@ -136,12 +136,29 @@ func (e *testEnv) doAuth(method, path, auth string, body any) reply {
 		}
 		rd = bytes.NewReader(js)
 	}
+	ctype := ""
+	if rd != nil {
+		ctype = "application/json"
+	}
+	return e.sendTyped(method, path, auth, ctype, rd)
+}
+
+// doType sends body as is with the given Content-Type, as the user holding
+// role, with the checks of do.
+func (e *testEnv) doType(method, path, role, ctype, body string) reply {
+	e.t.Helper()
+	return e.sendTyped(method, path, "Bearer "+e.tokens[role], ctype, strings.NewReader(body))
+}
+
+// sendTyped is doAuth's request with its Content-Type ("" sends none).
+func (e *testEnv) sendTyped(method, path, auth, ctype string, rd io.Reader) reply {
+	e.t.Helper()
 	req, err := http.NewRequest(method, e.url+path, rd)
 	if err != nil {
 		e.t.Fatal(err)
 	}
-	if rd != nil {
-		req.Header.Set("Content-Type", "application/json")
+	if ctype != "" {
+		req.Header.Set("Content-Type", ctype)
 	}
 	if auth != "" {
 		req.Header.Set("Authorization", auth)

@@ -84,6 +84,19 @@ func roundAnswer(v float64) float64 {
 // order, with every non-integer number rounded and, when inch is set, the
 // quantities converted.
 func rewriteAnswer(doc []byte, inch bool) ([]byte, error) {
+	v, err := answerTree(doc, inch)
+	if err != nil {
+		return nil, err
+	}
+	var out bytes.Buffer
+	writeValue(&out, v)
+	return out.Bytes(), nil
+}
+
+// answerTree reads one JSON document into ordered objects, arrays and
+// json.Numbers, its quantities converted when inch is set (numbers are
+// rounded when written, by writeValue).
+func answerTree(doc []byte, inch bool) (any, error) {
 	dec := json.NewDecoder(bytes.NewReader(doc))
 	dec.UseNumber()
 	v, err := readValue(dec)
@@ -96,9 +109,7 @@ func rewriteAnswer(doc []byte, inch bool) ([]byte, error) {
 	if inch {
 		v = toInchPound(v)
 	}
-	var out bytes.Buffer
-	writeValue(&out, v)
-	return out.Bytes(), nil
+	return v, nil
 }
 
 // object is a JSON object with its members in order.

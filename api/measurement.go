@@ -1,8 +1,8 @@
 package api
 
 import (
+	"context"
 	"fmt"
-	"net/http"
 
 	"github.com/google/uuid"
 
@@ -57,10 +57,7 @@ func (s *Server) measurementResource() resource[measurementIn, db.MeasurementDat
 }
 
 func (s *Server) handleMeasurementList(c echo.Context) error {
-	limit, err := queryInt(c, "limit")
-	if err != nil {
-		return err
-	}
+	var err error
 	f := db.MeasurementFilter{Acceptance: c.QueryParam("acceptance"), IncludeVoided: c.QueryParam("include_voided") == "true"}
 	if c.Path() == couponMeasurementsPath {
 		id, err := pathID(c)
@@ -74,11 +71,10 @@ func (s *Server) handleMeasurementList(c echo.Context) error {
 	} else if f.CouponID, err = queryUUID(c, "coupon_id"); err != nil {
 		return err
 	}
-	p, err := s.store.Measurements(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)
-	if err != nil {
-		return err
-	}
-	return c.JSON(http.StatusOK, pageOf(p))
+	site := actorOf(c).Site
+	return answerList(s, c, "measurements", func(ctx context.Context, cursor string, limit int) (db.Page[db.Measurement], error) {
+		return s.store.Measurements(ctx, site, f, cursor, limit)
+	})
 }
 
 // couponExists answers 404 when the coupon named by the path is not at the

@@ -35,6 +35,9 @@ type Problem struct {
 	// Groups are, on a fit refused for too few coupons, the calibration
 	// groups that have coupons, closest to the requested one first.
 	Groups []db.GroupCount `json:"groups,omitempty"`
+	// Stream is, on a refused production stream, what it stored before the
+	// refused chunk and the line to resend from.
+	Stream *streamReport `json:"stream,omitempty"`
 }
 
 // FieldIssue names one refused request field and the reason.
@@ -99,6 +102,12 @@ func (v *issues) err() error {
 // problemFor maps any handler error to its problem body. It is the only place
 // where errors become HTTP.
 func problemFor(err error) Problem {
+	var se *streamError
+	if errors.As(err, &se) {
+		p := problemFor(se.err)
+		p.Stream = &se.report
+		return p
+	}
 	var inv *invalidError
 	var fe *db.FieldError
 	var pe *predict.InputError

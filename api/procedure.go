@@ -1,7 +1,7 @@
 package api
 
 import (
-	"net/http"
+	"context"
 
 	"github.com/labstack/echo/v4"
 
@@ -31,15 +31,10 @@ func (s *Server) procedureResource() resource[procedureIn, db.ProcedureData, db.
 }
 
 func (s *Server) handleProcedureList(c echo.Context) error {
-	limit, err := queryInt(c, "limit")
-	if err != nil {
-		return err
-	}
 	f := db.ProcedureFilter{Process: c.QueryParam("process"), Status: c.QueryParam("status"),
 		IncludeVoided: c.QueryParam("include_voided") == "true"}
-	p, err := s.store.Procedures(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)
-	if err != nil {
-		return err
-	}
-	return c.JSON(http.StatusOK, pageOf(p))
+	site := actorOf(c).Site
+	return answerList(s, c, "procedures", func(ctx context.Context, cursor string, limit int) (db.Page[db.Procedure], error) {
+		return s.store.Procedures(ctx, site, f, cursor, limit)
+	})
 }

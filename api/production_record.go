@@ -1,6 +1,7 @@
 package api
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"net/http"
@@ -70,10 +71,7 @@ func (s *Server) handleProductionCreate(c echo.Context) error {
 }
 
 func (s *Server) handleProductionList(c echo.Context) error {
-	limit, err := queryInt(c, "limit")
-	if err != nil {
-		return err
-	}
+	var err error
 	f := db.ProductionRecordFilter{WeldID: c.QueryParam("weld_id"), WelderID: c.QueryParam("welder_id"),
 		FlaggedOnly: c.QueryParam("flagged") == "true"}
 	if f.ProcedureID, err = queryUUID(c, "procedure_id"); err != nil {
@@ -85,9 +83,8 @@ func (s *Server) handleProductionList(c echo.Context) error {
 	if f.RecordedTo, err = queryTime(c, "recorded_to"); err != nil {
 		return err
 	}
-	p, err := s.store.ProductionRecords(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)
-	if err != nil {
-		return err
-	}
-	return c.JSON(http.StatusOK, pageOf(p))
+	site := actorOf(c).Site
+	return answerList(s, c, "production-records", func(ctx context.Context, cursor string, limit int) (db.Page[db.ProductionRecord], error) {
+		return s.store.ProductionRecords(ctx, site, f, cursor, limit)
+	})
 }

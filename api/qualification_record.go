@@ -1,7 +1,7 @@
 package api
 
 import (
-	"net/http"
+	"context"
 
 	"github.com/labstack/echo/v4"
 
@@ -28,10 +28,6 @@ func (s *Server) qualificationRecordResource() resource[qualificationRecordIn, d
 }
 
 func (s *Server) handleQualificationRecordList(c echo.Context) error {
-	limit, err := queryInt(c, "limit")
-	if err != nil {
-		return err
-	}
 	from, err := queryDay(c, "welded_from")
 	if err != nil {
 		return err
@@ -43,9 +39,8 @@ func (s *Server) handleQualificationRecordList(c echo.Context) error {
 	f := db.QualificationRecordFilter{Process: c.QueryParam("process"), WelderID: c.QueryParam("welder_id"),
 		Outcome: c.QueryParam("outcome"), WeldedFrom: from, WeldedTo: to,
 		IncludeVoided: c.QueryParam("include_voided") == "true"}
-	p, err := s.store.QualificationRecords(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)
-	if err != nil {
-		return err
-	}
-	return c.JSON(http.StatusOK, pageOf(p))
+	site := actorOf(c).Site
+	return answerList(s, c, "qualification-records", func(ctx context.Context, cursor string, limit int) (db.Page[db.QualificationRecord], error) {
+		return s.store.QualificationRecords(ctx, site, f, cursor, limit)
+	})
 }

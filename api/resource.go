@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"net/http"
+	"path"
 	"strconv"
 	"strings"
 	"time"
@@ -147,7 +148,7 @@ func handleGet[In input[D], D any, R any](r resource[In, D, R]) echo.HandlerFunc
 	}
 }
 
-func handleRevisions[In input[D], D any, R any](r resource[In, D, R]) echo.HandlerFunc {
+func handleRevisions[In input[D], D any, R any](s *Server, r resource[In, D, R]) echo.HandlerFunc {
 	return func(c echo.Context) error {
 		id, err := pathID(c)
 		if err != nil {
@@ -157,7 +158,7 @@ func handleRevisions[In input[D], D any, R any](r resource[In, D, R]) echo.Handl
 		if err != nil {
 			return err
 		}
-		return c.JSON(http.StatusOK, map[string]any{"items": recs})
+		return answerAll(s, c, path.Base(r.path)+"-"+id.String()+"-revisions", recs)
 	}
 }
 

@@ -27,14 +27,14 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/procedures/:id", handleGet(pr), readers},
 		{http.MethodPut, "/v1/procedures/:id", handleCorrect(s, pr), engineers},
 		{http.MethodPost, "/v1/procedures/:id/void", handleVoid(pr), engineers},
-		{http.MethodGet, "/v1/procedures/:id/revisions", handleRevisions(pr), readers},
+		{http.MethodGet, "/v1/procedures/:id/revisions", handleRevisions(s, pr), readers},
 
 		{http.MethodPost, "/v1/qualification-records", handleCreate(s, qr), engineers},
 		{http.MethodGet, "/v1/qualification-records", s.handleQualificationRecordList, readers},
 		{http.MethodGet, "/v1/qualification-records/:id", handleGet(qr), readers},
 		{http.MethodPut, "/v1/qualification-records/:id", handleCorrect(s, qr), engineers},
 		{http.MethodPost, "/v1/qualification-records/:id/void", handleVoid(qr), engineers},
-		{http.MethodGet, "/v1/qualification-records/:id/revisions", handleRevisions(qr), readers},
+		{http.MethodGet, "/v1/qualification-records/:id/revisions", handleRevisions(s, qr), readers},
 		{http.MethodPost, "/v1/procedures/:id/sign-off", s.handleSignOff(db.SignProcedure), engineers},
 		{http.MethodPost, "/v1/qualification-records/:id/sign-off", s.handleSignOff(db.SignQualificationRecord), engineers},
 
@@ -43,7 +43,7 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/coupons/:id", handleGet(cp), readers},
 		{http.MethodPut, "/v1/coupons/:id", handleCorrect(s, cp), recorders},
 		{http.MethodPost, "/v1/coupons/:id/void", handleVoid(cp), recorders},
-		{http.MethodGet, "/v1/coupons/:id/revisions", handleRevisions(cp), readers},
+		{http.MethodGet, "/v1/coupons/:id/revisions", handleRevisions(s, cp), readers},
 		{http.MethodPost, couponMeasurementsPath, handleCreate(s, ms), recorders},
 		{http.MethodGet, couponMeasurementsPath, s.handleMeasurementList, readers},
 
@@ -51,7 +51,7 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/measurements/:id", handleGet(ms), readers},
 		{http.MethodPut, "/v1/measurements/:id", handleCorrect(s, ms), recorders},
 		{http.MethodPost, "/v1/measurements/:id/void", handleVoid(ms), recorders},
-		{http.MethodGet, "/v1/measurements/:id/revisions", handleRevisions(ms), readers},
+		{http.MethodGet, "/v1/measurements/:id/revisions", handleRevisions(s, ms), readers},
 
 		{http.MethodGet, "/v1/audit/events", s.handleAuditEvents, readers},
 		{http.MethodGet, "/v1/audit/verify", s.handleAuditVerify, readers},
@@ -70,6 +70,7 @@ func (s *Server) routes() error {
 		{http.MethodGet, "/v1/procedures/:id/flag-summary", s.handleFlagSummary, readers},
 		{http.MethodPost, "/v1/production-records", s.handleProductionCreate, recorders},
 		{http.MethodGet, "/v1/production-records", s.handleProductionList, readers},
+		{http.MethodPost, streamPath, s.handleProductionStream, recorders},
 		{http.MethodGet, "/v1/flags", s.handleFlagList, readers},
 		// end of rule sets, ranges and flags
 		{http.MethodGet, "/v1/export", s.handleExport, readers},
@@ -89,6 +90,11 @@ func (s *Server) routes() error {
 		{http.MethodPost, "/v1/inverse/hold-penetration", s.handleInverseHold, readers},
 		{http.MethodPost, "/v1/inverse/penetration", s.handleInversePenetration, readers},
 		{http.MethodPost, "/v1/parameter-window", s.handleWindow, readers},
+		{http.MethodPost, "/v1/coupon-plans/proposals", s.handleCouponPlanProposals, engineers},
+		{http.MethodPost, "/v1/coupon-plans", s.handleCouponPlanCreate, engineers},
+		{http.MethodGet, "/v1/coupon-plans/:id", s.handleCouponPlanGet, readers},
+		{http.MethodGet, "/v1/coupon-plans/:id/sheet", s.handleCouponPlanSheet, readers},
+		{http.MethodGet, "/v1/drift", s.handleDrift, readers},
 		// end of predictions and calibrations
 	} {
 		conform, err := s.conformTo(r.method, r.path)

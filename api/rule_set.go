@@ -95,7 +95,7 @@ func (s *Server) handleRuleSetList(c echo.Context) error {
 	if err != nil {
 		return err
 	}
-	return c.JSON(http.StatusOK, pageOf(db.Page[db.RuleSet]{Items: sets}))
+	return answerAll(s, c, "rule-sets", sets)
 }
 
 func (s *Server) handleRuleSetGet(c echo.Context) error {

@@ -59,7 +59,9 @@ func New(store *db.Store, opt Options) (*Server, error) {
 	e.Use(middleware.RequestID())
 	e.Use(middleware.Recover())
 	e.Use(s.accessLog)
-	e.Use(middleware.BodyLimit(opt.BodyLimit))
+	// A production stream has no length limit: it is read a line at a time.
+	e.Use(middleware.BodyLimitWithConfig(middleware.BodyLimitConfig{Limit: opt.BodyLimit,
+		Skipper: func(c echo.Context) bool { return c.Path() == streamPath }}))
 	e.Use(s.guard)
 	if err := s.routes(); err != nil {
 		return nil, err

@@ -1,6 +1,7 @@
 package api
 
 import (
+	"context"
 	"net/http"
 
 	"github.com/labstack/echo/v4"
@@ -44,20 +45,15 @@ func (s *Server) handleSignOff(kind string) echo.HandlerFunc {
 }
 
 func (s *Server) handleSignOffList(c echo.Context) error {
-	limit, err := queryInt(c, "limit")
-	if err != nil {
-		return err
-	}
 	rid, err := queryUUID(c, "record_id")
 	if err != nil {
 		return err
 	}
 	f := db.SignOffFilter{RecordKind: c.QueryParam("record_kind"), RecordID: rid, SignedBy: c.QueryParam("signed_by")}
-	p, err := s.store.SignOffs(c.Request().Context(), actorOf(c).Site, f, c.QueryParam("cursor"), limit)
-	if err != nil {
-		return err
-	}
-	return c.JSON(http.StatusOK, pageOf(p))
+	site := actorOf(c).Site
+	return answerList(s, c, "sign-offs", func(ctx context.Context, cursor string, limit int) (db.Page[db.SignOff], error) {
+		return s.store.SignOffs(ctx, site, f, cursor, limit)
+	})
 }
 
 func (s *Server) handleSignOffGet(c echo.Context) error {

@@ -190,12 +190,20 @@ func bind(c echo.Context, v any) error {
 	if err != nil {
 		return err
 	}
-	body, issues, sent := storedSpellings(body, reflect.TypeOf(v).Elem())
+	sent, err := decodeBody(body, v)
 	if len(sent) > 0 {
 		c.Set(sentKey, sent)
 	}
+	return err
+}
+
+// decodeBody is bind over a body already read: the quantities rewritten into
+// their stored spellings, then decoded strictly into v. It returns what the
+// rewriting took from the request's own spellings (for refusals in its words).
+func decodeBody(body []byte, v any) (sentAs, error) {
+	body, issues, sent := storedSpellings(body, reflect.TypeOf(v).Elem())
 	if issues != nil {
-		return &invalidError{status: http.StatusBadRequest, issues: issues}
+		return sent, &invalidError{status: http.StatusBadRequest, issues: issues}
 	}
 	dec := json.NewDecoder(bytes.NewReader(body))
 	dec.DisallowUnknownFields()
@@ -204,18 +212,18 @@ func bind(c echo.Context, v any) error {
 		var se *json.SyntaxError
 		switch {
 		case errors.As(err, &ute):
-			return badRequest(ute.Field, "wrong type: want "+ute.Type.String())
+			return sent, badRequest(ute.Field, "wrong type: want "+ute.Type.String())
 		case errors.As(err, &se):
-			return badRequest("body", "malformed JSON: "+se.Error())
+			return sent, badRequest("body", "malformed JSON: "+se.Error())
 		case strings.HasPrefix(err.Error(), "json: unknown field "):
-			return badRequest(strings.Trim(strings.TrimPrefix(err.Error(), "json: unknown field "), `"`), "unknown field")
+			return sent, badRequest(strings.Trim(strings.TrimPrefix(err.Error(), "json: unknown field "), `"`), "unknown field")
 		}
-		return badRequest(failingField(body, v), err.Error())
+		return sent, badRequest(failingField(body, v), err.Error())
 	}
 	if dec.More() {
-		return badRequest("body", "trailing data after the JSON value")
+		return sent, badRequest("body", "trailing data after the JSON value")
 	}
-	return nil
+	return sent, nil
 }
 
 // failingField names the top-level field of a JSON object body that does not

@@ -118,7 +118,7 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 	var keys string
 	if byMonth {
 		f.add("k.welded_month = m.month::date AND k.verdict = a.verdict")
-		f.args = append(f.args, monthOf(cf.WeldedFrom, 0), monthOf(cf.WeldedTo, -1), accepted, limit)
+		f.args = append(f.args, firstOfMonth(cf.WeldedFrom, 0), firstOfMonth(cf.WeldedTo, -1), accepted, limit)
 		n := len(f.args)
 		// The walk reads index entries only (the month index carries the
 		// day, the void mark and the id); the page's rows are read by key.
@@ -201,8 +201,8 @@ type listedCoupon struct {
 	Polarity       *string  `db:"inherited_polarity"`
 }
 
-// monthOf is the first day of the month of d shifted by days (nil: no bound).
-func monthOf(d *Date, days int) *Date {
+// firstOfMonth is the first day of the month of d shifted by days (nil: no bound).
+func firstOfMonth(d *Date, days int) *Date {
 	if d == nil {
 		return nil
 	}

@@ -9,6 +9,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"sync"
 	"sync/atomic"
 	"time"
 
@@ -74,6 +75,9 @@ type Store struct {
 	now     func() time.Time
 	key     atomic.Pointer[logfmt.Signer] // signs checkpoints, tags pending leaves
 	kick    chan struct{}                 // a write committed: the sequencer may have work
+	// months are the production months (UTC, first day) known to have a
+	// partition, so a write asks the database only about a month it has not seen.
+	months sync.Map
 }
 
 // LongReadConns is how many connections long reads (export, audit verify)

@@ -62,9 +62,9 @@ func earlierWeld(ctx context.Context, q querier, site string, recs []ProductionR
 	var ord int
 	var id uuid.UUID
 	err := q.QueryRow(ctx, `
-		SELECT b.ord - 1, p.id
+		SELECT b.ord - 1, p.record_id
 		FROM unnest($2::uuid[], $3::text[]) WITH ORDINALITY AS b(procedure_id, weld_id, ord)
-		JOIN production_records p ON p.site = $1 AND p.procedure_id = b.procedure_id AND p.weld_id = b.weld_id
+		JOIN production_welds p ON p.site = $1 AND p.procedure_id = b.procedure_id AND p.weld_id = b.weld_id
 		ORDER BY b.ord LIMIT 1`, site, procs, welds).Scan(&ord, &id)
 	if errors.Is(err, pgx.ErrNoRows) {
 		return -1, uuid.Nil, nil
@@ -72,8 +72,8 @@ func earlierWeld(ctx context.Context, q querier, site string, recs []ProductionR
 	return ord, id, err
 }
 
-// duplicateWeld is the refusal of a batch whose row i repeats a stored weld id.
-func duplicateWeld(recs []ProductionRecordData, i int, id uuid.UUID) error {
-	return &DuplicateError{Field: fmt.Sprintf("records[%d].weld_id", i), ExistingID: id,
+// duplicateWeld is the refusal of a batch whose row i (named by row) repeats a stored weld id.
+func duplicateWeld(recs []ProductionRecordData, i int, id uuid.UUID, row func(int) string) error {
+	return &DuplicateError{Field: row(i) + ".weld_id", ExistingID: id,
 		Reason: fmt.Sprintf("weld %q of this procedure is already logged as production record %s", recs[i].WeldID, id)}
 }

@@ -135,10 +135,12 @@ func init() {
 			"site", "id", "created_at", "created_by", "record_count", "first_id", "last_id", "procedure_ids"}},
 		{Kind: "user", Version: 1, Table: "api_users", Revisioned: true, Columns: withMeta(
 			"name", "role", "token_sha256")},
-		{Kind: "production_record", Version: 1, Table: "production_records", Columns: []string{
+		{Kind: "production_record", Version: 1, Table: "production_records_all", Columns: []string{
 			"site", "id", "batch_id", "procedure_id", "weld_id", "welder_id", "recorded_at", "current_a",
 			"voltage_v", "travel_speed_mm_s", "wire_feed_speed_m_min", "ctwd_mm", "created_at", "created_by"}},
 	} {
+		// Production records are read for encoding through
+		// production_records_all: the live months and the detached ones.
 		RegisterLeafKind(k)
 	}
 }

@@ -87,6 +87,8 @@ var seedStatements = []string{
 	FROM generate_series(0, @coupons::int - 1, 2) g`,
 	`INSERT INTO production_batches (site, id, created_at, created_by, record_count, first_id, last_id, procedure_ids)
 	SELECT @site, md5(@site::text || 'batch')::uuid, now(), 'seed', @production, md5(@site::text || 'r0')::uuid, md5(@site::text || 'r0')::uuid, '{}'`,
+	`SELECT etchlog_production_month((date '2019-01-01' + m * interval '1 month')::date)
+	FROM generate_series(0, (@production::int / 48 / 28) + 1) m`,
 	`INSERT INTO production_records (site, id, batch_id, procedure_id, weld_id, welder_id, recorded_at,
 		current_a, voltage_v, travel_speed_mm_s, wire_feed_speed_m_min, created_at, created_by)
 	SELECT @site, md5(@site::text || 'r' || g)::uuid, md5(@site::text || 'batch')::uuid, md5(@site::text || 'p' || (g * 13 % @procids::int))::uuid,

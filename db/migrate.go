@@ -22,7 +22,8 @@ var ErrRecordsExist = errors.New("the database holds records")
 // roll-back would destroy them.
 var recordTables = []string{"procedures", "qualification_records", "coupons", "measurements", "audit_events",
 	"calibrations", "calibration_activations", "rule_sets", "procedure_ranges", "production_batches", "production_records",
-	"api_users", "sign_offs"}
+	"production_records_detached", "production_detachments", "production_welds",
+	"api_users", "sign_offs", "coupon_plans", "coupon_plan_marks"}
 
 // Migrate applies every embedded migration that the database at url lacks
 // ("up"), as OwnerRole through the login in url. "down" rolls all of them

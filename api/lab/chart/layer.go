@@ -88,8 +88,13 @@ func (l *layer) GlyphBoxes(p *plot.Plot) []plot.GlyphBox {
 		if it.Cell {
 			continue
 		}
+		// A label sits to the right of its marker and above it: keep room for it.
+		right, top := r, r
+		if it.Label != "" {
+			right, top = r+vg.Length(6*len(it.Label)+4), r+10
+		}
 		boxes = append(boxes, plot.GlyphBox{X: p.X.Norm(it.X), Y: p.Y.Norm(it.Y),
-			Rectangle: vg.Rectangle{Min: vg.Point{X: -r, Y: -r}, Max: vg.Point{X: r, Y: r}}})
+			Rectangle: vg.Rectangle{Min: vg.Point{X: -r, Y: -r}, Max: vg.Point{X: right, Y: top}}})
 	}
 	return boxes
 }
