@@ -43,13 +43,26 @@ func (l *listedLeaves) refresh(ctx context.Context, tx pgx.Tx, site string) erro
 	if len(l.coupons) == 0 && len(l.sections) == 0 {
 		return nil
 	}
-	const ids = `SELECT unnest($2::uuid[]) UNION SELECT coupon_id FROM measurements WHERE site = $1 AND id = ANY($3::uuid[])`
+	ids := l.coupons
+	if len(l.sections) > 0 {
+		rows, _ := tx.Query(ctx, `SELECT DISTINCT coupon_id FROM measurements WHERE site = $1 AND id = ANY($2)`, site, l.sections)
+		of, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+		if err != nil {
+			return err
+		}
+		ids = append(ids, of...)
+	}
+	// Ids as an array (not a subquery), so the condition reaches inside the
+	// view's latest-leaf DISTINCT ON instead of ordering every coupon leaf.
 	b := &pgx.Batch{}
-	b.Queue(`DELETE FROM coupon_list WHERE site = $1 AND id IN (`+ids+`)`, site, l.coupons, l.sections)
-	b.Queue(`INSERT INTO coupon_list (`+couponListColumns+`) SELECT `+couponListColumns+
-		` FROM coupon_list_derived WHERE site = $1 AND id IN (`+ids+`)`, site, l.coupons, l.sections)
+	b.Queue(`DELETE FROM coupon_list WHERE site = $1 AND id = ANY($2)`, site, ids)
+	b.Queue(couponListRefresh, site, ids)
 	return tx.SendBatch(ctx, b).Close()
 }
+
+// couponListRefresh writes the coupon_list rows of coupons $2 at site $1.
+var couponListRefresh = `INSERT INTO coupon_list (` + couponListColumns + `) SELECT ` + couponListColumns +
+	` FROM coupon_list_derived WHERE site = $1 AND id = ANY($2)`
 
 // couponListColumns are coupon_list's columns, named (a column the table or
 // the view lacks fails every list and every sequencer pass).

@@ -191,6 +191,7 @@ func TestListPlansUseIndexes(t *testing.T) {
 		add("sign_offs/"+name, func() error { _, err := s.SignOffs(ctx, planSite, f, "", 50); return err })
 	}
 
+	explainRefresh(ctx, t, s)
 	for _, c := range cases {
 		if err := c.list(); err != nil {
 			t.Errorf("%s: %v", c.name, err)
@@ -215,6 +216,21 @@ func TestListPlansUseIndexes(t *testing.T) {
 		} else if testing.Verbose() {
 			t.Logf("%s: %s", c.name, planText(root))
 		}
+	}
+}
+
+// TestListPlansUseIndexes also covers the sequencer's rewrite of
+// coupon_list rows: it runs for every batch, so it must reach a batch's
+// coupons by key, never order every coupon leaf of the site.
+func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
+	var plan []map[string]any
+	ids := []uuid.UUID{seededID("c", 5), seededID("c", 77)}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.CouponListRefresh, planSite, ids).Scan(&plan); err != nil {
+		t.Fatalf("explain coupon_list refresh: %v", err)
+	}
+	root, _ := plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("coupon_list refresh: sequential scan of %v: %s", scans, planText(root))
 	}
 }
 
