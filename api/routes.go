@@ -31,7 +31,7 @@ func (s *Server) routes() error {
 
 		{http.MethodPost, "/v1/qualification-records", handleCreate(s, qr), engineers},
 		{http.MethodGet, "/v1/qualification-records", s.handleQualificationRecordList, readers},
-		{http.MethodGet, "/v1/qualification-records/:id", handleGet(qr), readers},
+		{http.MethodGet, "/v1/qualification-records/:id", s.handleQualificationRecordGet, readers},
 		{http.MethodPut, "/v1/qualification-records/:id", handleCorrect(s, qr), engineers},
 		{http.MethodPost, "/v1/qualification-records/:id/void", handleVoid(qr), engineers},
 		{http.MethodGet, "/v1/qualification-records/:id/revisions", handleRevisions(s, qr), readers},
