@@ -60,6 +60,7 @@ type streamChunk struct {
 	lastLine  int
 	bad       *invalidError
 	err       error
+	prep      *db.PreparedChunk // the rows prepared for storing
 }
 
 func (s *Server) handleProductionStream(c echo.Context) error {
@@ -80,9 +81,8 @@ func (s *Server) handleProductionStream(c echo.Context) error {
 	ctx, cancel := context.WithCancel(c.Request().Context())
 	defer cancel()
 	chunks := make(chan streamChunk, 1)
-	go s.readChunks(ctx, src, size, chunks)
+	go s.readChunks(ctx, actorOf(c), src, size, chunks)
 	report := streamReport{ChunkSize: size}
-	actor := actorOf(c)
 	for ch := range chunks {
 		stop := func(err error) error {
 			report.ResumeLine = ch.firstLine
@@ -93,11 +93,10 @@ func (s *Server) handleProductionStream(c echo.Context) error {
 			return stop(ch.err)
 		case ch.bad != nil:
 			return stop(ch.bad)
-		case len(ch.recs) == 0:
+		case ch.prep == nil:
 			continue
 		}
-		lines := ch.lines
-		r, err := s.store.ProductionChunk(ctx, actor, ch.recs, func(i int) string { return "line " + strconv.Itoa(lines[i]) })
+		r, err := s.store.StoreProductionChunk(ctx, ch.prep)
 		if err != nil {
 			return stop(err)
 		}
@@ -112,9 +111,11 @@ func (s *Server) handleProductionStream(c echo.Context) error {
 	return c.JSON(http.StatusOK, report)
 }
 
-// readChunks reads src into chunks of size rows and sends them on out; it
-// stops after a chunk with a bad row or a read error, or when ctx ends.
-func (s *Server) readChunks(ctx context.Context, src rowSource, size int, out chan<- streamChunk) {
+// readChunks reads src into chunks of size rows, prepares each for storing
+// (ids, leaves) and sends them on out, so that the next chunk is read and
+// prepared while the database writes this one; it stops after a chunk with
+// a bad row or a read error, or when ctx ends.
+func (s *Server) readChunks(ctx context.Context, actor db.Actor, src rowSource, size int, out chan<- streamChunk) {
 	defer close(out)
 	defer func() { // this goroutine is outside echo's recovery: a fault ends the stream, not the server
 		if r := recover(); r != nil {
@@ -172,6 +173,14 @@ func (s *Server) readChunks(ctx context.Context, src rowSource, size int, out ch
 		}
 		if issues != nil {
 			ch.bad, done = &invalidError{status: status, issues: issues}, true
+		}
+		if ch.bad == nil && ch.err == nil && len(ch.recs) > 0 {
+			lines := ch.lines
+			var err error
+			ch.prep, err = s.store.PrepareProductionChunk(ctx, actor, ch.recs, func(i int) string { return "line " + strconv.Itoa(lines[i]) })
+			if err != nil {
+				ch.err, done = err, true
+			}
 		}
 		select {
 		case out <- ch:
