@@ -15,6 +15,9 @@ func (s *Server) handleFlagList(c echo.Context) error {
 	if f.ProcedureID, err = queryUUID(c, "procedure_id"); err != nil {
 		return err
 	}
+	if f.SubjectID, err = queryUUID(c, "subject_id"); err != nil {
+		return err
+	}
 	if f.From, err = queryTime(c, "from"); err != nil {
 		return err
 	}

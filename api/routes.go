@@ -31,7 +31,7 @@ func (s *Server) routes() error {
 
 		{http.MethodPost, "/v1/qualification-records", handleCreate(s, qr), engineers},
 		{http.MethodGet, "/v1/qualification-records", s.handleQualificationRecordList, readers},
-		{http.MethodGet, "/v1/qualification-records/:id", handleGet(qr), readers},
+		{http.MethodGet, "/v1/qualification-records/:id", s.handleQualificationRecordGet, readers},
 		{http.MethodPut, "/v1/qualification-records/:id", handleCorrect(s, qr), engineers},
 		{http.MethodPost, "/v1/qualification-records/:id/void", handleVoid(qr), engineers},
 		{http.MethodGet, "/v1/qualification-records/:id/revisions", handleRevisions(s, qr), readers},
@@ -90,6 +90,11 @@ func (s *Server) routes() error {
 		{http.MethodPost, "/v1/inverse/hold-penetration", s.handleInverseHold, readers},
 		{http.MethodPost, "/v1/inverse/penetration", s.handleInversePenetration, readers},
 		{http.MethodPost, "/v1/parameter-window", s.handleWindow, readers},
+		{http.MethodPost, "/v1/coupon-plans/proposals", s.handleCouponPlanProposals, engineers},
+		{http.MethodPost, "/v1/coupon-plans", s.handleCouponPlanCreate, engineers},
+		{http.MethodGet, "/v1/coupon-plans/:id", s.handleCouponPlanGet, readers},
+		{http.MethodGet, "/v1/coupon-plans/:id/sheet", s.handleCouponPlanSheet, readers},
+		{http.MethodGet, "/v1/drift", s.handleDrift, readers},
 		// end of predictions and calibrations
 	} {
 		conform, err := s.conformTo(r.method, r.path)

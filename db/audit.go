@@ -121,6 +121,9 @@ func (s *Store) checkFlags(ctx context.Context, site string, problem func(string
 			return err
 		}
 	}
+	if err := siteDrift(ctx, tx, s.now(), site); err != nil {
+		return err
+	}
 	fresh, err := read()
 	if err != nil {
 		return err

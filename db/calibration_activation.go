@@ -129,7 +129,10 @@ func (s *Store) activationEvent(ctx context.Context, a Actor, calibrationID uuid
 			return err
 		}
 		// The group's model flags follow the calibration now in use, in this transaction.
-		return recomputeGroup(ctx, tx, act.ActivatedAt, a.Site, act.CalibrationGroup)
+		if err := recomputeGroup(ctx, tx, act.ActivatedAt, a.Site, act.CalibrationGroup); err != nil {
+			return err
+		}
+		return recomputeDrift(ctx, tx, act.ActivatedAt, a.Site, []CalibrationGroup{act.CalibrationGroup})
 	})
 	if err != nil {
 		return CalibrationActivation{}, fmt.Errorf("db: %s calibration %s: %w", action, calibrationID, err)

@@ -89,7 +89,7 @@ func exportRecords(ctx context.Context, tx pgx.Tx, site string, emit func(string
 		{"calibrations", "calibration", false}, {"calibration_activations", "calibration_activation", false},
 		{"rule_sets", "rule_set", true}, {"procedure_ranges", "procedure_ranges", false},
 		{"production_batches", "production_batch", false}, {"production_records_all", "production_record", false},
-		{"sign_offs", "sign_off", false},
+		{"sign_offs", "sign_off", false}, {"coupon_plans", "coupon_plan", false},
 	} {
 		steps = append(steps, func() (int64, error) { return exportRaw(ctx, tx, r.name, r.kind, site, r.builtins, emit) })
 	}

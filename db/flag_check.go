@@ -61,6 +61,9 @@ func (s *Store) RecheckFlags(ctx context.Context, site string) (FlagCheck, error
 			return c, fmt.Errorf("db: recheck flags of procedure %s: %w", id, err)
 		}
 	}
+	if err := siteDrift(ctx, tx, s.now(), site); err != nil {
+		return c, fmt.Errorf("db: recheck drift flags: %w", err)
+	}
 	again, err := flagTexts(ctx, tx, site)
 	if err != nil {
 		return c, err

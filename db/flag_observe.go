@@ -7,6 +7,10 @@ import "etchlog/predict"
 // production record says nothing about gas or position); an optional field
 // left empty is "missing" and flagged not_checkable when a range needs it.
 
+// Observation is what the record welded, variable by variable, as the
+// qualified-range rules read it (heat input computed from V, I and S).
+func (q QualificationRecordData) Observation() predict.Observation { return pqrObservation(q) }
+
 // pqrObservation is what a qualification record welded: every variable.
 func pqrObservation(q QualificationRecordData) predict.Observation {
 	var o predict.Observation

@@ -18,6 +18,7 @@ type FlagFilter struct {
 	Kind        string
 	Variable    string
 	ProcedureID *uuid.UUID
+	SubjectID   *uuid.UUID // one coupon's or production record's flags
 	From, To    *time.Time
 }
 
@@ -70,6 +71,9 @@ func (s *Store) Flags(ctx context.Context, site string, ff FlagFilter, cursor st
 	}
 	if ff.ProcedureID != nil {
 		f.add("procedure_id = ?", *ff.ProcedureID)
+	}
+	if ff.SubjectID != nil {
+		f.add("subject_id = ?", *ff.SubjectID)
 	}
 	if ff.From != nil {
 		f.add("subject_at >= ?", *ff.From)

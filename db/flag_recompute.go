@@ -22,8 +22,10 @@ import (
 // latest revision.
 func couponFlags(ctx context.Context, m Meta) step {
 	return func(tx pgx.Tx) error {
-		_, err := recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, m.ID)
-		return err
+		if _, err := recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, m.ID); err != nil {
+			return err
+		}
+		return couponDrift(ctx, tx, m.CreatedAt, m.Site, m.ID)
 	}
 }
 
@@ -35,8 +37,10 @@ func measuredCouponFlags(ctx context.Context, m Meta) step {
 		if err != nil {
 			return err
 		}
-		_, err = recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, id)
-		return err
+		if _, err = recomputeCoupon(ctx, tx, m.CreatedAt, m.Site, id); err != nil {
+			return err
+		}
+		return couponDrift(ctx, tx, m.CreatedAt, m.Site, id)
 	}
 }
 
@@ -56,8 +60,11 @@ func procedureFlags(ctx context.Context, m Meta) step {
 		if err != nil {
 			return err
 		}
-		_, err = recomputeProcedure(ctx, tx, m.CreatedAt, pr)
-		return err
+		if _, err = recomputeProcedure(ctx, tx, m.CreatedAt, pr); err != nil {
+			return err
+		}
+		// A correction of the procedure's process, wire or gas moves its coupons between groups.
+		return siteDrift(ctx, tx, m.CreatedAt, m.Site)
 	}
 }
 
@@ -68,7 +75,7 @@ func dropProcedureFlags(ctx context.Context, m Meta) step {
 		if err := lockProcedures(ctx, tx, m.Site, []uuid.UUID{m.ID}, true); err != nil {
 			return err
 		}
-		_, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2`, m.Site, m.ID)
+		_, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2 AND kind <> 'drift'`, m.Site, m.ID)
 		return err
 	}
 }
@@ -79,7 +86,7 @@ func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string,
 	if err := lockCouponProcedures(ctx, tx, site, id); err != nil {
 		return 0, err
 	}
-	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2`, site, id); err != nil {
+	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2 AND kind <> 'drift'`, site, id); err != nil {
 		return 0, err
 	}
 	c, err := getRecord[Coupon](ctx, tx, coupons, site, id, 0)
@@ -115,7 +122,7 @@ func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string,
 // recomputeProcedure rewrites every flag of a procedure under ranges pr:
 // its current, non-voided coupons and all its production records.
 func recomputeProcedure(ctx context.Context, tx pgx.Tx, now time.Time, pr ProcedureRanges) (int, error) {
-	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2`, pr.Site, pr.ProcedureID); err != nil {
+	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND procedure_id = $2 AND kind <> 'drift'`, pr.Site, pr.ProcedureID); err != nil {
 		return 0, fmt.Errorf("clear flags: %w", err)
 	}
 	w := newFlagWriter(pr.Site, now, pr)

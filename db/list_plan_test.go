@@ -163,7 +163,7 @@ func TestListPlansUseIndexes(t *testing.T) {
 	for name, f := range map[string]db.FlagFilter{
 		"none": {}, "subject_kind": {SubjectKind: "production_record"}, "kind": {Kind: "model"},
 		"variable": {Variable: "voltage_v"}, "procedure_id": {ProcedureID: &proc}, "from+to": {From: &fat, To: &funtil},
-		"procedure_id+from+to": {ProcedureID: &proc, From: &fat, To: &funtil},
+		"procedure_id+from+to": {ProcedureID: &proc, From: &fat, To: &funtil}, "subject_id": {SubjectID: &coupon},
 	} {
 		add("flags/"+name, func() error { _, err := s.Flags(ctx, planSite, f, "", 50); return err })
 	}

@@ -23,7 +23,7 @@ var ErrRecordsExist = errors.New("the database holds records")
 var recordTables = []string{"procedures", "qualification_records", "coupons", "measurements", "audit_events",
 	"calibrations", "calibration_activations", "rule_sets", "procedure_ranges", "production_batches", "production_records",
 	"production_records_detached", "production_detachments", "production_welds",
-	"api_users", "sign_offs"}
+	"api_users", "sign_offs", "coupon_plans", "coupon_plan_marks"}
 
 // Migrate applies every embedded migration that the database at url lacks
 // ("up"), as OwnerRole through the login in url. "down" rolls all of them

@@ -194,3 +194,29 @@ func bestOf(primary, secondary []float64) int {
 	}
 	return best
 }
+
+// CoefficientStdErrs returns σ·√((XᵀX)⁻¹ⱼⱼ) for the model's coefficients
+// with the coupons at points: the standard errors a least-squares fit with
+// residual SD σ reports.
+func CoefficientStdErrs(model ModelKind, points []DesignPoint, sigma float64) ([]float64, error) {
+	rows, err := rowsOf(model, points)
+	if err != nil {
+		return nil, err
+	}
+	if len(rows) == 0 {
+		return nil, ErrTooFewSamples
+	}
+	info := newInformation(len(rows[0]), columnScale(rows))
+	for _, f := range rows {
+		info.add(f)
+	}
+	ch, ok := info.factor()
+	if !ok {
+		return nil, ErrDegenerate
+	}
+	diag, _ := inverseDiag(ch, info, nil)
+	for j := range diag {
+		diag[j] = sigma * math.Sqrt(diag[j])
+	}
+	return diag, nil
+}

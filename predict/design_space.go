@@ -29,6 +29,9 @@ type DesignSpace struct {
 	ExtensionMM                           *Range
 	Steps                                 DesignSteps
 	Limits                                *WindowLimits
+	// ExtensionOffsetMM is added to an extension before its step applies:
+	// a shop sets the CTWD (extension + arc length) in steps, not the extension.
+	ExtensionOffsetMM float64
 }
 
 // WindowLimits answers whether a setting lies inside a parameter window:
@@ -88,7 +91,7 @@ func designAxis(r Range, step float64, field string) ([]float64, error) {
 		return nil, &InputError{Field: field + " step", Value: step,
 			Reason: fmt.Sprintf("no multiple of the step lies within the range %g–%g", r.Min, r.Max)}
 	}
-	if hi-lo+1 > maxDesignCandidates {
+	if n := hi - lo + 1; !(n <= maxDesignCandidates) { // also NaN and ∞: a step too small for the range
 		return nil, &InputError{Field: field + " step", Value: step, Reason: "gives too many values; choose a coarser step"}
 	}
 	out := make([]float64, 0, int(hi-lo)+1)
@@ -134,8 +137,13 @@ func newDesignGrid(model ModelKind, sp DesignSpace) (*designGrid, error) {
 		if sp.ExtensionMM == nil {
 			return nil, &InputError{Field: "electrode extension mm range", Reason: "is required to plan melting-rate coupons"}
 		}
-		if g.extension, err = designAxis(*sp.ExtensionMM, sp.Steps.ExtensionMM, "electrode extension mm"); err != nil {
+		off := sp.ExtensionOffsetMM
+		shifted := Range{sp.ExtensionMM.Min + off, sp.ExtensionMM.Max + off}
+		if g.extension, err = designAxis(shifted, sp.Steps.ExtensionMM, "electrode extension mm"); err != nil {
 			return nil, err
+		}
+		for i := range g.extension {
+			g.extension[i], _ = roundSig(g.extension[i]-off, 9)
 		}
 		// Voltage and travel speed do not enter the melting-rate model: weld at their centre.
 		g.voltage, g.travel = []float64{centreOf(g.voltage, true)}, []float64{centreOf(g.travel, true)}

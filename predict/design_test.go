@@ -229,3 +229,12 @@ func TestTargetMinimisesVariance(t *testing.T) {
 		}
 	}
 }
+
+// A step too small for its range is refused, not looped over.
+func TestDesignAxisTinyStep(t *testing.T) {
+	for _, step := range []float64{1e-320, 1e-9, math.SmallestNonzeroFloat64} {
+		if _, err := designAxis(Range{150, 300}, step, "current A"); err == nil {
+			t.Errorf("step %g: no error", step)
+		}
+	}
+}

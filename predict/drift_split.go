@@ -2,7 +2,9 @@ package predict
 
 import (
 	"fmt"
+	"slices"
 	"sort"
+	"strings"
 )
 
 // Split fields a drift chart can follow. A coupon records its welder always
@@ -36,6 +38,11 @@ type DriftSeries struct {
 	Indices []int
 	Chart   CUSUMChart
 	Advice  string
+	// ExplainedBy names the power source whose coupons alone make this
+	// chart (the group, a welder or a wire lot) signal: charted without
+	// them it is in control. Empty when the chart is in control or its
+	// signal stands without them.
+	ExplainedBy string
 }
 
 // Label names the split as a person would: "power source PS-3".
@@ -94,7 +101,41 @@ func DriftCharts(obs []DriftObservation) []DriftSeries {
 	for i := range series {
 		series[i].Advice = advice(series, i)
 	}
+	explain(obs, series)
 	return series
+}
+
+// explain marks the group, welder and wire lot charts that signal only
+// because they share the coupons of a power source drifting alone: a
+// welder who used that machine inherits its shift. Each such chart is run
+// again without that machine's coupons; if it is then in control, its
+// advice points at the machine instead.
+func explain(obs []DriftObservation, series []DriftSeries) {
+	var machines []string
+	for _, s := range series {
+		if s.Field == SplitPowerSource && s.Chart.Current != nil && s.Advice != "" && strings.HasPrefix(s.Advice, "only ") {
+			machines = append(machines, s.Value)
+		}
+	}
+	if len(machines) == 0 {
+		return
+	}
+	for i := range series {
+		s := &series[i]
+		if s.Field == SplitPowerSource || s.Chart.Current == nil {
+			continue
+		}
+		var z []float64
+		for _, k := range s.Indices {
+			if !slices.Contains(machines, obs[k].PowerSource) {
+				z = append(z, obs[k].Residual/obs[k].SD)
+			}
+		}
+		if RunCUSUM(z, CUSUMK, CUSUMH).Current == nil {
+			s.ExplainedBy = strings.Join(machines, ", ")
+			s.Advice = fmt.Sprintf("explained by power source %s: without its coupons this chart is in control; check that machine first", s.ExplainedBy)
+		}
+	}
 }
 
 // advice words what a signalling split suggests, comparing it with the

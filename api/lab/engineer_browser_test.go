@@ -117,10 +117,10 @@ func TestEngineerActivatesCalibration(t *testing.T) {
 	}
 	const reason = "eight trial coupons, exponents checked"
 	if err := chromedp.Do(ctx, chromedp.SendKeys(chromedp.ID("f-reason"), reason), chromedp.Click(chromedp.ID("change-use")),
-		chromedp.WaitVisible(chromedp.CSS(`p.notice[role="status"]`))); err != nil {
+		chromedp.WaitVisible(chromedp.ID("activated"))); err != nil {
 		t.Fatalf("activate with a reason: %v", err)
 	}
-	notice, _ := chromedp.Run(ctx, chromedp.Text(chromedp.CSS(`p.notice[role="status"]`)))
+	notice, _ := chromedp.Run(ctx, chromedp.Text(chromedp.ID("activated")))
 	contains(t, "the notice", notice, "Activated")
 	cal := e.call(http.MethodGet, "/v1/calibrations/"+shop.cal, "auditor", nil, http.StatusOK)
 	acts, _ := cal["activations"].([]any)
@@ -129,4 +129,13 @@ func TestEngineerActivatesCalibration(t *testing.T) {
 	}
 	button, _ := chromedp.Run(ctx, chromedp.Text(chromedp.ID("change-use")))
 	contains(t, "the button after activating", button, "Deactivate")
+	if err := chromedp.Do(ctx, chromedp.SendKeys(chromedp.ID("f-reason"), "refit after the new wire lot"), chromedp.Click(chromedp.ID("change-use")),
+		chromedp.WaitVisible(chromedp.ID("deactivated"))); err != nil {
+		t.Fatalf("deactivate with a reason: %v", err)
+	}
+	notice, _ = chromedp.Run(ctx, chromedp.Text(chromedp.ID("deactivated")))
+	contains(t, "the notice", notice, "Deactivated")
+	if cal := e.call(http.MethodGet, "/v1/calibrations/"+shop.cal, "auditor", nil, http.StatusOK); cal["active"] != false {
+		t.Errorf("after deactivating the calibration is still in use")
+	}
 }

@@ -57,7 +57,7 @@ func newEngineerShop(e *labEnv) engineerShop {
 			"procedure_id": s.proc, "coupon_mark": fmt.Sprintf("ENG-%d-%02d", n, i+1), "welder_id": "W-04",
 			"power_source_id": "PS-1", "filler_lot": "L1", "welded_on": "2026-09-08", "joint_type": joint,
 			"thickness_mm": 9.5, "pass_number": 1, "current_a": current[i], "voltage_v": voltage[i],
-			"travel_speed_mm_s": speed[i], "wire_feed_speed_m_min": 7.2, "ctwd_mm": 13.0, "position": "2F", "preheat_c": 18.0,
+			"travel_speed_mm_s": speed[i], "wire_feed_speed_m_min": 6.5 + 0.04*(current[i]-160), "ctwd_mm": 13.0, "position": "2F", "preheat_c": 18.0,
 		}, http.StatusCreated)["id"].(string)
 		pen := jacksonFixtureK * math.Pow(current[i], 4.0/3) * math.Pow(speed[i], -1.0/3) * math.Pow(voltage[i], -2.0/3) * departure[i]
 		e.call(http.MethodPost, "/v1/coupons/"+c+"/measurements", "technician", map[string]any{

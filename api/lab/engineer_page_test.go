@@ -148,3 +148,31 @@ func TestEngineerChartsInInchPound(t *testing.T) {
 	_, page = f.get("/lab/procedures/" + shop.proc + "/window?joint_type=fillet&basis=median")
 	contains(t, "the window page in inch-pound", page, "travel speed, in/min", `name="max_heat_input_kj_in"`)
 }
+
+// TestEngineerLesnewichCalibrationPage: a Lesnewich fit's page charts the
+// melting rate, measured against predicted and the residuals against current
+// and electrode extension, one marker per coupon; it states no exponent
+// test; the calibration list links it.
+func TestEngineerLesnewichCalibrationPage(t *testing.T) {
+	t.Parallel()
+	e := newLabEnv(t)
+	shop := newEngineerShop(e)
+	cal := e.call(http.MethodPost, "/v1/calibrations", "engineer", map[string]any{"model": "lesnewich", "process": "GMAW",
+		"wire_diameter_mm": 0.9, "shielding_gas": "Ar-25CO2", "joint_type": "fillet", "procedure_id": shop.proc, "arc_length_mm": 3.0},
+		http.StatusCreated)["id"].(string)
+	f := e.signedIn("engineer")
+	res, page := f.get("/lab/calibrations/" + cal)
+	if res.StatusCode != http.StatusOK {
+		t.Fatalf("GET the lesnewich calibration page = %d:\n%s", res.StatusCode, page)
+	}
+	contains(t, "the lesnewich calibration page", page, `id="measured-predicted"`, `id="residuals-current_a"`, `id="residuals-extension_mm"`,
+		"measured melting rate, kg/h", "electrode extension (stick-out), mm", `id="caution"`)
+	if got := strings.Count(page, `class="plot-point"`); got != 3*len(shop.coupons) {
+		t.Errorf("%d markers on three charts, want %d", got, 3*len(shop.coupons))
+	}
+	if strings.Contains(page, `id="exponent-test"`) {
+		t.Errorf("a lesnewich fit states an exponent test")
+	}
+	_, list := f.get("/lab/calibrations")
+	contains(t, "the calibration list", list, "/lab/calibrations/"+cal, "/lab/calibrations/"+shop.cal, "lesnewich", "jackson_free")
+}

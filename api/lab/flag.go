@@ -54,6 +54,7 @@ func FlagSentence(u Units, f db.Flag, source string) string {
 	switch {
 	case f.Kind == "not_checkable" && strings.HasPrefix(f.Detail, "no qualified range"):
 		why := strings.TrimSpace(strings.TrimPrefix(f.Detail, "no qualified range:"))
+		why = strings.ReplaceAll(why, f.Variable, inSentence(label))
 		s := label + " has no qualified range" + of
 		if why != "" {
 			s += " (" + why + ")"
@@ -91,6 +92,15 @@ func bounds(u Units, f db.Flag) string {
 		return "minimum " + FormatQuantity(u, f.Variable, f.Min)
 	}
 	return "range"
+}
+
+// inSentence writes a label inside a sentence: "travel speed", "CTWD".
+func inSentence(label string) string {
+	if strings.ToUpper(label) == label {
+		return label
+	}
+	r, n := utf8.DecodeRuneInString(label)
+	return string(unicode.ToLower(r)) + label[n:]
 }
 
 func orRange(source string) string {

@@ -38,6 +38,25 @@ type Field struct {
 	// Type is the input type: "number" for a quantity (decimal keypad on a
 	// phone, any step), "text" otherwise; the "field" partial reads it.
 	Type string
+	// Hint is shown under the input (a qualified range, an inherited value).
+	Hint string
+	// Options, when set, make the field a choice ("choice" partial); Blank
+	// labels the empty choice ("" offers none).
+	Options []string
+	Blank   string
+}
+
+// withHint returns f with a hint under it: {{template "field" (hint (field …) "qualified 160–220 A")}}.
+func withHint(f Field, hint string) Field {
+	f.Hint = hint
+	return f
+}
+
+// asChoice returns f as a choice among options, with blank labelling the
+// empty choice: {{template "choice" (choice (field …) .Data.JointTypes "")}}.
+func asChoice(f Field, options []string, blank string) Field {
+	f.Options, f.Blank = options, blank
+	return f
 }
 
 // newField builds the Field of name (a quantity's stored name, which is

@@ -142,6 +142,24 @@ func (f *form) post(path string, v url.Values) *http.Response {
 	return res
 }
 
+// answer is a page answer read whole.
+type answer struct {
+	status         int
+	body, location string
+}
+
+// postPage sends a form and reads the answer (following no redirect).
+func (f *form) postPage(path string, v url.Values) answer {
+	f.e.t.Helper()
+	res, err := f.client.PostForm(f.e.url+path, v)
+	if err != nil {
+		f.e.t.Fatalf("POST %s: %v", path, err)
+	}
+	defer res.Body.Close()
+	b, _ := io.ReadAll(res.Body)
+	return answer{status: res.StatusCode, body: string(b), location: res.Header.Get("Location")}
+}
+
 var formTokenRE = regexp.MustCompile(`name="form_token" value="([^"]+)"`)
 
 // formToken finds the form token of a page.

@@ -102,6 +102,9 @@ var funcs = template.FuncMap{
 	"unit":      func(v View, name string) string { return UnitLabel(v.Units, name) },
 	"fieldName": func(v View, name string) string { return FieldName(v.Units, name) },
 	"field":     newField,
+	"hint":      withHint,
+	"choice":    asChoice,
 	"pager":     newPager,
 	"flagText":  FlagSentence,
+	"label":     VariableLabel,
 }

@@ -83,6 +83,8 @@ Try:
   curl -s -H 'Authorization: Bearer %[4]s' %[1]s/v1/audit/verify
   curl -s -H 'Authorization: Bearer %[4]s' '%[1]s/v1/flags?limit=5'
   curl -s -H 'Authorization: Bearer %[4]s' '%[1]s/v1/production-records?flagged=true'
+  curl -s -H 'Authorization: Bearer %[4]s' '%[1]s/v1/flags?kind=drift'
+  curl -s -H 'Authorization: Bearer %[4]s' '%[1]s/v1/flags?kind=drift'
 
 CAUTION: predictions are estimates for planning and never replace qualification testing;
 qualification follows the governing code. Defer to local codes, the code of record and
@@ -110,7 +112,7 @@ func loadDemo(ctx context.Context, owner, s *db.Store) (bool, error) {
 	}
 	eng := db.Actor{Site: demoSite, Name: demoUsers[1].name, Role: db.RoleEngineer}
 	tech := db.Actor{Site: demoSite, Name: demoUsers[0].name, Role: db.RoleTechnician}
-	day := func(d int) db.Date { return db.DateOf(time.Date(2026, 9, 1, 0, 0, 0, 0, time.UTC).AddDate(0, 0, d)) }
+	day := func(d int) db.Date { return db.DateOf(demoDay(d)) }
 
 	pqrFillet, err := s.CreateQualificationRecord(ctx, eng, db.QualificationRecordData{
 		RecordNumber: "PQR-TR-11", Process: "GMAW", WeldedOn: day(0), WelderID: "TR-W04",
@@ -256,8 +258,14 @@ func loadDemo(ctx context.Context, owner, s *db.Store) (bool, error) {
 			return false, err
 		}
 	}
+	if err := loadDemoFollowUps(ctx, s, groove); err != nil {
+		return false, err
+	}
 	return true, nil
 }
+
+// demoDay is the demo's day d, counted from 2026-09-01.
+func demoDay(d int) time.Time { return time.Date(2026, 9, 1, 0, 0, 0, 0, time.UTC).AddDate(0, 0, d) }
 
 func round(v float64, places int) float64 {
 	p := math.Pow(10, float64(places))

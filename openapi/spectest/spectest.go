@@ -147,6 +147,8 @@ func init() {
 	// document per line, described in the operation's prose).
 	openapi3filter.RegisterBodyDecoder("text/html", openapi3filter.PlainBodyDecoder)
 	openapi3filter.RegisterBodyDecoder("application/x-ndjson", openapi3filter.PlainBodyDecoder)
+	// A printed record: bytes, checked by type only.
+	openapi3filter.RegisterBodyDecoder("application/pdf", openapi3filter.FileBodyDecoder)
 }
 
 // closeResponseObjects makes every object schema reachable from a response
