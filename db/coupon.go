@@ -73,36 +73,34 @@ func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon
 	if err != nil {
 		return Coupon{}, err
 	}
+	out := []Coupon{{Meta: m, CouponData: c}}
 	if err := s.write(ctx, "create coupon",
 		c.checkLinks(ctx, a.Site),
-		claimMark(ctx, couponMark, a.Site, m.ID, c.CouponMark),
-		coupons.writeRevision(ctx, m, recordValues(c)),
-		s.logged(ctx, coupons, m, actionCreate),
-		couponFlags(ctx, m),
+		claimMark(ctx, couponMark, m, c.CouponMark),
+		s.recorded(ctx, coupons, m, recordValues(c), actionCreate),
+		inherited(ctx, a.Site, out),
+		writtenCouponFlags(ctx, m, c),
 	); err != nil {
 		return Coupon{}, s.duplicateMark(ctx, a.Site, c.CouponMark, err)
 	}
-	out := []Coupon{{Meta: m, CouponData: c}}
-	err = s.inheritCoupons(ctx, s.pool, a.Site, out)
-	return out[0], err
+	return out[0], nil
 }
 
 // CorrectCoupon stores the next revision of a coupon and rewrites its flags.
 func (s *Store) CorrectCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Change, c CouponData) (Coupon, error) {
 	m := s.nextRevision(a, id, ch, false)
+	out := []Coupon{{Meta: m, CouponData: c}}
 	if err := s.write(ctx, "correct coupon "+id.String(),
 		coupons.baseIs(ctx, a.Site, id, ch),
 		c.checkLinks(ctx, a.Site),
-		claimMark(ctx, couponMark, a.Site, m.ID, c.CouponMark),
-		coupons.writeRevision(ctx, m, recordValues(c)),
-		s.logged(ctx, coupons, m, actionCorrect),
-		couponFlags(ctx, m),
+		claimMark(ctx, couponMark, m, c.CouponMark),
+		s.recorded(ctx, coupons, m, recordValues(c), actionCorrect),
+		inherited(ctx, a.Site, out),
+		writtenCouponFlags(ctx, m, c),
 	); err != nil {
 		return Coupon{}, err
 	}
-	out := []Coupon{{Meta: m, CouponData: c}}
-	err := s.inheritCoupons(ctx, s.pool, a.Site, out)
-	return out[0], err
+	return out[0], nil
 }
 
 // VoidCoupon voids a coupon with a reason; a voided coupon has no flags.

@@ -5,6 +5,7 @@ import (
 	"fmt"
 
 	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
 )
 
 // couponDefaults is what a coupon takes from the record it was welded
@@ -51,22 +52,44 @@ func (s *Store) inheritCoupons(ctx context.Context, q querier, site string, cs [
 	if len(cs) == 0 {
 		return nil
 	}
-	procs := make([]*uuid.UUID, len(cs))
-	recs := make([]*uuid.UUID, len(cs))
-	for i, c := range cs {
-		procs[i], recs[i] = c.ProcedureID, c.QualificationRecordID
+	rows, err := q.Query(ctx, inheritSQL, inheritArgs(site, cs)...)
+	if err != nil {
+		return fmt.Errorf("db: coupon defaults: %w", err)
 	}
-	rows, err := q.Query(ctx, `
+	return readInherited(rows, cs)
+}
+
+// inherited is the write step that fills the left-out fields of the
+// coupons cs (as written) from their procedure, else their qualification
+// record, read in the writing transaction with its other statements.
+func inherited(ctx context.Context, site string, cs []Coupon) step {
+	return func(tx pgx.Tx) error {
+		return queueRows(ctx, tx, func(rows pgx.Rows) error { return readInherited(rows, cs) }, inheritSQL, inheritArgs(site, cs)...)
+	}
+}
+
+// inheritSQL reads the defaults of each coupon: $2 its procedure ids, $3
+// its qualification record ids.
+const inheritSQL = `
 		SELECT x.n, coalesce(p.process, r.process, ''), coalesce(p.wire_diameter_mm, r.wire_diameter_mm),
 		       coalesce(p.shielding_gas, r.shielding_gas, ''), coalesce(p.polarity, r.polarity)
 		FROM unnest($2::uuid[], $3::uuid[]) WITH ORDINALITY AS x(pid, rid, n)
 		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas, polarity FROM procedures
 			WHERE site = $1 AND id = x.pid ORDER BY revision DESC LIMIT 1) p ON true
 		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas, polarity FROM qualification_records
-			WHERE site = $1 AND id = x.rid ORDER BY revision DESC LIMIT 1) r ON true`, site, procs, recs)
-	if err != nil {
-		return fmt.Errorf("db: coupon defaults: %w", err)
+			WHERE site = $1 AND id = x.rid ORDER BY revision DESC LIMIT 1) r ON true`
+
+func inheritArgs(site string, cs []Coupon) []any {
+	procs := make([]*uuid.UUID, len(cs))
+	recs := make([]*uuid.UUID, len(cs))
+	for i, c := range cs {
+		procs[i], recs[i] = c.ProcedureID, c.QualificationRecordID
 	}
+	return []any{site, procs, recs}
+}
+
+// readInherited reads the rows of inheritSQL into cs.
+func readInherited(rows pgx.Rows, cs []Coupon) error {
 	defer rows.Close()
 	for rows.Next() {
 		var n int64

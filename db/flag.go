@@ -109,6 +109,9 @@ func (w *flagWriter) flush(ctx context.Context, tx pgx.Tx) (int, error) {
 	if len(w.flags) == 0 {
 		return 0, nil
 	}
+	if _, ok := tx.(*pipeTx); ok && len(w.flags) <= flagsPerInsert {
+		return w.insert(ctx, tx)
+	}
 	i := 0
 	src := pgx.CopyFromFunc(func() ([]any, error) {
 		if i == len(w.flags) {
@@ -144,4 +147,38 @@ func flagsOf(ctx context.Context, q querier, site string, ids []uuid.UUID) (map[
 		out[f.SubjectID] = append(out[f.SubjectID], f)
 	}
 	return out, nil
+}
+
+// flagsPerInsert is the most flags one coupon's write queues as an INSERT
+// (leaving with the write's next statements) instead of a COPY.
+const flagsPerInsert = 32
+
+// insert queues the flags as one INSERT on a pipelined write.
+func (w *flagWriter) insert(ctx context.Context, tx pgx.Tx) (int, error) {
+	var sql strings.Builder
+	sql.WriteString("INSERT INTO flags (" + strings.Join(flagColumns, ", ") + ") VALUES ")
+	args := make([]any, 0, len(w.flags)*len(flagColumns))
+	for i := range w.flags {
+		f := &w.flags[i]
+		if i > 0 {
+			sql.WriteString(", ")
+		}
+		sql.WriteByte('(')
+		for j := range flagColumns {
+			if j > 0 {
+				sql.WriteString(", ")
+			}
+			fmt.Fprintf(&sql, "$%d", len(args)+j+1)
+		}
+		sql.WriteByte(')')
+		args = append(args, w.site, f.SubjectKind, f.SubjectID, f.SubjectAt, f.ProcedureID, f.RangesVersion, f.Kind,
+			f.Variable, f.Unit, f.Value, f.ValueText, f.Min, f.Max, f.Allowed, f.Direction, f.Excess, f.ExcessPct,
+			f.Detail, f.ComputedAt)
+	}
+	n := len(w.flags)
+	w.flags = w.flags[:0]
+	if err := queueExec(ctx, tx, sql.String(), args...); err != nil {
+		return 0, fmt.Errorf("write flags: %w", err)
+	}
+	return n, nil
 }

@@ -36,16 +36,14 @@ func lockProcedures(ctx context.Context, tx pgx.Tx, site string, ids []uuid.UUID
 }
 
 // lockCouponProcedures takes the shared flag lock of every procedure the
-// coupon names in any revision (a correction may move it to another).
-func lockCouponProcedures(ctx context.Context, tx pgx.Tx, site string, coupon uuid.UUID) error {
-	// One round trip: the procedures in byte order of their ids, as
-	// lockProcedures orders them, so the two never wait on each other in a cycle.
-	_, err := tx.Exec(ctx, `SELECT pg_advisory_xact_lock_shared(hashtextextended('etchlog-flags:' || $1 || ':' || p::text, 0))
-		FROM (SELECT DISTINCT procedure_id AS p FROM coupons
-		      WHERE site = $1 AND id = $2 AND procedure_id IS NOT NULL) ids
-		ORDER BY p`, site, coupon) // volatile target functions run after the sort
-	return err
-}
+// coupon ($2, at site $1) names in any revision (a correction may move it to
+// another). One statement: the procedures in byte order of their ids, as
+// lockProcedures orders them, so the two never wait on each other in a
+// cycle; volatile target functions run after the sort.
+const lockCouponProcedures = `SELECT pg_advisory_xact_lock_shared(hashtextextended('etchlog-flags:' || $1 || ':' || p::text, 0))
+	FROM (SELECT DISTINCT procedure_id AS p FROM coupons
+	      WHERE site = $1 AND id = $2 AND procedure_id IS NOT NULL) ids
+	ORDER BY p`
 
 // lockProcess takes the exclusive flag lock of every procedure of a process
 // at the site, before an activation changes the model its coupons answer to.

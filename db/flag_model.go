@@ -40,40 +40,56 @@ func penetrationCheck(ctx context.Context, q querier, site string, g Calibration
 // couponSections returns the current, non-voided sections (label and
 // penetration in mm) of a coupon, in measurement creation order.
 func couponSections(ctx context.Context, q querier, site string, couponID uuid.UUID) ([]predict.Section, error) {
-	rows, _ := q.Query(ctx, `SELECT section, penetration_mm FROM (
-			SELECT DISTINCT ON (id) id, voided, section, penetration_mm
-			FROM measurements WHERE site = $1 AND coupon_id = $2 ORDER BY id, revision DESC) cur
-		WHERE NOT voided ORDER BY id`, site, couponID)
-	secs, err := pgx.CollectRows(rows, func(r pgx.CollectableRow) (predict.Section, error) {
-		var s predict.Section
-		return s, r.Scan(&s.Label, &s.PenetrationMM)
-	})
+	rows, _ := q.Query(ctx, sectionsSQL, site, couponID)
+	secs, err := readSections(rows)
 	if err != nil {
 		return nil, fmt.Errorf("coupon %s sections: %w", couponID, err)
 	}
 	return secs, nil
 }
 
+// sectionsSQL reads the current, non-voided sections of coupon $2 at site $1.
+const sectionsSQL = `SELECT section, penetration_mm FROM (
+			SELECT DISTINCT ON (id) id, voided, section, penetration_mm
+			FROM measurements WHERE site = $1 AND coupon_id = $2 ORDER BY id, revision DESC) cur
+		WHERE NOT voided ORDER BY id`
+
+// readSections reads the rows of sectionsSQL.
+func readSections(rows pgx.Rows) ([]predict.Section, error) {
+	return pgx.CollectRows(rows, func(r pgx.CollectableRow) (predict.Section, error) {
+		var s predict.Section
+		return s, r.Scan(&s.Label, &s.PenetrationMM)
+	})
+}
+
 // couponRequirements lists the minimum penetrations that apply to a
 // coupon's sections: its procedure's and its qualification record's
 // acceptance criterion, each named as the document and revision that state it.
 func couponRequirements(ctx context.Context, q querier, site string, c Coupon, p Procedure) ([]predict.Requirement, error) {
+	if c.QualificationRecordID == nil {
+		return requirementsOf(p, nil), nil
+	}
+	r, err := getRecord[QualificationRecord](ctx, q, qualificationRecords, site, *c.QualificationRecordID, 0)
+	if err != nil {
+		return nil, err
+	}
+	return requirementsOf(p, &r), nil
+}
+
+// requirementsOf is couponRequirements over the rows already read: the
+// procedure's minimum, and r's (the coupon's qualification record, nil when
+// it names none) unless r is voided.
+func requirementsOf(p Procedure, r *QualificationRecord) []predict.Requirement {
 	var reqs []predict.Requirement
 	if p.MinPenetrationMM != nil {
 		reqs = append(reqs, predict.Requirement{MinPenetrationMM: *p.MinPenetrationMM,
 			Source: fmt.Sprintf("%s rev %d", p.Code, p.Revision), Verb: "requires"})
 	}
-	if c.QualificationRecordID != nil {
-		r, err := getRecord[QualificationRecord](ctx, q, qualificationRecords, site, *c.QualificationRecordID, 0)
-		if err != nil {
-			return nil, err
-		}
-		if r.MinPenetrationMM != nil && !r.Voided {
-			reqs = append(reqs, predict.Requirement{MinPenetrationMM: *r.MinPenetrationMM,
-				Source: fmt.Sprintf("%s rev %d", r.RecordNumber, r.Revision), Verb: "states as its acceptance criterion"})
-		}
+	if r != nil && r.MinPenetrationMM != nil && !r.Voided {
+		reqs = append(reqs, predict.Requirement{MinPenetrationMM: *r.MinPenetrationMM,
+			Source: fmt.Sprintf("%s rev %d", r.RecordNumber, r.Revision), Verb: "states as its acceptance criterion"})
 	}
-	return reqs, nil
+	return reqs
 }
 
 // couponSubject builds the evaluation subject of a coupon on procedure p:
@@ -81,18 +97,34 @@ func couponRequirements(ctx context.Context, q querier, site string, c Coupon, p
 // when a calibration is active for its group.
 func couponSubject(ctx context.Context, q querier, site string, c Coupon, p Procedure) (*subject, error) {
 	c.inherit(procedureDefaults(p)) // a field the coupon leaves out was welded as its procedure says
-	s := &subject{kind: SubjectCoupon, id: c.ID, at: c.WeldedOn.Time, obs: couponObservation(c.CouponData)}
-	var err error
-	if s.sections, err = couponSections(ctx, q, site, c.ID); err != nil {
+	secs, err := couponSections(ctx, q, site, c.ID)
+	if err != nil {
 		return nil, err
 	}
-	if s.reqs, err = couponRequirements(ctx, q, site, c, p); err != nil {
+	reqs, err := couponRequirements(ctx, q, site, c, p)
+	if err != nil {
 		return nil, err
 	}
-	g := CalibrationGroup{Process: c.Process, WireDiameterMM: *c.WireDiameterMM, ShieldingGas: c.ShieldingGas, JointType: c.JointType}
-	check, err := penetrationCheck(ctx, q, site, g, p.MinPenetrationMM)
-	if err != nil || check == nil {
-		return s, err
+	check, err := penetrationCheck(ctx, q, site, couponGroup(c), p.MinPenetrationMM)
+	if err != nil {
+		return nil, err
+	}
+	return newCouponSubject(c, secs, reqs, check), nil
+}
+
+// couponGroup is the calibration group of coupon c, whose left-out fields
+// its procedure has filled (inherit).
+func couponGroup(c Coupon) CalibrationGroup {
+	return CalibrationGroup{Process: c.Process, WireDiameterMM: *c.WireDiameterMM, ShieldingGas: c.ShieldingGas, JointType: c.JointType}
+}
+
+// newCouponSubject is the subject of coupon c (its left-out fields filled
+// from its procedure) with its current sections, the requirements they
+// answer to and its model check (nil: no calibration in use).
+func newCouponSubject(c Coupon, secs []predict.Section, reqs []predict.Requirement, check *predict.PenetrationCheck) *subject {
+	s := &subject{kind: SubjectCoupon, id: c.ID, at: c.WeldedOn.Time, obs: couponObservation(c.CouponData), sections: secs, reqs: reqs}
+	if check == nil {
+		return s
 	}
 	pens := make([]float64, len(s.sections))
 	for i, sec := range s.sections {
@@ -102,7 +134,7 @@ func couponSubject(ctx context.Context, q querier, site string, c Coupon, p Proc
 	if iv, err := check.Fit.Predict(c.CurrentA, c.VoltageV, c.TravelSpeedMMPerS, check.Level); err == nil {
 		s.predicted = &iv.MedianMM
 	}
-	return s, nil
+	return s
 }
 
 // measurementCoupon returns the coupon a measurement belongs to.

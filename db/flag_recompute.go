@@ -80,45 +80,6 @@ func dropProcedureFlags(ctx context.Context, m Meta) step {
 	}
 }
 
-// recomputeCoupon rewrites one coupon's flags from its latest revision: none
-// when it is voided, names no procedure, or its procedure is voided.
-func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID) (int, error) {
-	if err := lockCouponProcedures(ctx, tx, site, id); err != nil {
-		return 0, err
-	}
-	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2 AND kind <> 'drift'`, site, id); err != nil {
-		return 0, err
-	}
-	c, err := getRecord[Coupon](ctx, tx, coupons, site, id, 0)
-	if err != nil {
-		return 0, err
-	}
-	if c.Voided || c.ProcedureID == nil {
-		return 0, nil
-	}
-	p, err := getRecord[Procedure](ctx, tx, procedures, site, *c.ProcedureID, 0)
-	if err != nil {
-		return 0, err
-	}
-	if p.Voided { // a voided procedure's records answer to nothing: no new flags
-		return 0, nil
-	}
-	pr, err := latestRanges(ctx, tx, site, p.ID, 0)
-	if errors.Is(err, ErrNotFound) { // no ranges yet: model flags only
-		pr, err = ProcedureRanges{Site: site, ProcedureID: p.ID}, nil
-	}
-	if err != nil {
-		return 0, err
-	}
-	sub, err := couponSubject(ctx, tx, site, c, p)
-	if err != nil {
-		return 0, err
-	}
-	w := newFlagWriter(site, now, pr)
-	w.add(sub)
-	return w.flush(ctx, tx)
-}
-
 // recomputeProcedure rewrites every flag of a procedure under ranges pr:
 // its current, non-voided coupons and all its production records.
 func recomputeProcedure(ctx context.Context, tx pgx.Tx, now time.Time, pr ProcedureRanges) (int, error) {

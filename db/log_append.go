@@ -36,8 +36,32 @@ func (s *Store) AppendLeaf(ctx context.Context, tx pgx.Tx, e LeafEntry) error {
 	if err != nil {
 		return err
 	}
-	rows, _ := tx.Query(ctx, k.selectRow(), e.Site, e.ID, e.Revision)
-	return s.appendRows(ctx, tx, k, rows, e)
+	return s.appendReturned(ctx, tx, k, e, k.selectRow(), e.Site, e.ID, e.Revision)
+}
+
+// appendReturned logs the one row that the statement sql returns (columns:
+// k.Columns), a SELECT of the stored row or an INSERT ... RETURNING it. On
+// a pipelined write the statement leaves with those queued before it, and
+// the pending leaf with those queued after.
+func (s *Store) appendReturned(ctx context.Context, tx pgx.Tx, k LeafKind, e LeafEntry, sql string, args ...any) error {
+	t, ok := tx.(*pipeTx)
+	if !ok {
+		rows, _ := tx.Query(ctx, sql, args...)
+		return s.appendRows(ctx, tx, k, rows, e)
+	}
+	t.queue(sql, args, func(rows pgx.Rows) error {
+		pending, err := s.pendingLeaves(k, rows, e)
+		if rows.Err() != nil {
+			return nil // the statement's own error is reported
+		}
+		if err != nil {
+			return err
+		}
+		t.queue(`INSERT INTO log_pending (`+pendingColumns+`)
+			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11)`, pending[0], nil, false)
+		return nil
+	}, false)
+	return nil
 }
 
 // appendRows logs every row of rows (columns: k.Columns) as a fact of kind
@@ -45,23 +69,38 @@ func (s *Store) AppendLeaf(ctx context.Context, tx pgx.Tx, e LeafEntry) error {
 // taken from each row. It is AppendLeaf for a whole statement's rows, e.g.
 // an INSERT ... RETURNING or a batch of production records.
 func (s *Store) appendRows(ctx context.Context, tx pgx.Tx, k LeafKind, rows pgx.Rows, e LeafEntry) error {
+	pending, err := s.pendingLeaves(k, rows, e)
+	if err != nil {
+		return err
+	}
+	if len(pending) == 1 {
+		_, err := tx.Exec(ctx, `INSERT INTO log_pending (`+pendingColumns+`)
+			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11)`, pending[0]...)
+		return mapError(err)
+	}
+	_, err = tx.CopyFrom(ctx, pgx.Identifier{"log_pending"}, pendingColumnList, pgx.CopyFromRows(pending))
+	return mapError(err)
+}
+
+// pendingLeaves encodes every row of rows (columns: k.Columns) as a fact of
+// kind k and returns the log_pending rows that log them, tagged with the
+// service's key. It closes rows; no row at all is ErrNotFound.
+func (s *Store) pendingLeaves(k LeafKind, rows pgx.Rows, e LeafEntry) ([][]any, error) {
+	defer rows.Close()
 	key := s.logKey()
 	if key == nil {
-		rows.Close()
-		return ErrNoLogKey
+		return nil, ErrNoLogKey
 	}
 	idCol, revCol := slices.Index(k.Columns, "id"), slices.Index(k.Columns, "revision")
 	var pending [][]any
 	for rows.Next() {
 		f, err := factOf(k, rows)
 		if err != nil {
-			rows.Close()
-			return err
+			return nil, err
 		}
 		id, err := uuid.Parse(f.Fields[idCol].Value)
 		if err != nil {
-			rows.Close()
-			return fmt.Errorf("db: %s row id: %w", k.Kind, err)
+			return nil, fmt.Errorf("db: %s row id: %w", k.Kind, err)
 		}
 		rev := 1
 		if k.Revisioned && revCol >= 0 {
@@ -72,18 +111,12 @@ func (s *Store) appendRows(ctx context.Context, tx pgx.Tx, k LeafKind, rows pgx.
 	}
 	rows.Close()
 	if err := rows.Err(); err != nil {
-		return fmt.Errorf("db: log %s: %w", k.Kind, mapError(err))
+		return nil, fmt.Errorf("db: log %s: %w", k.Kind, mapError(err))
 	}
-	switch len(pending) {
-	case 0:
-		return fmt.Errorf("db: log %s %s revision %d: %w", k.Kind, e.ID, e.Revision, ErrNotFound)
-	case 1:
-		_, err := tx.Exec(ctx, `INSERT INTO log_pending (`+pendingColumns+`)
-			VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11)`, pending[0]...)
-		return mapError(err)
+	if len(pending) == 0 {
+		return nil, fmt.Errorf("db: log %s %s revision %d: %w", k.Kind, e.ID, e.Revision, ErrNotFound)
 	}
-	_, err := tx.CopyFrom(ctx, pgx.Identifier{"log_pending"}, pendingColumnList, pgx.CopyFromRows(pending))
-	return mapError(err)
+	return pending, nil
 }
 
 const pendingColumns = "site, kind, version, record_id, revision, leaf_hash, tag, actor, action, reason, at"

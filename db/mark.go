@@ -28,31 +28,60 @@ var (
 	recordNumber = markKind{kind: "record_number", field: "record_number", entity: "qualification_record"}
 )
 
-// claimMark is the step that gives record id the mark: it releases the
+// claimMark is the step that gives record m.ID the mark: it releases the
 // record's previous mark if it differs and claims this one, or refuses with
 // DuplicateError naming the holder. A concurrent claim of the same mark waits for the other
 // transaction and then sees its outcome, so of two racing claims one wins.
-func claimMark(ctx context.Context, k markKind, site string, id uuid.UUID, mark string) step {
+// Revision 1 is a new record, which holds no mark to release.
+func claimMark(ctx context.Context, k markKind, m Meta, mark string) step {
 	return func(tx pgx.Tx) error {
-		if _, err := tx.Exec(ctx, `DELETE FROM current_marks WHERE kind = $1 AND record_id = $2 AND mark <> $3`,
-			k.kind, id, mark); err != nil {
-			return err
+		if m.Revision > 1 {
+			if err := queueExec(ctx, tx, `DELETE FROM current_marks WHERE kind = $1 AND record_id = $2 AND mark <> $3`,
+				k.kind, m.ID, mark); err != nil {
+				return err
+			}
 		}
-		if _, err := tx.Exec(ctx, `INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, $2, $3, $4)
-			ON CONFLICT DO NOTHING`, site, k.kind, mark, id); err != nil {
-			return mapError(err)
-		}
-		var holder uuid.UUID
-		if err := tx.QueryRow(ctx, `SELECT record_id FROM current_marks WHERE site = $1 AND kind = $2 AND mark = $3`,
-			site, k.kind, mark).Scan(&holder); err != nil {
-			return err
-		}
-		if holder != id {
-			return &DuplicateError{Field: k.field, ExistingID: holder,
-				Reason: fmt.Sprintf("%s %s already has the mark %q; correct that one first or choose another", k.entity, holder, mark)}
-		}
-		return nil
+		// The claim and the holder in one statement: the INSERT's row when
+		// it went in, else the holder this statement's snapshot sees. A
+		// holder that committed while the INSERT waited for it is not in
+		// that snapshot: then a statement of its own asks again.
+		return queueRows(ctx, tx, func(rows pgx.Rows) error {
+			holders, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+			switch {
+			case rows.Err() != nil:
+				return nil // the statement's own error is reported
+			case err != nil:
+				return err
+			case len(holders) == 0:
+				return queueRows(ctx, tx, func(rows pgx.Rows) error {
+					holder, err := pgx.CollectOneRow(rows, pgx.RowTo[uuid.UUID])
+					if rows.Err() != nil {
+						return nil
+					}
+					if err != nil {
+						return err
+					}
+					return k.held(m.ID, holder, mark)
+				}, `SELECT record_id FROM current_marks WHERE site = $1 AND kind = $2 AND mark = $3`, m.Site, k.kind, mark)
+			}
+			return k.held(m.ID, holders[0], mark)
+		}, `WITH claim AS (
+				INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, $2, $3, $4)
+				ON CONFLICT DO NOTHING RETURNING record_id)
+			SELECT record_id FROM claim
+			UNION ALL
+			SELECT record_id FROM current_marks
+			WHERE site = $1 AND kind = $2 AND mark = $3 AND NOT EXISTS (SELECT 1 FROM claim)`, m.Site, k.kind, mark, m.ID)
 	}
+}
+
+// held refuses the mark when its holder is not the record id.
+func (k markKind) held(id, holder uuid.UUID, mark string) error {
+	if holder != id {
+		return &DuplicateError{Field: k.field, ExistingID: holder,
+			Reason: fmt.Sprintf("%s %s already has the mark %q; correct that one first or choose another", k.entity, holder, mark)}
+	}
+	return nil
 }
 
 // RecheckMarks compares current_marks with the marks of the site's current

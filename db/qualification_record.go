@@ -61,7 +61,7 @@ func (s *Store) CreateQualificationRecord(ctx context.Context, a Actor, q Qualif
 		return QualificationRecord{}, err
 	}
 	if err := s.write(ctx, "create qualification_record",
-		claimMark(ctx, recordNumber, a.Site, m.ID, q.RecordNumber),
+		claimMark(ctx, recordNumber, m, q.RecordNumber),
 		qualificationRecords.writeRevision(ctx, m, recordValues(q)),
 		s.logged(ctx, qualificationRecords, m, actionCreate),
 	); err != nil {
@@ -75,7 +75,7 @@ func (s *Store) CorrectQualificationRecord(ctx context.Context, a Actor, id uuid
 	m := s.nextRevision(a, id, ch, false)
 	if err := s.write(ctx, "correct qualification_record "+id.String(),
 		qualificationRecords.baseIs(ctx, a.Site, id, ch),
-		claimMark(ctx, recordNumber, a.Site, m.ID, q.RecordNumber),
+		claimMark(ctx, recordNumber, m, q.RecordNumber),
 		qualificationRecords.writeRevision(ctx, m, recordValues(q)),
 		s.logged(ctx, qualificationRecords, m, actionCorrect),
 		recordFlags(ctx, m),

@@ -179,17 +179,31 @@ func latestRanges(ctx context.Context, q querier, site string, procedureID uuid.
 // revision the ranges were derived from) corrected or voided after the
 // latest derivation, or "" when none was.
 func rangesStale(ctx context.Context, q querier, pr ProcedureRanges) (string, error) {
-	rows, _ := q.Query(ctx, `
-		WITH derived AS (
-			SELECT max(created_at) AS at FROM procedure_ranges
-			WHERE site = $1 AND procedure_id = $2 AND action = 'derive' AND version <= $3),
+	rows, _ := q.Query(ctx, staleSQL(`SELECT $2::uuid AS procedure_id, $3::integer AS version, $4::integer AS procedure_revision`),
+		pr.Site, pr.ProcedureID, pr.Version, pr.ProcedureRevision)
+	return readStale(rows)
+}
+
+// staleSQL is the statement rangesStale runs for the ranges that ranges (a
+// SELECT of procedure_id, version and procedure_revision, at most one row)
+// names; $1 is the site.
+func staleSQL(ranges string) string {
+	return `
+		WITH pr AS (` + ranges + `),
+		derived AS (
+			SELECT max(d.created_at) AS at FROM procedure_ranges d, pr
+			WHERE d.site = $1 AND d.procedure_id = pr.procedure_id AND d.action = 'derive' AND d.version <= pr.version),
 		support AS (
-			SELECT unnest(supporting_record_ids) AS id FROM procedures
-			WHERE site = $1 AND id = $2 AND revision = $4)
+			SELECT unnest(p.supporting_record_ids) AS id FROM procedures p, pr
+			WHERE p.site = $1 AND p.id = pr.procedure_id AND p.revision = pr.procedure_revision)
 		SELECT DISTINCT ON (r.id) r.record_number, r.revision, r.voided
 		FROM qualification_records r JOIN support s ON s.id = r.id, derived d
 		WHERE r.site = $1 AND r.created_at > d.at
-		ORDER BY r.id, r.revision DESC`, pr.Site, pr.ProcedureID, pr.Version, pr.ProcedureRevision)
+		ORDER BY r.id, r.revision DESC`
+}
+
+// readStale reads the rows of staleSQL into rangesStale's answer.
+func readStale(rows pgx.Rows) (string, error) {
 	type changed struct {
 		number   string
 		revision int

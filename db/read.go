@@ -58,19 +58,23 @@ func readOne[T any](ctx context.Context, s *Store, t table, site string, id uuid
 
 // exists checks, inside a write, that a referenced record exists at the site and
 // is not voided; otherwise it names the referring field.
-func exists(ctx context.Context, q querier, t table, site string, id uuid.UUID, field string) error {
-	var voided bool
-	err := q.QueryRow(ctx, "SELECT voided FROM "+t.name+
-		" WHERE site = $1 AND id = $2 ORDER BY revision DESC LIMIT 1", site, id).Scan(&voided)
-	switch {
-	case errors.Is(err, pgx.ErrNoRows):
-		return &FieldError{Field: field, Reason: fmt.Sprintf("no %s %s", t.entity, id)}
-	case err != nil:
-		return err
-	case voided:
-		return &FieldError{Field: field, Reason: fmt.Sprintf("%s %s is voided", t.entity, id)}
-	}
-	return nil
+func exists(ctx context.Context, tx pgx.Tx, t table, site string, id uuid.UUID, field string) error {
+	return queueRows(ctx, tx, func(rows pgx.Rows) error {
+		if !rows.Next() {
+			if rows.Err() != nil {
+				return nil // the statement's own error is reported
+			}
+			return &FieldError{Field: field, Reason: fmt.Sprintf("no %s %s", t.entity, id)}
+		}
+		var voided bool
+		if err := rows.Scan(&voided); err != nil {
+			return err
+		}
+		if voided {
+			return &FieldError{Field: field, Reason: fmt.Sprintf("%s %s is voided", t.entity, id)}
+		}
+		return nil
+	}, "SELECT voided FROM "+t.name+" WHERE site = $1 AND id = $2 ORDER BY revision DESC LIMIT 1", site, id)
 }
 
 // revisions lists every revision of one record, oldest first.

@@ -88,17 +88,37 @@ func (t table) writeRevision(ctx context.Context, m Meta, values []any) step {
 			ph[i] = "$" + strconv.Itoa(i+1)
 		}
 		q := "INSERT INTO " + t.name + " (" + t.columns() + ") VALUES (" + strings.Join(ph, ", ") + ")"
-		_, err := tx.Exec(ctx, q, args...)
-		return mapError(err)
+		return queueExec(ctx, tx, q, args...)
+	}
+}
+
+// recorded is the step that inserts revision m with the record's values
+// and appends its pending leaf, encoded (AppendLeaf's way) from the row as
+// the INSERT returns it: RETURNING gives the row as stored, so the leaf is
+// the one AppendLeaf would encode from reading it back, one statement sooner.
+func (s *Store) recorded(ctx context.Context, t table, m Meta, values []any, action string) step {
+	return func(tx pgx.Tx) error {
+		k, err := leafKind(t.entity, 0)
+		if err != nil {
+			return err
+		}
+		args := append([]any{m.Site, m.ID, m.Revision, m.CreatedAt, m.CreatedBy, m.Reason, m.Voided}, values...)
+		ph := make([]string, len(args))
+		for i := range ph {
+			ph[i] = "$" + strconv.Itoa(i+1)
+		}
+		q := "INSERT INTO " + t.name + " (" + t.columns() + ") VALUES (" + strings.Join(ph, ", ") + ") RETURNING " + strings.Join(k.Columns, ", ")
+		return s.appendReturned(ctx, tx, k, m.leafEntry(t.entity, action), q, args...)
 	}
 }
 
 // lockRecord serialises the writes to one record until the transaction ends.
 // It is an advisory lock, not SELECT ... FOR UPDATE, because row locks need
 // UPDATE privilege and the service has none on record tables.
+// On a pipelined write the lock leaves with the next statement, which runs
+// after it.
 func lockRecord(ctx context.Context, tx pgx.Tx, id uuid.UUID) error {
-	_, err := tx.Exec(ctx, "SELECT pg_advisory_xact_lock(hashtextextended('etchlog-record:' || $1::text, 0))", id)
-	return err
+	return queueExec(ctx, tx, "SELECT pg_advisory_xact_lock(hashtextextended('etchlog-record:' || $1::text, 0))", id)
 }
 
 // lockLatest locks a record and returns its latest revision.
@@ -147,12 +167,16 @@ func (t table) voidLatest(ctx context.Context, m Meta) step {
 	}
 }
 
-// tx runs fn in one transaction and commits once.
+// tx runs fn in one transaction and commits once. The transaction is a
+// pipeTx (pipeline.go): BEGIN leaves with the first statements, and
+// statements a step queues leave together.
 func (s *Store) tx(ctx context.Context, fn func(tx pgx.Tx) error) error {
-	tx, err := s.pool.Begin(ctx)
+	conn, err := s.pool.Acquire(ctx)
 	if err != nil {
 		return err
 	}
+	defer conn.Release()
+	tx := newPipeTx(conn)
 	defer tx.Rollback(ctx) //nolint:errcheck // no-op after Commit
 	if err := fn(tx); err != nil {
 		return err

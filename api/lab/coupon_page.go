@@ -5,6 +5,7 @@ import (
 	"net/url"
 	"slices"
 	"strconv"
+	"strings"
 
 	"etchlog/db"
 )
@@ -20,11 +21,14 @@ type couponView struct {
 	Saved     int    // the revision just saved (0: none)
 	Sections  []db.Measurement
 	Flags     []string // the coupon's flags as sentences, requirement flags first
-	Facts     []fact
-	Recorder  bool // may add sections, correct and void
-	Forms     couponForms
-	Section   []formField
-	Accept    []string
+	// Prediction is set when a flag compares with a model's prediction, so
+	// the page shows the safety caution.
+	Prediction bool
+	Facts      []fact
+	Recorder   bool // may add sections, correct and void
+	Forms      couponForms
+	Section    []formField
+	Accept     []string
 }
 
 // couponForms are the coupon page's own forms, given back with the API's
@@ -63,6 +67,7 @@ func (rq *Request) showCoupon(status int, c db.Coupon, forms couponForms) error 
 	slices.SortStableFunc(flags, func(a, b db.Flag) int { return flagRank(a) - flagRank(b) })
 	for _, f := range flags {
 		v.Flags = append(v.Flags, FlagSentence(rq.Units, f, v.Procedure))
+		v.Prediction = v.Prediction || strings.HasPrefix(f.Variable, "predicted_") || f.Kind == "model" && f.Variable != "heat_input_j_mm"
 	}
 	v.Facts = couponFacts(rq.Units, c, v.Procedure)
 	if forms.Section == nil {

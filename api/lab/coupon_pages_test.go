@@ -183,3 +183,20 @@ func TestCouponListPages(t *testing.T) {
 		t.Errorf("auditor opening the entry form = %d, want 403", res.StatusCode)
 	}
 }
+
+// TestCautionBesidePredictions checks a coupon whose flags compare it with a
+// model's prediction shows the safety caution. The shop is the engineer
+// pages' fixture with its fit activated.
+func TestCautionBesidePredictions(t *testing.T) {
+	t.Parallel()
+	e := newLabEnv(t)
+	shop := newEngineerShop(e)
+	e.call(http.MethodPost, "/v1/calibrations/"+shop.cal+"/activate", "engineer", map[string]any{"reason": "fixture fit in use"}, http.StatusCreated)
+	flags := e.call(http.MethodGet, "/v1/flags?kind=model&procedure_id="+shop.proc, "auditor", nil, http.StatusOK)["items"].([]any)
+	if len(flags) == 0 {
+		t.Fatal("the activated fit flags no coupon; the fixture's deep coupon should be outside its prediction interval")
+	}
+	f := e.signedIn("technician")
+	_, page := f.get("/lab/coupons/" + flags[0].(map[string]any)["subject_id"].(string))
+	contains(t, "a coupon with a model flag", page, `id="caution"`, "prediction interval")
+}

@@ -195,6 +195,11 @@ func browser(t *testing.T, width int) context.Context {
 	ctx, cancelCtx := chromedp.NewContext(alloc)
 	ctx, cancelTimeout := context.WithTimeout(ctx, 90*time.Second)
 	t.Cleanup(func() { cancelTimeout(); cancelCtx(); cancelAlloc() })
+	// A headless window keeps a minimum width of its own (about 500 px), so
+	// the page's viewport is set exactly.
+	if err := chromedp.Do(ctx, chromedp.EmulateViewport(int64(width), 900)); err != nil {
+		t.Fatalf("set the viewport to %d px: %v", width, err)
+	}
 	return ctx
 }
 

@@ -108,7 +108,7 @@ func TestTechnicianEntersCoupon(t *testing.T) {
 			t.Fatalf("add section %s: %v", sec.label, err)
 		}
 	}
-	rows, err := chromedp.Run(ctx, chromedp.Evaluate[[]string](`Array.from(document.querySelectorAll('#section-table tbody tr'), tr => tr.cells[0].textContent + ' ' + tr.cells[1].textContent.trim() + ' ' + tr.cells[2].textContent)`))
+	rows, err := chromedp.Run(ctx, chromedp.Evaluate[[]string](`Array.from(document.querySelectorAll('#section-table tbody tr'), tr => tr.cells[0].firstChild.textContent.trim() + ' ' + tr.cells[1].textContent.trim() + ' ' + tr.cells[2].textContent)`))
 	if err != nil {
 		t.Fatal(err)
 	}

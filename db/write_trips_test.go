@@ -1,0 +1,130 @@
+package db_test
+
+import (
+	"context"
+	"fmt"
+	"strings"
+	"sync"
+	"testing"
+
+	"github.com/jackc/pgx/v5"
+
+	"etchlog/db"
+	"etchlog/db/dbtest"
+)
+
+// tripCounter counts what a store sends to PostgreSQL: each Exec or Query,
+// each batch (one round trip however many statements it carries) and each
+// COPY, and the statements inside batches.
+type tripCounter struct {
+	mu                             sync.Mutex
+	queries, batches, copies, stmt int
+	log                            []string
+}
+
+func (t *tripCounter) TraceQueryStart(ctx context.Context, _ *pgx.Conn, d pgx.TraceQueryStartData) context.Context {
+	t.mu.Lock()
+	t.queries++
+	t.stmt++
+	t.log = append(t.log, "query: "+oneLine(d.SQL))
+	t.mu.Unlock()
+	return ctx
+}
+
+func (t *tripCounter) TraceQueryEnd(context.Context, *pgx.Conn, pgx.TraceQueryEndData) {}
+
+func (t *tripCounter) TraceBatchStart(ctx context.Context, _ *pgx.Conn, d pgx.TraceBatchStartData) context.Context {
+	t.mu.Lock()
+	t.batches++
+	t.log = append(t.log, fmt.Sprintf("batch of %d:", d.Batch.Len()))
+	t.mu.Unlock()
+	return ctx
+}
+
+func (t *tripCounter) TraceBatchQuery(_ context.Context, _ *pgx.Conn, d pgx.TraceBatchQueryData) {
+	t.mu.Lock()
+	t.stmt++
+	t.log = append(t.log, "  - "+oneLine(d.SQL))
+	t.mu.Unlock()
+}
+
+func (t *tripCounter) TraceBatchEnd(context.Context, *pgx.Conn, pgx.TraceBatchEndData) {}
+
+func (t *tripCounter) TraceCopyFromStart(ctx context.Context, _ *pgx.Conn, d pgx.TraceCopyFromStartData) context.Context {
+	t.mu.Lock()
+	t.copies++
+	t.stmt++
+	t.log = append(t.log, "copy: "+d.TableName.Sanitize())
+	t.mu.Unlock()
+	return ctx
+}
+
+func (t *tripCounter) TraceCopyFromEnd(context.Context, *pgx.Conn, pgx.TraceCopyFromEndData) {}
+
+// reset zeroes the counts.
+func (t *tripCounter) reset() {
+	t.mu.Lock()
+	defer t.mu.Unlock()
+	t.queries, t.batches, t.copies, t.stmt, t.log = 0, 0, 0, 0, nil
+}
+
+// trips is the number of round trips counted: a COPY takes two (its
+// columns' description, then the data).
+func (t *tripCounter) trips() int {
+	t.mu.Lock()
+	defer t.mu.Unlock()
+	return t.queries + t.batches + 2*t.copies
+}
+
+func oneLine(sql string) string {
+	s := strings.Join(strings.Fields(sql), " ")
+	if len(s) > 110 {
+		s = s[:110] + "…"
+	}
+	return s
+}
+
+// TestCouponWriteRoundTrips counts the round trips and statements of one
+// coupon create and one correction through the service's store, after a
+// warm-up write (so pgx's statement cache holds every statement and no
+// round trip is a Prepare), and logs each statement with -v. A create waits
+// for PostgreSQL twice: once for its reads and writes (BEGIN with them), once
+// for the pending leaf with COMMIT; a correction once more, for the record
+// lock and the base revision it checks first. (Before the writes were
+// pipelined a create took 17 round trips.)
+func TestCouponWriteRoundTrips(t *testing.T) {
+	ctx := context.Background()
+	dbtest.Store(t)
+	tr := &tripCounter{}
+	s, err := db.OpenTraced(ctx, dbtest.AppURL(t), tr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	if err := s.SetLogKey(dbtest.PrivateKey); err != nil {
+		t.Fatal(err)
+	}
+	site := dbtest.Site(t)
+	p := mustProcedure(t, s, site)
+	var c db.Coupon
+	for i := range 2 { // the first create warms the statement cache
+		tr.reset()
+		if c, err = s.CreateCoupon(ctx, actor(site), couponData(p.ID, fmt.Sprint("RT-", i))); err != nil {
+			t.Fatal(err)
+		}
+	}
+	create, createStmt, createLog := tr.trips(), tr.stmt, strings.Join(tr.log, "\n")
+	t.Logf("create: %d round trips, %d statements\n%s", create, createStmt, createLog)
+	for i := range 2 {
+		tr.reset()
+		if c, err = s.CorrectCoupon(ctx, actor(site), c.ID, db.Change{BaseRevision: c.Revision, Reason: "mark misread"},
+			couponData(p.ID, fmt.Sprint("RT-C-", i))); err != nil {
+			t.Fatal(err)
+		}
+	}
+	correct := tr.trips()
+	t.Logf("correct: %d round trips, %d statements\n%s", correct, tr.stmt, strings.Join(tr.log, "\n"))
+	if create > 2 || correct > 3 {
+		t.Errorf("a create took %d round trips (want at most 2), a correction %d (want at most 3)", create, correct)
+	}
+}
