@@ -7,6 +7,8 @@ import (
 	"testing"
 	"time"
 
+	"github.com/google/uuid"
+
 	"etchlog/db"
 	"etchlog/db/dbtest"
 )
@@ -34,6 +36,8 @@ func TestDriftFlagNamesPowerSource(t *testing.T) {
 		t.Fatal(err)
 	}
 	var sinceMark string
+	var lastID uuid.UUID
+	var lastData db.CouponData
 	for i := 0; i < 30; i++ {
 		d := fitCoupon(p.ID, i%10)
 		d.CouponMark = fmt.Sprintf("C-NEW-%02d", i)
@@ -50,6 +54,7 @@ func TestDriftFlagNamesPowerSource(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
+		lastID, lastData = c.ID, d
 		for j, sec := range []string{"A", "B"} {
 			m := measurementData(c.ID, sec, "accept")
 			m.PenetrationMM = secs[j]
@@ -88,6 +93,14 @@ func TestDriftFlagNamesPowerSource(t *testing.T) {
 	c, err := s.RecheckFlags(ctx, site)
 	if err != nil || !c.OK() {
 		t.Errorf("RecheckFlags = %+v, %v; want the stored drift flags exactly", c, err)
+	}
+	// A correction moves the last coupon to another power source: the charts follow in its transaction.
+	lastData.PowerSourceID = "PS-1"
+	if _, err := s.CorrectCoupon(ctx, a, lastID, db.Change{BaseRevision: 1, Reason: "power source misread"}, lastData); err != nil {
+		t.Fatal(err)
+	}
+	if c, err := s.RecheckFlags(ctx, site); err != nil || !c.OK() {
+		t.Errorf("RecheckFlags after a correction = %+v, %v; want the stored drift flags exactly", c, err)
 	}
 	rep, err := s.Drift(ctx, site, fitGroup, "penetration")
 	if err != nil {

@@ -68,7 +68,7 @@ func optionalRow[T any](dst **T) func(pgx.Rows) error {
 // recomputeCoupon rewrites one coupon's flags from its latest revision: none
 // when it is voided, names no procedure, or its procedure is voided.
 func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID) (int, error) {
-	return recomputeCouponOf(ctx, tx, now, site, id, nil)
+	return recomputeCouponOf(ctx, tx, now, site, id, nil, nil)
 }
 
 // writtenCouponFlags is the step that rewrites the flags of coupon m.ID
@@ -81,14 +81,23 @@ func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string,
 func writtenCouponFlags(ctx context.Context, m Meta, c CouponData) step {
 	return func(tx pgx.Tx) error {
 		c.WeldedOn = DateOf(c.WeldedOn.Time) // as the date column keeps it
-		_, err := recomputeCouponOf(ctx, tx, m.CreatedAt, m.Site, m.ID, &Coupon{Meta: m, CouponData: c})
-		return err
+		var calibrated bool
+		if _, err := recomputeCouponOf(ctx, tx, m.CreatedAt, m.Site, m.ID, &Coupon{Meta: m, CouponData: c}, &calibrated); err != nil {
+			return err
+		}
+		if !calibrated { // no calibration of the process was ever chosen: no drift chart to redraw
+			return nil
+		}
+		return couponDrift(ctx, tx, m.CreatedAt, m.Site, m.ID)
 	}
 }
 
 // recomputeCouponOf is recomputeCoupon; written, when not nil, is the
-// coupon's latest revision as just written in this transaction.
-func recomputeCouponOf(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID, written *Coupon) (int, error) {
+// coupon's latest revision as just written in this transaction. When
+// calibrated is not nil it is set, in the same round trip, to whether any
+// calibration of the procedure's process was ever activated or deactivated
+// at the site (the drift charts a coupon write may change need one).
+func recomputeCouponOf(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID, written *Coupon, calibrated *bool) (int, error) {
 	var in couponInputs
 	// The procedure and joint type are the latest revision's: read by
 	// subquery, or given when the revision was just written.
@@ -121,6 +130,14 @@ func recomputeCouponOf(ctx context.Context, tx pgx.Tx, now time.Time, site strin
 				                 ORDER BY revision DESC LIMIT 1)
 				ORDER BY wire_diameter_mm, shielding_gas, activated_at DESC, id DESC) a
 			JOIN calibrations c ON c.site = $1 AND c.id = a.calibration_id`, append(args, CalibrationJacksonFixed.Family())...),
+	}
+	if calibrated != nil {
+		queued = append(queued, queueRows(ctx, tx, func(rows pgx.Rows) (err error) {
+			*calibrated, err = pgx.CollectExactlyOneRow(rows, pgx.RowTo[bool])
+			return err
+		},
+			`SELECT EXISTS (SELECT 1 FROM calibration_activations WHERE site = $1
+				AND process = (SELECT process FROM procedures WHERE site = $1 AND id = `+procID+` ORDER BY revision DESC LIMIT 1))`, args[:2]...))
 	}
 	if !fresh {
 		queued = append(queued,

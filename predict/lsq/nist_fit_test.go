@@ -7,6 +7,25 @@ import (
 	"testing"
 )
 
+// nistFitCases are the NIST StRD linear least-squares datasets with their
+// polynomial degree (0: the predictors as they are) and the coefficient
+// digits a fit must reach.
+var nistFitCases = []struct {
+	name     string
+	degree   int
+	coefNeed float64
+}{
+	{"Norris", 0, 12},   // NIST StRD, linear least squares, Norris, certified values
+	{"Pontius", 2, 12},  // NIST StRD, linear least squares, Pontius, certified values
+	{"Longley", 0, 12},  // NIST StRD, linear least squares, Longley, certified values
+	{"Filip", 10, 7},    // NIST StRD, linear least squares, Filip, certified values
+	{"Wampler1", 5, 12}, // NIST StRD, linear least squares, Wampler1, certified values
+	{"Wampler2", 5, 12}, // NIST StRD, linear least squares, Wampler2, certified values
+	{"Wampler3", 5, 12}, // NIST StRD, linear least squares, Wampler3, certified values
+	{"Wampler4", 5, 12}, // NIST StRD, linear least squares, Wampler4, certified values
+	{"Wampler5", 5, 12}, // NIST StRD, linear least squares, Wampler5, certified values
+}
+
 // TestFitNIST checks Fit against the certified values of the NIST StRD
 // linear least-squares datasets (files in testdata/nist-strd). Digits are
 // the log relative error. Each dataset runs twice: with the float64 design
@@ -20,21 +39,7 @@ import (
 // method can reach 8 there; the double-length run carries that gate.
 func TestFitNIST(t *testing.T) {
 	const sdNeed = 8
-	tests := []struct {
-		name     string
-		degree   int
-		coefNeed float64
-	}{
-		{"Norris", 0, 12},   // NIST StRD, linear least squares, Norris, certified values
-		{"Pontius", 2, 12},  // NIST StRD, linear least squares, Pontius, certified values
-		{"Longley", 0, 12},  // NIST StRD, linear least squares, Longley, certified values
-		{"Filip", 10, 7},    // NIST StRD, linear least squares, Filip, certified values
-		{"Wampler1", 5, 12}, // NIST StRD, linear least squares, Wampler1, certified values
-		{"Wampler2", 5, 12}, // NIST StRD, linear least squares, Wampler2, certified values
-		{"Wampler3", 5, 12}, // NIST StRD, linear least squares, Wampler3, certified values
-		{"Wampler4", 5, 12}, // NIST StRD, linear least squares, Wampler4, certified values
-		{"Wampler5", 5, 12}, // NIST StRD, linear least squares, Wampler5, certified values
-	}
+	tests := nistFitCases
 	var table []string
 	for _, tt := range tests {
 		c := loadNIST(t, tt.name)

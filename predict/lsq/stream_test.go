@@ -35,21 +35,7 @@ func streamFit(tb testing.TB, rows [][]float64, y []float64) *Result {
 // float64 rounding of its powers alone leaves 7.7 digits).
 func TestStreamNIST(t *testing.T) {
 	const sdNeed = 8
-	tests := []struct {
-		name     string
-		degree   int
-		coefNeed float64
-	}{
-		{"Norris", 0, 12},   // NIST StRD, linear least squares, Norris, certified values
-		{"Pontius", 2, 12},  // NIST StRD, linear least squares, Pontius, certified values
-		{"Longley", 0, 12},  // NIST StRD, linear least squares, Longley, certified values
-		{"Filip", 10, 7},    // NIST StRD, linear least squares, Filip, certified values
-		{"Wampler1", 5, 12}, // NIST StRD, linear least squares, Wampler1, certified values
-		{"Wampler2", 5, 12}, // NIST StRD, linear least squares, Wampler2, certified values
-		{"Wampler3", 5, 12}, // NIST StRD, linear least squares, Wampler3, certified values
-		{"Wampler4", 5, 12}, // NIST StRD, linear least squares, Wampler4, certified values
-		{"Wampler5", 5, 12}, // NIST StRD, linear least squares, Wampler5, certified values
-	}
+	tests := nistFitCases // the datasets and digits of TestFitNIST
 	var table []string
 	for _, tt := range tests {
 		c := loadNIST(t, tt.name)
