@@ -7,7 +7,9 @@ import (
 	"time"
 
 	"github.com/google/uuid"
+	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
 )
 
 // KeyLifetime is how long an Idempotency-Key is remembered at least.
@@ -44,21 +46,25 @@ func WithClaim(ctx context.Context, claim KeyClaim) context.Context {
 	return context.WithValue(ctx, claimKey{}, claim)
 }
 
-// markCommitted runs inside a write transaction started under a claim.
+// markCommitted runs inside a write transaction started under a claim. It
+// needs no answer of its own, so on a pipelined write it leaves with COMMIT:
+// the statement itself fails (dividing by the number of keys it marked) when
+// the claim is gone, and the failure rolls the write back.
 func markCommitted(ctx context.Context, tx pgx.Tx) error {
 	c, ok := ctx.Value(claimKey{}).(KeyClaim)
 	if !ok {
 		return nil
 	}
-	tag, err := tx.Exec(ctx, `UPDATE idempotency_keys SET committed = true
-		WHERE site = $1 AND user_name = $2 AND key = $3 AND claim_token = $4`, c.Site, c.User, c.Key, c.Token)
-	if err != nil {
-		return err
-	}
-	if tag.RowsAffected() == 0 {
-		return fmt.Errorf("%w: %w", ErrConflict, ErrClaimLost)
-	}
-	return nil
+	return queueExecMapped(ctx, tx, func(err error) error {
+		var pg *pgconn.PgError
+		if errors.As(err, &pg) && pg.Code == pgerrcode.DivisionByZero {
+			return fmt.Errorf("%w: %w", ErrConflict, ErrClaimLost)
+		}
+		return mapError(err)
+	}, `WITH marked AS (
+			UPDATE idempotency_keys SET committed = true
+			WHERE site = $1 AND user_name = $2 AND key = $3 AND claim_token = $4 RETURNING 1)
+		SELECT 1 / count(*) FROM marked`, c.Site, c.User, c.Key, c.Token)
 }
 
 // ClaimKey claims a user's key for a request with the given digest. When the

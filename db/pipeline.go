@@ -56,6 +56,15 @@ func newPipeTx(conn *pgxpool.Conn) *pipeTx {
 // further statements, which leave with the batch after). owned marks a
 // reader whose own refusal goes only to the step waiting for it.
 func (t *pipeTx) queue(sql string, args []any, read func(pgx.Rows) error, owned bool) {
+	t.queueWith(sql, args, read, owned, mapError)
+}
+
+// queueMapped queues a statement without a reader whose error mapErr maps.
+func (t *pipeTx) queueMapped(sql string, args []any, mapErr func(error) error) {
+	t.queueWith(sql, args, nil, false, mapErr)
+}
+
+func (t *pipeTx) queueWith(sql string, args []any, read func(pgx.Rows) error, owned bool, mapErr func(error) error) {
 	p := t.next
 	i := len(p.errs)
 	p.errs = append(p.errs, nil)
@@ -64,7 +73,7 @@ func (t *pipeTx) queue(sql string, args []any, read func(pgx.Rows) error, owned 
 	qq.Fn = func(br pgx.BatchResults) error {
 		if read == nil {
 			if _, err := br.Exec(); err != nil {
-				p.errs[i] = mapError(err)
+				p.errs[i] = mapErr(err)
 				t.err = p.errs[i]
 				return err
 			}
@@ -73,14 +82,14 @@ func (t *pipeTx) queue(sql string, args []any, read func(pgx.Rows) error, owned 
 		rows, err := br.Query()
 		if err != nil {
 			rows.Close()
-			p.errs[i] = mapError(err)
+			p.errs[i] = mapErr(err)
 			t.err = p.errs[i]
 			return err
 		}
 		rerr := read(rows)
 		rows.Close()
 		if err := rows.Err(); err != nil { // the statement failed: the server skips the rest
-			p.errs[i] = mapError(err)
+			p.errs[i] = mapErr(err)
 			t.err = p.errs[i]
 			return err
 		}
@@ -283,6 +292,20 @@ func queueRows(ctx context.Context, tx pgx.Tx, read func(pgx.Rows) error, sql st
 		return mapError(err)
 	}
 	return rerr
+}
+
+// queueExecMapped is queueExec with its own mapping of the statement's
+// error (mapError for the others).
+func queueExecMapped(ctx context.Context, tx pgx.Tx, mapErr func(error) error, sql string, args ...any) error {
+	if t, ok := tx.(*pipeTx); ok {
+		t.queueMapped(sql, args, mapErr)
+		return nil
+	}
+	_, err := tx.Exec(ctx, sql, args...)
+	if err != nil {
+		return mapErr(err)
+	}
+	return nil
 }
 
 // queueExec runs a statement whose only answer is success or an error: on a
