@@ -32,7 +32,7 @@ func (s *Server) handleCouponPlanSheet(c echo.Context) error {
 	}
 	var b strings.Builder
 	fmt.Fprintf(&b, "Coupon plan %s\n", p.ID)
-	fmt.Fprintf(&b, "Planned %s by %s for a %s calibration of %s %g mm %s %s\n", p.CreatedAt.Format("2006-01-02 15:04 MST"),
+	fmt.Fprintf(&b, "Planned %s by %s for a %s calibration of %s %.4g mm %s %s\n", p.CreatedAt.Format("2006-01-02 15:04 MST"),
 		p.CreatedBy, p.Model, p.Process, p.WireDiameterMM, p.ShieldingGas, p.JointType)
 	fmt.Fprintf(&b, "Procedure %s; %s\n", p.ProcedureID, plan.Basis)
 	if p.Note != "" {

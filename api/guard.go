@@ -60,11 +60,23 @@ func (s *Server) guard(next echo.HandlerFunc) echo.HandlerFunc {
 		if len(bytes.TrimSpace(body)) == 0 {
 			return next(c)
 		}
+		if isCSV(req) { // an import file: its reader names each faulty cell by row and column
+			if !utf8.Valid(body) {
+				return badRequest("body", "is not valid UTF-8")
+			}
+			return next(c)
+		}
 		if err := checkBody(body); err != nil {
 			return err
 		}
 		return next(c)
 	}
+}
+
+// isCSV reports a body sent as text/csv (parameters such as charset aside).
+func isCSV(req *http.Request) bool {
+	mt, _, _ := strings.Cut(req.Header.Get(echo.HeaderContentType), ";")
+	return strings.EqualFold(strings.TrimSpace(mt), "text/csv")
 }
 
 // checkParams refuses control characters in query and path parameters.
@@ -221,13 +233,21 @@ func (w *bodyWalker) array(path string) error {
 
 // text checks one string value by its field name (the last path element).
 func (w *bodyWalker) text(path, v string) {
-	name := path[strings.LastIndexAny(path, ".]")+1:]
+	if why := textRefusal(path[strings.LastIndexAny(path, ".]")+1:], v); why != "" {
+		w.fail(http.StatusUnprocessableEntity, path, why)
+	}
+}
+
+// textRefusal says why text v of field name is refused (control characters,
+// a blank identifier), or "".
+func textRefusal(name, v string) string {
 	switch {
 	case hasControl(v, freeText[name]):
-		w.fail(http.StatusUnprocessableEntity, path, "may not hold control characters"+map[bool]string{true: " other than tab and line break", false: ""}[freeText[name]])
+		return "may not hold control characters" + map[bool]string{true: " other than tab and line break", false: ""}[freeText[name]]
 	case identifiers[name] && v != "" && strings.TrimSpace(v) == "":
-		w.fail(http.StatusUnprocessableEntity, path, "is blank: give a value with more than white space")
+		return "is blank: give a value with more than white space"
 	}
+	return ""
 }
 
 // fail records an issue; any 400 makes the whole answer 400 (the request is malformed).

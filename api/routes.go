@@ -39,6 +39,7 @@ func (s *Server) routes() error {
 		{http.MethodPost, "/v1/qualification-records/:id/sign-off", s.handleSignOff(db.SignQualificationRecord), engineers},
 
 		{http.MethodPost, "/v1/coupons", handleCreate(s, cp), recorders},
+		{http.MethodPost, "/v1/coupons/import", s.handleCouponImport, recorders},
 		{http.MethodGet, "/v1/coupons", s.handleCouponList, readers},
 		{http.MethodGet, "/v1/coupons/:id", handleGet(cp), readers},
 		{http.MethodPut, "/v1/coupons/:id", handleCorrect(s, cp), recorders},

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"reflect"
 	"strings"
+	"sync"
 
 	"etchlog/predict"
 )
@@ -168,15 +169,30 @@ type jsonField struct {
 	typ  reflect.Type
 }
 
-// jsonFields lists t's JSON fields, those of embedded structs included.
+// jsonFieldsOf keeps jsonFields' answer per type: a body's rows, or an
+// import's, ask for the same types again and again.
+var jsonFieldsOf sync.Map // reflect.Type → []jsonField
+
+// jsonFields lists t's JSON fields, those of embedded structs included. The
+// list is shared: callers must not change it.
 func jsonFields(t reflect.Type) []jsonField {
+	if v, ok := jsonFieldsOf.Load(t); ok {
+		return v.([]jsonField)
+	}
+	out := listJSONFields(t)
+	jsonFieldsOf.Store(t, out)
+	return out
+}
+
+// listJSONFields is jsonFields without the cache.
+func listJSONFields(t reflect.Type) []jsonField {
 	var out []jsonField
 	for i := range t.NumField() {
 		f := t.Field(i)
 		name, _, _ := strings.Cut(f.Tag.Get("json"), ",")
 		switch {
 		case f.Anonymous && name == "" && f.Type.Kind() == reflect.Struct:
-			out = append(out, jsonFields(f.Type)...)
+			out = append(out, listJSONFields(f.Type)...)
 		case !f.IsExported() || name == "-":
 		case name == "":
 			out = append(out, jsonField{f.Name, f.Type})

@@ -8,6 +8,7 @@ import (
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgtype"
 
 	"etchlog/db/logfmt"
 )
@@ -107,7 +108,7 @@ func (s *Store) pendingLeaves(k LeafKind, rows pgx.Rows, e LeafEntry) ([][]any, 
 			fmt.Sscan(f.Fields[revCol].Value, &rev) //nolint:errcheck // an integer column
 		}
 		h := f.LeafHash()
-		pending = append(pending, []any{e.Site, k.Kind, k.Version, id, rev, h, key.Tag(e.Site, h), e.Actor, e.Action, e.Reason, e.At})
+		pending = append(pending, []any{e.Site, k.Kind, k.Version, pgtype.UUID{Bytes: id, Valid: true}, rev, h, key.Tag(e.Site, h), e.Actor, e.Action, e.Reason, e.At})
 	}
 	rows.Close()
 	if err := rows.Err(); err != nil {

@@ -45,13 +45,19 @@ func (d MeasurementData) checkCoupon(ctx context.Context, site string) func(pgx.
 		if err != nil {
 			return err
 		}
-		if d.PenetrationMM > c.ThicknessMM {
-			return &FieldError{Field: "penetration_mm", Reason: fmt.Sprintf(
-				"penetration %g mm is greater than the coupon's base-metal thickness %g mm (thickness_mm of coupon %s); check both values",
-				d.PenetrationMM, c.ThicknessMM, c.CouponMark)}
-		}
-		return nil
+		return d.fitsCoupon(c.CouponData)
 	}
+}
+
+// fitsCoupon refuses a section whose penetration is deeper than its
+// coupon's base metal is thick: a typing error, not a weld.
+func (d MeasurementData) fitsCoupon(c CouponData) error {
+	if d.PenetrationMM > c.ThicknessMM {
+		return &FieldError{Field: "penetration_mm", Reason: fmt.Sprintf(
+			"penetration %g mm is greater than the coupon's base-metal thickness %g mm (thickness_mm of coupon %s); check both values",
+			d.PenetrationMM, c.ThicknessMM, c.CouponMark)}
+	}
+	return nil
 }
 
 // CreateMeasurement stores revision 1 of a new measurement on an existing

@@ -64,17 +64,45 @@ func exists(ctx context.Context, tx pgx.Tx, t table, site string, id uuid.UUID, 
 			if rows.Err() != nil {
 				return nil // the statement's own error is reported
 			}
-			return &FieldError{Field: field, Reason: fmt.Sprintf("no %s %s", t.entity, id)}
+			return t.linkRefused(field, id, false, false)
 		}
 		var voided bool
 		if err := rows.Scan(&voided); err != nil {
 			return err
 		}
-		if voided {
-			return &FieldError{Field: field, Reason: fmt.Sprintf("%s %s is voided", t.entity, id)}
-		}
-		return nil
+		return t.linkRefused(field, id, true, voided)
 	}, "SELECT voided FROM "+t.name+" WHERE site = $1 AND id = $2 ORDER BY revision DESC LIMIT 1", site, id)
+}
+
+// linkRefused words why a link to record id is refused: it is not at the
+// site, or it is voided; nil when it is found and current.
+func (t table) linkRefused(field string, id uuid.UUID, found, voided bool) error {
+	switch {
+	case !found:
+		return &FieldError{Field: field, Reason: fmt.Sprintf("no %s %s", t.entity, id)}
+	case voided:
+		return &FieldError{Field: field, Reason: fmt.Sprintf("%s %s is voided", t.entity, id)}
+	}
+	return nil
+}
+
+// latestOf reads the latest revision of each record in ids at the site, in
+// one query, keyed by id; an id not at the site is absent from the map.
+func latestOf[T interface{ RecordID() uuid.UUID }](ctx context.Context, q querier, t table, site string, ids []uuid.UUID) (map[uuid.UUID]T, error) {
+	out := make(map[uuid.UUID]T, len(ids))
+	if len(ids) == 0 {
+		return out, nil
+	}
+	rows, _ := q.Query(ctx, "SELECT DISTINCT ON (id) "+t.columns()+" FROM "+t.name+
+		" WHERE site = $1 AND id = ANY($2) ORDER BY id, revision DESC", site, ids)
+	v, err := pgx.CollectRows(rows, pgx.RowToStructByName[T])
+	if err != nil {
+		return nil, fmt.Errorf("db: read %ss: %w", t.entity, err)
+	}
+	for _, r := range v {
+		out[r.RecordID()] = r
+	}
+	return out, nil
 }
 
 // revisions lists every revision of one record, oldest first.

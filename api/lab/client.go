@@ -77,19 +77,28 @@ func (c *Client) Post(path string, in, out any) error { return c.do(http.MethodP
 // Put sends in as JSON and decodes the answer into out (out may be nil).
 func (c *Client) Put(path string, in, out any) error { return c.do(http.MethodPut, path, in, out) }
 
+// PostCSV sends a CSV body (text/csv) and decodes the answer into out.
+func (c *Client) PostCSV(path string, csv []byte, out any) error {
+	return c.send(http.MethodPost, path, "text/csv", bytes.NewReader(csv), out)
+}
+
 func (c *Client) do(method, path string, in, out any) error {
-	var body io.Reader
-	if in != nil {
-		b, err := json.Marshal(in)
-		if err != nil {
-			return fmt.Errorf("lab: encode %s %s: %w", method, path, err)
-		}
-		body = bytes.NewReader(b)
+	if in == nil {
+		return c.send(method, path, "", nil, out)
 	}
+	b, err := json.Marshal(in)
+	if err != nil {
+		return fmt.Errorf("lab: encode %s %s: %w", method, path, err)
+	}
+	return c.send(method, path, "application/json", bytes.NewReader(b), out)
+}
+
+// send serves one request of contentType (none without a body) through the API.
+func (c *Client) send(method, path, contentType string, body io.Reader, out any) error {
 	r := httptest.NewRequestWithContext(WithUser(c.ctx, c.user), method, path, body)
 	r.RemoteAddr = "in-process"
-	if in != nil {
-		r.Header.Set("Content-Type", "application/json")
+	if body != nil {
+		r.Header.Set("Content-Type", contentType)
 	}
 	w := httptest.NewRecorder()
 	c.h.ServeHTTP(w, r)

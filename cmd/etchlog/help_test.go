@@ -30,6 +30,8 @@ func TestHelp(t *testing.T) {
 		{[]string{"user", "add", "-h"}, "usage: etchlog user add", []string{"database-url", "name", "owner-database-url", "role", "site"}},
 		{[]string{"load", "-h"}, "usage: etchlog load [flags]", []string{"auditor-token", "c", "database-url", "duration", "exporters", "max-time", "mixed", "n", "pagers", "producers", "token", "url", "writers"}},
 		{[]string{"keygen", "-h"}, "usage: etchlog keygen [flags]", []string{"name", "out"}},
+		{[]string{"import", "-h"}, "usage: etchlog import coupons [flags] FILE.csv", nil},
+		{[]string{"import", "coupons", "-h"}, "usage: etchlog import coupons [flags] FILE.csv", []string{"commit", "part-size", "token", "url"}},
 		{[]string{"verify", "-h"}, "usage: etchlog verify --export FILE", []string{"checkpoint", "export", "key", "older-checkpoint"}},
 	} {
 		t.Run(strings.Join(c.args, " "), func(t *testing.T) {

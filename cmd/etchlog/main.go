@@ -8,6 +8,7 @@
 //	etchlog load             measure a running server (loopback only)
 //	etchlog keygen           make the log signing key
 //	etchlog verify           check an export against signed checkpoints, offline
+//	etchlog import coupons   check or import a CSV file of coupons with their sections
 package main
 
 import (
@@ -40,6 +41,7 @@ commands:
   load             measure a running server against a no-database baseline (loopback only)
   keygen           make the log signing key (private key file and public key)
   verify           check an export against signed checkpoints, offline (no database, no server)
+  import coupons   check (dry run) or import a CSV file of coupons with their sections into a running server
 
 Run "etchlog <command> -h" for the flags of a command. Without DATABASE_URL,
 etchlog uses the local PostgreSQL server, or starts a private one.`
@@ -74,6 +76,8 @@ func dispatch(ctx context.Context, args []string, getenv func(string) string, st
 		return cmdKeygen(ctx, args[1:], getenv, stdout, stderr)
 	case "verify":
 		return cmdVerify(ctx, args[1:], getenv, stdout, stderr)
+	case "import":
+		return cmdImport(ctx, args[1:], getenv, stdout, stderr)
 	case "help", "-h", "--help":
 		fmt.Fprintln(stdout, usage)
 		return nil

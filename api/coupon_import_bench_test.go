@@ -1,0 +1,162 @@
+package api_test
+
+import (
+	"bytes"
+	"context"
+	"encoding/csv"
+	"fmt"
+	"net/http"
+	"net/http/httptest"
+	"os"
+	"strconv"
+	"testing"
+	"time"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// benchImportRows is the benchmark's file size in data rows (three sections
+// per coupon): ETCHLOG_BENCH_IMPORT_ROWS, default 100,000.
+func benchImportRows(tb testing.TB) int {
+	n := 100_000
+	if v := os.Getenv("ETCHLOG_BENCH_IMPORT_ROWS"); v != "" {
+		var err error
+		if n, err = strconv.Atoi(v); err != nil || n < 3 {
+			tb.Fatalf("ETCHLOG_BENCH_IMPORT_ROWS=%q: want a whole number of at least 3", v)
+		}
+	}
+	return n
+}
+
+// benchPart is one part of the benchmark's file: its CSV text (header
+// included), the file row of its first data row, and the same rows as raw
+// coupon and section rows in metric units.
+type benchPart struct {
+	body              []byte
+	firstRow          int
+	coupons, sections [][]any
+}
+
+// benchImportFile is n rows of plausible fillet coupons (three sections
+// each, inch-pound thickness and travel speed) on procedure proc, marked
+// with prefix, cut into parts of about partSize bytes between coupons, as
+// "etchlog import coupons" sends it.
+func benchImportFile(tb testing.TB, proc, prefix, rawSite string, n, partSize int) []benchPart {
+	tb.Helper()
+	header := []string{"procedure_id", "coupon_mark", "welder_id", "welded_on", "joint_type", "thickness_in", "pass_number",
+		"current_a", "voltage_v", "travel_speed_in_min", "wire_feed_speed_m_min", "ctwd_mm", "position",
+		"section", "penetration_mm", "bead_width_mm", "reinforcement_mm", "acceptance", "inspector"}
+	var part bytes.Buffer
+	w := csv.NewWriter(&part)
+	start := func() {
+		part.Reset()
+		if err := w.Write(header); err != nil {
+			tb.Fatal(err)
+		}
+	}
+	start()
+	var parts []benchPart
+	cur := benchPart{firstRow: 2}
+	now := time.Now().UTC()
+	pid := uuid.MustParse(proc)
+	var cid uuid.UUID
+	for i := range n {
+		c, s := i/3, i%3
+		if s == 0 {
+			w.Flush()
+			if part.Len() > partSize {
+				cur.body = bytes.Clone(part.Bytes())
+				parts = append(parts, cur)
+				cur = benchPart{firstRow: i + 2}
+				start()
+			}
+			cid = uuid.Must(uuid.NewV7())
+			cur.coupons = append(cur.coupons, []any{rawSite, cid, 1, now, "bench", "", false, pid, nil, fmt.Sprintf("%s-%d", prefix, c),
+				"W-1", "", "", time.Date(2026, 11, 3, 0, 0, 0, 0, time.UTC), "fillet", 0.25 * 25.4, 1, 170.0 + float64(c%40), 21.0,
+				12 * 25.4 / 60, 7.6, 15.0, nil, "", nil, "2F", nil, nil})
+		}
+		label := string(rune('A' + s))
+		pen := 1.2 + 0.1*float64(s)
+		if err := w.Write([]string{proc, fmt.Sprintf("%s-%d", prefix, c), "W-1", "2026-11-03", "fillet", "0.25", "1",
+			strconv.Itoa(170 + c%40), "21", "12", "7.6", "15", "2F", label, strconv.FormatFloat(pen, 'g', -1, 64), "7.5", "1.1", "accept", "QC-3"}); err != nil {
+			tb.Fatal(err)
+		}
+		cur.sections = append(cur.sections, []any{rawSite, uuid.Must(uuid.NewV7()), 1, now, "bench", "", false, cid, label, pen, 7.5, 1.1,
+			nil, nil, nil, nil, "accept", "QC-3", ""})
+	}
+	w.Flush()
+	cur.body = bytes.Clone(part.Bytes())
+	return append(parts, cur)
+}
+
+// benchPartSize is the part size "etchlog import coupons" sends by default.
+const benchPartSize = 256 << 10
+
+// BenchmarkCouponImport imports a file of coupons with their sections
+// through POST /v1/coupons/import (in parts, as the command sends it: each
+// part parsed, checked, written with its marks, log leaves and flags, in
+// its own transaction) beside a raw COPY of the same coupon and section
+// rows into the same tables, one transaction per part likewise, and reports
+// both rates and their ratio.
+func BenchmarkCouponImport(b *testing.B) {
+	e := newEnv(b)
+	proc := e.procedure()
+	n := benchImportRows(b)
+	ctx := context.Background()
+	couponCols := []string{"site", "id", "revision", "created_at", "created_by", "reason", "voided", "procedure_id",
+		"qualification_record_id", "coupon_mark", "welder_id", "power_source_id", "filler_lot", "welded_on", "joint_type",
+		"thickness_mm", "pass_number", "current_a", "voltage_v", "travel_speed_mm_s", "wire_feed_speed_m_min", "ctwd_mm",
+		"wire_diameter_mm", "shielding_gas", "polarity", "position", "preheat_c", "interpass_c"}
+	sectionCols := []string{"site", "id", "revision", "created_at", "created_by", "reason", "voided", "coupon_id", "section",
+		"penetration_mm", "bead_width_mm", "reinforcement_mm", "leg1_mm", "leg2_mm", "throat_mm", "fused_area_mm2",
+		"acceptance", "inspector", "remark"}
+	var importTime, rawTime time.Duration
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		b.StopTimer()
+		parts := benchImportFile(b, proc, fmt.Sprintf("B%d-%d", i, time.Now().UnixNano()), e.site+"-raw", n, benchPartSize)
+		b.StartTimer()
+
+		t0 := time.Now()
+		for _, p := range parts {
+			tx, err := e.store.Pool().Begin(ctx)
+			if err != nil {
+				b.Fatal(err)
+			}
+			if _, err := tx.CopyFrom(ctx, pgx.Identifier{"coupons"}, couponCols, pgx.CopyFromRows(p.coupons)); err != nil {
+				b.Fatal(err)
+			}
+			if _, err := tx.CopyFrom(ctx, pgx.Identifier{"measurements"}, sectionCols, pgx.CopyFromRows(p.sections)); err != nil {
+				b.Fatal(err)
+			}
+			if err := tx.Commit(ctx); err != nil {
+				b.Fatal(err)
+			}
+		}
+		rawTime += time.Since(t0)
+
+		t0 = time.Now()
+		for k, p := range parts {
+			req := httptest.NewRequest(http.MethodPost, fmt.Sprintf("/v1/coupons/import?mode=commit&first_row=%d", p.firstRow), bytes.NewReader(p.body))
+			req.Header.Set("Content-Type", "text/csv")
+			req.Header.Set("Authorization", "Bearer "+e.tokens["technician"])
+			rec := httptest.NewRecorder()
+			e.srv.ServeHTTP(rec, req)
+			if rec.Code != http.StatusOK {
+				b.Fatalf("import part %d = %d %.300s", k, rec.Code, rec.Body)
+			}
+		}
+		importTime += time.Since(t0)
+		b.StopTimer()
+		if err := e.store.AwaitLogged(ctx, e.site); err != nil { // the sequencer's backlog is not the next round's
+			b.Fatal(err)
+		}
+		b.StartTimer()
+	}
+	rows := float64(n) * float64(b.N)
+	b.ReportMetric(rows/importTime.Seconds(), "import-rows/s")
+	b.ReportMetric(rows/rawTime.Seconds(), "copy-rows/s")
+	b.ReportMetric(rawTime.Seconds()/importTime.Seconds(), "x-of-raw")
+	b.ReportMetric(0, "ns/op")
+}
