@@ -51,8 +51,9 @@ func (in calibrationIn) spec() (db.CalibrationSpec, error) {
 }
 
 // calibrationOut is a calibration with, when read alone, the per-coupon
-// diagnostics of its fit (recomputed from the stored samples at its level)
-// and its activations.
+// diagnostics of its fit (recomputed at its level from its samples, stored
+// inline or re-derived from its selection; none above db.InlineSampleLimit
+// samples) and its activations.
 type calibrationOut struct {
 	db.Calibration
 	Diagnostics *predict.Diagnostics       `json:"diagnostics,omitempty"`

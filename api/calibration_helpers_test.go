@@ -122,16 +122,3 @@ func (e *testEnv) fit(body map[string]any) calibrationReply {
 
 // relClose reports whether got is within rel of want, relative to |want|.
 func relClose(got, want, rel float64) bool { return math.Abs(got-want) <= rel*math.Abs(want) }
-
-// sameBits reports whether two float slices hold identical bits.
-func sameBits(a, b []float64) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if math.Float64bits(a[i]) != math.Float64bits(b[i]) {
-			return false
-		}
-	}
-	return true
-}

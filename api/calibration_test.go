@@ -7,6 +7,7 @@ import (
 	"testing"
 
 	"github.com/google/go-cmp/cmp"
+	"github.com/google/go-cmp/cmp/cmpopts"
 
 	"etchlog/db"
 	"etchlog/predict"
@@ -67,19 +68,23 @@ func TestCalibrationFitThroughAPI(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			// The store keeps the fit bit for bit; answers carry it to 12 significant digits.
+			// The store keeps the streamed fit (predict's PenetrationStream,
+			// MeltingStream: a one-pass QR), which agrees with predict's
+			// whole-group QR to rounding, not bit for bit: to 1e-12 relative
+			// (seen: 4e-13 on a covariance entry made small by cancellation),
+			// the identifiability correlations (|r| ≤ 1) to 1e-12 absolute.
+			// Answers carry the stored fit to 12 significant digits.
 			stored := e.storedFit(created.ID)
-			if d := cmp.Diff(tc.want, stored); d != "" {
+			if d := cmp.Diff(tc.want, stored, cmpopts.EquateApprox(1e-12, 0), cmpopts.IgnoreFields(predict.PenetrationFit{}, "Identifiability")); d != "" {
 				t.Errorf("stored fit (-predict +stored):\n%s", d)
 			}
-			if p := stored.Penetration; p != nil && !sameBits(p.Coef, tc.want.Penetration.Coef) {
-				t.Errorf("stored coef = %v, want bit-identical %v", p.Coef, tc.want.Penetration.Coef)
-			}
-			if m := stored.Melting; m != nil && !sameBits([]float64{m.AlphaKgPerHA, m.BetaKgPerHA2MM}, []float64{melt.AlphaKgPerHA, melt.BetaKgPerHA2MM}) {
-				t.Errorf("stored α, β = %v, %v, want bit-identical %v, %v", m.AlphaKgPerHA, m.BetaKgPerHA2MM, melt.AlphaKgPerHA, melt.BetaKgPerHA2MM)
+			if p := stored.Penetration; p != nil {
+				if d := cmp.Diff(tc.want.Penetration.Identifiability, p.Identifiability, cmpopts.EquateApprox(1e-12, 1e-12)); d != "" {
+					t.Errorf("stored identifiability (-predict +stored):\n%s", d)
+				}
 			}
 			var wantFit db.CalibrationFit
-			if b, err := json.Marshal(tc.want); err != nil || json.Unmarshal(b, &wantFit) != nil {
+			if b, err := json.Marshal(stored); err != nil || json.Unmarshal(b, &wantFit) != nil {
 				t.Fatalf("copy the fit: %v", err)
 			}
 			answeredAll(&wantFit)

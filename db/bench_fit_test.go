@@ -20,14 +20,19 @@ import (
 	"etchlog/db/dbtest"
 )
 
-// BenchmarkFitGroupStream fits the free Jackson model to a group of coupons
-// with one section each (ETCHLOG_BENCH_FIT_COUPONS, default 20,000; seeded
-// with COPY, spread over current, voltage and travel speed by an invented
-// power law with scatter) by streaming them (Store.FitGroup), side by side
-// with the baseline: COPY TO of the same selection query's rows, i.e. the
-// time just to stream those columns out of PostgreSQL. It reports the ratio
-// fit/COPY and the live heap after a fit (flat in the group's size).
-func BenchmarkFitGroupStream(b *testing.B) {
+// fitBench is a seeded calibration group: the store, a direct connection
+// for the baseline, the site, a spec selecting the whole group and the
+// COPY of its selection query's rows.
+type fitBench struct {
+	s       *db.Store
+	conn    *pgx.Conn
+	site    string
+	sp      db.CalibrationSpec
+	copySQL string
+}
+
+// benchGroupSize is ETCHLOG_BENCH_FIT_COUPONS, default 20,000.
+func benchGroupSize(b *testing.B) int {
 	n := 20_000
 	if v := os.Getenv("ETCHLOG_BENCH_FIT_COUPONS"); v != "" {
 		var err error
@@ -35,6 +40,13 @@ func BenchmarkFitGroupStream(b *testing.B) {
 			b.Fatal(err)
 		}
 	}
+	return n
+}
+
+// seedFitGroup seeds a fresh database with n coupons of one group, one
+// section each (COPY), spread over current, voltage and travel speed by an
+// invented power law with scatter.
+func seedFitGroup(b *testing.B, n int) fitBench {
 	ctx := context.Background()
 	dbURL, _, _ := dbtest.Fresh(b)
 	appURL, err := db.AppURL(dbURL)
@@ -45,7 +57,7 @@ func BenchmarkFitGroupStream(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	defer s.Close()
+	b.Cleanup(s.Close)
 	if err := s.SetLogKey(dbtest.PrivateKey); err != nil {
 		b.Fatal(err)
 	}
@@ -58,7 +70,7 @@ func BenchmarkFitGroupStream(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	defer conn.Close(ctx)
+	b.Cleanup(func() { conn.Close(ctx) })
 	// Seeding only: skip the per-row triggers (one section per coupon is
 	// true by construction), whose locks would overflow one COPY.
 	if _, err := conn.Exec(ctx, "SET session_replication_role = replica"); err != nil {
@@ -100,8 +112,22 @@ func BenchmarkFitGroupStream(b *testing.B) {
 		ShieldingGas: "Ar-25CO2", JointType: "fillet", Level: 0.95}
 	// The same query, parameters written in: the site, no dates, no procedure.
 	sel := strings.NewReplacer("$1", "'"+site+"'", "$2::date", "NULL::date", "$2", "NULL::date", "$3::date", "NULL::date",
-		"$3", "NULL::date", "$4::uuid", "NULL::uuid", "$4", "NULL::uuid").Replace(db.SiteCouponsSQL)
+		"$3", "NULL::date", "$4::uuid", "NULL::uuid", "$4", "NULL::uuid", "$5::timestamptz", "NULL::timestamptz").Replace(db.SiteCouponsSQL)
 	copySQL := "COPY (" + sel + ") TO STDOUT"
+	return fitBench{s: s, conn: conn, site: site, sp: sp, copySQL: copySQL}
+}
+
+// BenchmarkFitGroupStream fits the free Jackson model to a group of coupons
+// with one section each (ETCHLOG_BENCH_FIT_COUPONS, default 20,000; seeded
+// with COPY, spread over current, voltage and travel speed by an invented
+// power law with scatter) by streaming them (Store.FitGroup), side by side
+// with the baseline: COPY TO of the same selection query's rows, i.e. the
+// time just to stream those columns out of PostgreSQL. It reports the ratio
+// fit/COPY and the live heap after a fit (flat in the group's size).
+func BenchmarkFitGroupStream(b *testing.B) {
+	n := benchGroupSize(b)
+	fb := seedFitGroup(b, n)
+	ctx, s, conn, site, sp, copySQL := context.Background(), fb.s, fb.conn, fb.site, fb.sp, fb.copySQL
 	var fitT, copyT time.Duration
 	var heap uint64
 	b.ResetTimer()

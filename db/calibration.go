@@ -2,6 +2,7 @@ package db
 
 import (
 	"context"
+	"encoding/hex"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -100,7 +101,12 @@ type CalibrationSamples struct {
 }
 
 // Calibration is a stored fit over a group's coupons. Calibrations are never
-// corrected: a new fit is a new calibration. Samples is nil in lists.
+// corrected: a new fit is a new calibration. Calibrations stored before
+// selections were kept have their samples and coupon ids inline; newer ones
+// store their Selection, SampleCount and SampleDigest, and a calibration
+// read alone re-derives its samples from them (up to InlineSampleLimit) and
+// says in SampleCheck whether they are the ones fitted. Samples is nil in
+// lists, and CouponIDs empty there for calibrations stored by selection.
 type Calibration struct {
 	Site      string    `db:"site" json:"site"`
 	ID        uuid.UUID `db:"id" json:"id"`
@@ -110,6 +116,14 @@ type Calibration struct {
 	Fit       CalibrationFit      `db:"fit" json:"fit"`
 	Samples   *CalibrationSamples `db:"samples" json:"samples,omitempty"`
 	CouponIDs []uuid.UUID         `db:"coupon_ids" json:"coupon_ids"`
+	// Selection is the stored selection (null for calibrations with inline samples).
+	Selection *CalibrationSelection `db:"selection" json:"selection,omitempty"`
+	// SampleCount is how many coupons were fitted.
+	SampleCount int `db:"sample_count" json:"sample_count"`
+	// SampleDigest is the hex SHA-256 of the fitted coupons and revisions ("" for inline samples).
+	SampleDigest string `db:"sample_digest" json:"sample_digest,omitempty"`
+	// SampleCheck says where the samples come from and whether they are the fitted ones.
+	SampleCheck *SampleCheck `db:"-" json:"sample_check,omitempty"`
 	// Active is true when this calibration is its group's latest activation for its model.
 	Active bool `db:"active" json:"active"`
 	// SignOff is the calibration's sign-off by an engineer; null until signed.
@@ -139,10 +153,12 @@ func (c CalibrationSpec) validate() error {
 	return nil
 }
 
-// CreateCalibration selects the group's coupons, fits the model to them and
-// stores the result with the samples and coupon ids used, all in one
-// transaction (so the stored coupon ids are exactly the ones fitted). A fit
-// refused by predict returns its error (predict.ErrTooFewSamples,
+// CreateCalibration selects the group's coupons, fits the model to them as
+// they stream out of the database (memory does not grow with the group) and
+// stores the result with the selection, the number of coupons fitted and
+// their digest, all in one transaction. The answer lists the samples and
+// coupon ids when there are at most InlineSampleLimit. A fit refused by
+// predict returns its error (predict.ErrTooFewSamples,
 // predict.ErrDegenerate); a coupon the model cannot take is a FieldError.
 func (s *Store) CreateCalibration(ctx context.Context, a Actor, spec CalibrationSpec) (Calibration, error) {
 	if err := spec.validate(); err != nil {
@@ -155,23 +171,40 @@ func (s *Store) CreateCalibration(ctx context.Context, a Actor, spec Calibration
 		return Calibration{}, err
 	}
 	c := Calibration{Site: a.Site, ID: id, CreatedAt: s.now(), CreatedBy: a.Name, CalibrationSpec: spec}
+	sel := selectionOf(c)
+	c.Selection = &sel
 	err = s.tx(ctx, func(tx pgx.Tx) error {
 		if spec.ProcedureID != nil {
 			if err := exists(ctx, tx, procedures, a.Site, *spec.ProcedureID, "procedure_id"); err != nil {
 				return err
 			}
 		}
-		if err := fitSpec(ctx, tx, &c); err != nil {
-			if errors.Is(err, predict.ErrTooFewSamples) { // say which groups do have coupons
-				groups, gerr := existingGroups(ctx, tx, a.Site, spec.Group())
-				if gerr != nil {
-					return gerr
-				}
-				return &NoGroupError{Err: err, Groups: groups}
+		arc := 0.0
+		if spec.ArcLengthMM != nil {
+			arc = *spec.ArcLengthMM
+		}
+		run, err := runSelection(ctx, tx, a.Site, sel.filter(), spec.Model, arc, InlineSampleLimit, true)
+		if errors.Is(err, predict.ErrTooFewSamples) { // say which groups do have coupons
+			groups, gerr := existingGroups(ctx, tx, a.Site, spec.Group())
+			if gerr != nil {
+				return gerr
 			}
+			return &NoGroupError{Err: err, Groups: groups}
+		}
+		if err != nil {
 			return err
 		}
-		return s.insertCalibration(ctx, tx, c)
+		c.Fit, c.SampleCount, c.SampleDigest = run.Fit, run.Count, hex.EncodeToString(run.Digest)
+		if err := s.insertCalibration(ctx, tx, c, run.Digest); err != nil {
+			return err
+		}
+		c.Samples, c.CouponIDs = run.Samples, run.IDs
+		c.listSampleIDs()
+		c.SampleCheck = &SampleCheck{Finding: "fitted", Note: fmt.Sprintf("the %d samples just fitted", run.Count)}
+		if c.Samples == nil {
+			c.SampleCheck.Note += fmt.Sprintf("; more than %d samples: their ids, values and per-coupon diagnostics are not listed", InlineSampleLimit)
+		}
+		return nil
 	})
 	if err != nil {
 		return Calibration{}, fmt.Errorf("db: create calibration: %w", err)
@@ -179,64 +212,24 @@ func (s *Store) CreateCalibration(ctx context.Context, a Actor, spec Calibration
 	return c, nil
 }
 
-// fitSpec gathers c's samples inside tx and fits c's model to them.
-func fitSpec(ctx context.Context, tx pgx.Tx, c *Calibration) error {
-	var err error
-	var ids []string
-	c.Samples = &CalibrationSamples{}
-	if c.Model == CalibrationLesnewich {
-		var fit predict.MeltingFit
-		if c.Samples.Melting, err = meltingSamples(ctx, tx, c.Site, c.Filter(), *c.ArcLengthMM); err != nil {
-			return err
-		}
-		fit, err = predict.FitMeltingRate(c.Samples.Melting)
-		c.Fit.Melting, ids = &fit, fit.SampleIDs
-	} else {
-		var fit predict.PenetrationFit
-		if c.Samples.Penetration, err = penetrationSamples(ctx, tx, c.Site, c.Filter()); err != nil {
-			return err
-		}
-		if c.Model == CalibrationJacksonFixed {
-			fit, err = predict.FitPenetrationFixed(c.Samples.Penetration)
-		} else {
-			fit, err = predict.FitPenetrationFree(c.Samples.Penetration)
-		}
-		c.Fit.Penetration, ids = &fit, fit.SampleIDs
-	}
-	var ie *predict.InputError
-	if errors.As(err, &ie) { // a stored coupon outside what the model takes: say which
-		return &FieldError{Field: "coupons", Reason: "a selected coupon cannot be fitted: " + err.Error()}
-	}
-	if err != nil {
-		return err
-	}
-	c.CouponIDs = make([]uuid.UUID, len(ids))
-	for i, s := range ids {
-		if c.CouponIDs[i], err = uuid.Parse(s); err != nil {
-			return fmt.Errorf("sample id %q: %w", s, err)
-		}
-	}
-	return nil
-}
-
-// insertCalibration writes the calibration row and its leaf.
-func (s *Store) insertCalibration(ctx context.Context, tx pgx.Tx, c Calibration) error {
+// insertCalibration writes the calibration row, by its selection, and its leaf.
+func (s *Store) insertCalibration(ctx context.Context, tx pgx.Tx, c Calibration, digest []byte) error {
 	fit, err := json.Marshal(c.Fit)
 	if err != nil {
 		return fmt.Errorf("encode fit: %w", err)
 	}
-	samples, err := json.Marshal(c.Samples)
+	sel, err := json.Marshal(c.Selection)
 	if err != nil {
-		return fmt.Errorf("encode samples: %w", err)
+		return fmt.Errorf("encode selection: %w", err)
 	}
 	_, err = tx.Exec(ctx, `
 		INSERT INTO calibrations (site, id, created_at, created_by, model, process, wire_diameter_mm,
 			shielding_gas, joint_type, welded_from, welded_to, procedure_id, level, arc_length_mm,
-			fit, samples, coupon_ids, note)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18)`,
+			fit, selection, sample_count, sample_digest, note)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18, $19)`,
 		c.Site, c.ID, c.CreatedAt, c.CreatedBy, c.Model, c.Process, c.WireDiameterMM,
 		c.ShieldingGas, c.JointType, c.WeldedFrom, lastDayBefore(c.WeldedTo), c.ProcedureID, c.Level, c.ArcLengthMM,
-		string(fit), string(samples), c.CouponIDs, c.Note)
+		string(fit), string(sel), c.SampleCount, digest, c.Note)
 	if err != nil {
 		return mapError(err)
 	}

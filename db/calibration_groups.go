@@ -72,7 +72,7 @@ func groupDistance(g, h CalibrationGroup) float64 {
 
 // existingGroups lists the site's groups with current coupons, closest to g first.
 func existingGroups(ctx context.Context, q querier, site string, g CalibrationGroup) ([]GroupCount, error) {
-	rows, _ := q.Query(ctx, siteCoupons, site, nil, nil, nil)
+	rows, _ := q.Query(ctx, siteCoupons, site, nil, nil, nil, nil)
 	cs, err := pgx.CollectRows(rows, pgx.RowToStructByName[groupCoupon])
 	if err != nil {
 		return nil, fmt.Errorf("groups: %w", err)

@@ -15,7 +15,8 @@ import (
 // calibrationColumns are the stored columns of a calibration, read from "c".
 const calibrationColumns = `c.site, c.id, c.created_at, c.created_by, c.model, c.process,
 	c.wire_diameter_mm, c.shielding_gas, c.joint_type, c.welded_from, c.welded_to + 1 AS welded_to, c.procedure_id,
-	c.level, c.arc_length_mm, c.fit, c.coupon_ids, c.note`
+	c.level, c.arc_length_mm, c.fit, coalesce(c.coupon_ids, '{}') AS coupon_ids, c.note, c.selection,
+	coalesce(c.sample_count, cardinality(c.coupon_ids)) AS sample_count, coalesce(encode(c.sample_digest, 'hex'), '') AS sample_digest`
 
 // latestActivations is, per group and model family, the calibration in
 // use: the latest activation event's, unless that event is a deactivation.
@@ -26,7 +27,8 @@ const latestActivations = `latest AS (
 		ORDER BY family, process, wire_diameter_mm, shielding_gas, joint_type, activated_at DESC, id DESC) ev
 	WHERE action = 'activate')`
 
-// Calibration reads one calibration with the samples it was fitted to.
+// Calibration reads one calibration with the samples it was fitted to:
+// stored inline, or re-derived from its selection and checked (rederive).
 func (s *Store) Calibration(ctx context.Context, site string, id uuid.UUID) (Calibration, error) {
 	rows, _ := s.pool.Query(ctx, `WITH `+latestActivations+`
 		SELECT `+calibrationColumns+`, c.samples, l.calibration_id IS NOT NULL AS active
@@ -39,6 +41,10 @@ func (s *Store) Calibration(ctx context.Context, site string, id uuid.UUID) (Cal
 	if err != nil {
 		return c, fmt.Errorf("db: calibration %s: %w", id, err)
 	}
+	if err := s.rederive(ctx, &c); err != nil {
+		return c, err
+	}
+	c.listSampleIDs()
 	one := []Calibration{c}
 	err = attachSignOffs(ctx, s.pool, site, one)
 	return one[0], err
@@ -104,6 +110,9 @@ func (s *Store) Calibrations(ctx context.Context, site string, cf CalibrationFil
 	items, last, err := collectIndexed[Calibration](rows)
 	if err != nil {
 		return Page[Calibration]{}, fmt.Errorf("db: list calibrations: %w", mapError(err))
+	}
+	for i := range items {
+		items[i].listSampleIDs()
 	}
 	p := Page[Calibration]{Items: items, Next: nextLogCursor("calibrations", from, last, len(items))}
 	return p, attachSignOffs(ctx, s.pool, site, p.Items)

@@ -3,6 +3,7 @@ package db
 import (
 	"context"
 	"fmt"
+	"time"
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
@@ -12,52 +13,68 @@ import (
 
 // SampleFilter selects the coupons of one group for a fit: current,
 // non-voided coupons of the group, optionally welded within [WeldedFrom,
-// WeldedTo) (half-open) and on one procedure.
+// WeldedTo) (half-open) and on one procedure. With AsOf, "current" means as
+// of that moment: only coupon, section, procedure and qualification record
+// revisions created at or before it are read.
 type SampleFilter struct {
 	Group       CalibrationGroup
 	WeldedFrom  *Date
 	WeldedTo    *Date
 	ProcedureID *uuid.UUID
+	AsOf        *time.Time
 }
 
 // groupCoupon is one selected coupon with its current, non-voided sections'
 // penetrations in measurement id (creation) order.
 type groupCoupon struct {
-	ID                   uuid.UUID `db:"id"`
-	Process              string    `db:"process"`
-	JointType            string    `db:"joint_type"`
-	ShieldingGas         string    `db:"shielding_gas"`
-	CurrentA             float64   `db:"current_a"`
-	VoltageV             float64   `db:"voltage_v"`
-	TravelSpeedMMPerS    float64   `db:"travel_speed_mm_s"`
-	WireFeedSpeedMPerMin *float64  `db:"wire_feed_speed_m_min"`
-	CTWDMM               *float64  `db:"ctwd_mm"`
-	WireDiameterMM       float64   `db:"wire_diameter_mm"`
-	PenetrationsMM       []float64 `db:"penetrations_mm"`
+	ID                   uuid.UUID   `db:"id"`
+	Revision             int32       `db:"revision"`
+	ProcedureRevision    int32       `db:"procedure_revision"` // 0: no procedure
+	RecordRevision       int32       `db:"record_revision"`    // 0: no qualification record
+	SectionIDs           []uuid.UUID `db:"section_ids"`
+	SectionRevisions     []int32     `db:"section_revisions"`
+	Process              string      `db:"process"`
+	JointType            string      `db:"joint_type"`
+	ShieldingGas         string      `db:"shielding_gas"`
+	CurrentA             float64     `db:"current_a"`
+	VoltageV             float64     `db:"voltage_v"`
+	TravelSpeedMMPerS    float64     `db:"travel_speed_mm_s"`
+	WireFeedSpeedMPerMin *float64    `db:"wire_feed_speed_m_min"`
+	CTWDMM               *float64    `db:"ctwd_mm"`
+	WireDiameterMM       float64     `db:"wire_diameter_mm"`
+	PenetrationsMM       []float64   `db:"penetrations_mm"`
 }
 
-// siteCoupons is the current, non-voided coupons of a site with their
+// siteCoupons is the current, non-voided coupons of a site (as of $5 when
+// given: revisions created at or before it) with the revisions read, their
 // process (the coupon's procedure's, else its qualification record's), their
 // wire diameter and shielding gas (their own, else inherited the same way) and sections, welded within the filter's dates and on its procedure.
 const siteCoupons = `
 		WITH cur AS (
-			SELECT DISTINCT ON (id) id, voided, procedure_id, qualification_record_id, welded_on,
+			SELECT DISTINCT ON (id) id, revision, voided, procedure_id, qualification_record_id, welded_on,
 			       joint_type, current_a, voltage_v, travel_speed_mm_s, wire_feed_speed_m_min,
 			       ctwd_mm, wire_diameter_mm, shielding_gas
-			FROM coupons WHERE site = $1 ORDER BY id, revision DESC
+			FROM coupons WHERE site = $1 AND ($5::timestamptz IS NULL OR created_at <= $5::timestamptz)
+			ORDER BY id, revision DESC
 		)
-		SELECT cur.id, coalesce(p.process, r.process, '') AS process, cur.joint_type,
+		SELECT cur.id, cur.revision, coalesce(p.revision, 0) AS procedure_revision, coalesce(r.revision, 0) AS record_revision,
+		       coalesce(p.process, r.process, '') AS process, cur.joint_type,
 		       coalesce(nullif(cur.shielding_gas, ''), p.shielding_gas, r.shielding_gas, '') AS shielding_gas,
 		       cur.current_a, cur.voltage_v, cur.travel_speed_mm_s, cur.wire_feed_speed_m_min,
-		       cur.ctwd_mm, coalesce(cur.wire_diameter_mm, p.wire_diameter_mm, r.wire_diameter_mm) AS wire_diameter_mm, coalesce(m.pens, '{}') AS penetrations_mm
+		       cur.ctwd_mm, coalesce(cur.wire_diameter_mm, p.wire_diameter_mm, r.wire_diameter_mm) AS wire_diameter_mm,
+		       coalesce(m.pens, '{}') AS penetrations_mm, coalesce(m.ids, '{}') AS section_ids, coalesce(m.revs, '{}') AS section_revisions
 		FROM cur
-		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas FROM procedures p WHERE p.site = $1 AND p.id = cur.procedure_id
+		LEFT JOIN LATERAL (SELECT revision, process, wire_diameter_mm, shielding_gas FROM procedures p WHERE p.site = $1 AND p.id = cur.procedure_id
+		                   AND ($5::timestamptz IS NULL OR p.created_at <= $5::timestamptz)
 		                   ORDER BY revision DESC LIMIT 1) p ON true
-		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas FROM qualification_records r WHERE r.site = $1 AND r.id = cur.qualification_record_id
+		LEFT JOIN LATERAL (SELECT revision, process, wire_diameter_mm, shielding_gas FROM qualification_records r WHERE r.site = $1 AND r.id = cur.qualification_record_id
+		                   AND ($5::timestamptz IS NULL OR r.created_at <= $5::timestamptz)
 		                   ORDER BY revision DESC LIMIT 1) r ON true
-		LEFT JOIN LATERAL (SELECT array_agg(sec.penetration_mm ORDER BY sec.id) AS pens FROM (
-			SELECT DISTINCT ON (id) id, voided, penetration_mm FROM measurements
-			WHERE coupon_id = cur.id AND site = $1 ORDER BY id, revision DESC) sec
+		LEFT JOIN LATERAL (SELECT array_agg(sec.penetration_mm ORDER BY sec.id) AS pens,
+		                          array_agg(sec.id ORDER BY sec.id) AS ids, array_agg(sec.revision ORDER BY sec.id) AS revs FROM (
+			SELECT DISTINCT ON (id) id, revision, voided, penetration_mm FROM measurements
+			WHERE coupon_id = cur.id AND site = $1 AND ($5::timestamptz IS NULL OR created_at <= $5::timestamptz)
+			ORDER BY id, revision DESC) sec
 			WHERE NOT sec.voided) m ON true
 		WHERE NOT cur.voided
 		  AND ($2::date IS NULL OR cur.welded_on >= $2)
@@ -71,10 +88,11 @@ const siteCoupons = `
 // stream: memory does not grow with the group.
 func forGroupCoupons(ctx context.Context, q querier, site string, f SampleFilter, fn func(*groupCoupon) error) error {
 	g := f.Group.canonical()
-	rows, _ := q.Query(ctx, siteCoupons, site, f.WeldedFrom, f.WeldedTo, f.ProcedureID)
+	rows, _ := q.Query(ctx, siteCoupons, site, f.WeldedFrom, f.WeldedTo, f.ProcedureID, f.AsOf)
 	var c groupCoupon
-	_, err := pgx.ForEachRow(rows, []any{&c.ID, &c.Process, &c.JointType, &c.ShieldingGas, &c.CurrentA, &c.VoltageV,
-		&c.TravelSpeedMMPerS, &c.WireFeedSpeedMPerMin, &c.CTWDMM, &c.WireDiameterMM, &c.PenetrationsMM}, func() error {
+	_, err := pgx.ForEachRow(rows, []any{&c.ID, &c.Revision, &c.ProcedureRevision, &c.RecordRevision, &c.Process, &c.JointType, &c.ShieldingGas, &c.CurrentA, &c.VoltageV,
+		&c.TravelSpeedMMPerS, &c.WireFeedSpeedMPerMin, &c.CTWDMM, &c.WireDiameterMM, &c.PenetrationsMM,
+		&c.SectionIDs, &c.SectionRevisions}, func() error {
 		if !g.has(c.Process, c.WireDiameterMM, c.ShieldingGas, c.JointType) {
 			return nil
 		}

@@ -108,10 +108,16 @@ func driftOf(ctx context.Context, q querier, site string, g CalibrationGroup, fa
 	var fit CalibrationFit
 	var arc *float64
 	var ids []uuid.UUID
-	err := q.QueryRow(ctx, `SELECT model, fit, arc_length_mm, coupon_ids FROM calibrations WHERE site = $1 AND id = $2`,
-		site, calID).Scan(&rep.Model, &fit, &arc, &ids)
+	var sel *CalibrationSelection
+	err := q.QueryRow(ctx, `SELECT model, fit, arc_length_mm, coupon_ids, selection FROM calibrations WHERE site = $1 AND id = $2`,
+		site, calID).Scan(&rep.Model, &fit, &arc, &ids, &sel)
 	if err != nil {
 		return rep, fmt.Errorf("drift: calibration %s: %w", calID, err)
+	}
+	if sel != nil { // stored by its selection: the coupons it gave as of the fit
+		if ids, err = selectedIDs(ctx, q, site, *sel); err != nil {
+			return rep, fmt.Errorf("drift: calibration %s: %w", calID, err)
+		}
 	}
 	rows, _ := q.Query(ctx, driftCoupons, site, g.Process, g.JointType)
 	cs, err := pgx.CollectRows(rows, pgx.RowToStructByName[driftRow])

@@ -122,6 +122,11 @@ func init() {
 			"site", "id", "created_at", "created_by", "model", "process", "wire_diameter_mm", "shielding_gas",
 			"joint_type", "welded_from", "welded_to", "procedure_id", "level", "arc_length_mm", "fit", "samples",
 			"coupon_ids", "note"}},
+		// Version 2: calibrations stored by their selection, count and digest.
+		{Kind: "calibration", Version: 2, Table: "calibrations", Columns: []string{
+			"site", "id", "created_at", "created_by", "model", "process", "wire_diameter_mm", "shielding_gas",
+			"joint_type", "welded_from", "welded_to", "procedure_id", "level", "arc_length_mm", "fit", "selection",
+			"sample_count", "sample_digest", "note"}},
 		{Kind: "calibration_activation", Version: 1, Table: "calibration_activations", Columns: []string{
 			"site", "id", "activated_at", "activated_by", "reason", "calibration_id", "model", "process",
 			"wire_diameter_mm", "shielding_gas", "joint_type", "action", "family"}},
