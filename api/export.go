@@ -1,7 +1,6 @@
 package api
 
 import (
-	"encoding/json"
 	"net/http"
 	"time"
 
@@ -20,19 +19,13 @@ const exportWriteWait = 30 * time.Second
 // "standby" when a streaming standby (DATABASE_READ_URL) kept up.
 const headerReadFrom = "Etchlog-Read-From"
 
-// exportLine is one line of the NDJSON export.
-type exportLine struct {
-	Kind   string `json:"kind"`
-	Record any    `json:"record"`
-}
-
 // handleExport streams the site's records, every revision, and its audit
 // chain as newline-delimited JSON, ending with a summary line.
 func (s *Server) handleExport(c echo.Context) error {
 	w := c.Response()
 	w.Header().Set(echo.HeaderContentType, "application/x-ndjson")
 	w.Header().Set("Content-Disposition", `attachment; filename="etchlog-export.ndjson"`)
-	enc := json.NewEncoder(w)
+	out := db.NewExportWriter(w)
 	rc := http.NewResponseController(w)
 	var extended time.Time
 	extend := func() {
@@ -49,7 +42,7 @@ func (s *Server) handleExport(c echo.Context) error {
 			w.WriteHeader(http.StatusOK)
 			started = true
 		}
-		return enc.Encode(exportLine{Kind: kind, Record: v})
+		return out.Line(kind, v)
 	})
 	if err != nil {
 		if started { // the status is sent; end the stream with an error line the reader sees
@@ -58,7 +51,10 @@ func (s *Server) handleExport(c echo.Context) error {
 				return nil
 			}
 			s.log.Error("export interrupted", "request_id", w.Header().Get(echo.HeaderXRequestID), "err", err)
-			return enc.Encode(exportLine{Kind: "error", Record: "export interrupted; discard this file"})
+			if err := out.Line("error", "export interrupted; discard this file"); err != nil {
+				return err
+			}
+			return out.Flush()
 		}
 		return err
 	}
@@ -66,5 +62,8 @@ func (s *Server) handleExport(c echo.Context) error {
 		w.WriteHeader(http.StatusOK)
 	}
 	extend()
-	return enc.Encode(exportLine{Kind: "summary", Record: sum})
+	if err := out.Line("summary", sum); err != nil {
+		return err
+	}
+	return out.Flush()
 }

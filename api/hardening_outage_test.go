@@ -317,7 +317,7 @@ func TestClientClosedRequest(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := tx.Exec(ctx, "LOCK TABLE coupons IN ACCESS EXCLUSIVE MODE"); err != nil {
+	if _, err := tx.Exec(ctx, "LOCK TABLE coupons, coupon_list IN ACCESS EXCLUSIVE MODE"); err != nil {
 		t.Fatal(err)
 	}
 	rctx, cancel := context.WithTimeout(ctx, 300*time.Millisecond)

@@ -1,6 +1,9 @@
 package api
 
 import (
+	"encoding/json"
+	"math"
+	"math/rand/v2"
 	"testing"
 )
 
@@ -54,5 +57,56 @@ func TestRewriteAnswer(t *testing.T) {
 				t.Errorf("rewriteAnswer(%s, inch=%v)\n got %s\nwant %s", tc.in, tc.inch, got, tc.want)
 			}
 		})
+	}
+}
+
+// TestRoundNumbersMatchesTree checks the one-pass metric rewrite against
+// the tree rewrite on random documents written by encoding/json: strings
+// full of digits, quotes, escapes and minus signs, keys that look like
+// numbers, integers, floats of every magnitude, nesting.
+func TestRoundNumbersMatchesTree(t *testing.T) {
+	rng := rand.New(rand.NewPCG(12, 34))
+	// (Invalid UTF-8 is left out: encoding/json writes it as \ufffd, which
+	// the one-pass rewrite keeps and the tree writes as the character
+	// itself, the same string in two spellings.)
+	pieces := []string{"1", "-2", "3.5e-7", `"`, `\`, "\n", "<", "é", "\u2028", " ", "e", "E+", "{", "]", ","}
+	str := func() string {
+		var s string
+		for range rng.IntN(8) {
+			s += pieces[rng.IntN(len(pieces))]
+		}
+		return s
+	}
+	var gen func(depth int) any
+	gen = func(depth int) any {
+		switch k := rng.IntN(8); {
+		case depth > 3 || k < 2:
+			return str()
+		case k == 2:
+			return rng.Int64N(1<<62) - 1<<61
+		case k == 3:
+			return (rng.Float64() - 0.5) * math.Pow(10, float64(rng.IntN(40)-20))
+		case k == 4:
+			return []any{gen(depth + 1), gen(depth + 1), nil, true}
+		default:
+			m := map[string]any{}
+			for range rng.IntN(5) {
+				m[str()] = gen(depth + 1)
+			}
+			return m
+		}
+	}
+	for range 2000 {
+		doc, err := json.Marshal(gen(0))
+		if err != nil {
+			t.Fatal(err)
+		}
+		want, err := rewriteTree(doc, false)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := roundNumbers(doc); string(got) != string(want) {
+			t.Fatalf("roundNumbers(%s)\n got %s\nwant %s", doc, got, want)
+		}
 	}
 }

@@ -7,6 +7,7 @@ import (
 	"mime"
 	"net/http"
 	"strconv"
+	"time"
 
 	"github.com/labstack/echo/v4"
 
@@ -29,6 +30,10 @@ const (
 	defaultChunk = 5000
 	// maxStreamLine bounds one line of NDJSON or one CSV record.
 	maxStreamLine = 64 << 10
+	// streamPatience is how long a stream may take to deliver one chunk, and
+	// the server to answer after its last: the server's read and write
+	// timeouts (a whole request's) move on by it at every chunk.
+	streamPatience = 60 * time.Second
 )
 
 // streamReport is the answer to a production stream, and on a refusal the
@@ -60,6 +65,7 @@ type streamChunk struct {
 	lastLine  int
 	bad       *invalidError
 	err       error
+	prep      *db.PreparedChunk // the rows prepared for storing
 }
 
 func (s *Server) handleProductionStream(c echo.Context) error {
@@ -80,9 +86,16 @@ func (s *Server) handleProductionStream(c echo.Context) error {
 	ctx, cancel := context.WithCancel(c.Request().Context())
 	defer cancel()
 	chunks := make(chan streamChunk, 1)
-	go s.readChunks(ctx, src, size, chunks)
+	rc := http.NewResponseController(c.Response())
+	// Not every connection has deadlines (HTTP/2 streams may not): then the
+	// server's own timeouts hold, and nothing is lost by trying.
+	patience := func() {
+		_ = rc.SetReadDeadline(time.Now().Add(streamPatience))
+		_ = rc.SetWriteDeadline(time.Now().Add(2 * streamPatience))
+	}
+	patience()
+	go s.readChunks(ctx, actorOf(c), src, size, chunks, patience)
 	report := streamReport{ChunkSize: size}
-	actor := actorOf(c)
 	for ch := range chunks {
 		stop := func(err error) error {
 			report.ResumeLine = ch.firstLine
@@ -93,11 +106,10 @@ func (s *Server) handleProductionStream(c echo.Context) error {
 			return stop(ch.err)
 		case ch.bad != nil:
 			return stop(ch.bad)
-		case len(ch.recs) == 0:
+		case ch.prep == nil:
 			continue
 		}
-		lines := ch.lines
-		r, err := s.store.ProductionChunk(ctx, actor, ch.recs, func(i int) string { return "line " + strconv.Itoa(lines[i]) })
+		r, err := s.store.StoreProductionChunk(ctx, ch.prep)
 		if err != nil {
 			return stop(err)
 		}
@@ -112,9 +124,11 @@ func (s *Server) handleProductionStream(c echo.Context) error {
 	return c.JSON(http.StatusOK, report)
 }
 
-// readChunks reads src into chunks of size rows and sends them on out; it
-// stops after a chunk with a bad row or a read error, or when ctx ends.
-func (s *Server) readChunks(ctx context.Context, src rowSource, size int, out chan<- streamChunk) {
+// readChunks reads src into chunks of size rows, prepares each for storing
+// (ids, leaves) and sends them on out, so that the next chunk is read and
+// prepared while the database writes this one; it stops after a chunk with
+// a bad row or a read error, or when ctx ends.
+func (s *Server) readChunks(ctx context.Context, actor db.Actor, src rowSource, size int, out chan<- streamChunk, patience func()) {
 	defer close(out)
 	defer func() { // this goroutine is outside echo's recovery: a fault ends the stream, not the server
 		if r := recover(); r != nil {
@@ -126,6 +140,7 @@ func (s *Server) readChunks(ctx context.Context, src rowSource, size int, out ch
 		}
 	}()
 	for {
+		patience()
 		ch := streamChunk{recs: make([]db.ProductionRecordData, 0, size), lines: make([]int, 0, size)}
 		var issues []FieldIssue
 		status := http.StatusUnprocessableEntity
@@ -172,6 +187,14 @@ func (s *Server) readChunks(ctx context.Context, src rowSource, size int, out ch
 		}
 		if issues != nil {
 			ch.bad, done = &invalidError{status: status, issues: issues}, true
+		}
+		if ch.bad == nil && ch.err == nil && len(ch.recs) > 0 {
+			lines := ch.lines
+			var err error
+			ch.prep, err = s.store.PrepareProductionChunk(ctx, actor, ch.recs, func(i int) string { return "line " + strconv.Itoa(lines[i]) })
+			if err != nil {
+				ch.err, done = err, true
+			}
 		}
 		select {
 		case out <- ch:

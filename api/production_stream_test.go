@@ -3,9 +3,12 @@ package api_test
 import (
 	"bytes"
 	"fmt"
+	"io"
 	"net/http"
+	"net/http/httptest"
 	"strings"
 	"testing"
+	"time"
 )
 
 // ndjson writes rows as newline-delimited JSON (one JSON text per line, as
@@ -152,4 +155,42 @@ func TestProductionStreamHostile(t *testing.T) {
 	// An endless line ends the stream without the server holding it.
 	big := bytes.Repeat([]byte("7"), 8<<20)
 	wantProblem(t, "an 8 MiB line", e.doType(http.MethodPost, "/v1/production-records/stream", "technician", "application/x-ndjson", string(big)), 400, "line 1")
+}
+
+// TestProductionStreamOutlivesReadTimeout: a stream may last longer than
+// the server's read timeout for a whole request, as long as each chunk
+// arrives in time (here: a 400 ms timeout, five one-row chunks 200 ms apart).
+func TestProductionStreamOutlivesReadTimeout(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	proc := e.rangedProcedure()
+	ts := httptest.NewUnstartedServer(e.srv)
+	ts.Config.ReadTimeout, ts.Config.WriteTimeout = 400*time.Millisecond, 400*time.Millisecond
+	ts.Start()
+	defer ts.Close()
+	pr, pw := io.Pipe()
+	go func() {
+		for i := range 5 {
+			time.Sleep(200 * time.Millisecond)
+			if _, err := pw.Write([]byte(ndjson(t, productionBody(proc, fmt.Sprintf("L-%d", i), 280)))); err != nil {
+				return
+			}
+		}
+		pw.Close()
+	}()
+	req, err := http.NewRequest(http.MethodPost, ts.URL+"/v1/production-records/stream?chunk=1", pr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	req.Header.Set("Content-Type", "application/x-ndjson")
+	req.Header.Set("Authorization", "Bearer "+e.tokens["technician"])
+	res, err := http.DefaultClient.Do(req)
+	if err != nil {
+		t.Fatalf("a slow stream: %v", err)
+	}
+	defer res.Body.Close()
+	body, _ := io.ReadAll(res.Body)
+	if res.StatusCode != http.StatusOK || !strings.Contains(string(body), `"records":5`) {
+		t.Errorf("a slow stream = %d %s, want 200 and 5 records", res.StatusCode, body)
+	}
 }

@@ -89,8 +89,10 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 	}
 	route := &routers.Route{Spec: s.spec, Path: sp, PathItem: item, Method: method, Operation: item.GetOperation(method)}
 	first := &openapi3filter.Options{AuthenticationFunc: openapi3filter.NoopAuthenticationFunc, ExcludeResponseBody: true}
+	stream := false
 	if rb := route.Operation.RequestBody; rb != nil && rb.Value != nil && rb.Value.Content.Get("application/json") == nil {
-		first.ExcludeRequestBody = true // a stream: its handler reads and checks it row by row
+		stream = true // its handler reads and checks the body row by row
+		first.ExcludeRequestBody = true
 	}
 	all := *first
 	all.MultiError = true
@@ -117,11 +119,17 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 			// costs one walk and a hostile one cannot grow an error per item.
 			// Only a body small enough to bound the list is walked again to
 			// name every refused field.
-			in := &openapi3filter.RequestValidationInput{Request: c.Request(), PathParams: params, Route: route, Options: first}
-			if err := openapi3filter.ValidateRequest(c.Request().Context(), in); err != nil {
-				if c.Request().ContentLength <= multiErrorBodyLimit {
+			req := c.Request()
+			if stream { // the security check reads a body whole (to offer it to each scheme): keep a stream from it
+				shallow := *req
+				shallow.Body, shallow.ContentLength = http.NoBody, 0
+				req = &shallow
+			}
+			in := &openapi3filter.RequestValidationInput{Request: req, PathParams: params, Route: route, Options: first}
+			if err := openapi3filter.ValidateRequest(req.Context(), in); err != nil {
+				if req.ContentLength <= multiErrorBodyLimit {
 					in.Options = &all
-					if err2 := openapi3filter.ValidateRequest(c.Request().Context(), in); err2 != nil {
+					if err2 := openapi3filter.ValidateRequest(req.Context(), in); err2 != nil {
 						err = err2
 					}
 				}

@@ -2,7 +2,6 @@ package db_test
 
 import (
 	"context"
-	"encoding/json"
 	"io"
 	"os"
 	"runtime"
@@ -15,7 +14,8 @@ import (
 
 // BenchmarkExport streams a whole site through Store.Export (every coupon
 // revision in its readable form, then every leaf with its fact encoded again
-// from the stored row, JSON-encoded to io.Discard) and, side by side on the
+// from the stored row, written by the ExportWriter the export endpoint uses
+// to io.Discard) and, side by side on the
 // same database, a raw COPY TO of the same rows (coupons, then log_leaves).
 // Compare the two ns/op as a ratio. The site holds ETCHLOG_BENCH_EXPORT_COUPONS
 // coupons (default 100,000; set 1000000 for the million-coupon run), seeded
@@ -44,15 +44,18 @@ func BenchmarkExport(b *testing.B) {
 		sample := []metrics.Sample{{Name: "/memory/classes/heap/objects:bytes"}}
 		for i := 0; i < b.N; i++ {
 			runtime.GC()
-			enc := json.NewEncoder(io.Discard)
+			out := db.NewExportWriter(io.Discard)
 			lines := 0
 			sum, err := s.Export(ctx, site, func(kind string, v any) error {
 				if lines++; lines%20000 == 0 {
 					metrics.Read(sample)
 					peak = max(peak, sample[0].Value.Uint64())
 				}
-				return enc.Encode(map[string]any{"kind": kind, "line": v})
+				return out.Line(kind, v)
 			})
+			if err == nil {
+				err = out.Flush()
+			}
 			if err != nil || sum.Records < int64(n) || sum.Leaves != int64(n) {
 				b.Fatalf("export: %+v, %v; want at least %d revisions (the built-in rule sets come too) and %d leaves", sum, err, n, n)
 			}

@@ -151,49 +151,8 @@ type CouponFilter struct {
 	IncludeVoided         bool
 }
 
-// currentMeasurement selects the latest, non-voided revision of measurement m
-// that belongs to the coupon row "cur".
-const currentMeasurement = `SELECT 1 FROM measurements m WHERE m.coupon_id = cur.id AND NOT m.voided
-	AND m.revision = (SELECT max(m2.revision) FROM measurements m2 WHERE m2.site = m.site AND m2.id = m.id)`
-
-// Coupons lists current coupons after the cursor.
+// Coupons lists current coupons after the cursor, in log order, each with
+// what it inherits (listCoupons).
 func (s *Store) Coupons(ctx context.Context, site string, cf CouponFilter, cursor string, limit int) (Page[Coupon], error) {
-	f := newFilter()
-	if !cf.IncludeVoided {
-		f.add("NOT voided")
-	}
-	if cf.ProcedureID != nil {
-		f.add("procedure_id = ?", *cf.ProcedureID)
-	}
-	if cf.QualificationRecordID != nil {
-		f.add("qualification_record_id = ?", *cf.QualificationRecordID)
-	}
-	if cf.WelderID != "" {
-		f.add("welder_id = ?", cf.WelderID)
-	}
-	if cf.CouponMark != "" {
-		f.add("coupon_mark = ?", cf.CouponMark)
-	}
-	if cf.WeldedFrom != nil {
-		f.add("welded_on >= ?", *cf.WeldedFrom)
-	}
-	if cf.WeldedTo != nil {
-		f.add("welded_on < ?", *cf.WeldedTo)
-	}
-	switch cf.Acceptance {
-	case "reject":
-		f.add("EXISTS (" + currentMeasurement + " AND m.acceptance = 'reject')")
-	case "accept":
-		f.add("EXISTS (" + currentMeasurement + ")")
-		f.add("NOT EXISTS (" + currentMeasurement + " AND m.acceptance = 'reject')")
-	case "":
-	default:
-		return Page[Coupon]{}, &FieldError{Field: "acceptance", Reason: "want accept or reject"}
-	}
-	p, err := listCurrent[Coupon](ctx, s, coupons, site, f, cursor, limit)
-	if err != nil {
-		return p, err
-	}
-	err = s.inheritCoupons(ctx, s.pool, site, p.Items)
-	return p, err
+	return s.listCoupons(ctx, site, cf, cursor, limit)
 }

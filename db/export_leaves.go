@@ -3,12 +3,16 @@ package db
 import (
 	"bytes"
 	"context"
+	"encoding/binary"
 	"fmt"
+	"math"
 	"strings"
 	"time"
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
+	"github.com/jackc/pgx/v5/pgtype"
 
 	"etchlog/db/logfmt"
 )
@@ -21,6 +25,7 @@ type leafStream struct {
 	known bool
 	buf   []logfmt.ExportLeaf
 	done  bool
+	rows  *rowWindow // the kind's rows, read beside the leaves; nil: joined in the cursor
 }
 
 const leafFetch = 1000
@@ -51,14 +56,26 @@ func exportLeaves(ctx context.Context, tx pgx.Tx, site string, emit func(string,
 		st.known = err == nil
 		q := `SELECT lg.leaf_index, lg.kind, lg.version, lg.record_id, lg.revision, lg.leaf_hash,
 			lg.actor, lg.action, lg.reason, lg.at`
-		if st.known {
+		versions := 0
+		for _, o := range kinds {
+			if o.Kind == kv.Kind {
+				versions++
+			}
+		}
+		switch {
+		case st.known && versions == 1: // the table's rows are all this version's
+			if st.rows, err = newRowWindow(ctx, tx, st.k, site, st.name+"_rows"); err != nil {
+				return 0, err
+			}
+			q += ", true FROM log_leaves lg"
+		case st.known:
 			cols := make([]string, len(st.k.Columns))
 			for j, c := range st.k.Columns {
 				cols[j] = "r." + c
 			}
 			q += ", r.id IS NOT NULL, " + strings.Join(cols, ", ") + " FROM log_leaves lg LEFT JOIN " + st.k.Table +
 				" r ON r.site = lg.site AND r.id = lg.record_id AND " + st.k.revisionExpr("r") + " = lg.revision"
-		} else {
+		default:
 			q += ", false FROM log_leaves lg"
 		}
 		q += " WHERE lg.site = " + quoteLiteral(site) + " AND lg.kind = " + quoteLiteral(kv.Kind) +
@@ -100,22 +117,28 @@ func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
 	}
 	defer rows.Close()
 	st.buf = st.buf[:0]
+	tm := tx.Conn().TypeMap()
 	for rows.Next() {
-		vals, err := rows.Values()
-		if err != nil {
-			return err
+		l, ok := leafOfRaw(rows.FieldDescriptions(), rows.RawValues())
+		if !ok {
+			vals, err := rows.Values()
+			if err != nil {
+				return err
+			}
+			l = logfmt.ExportLeaf{Index: uint64(vals[0].(int64)), Kind: vals[1].(string), Version: int(vals[2].(int32)),
+				RecordID: uuid.UUID(vals[3].([16]byte)).String(), Revision: int(vals[4].(int32)), LeafHash: vals[5].([]byte),
+				Actor: vals[6].(string), Action: vals[7].(string), Reason: vals[8].(string),
+				At: vals[9].(time.Time).UTC().Format("2006-01-02T15:04:05.000000Z")}
 		}
-		l := logfmt.ExportLeaf{Index: uint64(vals[0].(int64)), Kind: vals[1].(string), Version: int(vals[2].(int32)),
-			RecordID: uuid.UUID(vals[3].([16]byte)).String(), Revision: int(vals[4].(int32)), LeafHash: vals[5].([]byte),
-			Actor: vals[6].(string), Action: vals[7].(string), Reason: vals[8].(string),
-			At: vals[9].(time.Time).UTC().Format("2006-01-02T15:04:05.000000Z")}
+		raw := rows.RawValues()
 		switch {
 		case !st.known:
 			l.Missing = "this etchlog does not know the fact kind " + l.Kind
-		case !vals[10].(bool):
+		case st.rows != nil: // read below, once this FETCH is done
+		case len(raw[10]) != 1 || raw[10][0] == 0:
 			l.Missing = "no such row at the site"
 		default:
-			f, err := factFrom(st.k, rows.FieldDescriptions()[11:], vals[11:], rows.RawValues()[11:])
+			f, err := factFromRaw(st.k, rows.FieldDescriptions()[11:], raw[11:], tm)
 			if err != nil {
 				return err
 			}
@@ -126,8 +149,45 @@ func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
 	if err := rows.Err(); err != nil {
 		return err
 	}
+	rows.Close()
 	st.done = len(st.buf) == 0
+	if st.rows != nil {
+		for i := range st.buf {
+			l := &st.buf[i]
+			id, err := uuid.Parse(l.RecordID)
+			if err != nil {
+				return err
+			}
+			if l.Fields, err = st.rows.fields(ctx, tx, id, l.Revision); err != nil {
+				return err
+			}
+			if l.Fields == nil {
+				l.Missing = "no such row at the site"
+			}
+		}
+	}
 	return nil
+}
+
+// leafOfRaw reads a leaf's listing (the first ten columns of a leafStream
+// row) from PostgreSQL's binary format, or reports false.
+func leafOfRaw(fds []pgconn.FieldDescription, raw [][]byte) (logfmt.ExportLeaf, bool) {
+	for i := range 11 {
+		if fds[i].Format != pgtype.BinaryFormatCode || raw[i] == nil {
+			return logfmt.ExportLeaf{}, false
+		}
+	}
+	if len(raw[0]) != 8 || len(raw[2]) != 4 || len(raw[3]) != 16 || len(raw[4]) != 4 || len(raw[9]) != 8 {
+		return logfmt.ExportLeaf{}, false
+	}
+	us := int64(binary.BigEndian.Uint64(raw[9]))
+	if us == math.MaxInt64 || us == math.MinInt64 {
+		return logfmt.ExportLeaf{}, false
+	}
+	return logfmt.ExportLeaf{Index: binary.BigEndian.Uint64(raw[0]), Kind: string(raw[1]),
+		Version: int(int32(binary.BigEndian.Uint32(raw[2]))), RecordID: uuid.UUID(raw[3]).String(),
+		Revision: int(int32(binary.BigEndian.Uint32(raw[4]))), LeafHash: bytes.Clone(raw[5]),
+		Actor: string(raw[6]), Action: string(raw[7]), Reason: string(raw[8]), At: rawTime(us)}, true
 }
 
 // exportUnlogged emits every stored fact with no leaf: rows with neither a

@@ -25,3 +25,7 @@ func OpenTraced(ctx context.Context, url string, tr pgx.QueryTracer) (*Store, er
 	s.pool = p
 	return s, nil
 }
+
+// CouponListRefresh is the statement the sequencer rewrites coupon_list
+// rows with, for the plan test.
+var CouponListRefresh = couponListRefresh

@@ -8,7 +8,6 @@ import (
 	"sync"
 
 	"github.com/google/uuid"
-	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
 
 	"etchlog/db/logfmt"
@@ -30,13 +29,13 @@ var productionShape struct {
 }
 
 // productionFields returns the column descriptions of kind k's columns of production_records.
-func productionFields(ctx context.Context, tx pgx.Tx, k LeafKind) ([]pgconn.FieldDescription, error) {
+func productionFields(ctx context.Context, q querier, k LeafKind) ([]pgconn.FieldDescription, error) {
 	productionShape.Lock()
 	defer productionShape.Unlock()
 	if len(productionShape.fds) == len(k.Columns) {
 		return productionShape.fds, nil
 	}
-	rows, err := tx.Query(ctx, "SELECT "+strings.Join(k.Columns, ", ")+" FROM production_records LIMIT 0")
+	rows, err := q.Query(ctx, "SELECT "+strings.Join(k.Columns, ", ")+" FROM production_records LIMIT 0")
 	if err != nil {
 		return nil, err
 	}

@@ -28,6 +28,8 @@ var otherMeanings = map[string]string{
 // already hold them.
 var copiedTables = map[string]string{
 	"calibration_activations": "the group key and model are copied from the activated calibration row",
+	"coupon_list":             "the current revision of each coupon, copied from coupons",
+	"coupon_list_derived":     "a view of coupons",
 	"production_records_all":  "a view of production_records and production_records_detached, whose CHECKs it shows",
 }
 

@@ -164,6 +164,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 	}
 	now := s.now()
 	var leaves, nodes, rejected [][]any
+	var listed listedLeaves
 	seqs := make([]int64, 0, len(pend))
 	visit := func(id compact.NodeID, hash []byte) {
 		nodes = append(nodes, []any{site, int16(id.Level), int64(id.Index), hash})
@@ -187,6 +188,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 		}
 		idx := size + uint64(len(leaves))
 		leaves = append(leaves, []any{site, int64(idx), p.Kind, p.Version, p.RecordID, p.Revision, p.LeafHash, p.Actor, p.Action, p.Reason, p.At, now, p.Seq})
+		listed.add(p.Kind, p.RecordID)
 		if err := rng.Append(p.LeafHash, visit); err != nil {
 			return 0, err
 		}
@@ -210,6 +212,9 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 	}
 	if _, err := tx.Exec(ctx, `DELETE FROM log_pending WHERE site = $1 AND seq = ANY($2)`, site, seqs); err != nil {
 		return 0, err
+	}
+	if err := listed.refresh(ctx, tx, site); err != nil {
+		return 0, fmt.Errorf("coupon_list: %w", err)
 	}
 	if len(leaves) > 0 {
 		root, err := rng.GetRootHash(nil)
@@ -279,9 +284,18 @@ func (s *Store) kickSequencer() {
 // Without a running sequencer it gives up and the list is merely stale.
 func (s *Store) awaitLogged(ctx context.Context, site string) {
 	var last *int64
-	if err := s.pool.QueryRow(ctx, `SELECT max(seq) FROM log_pending WHERE site = $1`, site).Scan(&last); err != nil || last == nil {
+	if err := s.pool.QueryRow(ctx, lastPending, site).Scan(&last); err != nil || last == nil {
 		return
 	}
+	s.awaitSequenced(ctx, site, *last)
+}
+
+// lastPending is the newest pending leaf of site $1 (NULL: none).
+const lastPending = `SELECT max(seq) FROM log_pending WHERE site = $1`
+
+// awaitSequenced waits, up to LogWait, until the site has no pending leaf
+// at or below sequence last.
+func (s *Store) awaitSequenced(ctx context.Context, site string, last int64) {
 	s.kickSequencer()
 	deadline := time.Now().Add(LogWait)
 	for wait := time.Millisecond; time.Now().Before(deadline); wait = min(2*wait, 20*time.Millisecond) {
@@ -291,7 +305,7 @@ func (s *Store) awaitLogged(ctx context.Context, site string) {
 		case <-time.After(wait):
 		}
 		var left bool
-		if err := s.pool.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM log_pending WHERE site = $1 AND seq <= $2)`, site, *last).Scan(&left); err != nil || !left {
+		if err := s.pool.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM log_pending WHERE site = $1 AND seq <= $2)`, site, last).Scan(&left); err != nil || !left {
 			return
 		}
 	}

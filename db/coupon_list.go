@@ -1,0 +1,243 @@
+package db
+
+import (
+	"context"
+	"fmt"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// The coupons list pages in log order through coupon_list (migration
+// 000014): one row per logged coupon with its latest logged revision, that
+// revision's log index and the columns the list filters on, each filter
+// with an index (site, <column>, leaf_index). The sequencer rewrites a
+// coupon's row in the transaction that gives the coupon's leaf (or a leaf of
+// one of its sections) its index, so the table always agrees with the log a
+// reader sees, and a client following the cursor sees every coupon revision
+// exactly once, as with the other record lists.
+
+// listedLeaves collects, while the sequencer integrates a batch, the records
+// whose coupon_list rows the batch changes: coupons, and the coupons of
+// sections (their verdict).
+type listedLeaves struct {
+	coupons, sections []uuid.UUID
+}
+
+func (l *listedLeaves) add(kind string, id [16]byte) {
+	switch kind {
+	case coupons.entity:
+		l.coupons = append(l.coupons, id)
+	case measurements.entity:
+		l.sections = append(l.sections, id)
+	}
+}
+
+// refresh rewrites, inside the sequencer's transaction, the coupon_list rows
+// of the batch's coupons and of the coupons its sections belong (or
+// belonged, before a correction) to, from coupon_list_derived.
+func (l *listedLeaves) refresh(ctx context.Context, tx pgx.Tx, site string) error {
+	if len(l.coupons) == 0 && len(l.sections) == 0 {
+		return nil
+	}
+	ids := l.coupons
+	if len(l.sections) > 0 {
+		rows, _ := tx.Query(ctx, `SELECT DISTINCT coupon_id FROM measurements WHERE site = $1 AND id = ANY($2)`, site, l.sections)
+		of, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+		if err != nil {
+			return err
+		}
+		ids = append(ids, of...)
+	}
+	// Ids as an array (not a subquery), so the condition reaches inside the
+	// view's latest-leaf DISTINCT ON instead of ordering every coupon leaf.
+	b := &pgx.Batch{}
+	b.Queue(`DELETE FROM coupon_list WHERE site = $1 AND id = ANY($2)`, site, ids)
+	b.Queue(couponListRefresh, site, ids)
+	return tx.SendBatch(ctx, b).Close()
+}
+
+// couponListRefresh writes the coupon_list rows of coupons $2 at site $1.
+var couponListRefresh = `INSERT INTO coupon_list (` + couponListColumns + `) SELECT ` + couponListColumns +
+	` FROM coupon_list_derived WHERE site = $1 AND id = ANY($2)`
+
+// couponListColumns are coupon_list's columns, named (a column the table or
+// the view lacks fails every list and every sequencer pass).
+var couponListColumns = coupons.columns() + ", leaf_index, welded_month, verdict"
+
+// verdicts are the values of coupon_list.verdict, the acceptance of a
+// coupon's current logged sections: none, measured with none rejected, at
+// least one rejected.
+var verdicts = []string{"", "accept", "reject"}
+
+// listCoupons returns one page of current coupons matching cf in log order
+// after the cursor. An equality filter (procedure, qualification record,
+// welder, mark), or none, pages through its index in log order. A
+// welding-day range without one would walk the whole log when the range
+// lies late in it (welding days grow with the log); instead each month of
+// the range (and each verdict) is walked in log order on its own, up to
+// a page each, and the heads are merged: at most months × verdicts ×
+// limit index entries, whatever the page depth.
+func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, cursor string, limit int) (Page[Coupon], error) {
+	if limit <= 0 || limit > MaxPageSize {
+		limit = MaxPageSize
+	}
+	from, err := logCursor(coupons.name, cursor)
+	if err != nil {
+		return Page[Coupon]{}, fmt.Errorf("db: list coupon: %w", err)
+	}
+	f := newFilter()
+	f.args[0], f.args[1] = site, from
+	if !cf.IncludeVoided {
+		f.add("NOT k.voided")
+	}
+	equality := false
+	for _, e := range []struct {
+		col string
+		val any
+		set bool
+	}{
+		{"procedure_id", cf.ProcedureID, cf.ProcedureID != nil},
+		{"qualification_record_id", cf.QualificationRecordID, cf.QualificationRecordID != nil},
+		{"welder_id", cf.WelderID, cf.WelderID != ""},
+		{"coupon_mark", cf.CouponMark, cf.CouponMark != ""},
+	} {
+		if e.set {
+			f.add("k."+e.col+" = ?", e.val)
+			equality = true
+		}
+	}
+	if cf.WeldedFrom != nil {
+		f.add("k.welded_on >= ?", *cf.WeldedFrom)
+	}
+	if cf.WeldedTo != nil {
+		f.add("k.welded_on < ?", *cf.WeldedTo)
+	}
+	accepted := verdicts
+	switch cf.Acceptance {
+	case "accept", "reject":
+		accepted = []string{cf.Acceptance}
+	case "":
+	default:
+		return Page[Coupon]{}, &FieldError{Field: "acceptance", Reason: "want accept or reject"}
+	}
+	byMonth := !equality && (cf.WeldedFrom != nil || cf.WeldedTo != nil)
+	if !byMonth && cf.Acceptance != "" {
+		f.add("k.verdict = ?", cf.Acceptance)
+	}
+	var keys string
+	if byMonth {
+		f.add("k.welded_month = m.month::date AND k.verdict = a.verdict")
+		f.args = append(f.args, firstOfMonth(cf.WeldedFrom, 0), firstOfMonth(cf.WeldedTo, -1), accepted, limit)
+		n := len(f.args)
+		// The walk reads index entries only (the month index carries the
+		// day, the void mark and the id); the page's rows are read by key.
+		keys = `SELECT ` + prefixed("c.", couponListColumns) + `
+			FROM (SELECT b.id, b.leaf_index
+				FROM (SELECT min(welded_month) AS lo, max(welded_month) AS hi FROM coupon_list WHERE site = $1) span
+				CROSS JOIN generate_series(greatest(span.lo, $` + strconv.Itoa(n-3) + `::date), least(span.hi, $` + strconv.Itoa(n-2) +
+			`::date), interval '1 month') m(month)
+				CROSS JOIN unnest($` + strconv.Itoa(n-1) + `::text[]) a(verdict)
+				CROSS JOIN LATERAL (SELECT k.id, k.leaf_index FROM coupon_list k
+					WHERE k.site = $1 AND k.leaf_index >= $2 AND ` + strings.Join(f.conds, " AND ") + `
+					ORDER BY k.leaf_index LIMIT $` + strconv.Itoa(n) + `) b
+				ORDER BY b.leaf_index LIMIT $` + strconv.Itoa(n) + `) b
+			JOIN coupon_list c ON c.site = $1 AND c.id = b.id`
+	} else {
+		f.args = append(f.args, limit)
+		where := ""
+		if len(f.conds) > 0 {
+			where = " AND " + strings.Join(f.conds, " AND ")
+		}
+		keys = `SELECT ` + prefixed("k.", couponListColumns) + ` FROM coupon_list k
+			WHERE k.site = $1 AND k.leaf_index >= $2` + where + `
+			ORDER BY k.leaf_index LIMIT $` + strconv.Itoa(len(f.args))
+	}
+	// One statement reads the page, from coupon_list alone, with what each
+	// coupon inherits from its procedure (latest revision), else its
+	// qualification record.
+	sql := `SELECT ` + prefixed("k.", coupons.columns()) + `, k.leaf_index,
+			coalesce(p.process, r.process, '') AS inherited_process,
+			coalesce(p.wire_diameter_mm, r.wire_diameter_mm) AS inherited_wire_diameter_mm,
+			coalesce(p.shielding_gas, r.shielding_gas, '') AS inherited_shielding_gas,
+			coalesce(p.polarity, r.polarity) AS inherited_polarity
+		FROM (` + keys + `) k
+		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas, polarity FROM procedures
+			WHERE site = $1 AND id = k.procedure_id ORDER BY revision DESC LIMIT 1) p ON true
+		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas, polarity FROM qualification_records
+			WHERE site = $1 AND id = k.qualification_record_id ORDER BY revision DESC LIMIT 1) r ON true
+		ORDER BY k.leaf_index`
+	// A page shows every write acknowledged before it was asked for: the
+	// newest pending leaf is read in the same round trip as the page, and
+	// only when the site had one does the list wait for the sequencer and
+	// read the page again.
+	b := &pgx.Batch{}
+	var pending *int64
+	b.Queue(lastPending, site).QueryRow(func(r pgx.Row) error { return r.Scan(&pending) })
+	var page []listedCoupon
+	read := func(rows pgx.Rows) error {
+		var err error
+		page, err = pgx.CollectRows(rows, pgx.RowToStructByName[listedCoupon])
+		return err
+	}
+	b.Queue(sql, f.args...).Query(read)
+	err = s.pool.SendBatch(ctx, b).Close()
+	if err == nil && pending != nil {
+		s.awaitSequenced(ctx, site, *pending)
+		rows, _ := s.pool.Query(ctx, sql, f.args...)
+		err = read(rows)
+	}
+	if err != nil {
+		return Page[Coupon]{}, fmt.Errorf("db: list coupon: %w", mapError(err))
+	}
+	items := make([]Coupon, len(page))
+	last := int64(-1)
+	for i, c := range page {
+		items[i] = c.Coupon
+		items[i].inherit(couponDefaults{Process: c.Process, WireDiameterMM: c.WireDiameterMM, ShieldingGas: c.ShieldingGas, Polarity: c.Polarity})
+		last = c.LeafIndex
+	}
+	return Page[Coupon]{Items: items, Next: nextLogCursor(coupons.name, from, last, len(items))}, nil
+}
+
+// listedCoupon is one row of a coupons page: the coupon as stored, its log
+// index and what it would inherit.
+type listedCoupon struct {
+	Coupon
+	LeafIndex      int64    `db:"leaf_index"`
+	Process        string   `db:"inherited_process"`
+	WireDiameterMM *float64 `db:"inherited_wire_diameter_mm"`
+	ShieldingGas   string   `db:"inherited_shielding_gas"`
+	Polarity       *string  `db:"inherited_polarity"`
+}
+
+// firstOfMonth is the first day of the month of d shifted by days (nil: no bound).
+func firstOfMonth(d *Date, days int) *Date {
+	if d == nil {
+		return nil
+	}
+	t := d.AddDate(0, 0, days)
+	return &Date{time.Date(t.Year(), t.Month(), 1, 0, 0, 0, 0, time.UTC)}
+}
+
+// RecheckCouponList compares the site's coupon_list with coupon_list_derived
+// (the same rows computed from the coupons, their sections and the log) and
+// returns each difference; none means the list key is derived exactly.
+func (s *Store) RecheckCouponList(ctx context.Context, site string) ([]string, error) {
+	rows, _ := s.pool.Query(ctx, `
+		WITH want AS (SELECT `+couponListColumns+` FROM coupon_list_derived WHERE site = $1),
+		     have AS (SELECT `+couponListColumns+` FROM coupon_list WHERE site = $1)
+		SELECT format('coupon %s: %s', coalesce(w.id, h.id), CASE WHEN h.id IS NULL THEN 'not in coupon_list'
+		              WHEN w.id IS NULL THEN 'in coupon_list, not logged' ELSE 'differs: ' || to_jsonb(h)::text END)
+		FROM want w FULL JOIN have h ON h.id = w.id
+		WHERE w IS DISTINCT FROM h
+		ORDER BY 1`, site)
+	diffs, err := pgx.CollectRows(rows, pgx.RowTo[string])
+	if err != nil {
+		return nil, fmt.Errorf("db: recheck coupon list: %w", err)
+	}
+	return diffs, nil
+}
