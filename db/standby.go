@@ -69,15 +69,6 @@ func (s *Store) UseStandby(ctx context.Context, url string, maxLag time.Duration
 	return nil
 }
 
-// longReader returns the pool a long read should use and its name: the
-// standby while it is fresh, else the primary's long-read pool.
-func (s *Store) longReader(ctx context.Context) (*pgxpool.Pool, string) {
-	if s.standby != nil && s.standby.isFresh(ctx, s.long) {
-		return s.standby.pool, ReadStandby
-	}
-	return s.long, ReadPrimary
-}
-
 // StandbyLag reports the standby's replay lag as last measured and whether
 // it is within the bound; ok is false without a standby.
 func (s *Store) StandbyLag(ctx context.Context) (lag time.Duration, fresh, ok bool) {
@@ -143,15 +134,17 @@ func NoteReadSource(ctx context.Context, note func(string)) context.Context {
 	return context.WithValue(ctx, readSourceKey{}, note)
 }
 
-// longRead picks the pool for a long read and tells the context's note. A
+// longRead picks the pool for a long read, the standby while it is fresh
+// (else the primary's long-read pool), and tells the context's note. A
 // standby that went away since it was last found fresh is marked stale and
 // the primary serves the read.
 func (s *Store) longRead(ctx context.Context) *pgxpool.Pool {
-	pool, src := s.longReader(ctx)
-	if src == ReadStandby {
-		if err := pool.Ping(ctx); err != nil {
+	pool, src := s.long, ReadPrimary
+	if s.standby != nil && s.standby.isFresh(ctx, s.long) {
+		if err := s.standby.pool.Ping(ctx); err == nil {
+			pool, src = s.standby.pool, ReadStandby
+		} else {
 			s.standby.markStale()
-			pool, src = s.long, ReadPrimary
 		}
 	}
 	if note, ok := ctx.Value(readSourceKey{}).(func(string)); ok {

@@ -64,11 +64,7 @@ func (ps *PenetrationStream) Fit(model ModelKind) (PenetrationFit, error) {
 		return PenetrationFit{}, calFitError(ModelJacksonFixed, err)
 	}
 	if model != ModelJacksonFree {
-		free, err := ps.free.Solve() // only for the centred Σ(ln P − mean)², R²'s denominator
-		tss := 0.0
-		if err == nil {
-			tss = free.TSS
-		}
+		tss := ps.free.YScatter() // Σ(ln P − mean ln P)², R²'s denominator
 		r2 := 0.0
 		if tss > 0 {
 			r2 = 1 - fixed.RSS/tss

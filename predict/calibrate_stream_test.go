@@ -107,3 +107,30 @@ func TestStreamFitRefusals(t *testing.T) {
 		t.Error("5000 A accepted")
 	}
 }
+
+// TestStreamFixedFitOneCurrent: coupons all at one current cannot fit the
+// free exponents, but the fixed-exponent fit and its R² still stand, equal
+// to the whole-group fit's (R² from the spread of ln P alone).
+func TestStreamFixedFitOneCurrent(t *testing.T) {
+	samples := synthPenetration(t, 11, 12, publishedTruth)
+	for i := range samples {
+		samples[i].CurrentA = 200
+	}
+	ps := NewPenetrationStream()
+	for _, s := range samples {
+		if err := ps.Add(s); err != nil {
+			t.Fatal(err)
+		}
+	}
+	got, err := ps.Fit(ModelJacksonFixed)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, err := FitPenetrationFixed(samples)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !closeRel(got.R2, want.R2, 1e-10) || want.R2 == 0 {
+		t.Errorf("fixed fit R² = %.15g streamed, %.15g whole group", got.R2, want.R2)
+	}
+}

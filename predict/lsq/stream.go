@@ -235,12 +235,8 @@ func (s *Stream) Solve() (*Result, error) {
 	for _, c := range s.constC {
 		res.Centered = res.Centered || c
 	}
-	if res.Centered { // Σ(y − ȳ)² = Σy² − (Σy)²/n
-		tss := s.syy
-		mean := s.sy.value() / float64(n)
-		tss.addProd(-mean, s.sy.hi)
-		tss.addProd(-mean, s.sy.lo)
-		res.TSS = math.Max(tss.value(), 0)
+	if res.Centered {
+		res.TSS = s.YScatter()
 	} else {
 		res.TSS = math.Max(s.syy.value(), 0)
 	}
@@ -303,4 +299,17 @@ func (s *Stream) Scatter() (mean []float64, scatter *mat.SymDense) {
 		}
 	}
 	return mean, scatter
+}
+
+// YScatter is Σ(y − ȳ)² of the observations added so far, from the sums
+// kept in twice the working precision: Σy² − (Σy)²/n.
+func (s *Stream) YScatter() float64 {
+	if s.n == 0 {
+		return 0
+	}
+	tss := s.syy
+	mean := s.sy.value() / float64(s.n)
+	tss.addProd(-mean, s.sy.hi)
+	tss.addProd(-mean, s.sy.lo)
+	return math.Max(tss.value(), 0)
 }
