@@ -16,8 +16,8 @@ import (
 )
 
 // writeImport writes the planned coupons inside tx: claims their marks,
-// copies the coupon and section rows, logs a pending leaf per row as stored
-// and writes their flags.
+// copies the coupon and section rows, copies in a pending leaf per row as
+// stored and writes their flags.
 func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPlan) error {
 	if len(p.create) == 0 {
 		return nil
@@ -47,11 +47,17 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 		return err
 	}
 	entry := LeafEntry{Site: a.Site, Actor: a.Name, Action: actionCreate, At: now}
-	if err := s.logStored(ctx, tx, coupons, couponIDs, entry); err != nil {
+	pending, err := s.storedLeaves(ctx, tx, coupons, couponIDs, entry)
+	if err != nil {
 		return err
 	}
-	if err := s.logStored(ctx, tx, measurements, sectionIDs, entry); err != nil {
+	sectionLeaves, err := s.storedLeaves(ctx, tx, measurements, sectionIDs, entry)
+	if err != nil {
 		return err
+	}
+	pending = append(pending, sectionLeaves...)
+	if _, err := tx.CopyFrom(ctx, pgx.Identifier{"log_pending"}, pendingColumnList, pgx.CopyFromRows(pending)); err != nil {
+		return fmt.Errorf("log: %w", mapError(err))
 	}
 	return p.writeFlags(ctx, tx, now)
 }
@@ -114,15 +120,16 @@ func copyRevisions(ctx context.Context, tx pgx.Tx, t table, rows [][]any) error 
 	return nil
 }
 
-// logStored appends a pending leaf for revision 1 of each record in ids of
-// table t, each encoded from its row as stored (appendRows).
-func (s *Store) logStored(ctx context.Context, tx pgx.Tx, t table, ids []uuid.UUID, e LeafEntry) error {
+// storedLeaves encodes a pending leaf for revision 1 of each record in ids
+// of table t, each from its row as stored, in id order (the import copies
+// the leaves of its coupons and sections in at once).
+func (s *Store) storedLeaves(ctx context.Context, tx pgx.Tx, t table, ids []uuid.UUID, e LeafEntry) ([][]any, error) {
 	if len(ids) == 0 {
-		return nil
+		return nil, nil
 	}
 	k, err := leafKind(t.entity, 0)
 	if err != nil {
-		return err
+		return nil, err
 	}
 	e.Kind = k.Kind
 	// One seek per id (the LATERAL ... LIMIT 1 keeps it a seek whatever the
@@ -134,7 +141,7 @@ func (s *Store) logStored(ctx context.Context, tx pgx.Tx, t table, ids []uuid.UU
 	}
 	rows, _ := tx.Query(ctx, "SELECT "+strings.Join(cols, ", ")+" FROM unnest($2::uuid[]) AS u(id) CROSS JOIN LATERAL (SELECT * FROM "+k.Table+
 		" t WHERE t.site = $1 AND t.id = u.id AND t.revision = 1 LIMIT 1) r ORDER BY r.id", e.Site, ids)
-	return s.appendRows(ctx, tx, k, rows, e)
+	return s.pendingLeaves(k, rows, e)
 }
 
 // writeFlags evaluates every new coupon of a procedure against that
