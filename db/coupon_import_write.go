@@ -16,8 +16,9 @@ import (
 )
 
 // writeImport writes the planned coupons inside tx: claims their marks,
-// copies the coupon and section rows, copies in a pending leaf per row as
-// stored and writes their flags.
+// copies the coupon and section rows, logs a leaf per row as stored (one
+// pending entry for the coupons, one for the sections) and writes their
+// flags.
 func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPlan) error {
 	if len(p.create) == 0 {
 		return nil
@@ -47,17 +48,11 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 		return err
 	}
 	entry := LeafEntry{Site: a.Site, Actor: a.Name, Action: actionCreate, At: now}
-	pending, err := s.storedLeaves(ctx, tx, coupons, couponIDs, entry)
-	if err != nil {
+	if err := s.logStored(ctx, tx, coupons, couponIDs, entry); err != nil {
 		return err
 	}
-	sectionLeaves, err := s.storedLeaves(ctx, tx, measurements, sectionIDs, entry)
-	if err != nil {
+	if err := s.logStored(ctx, tx, measurements, sectionIDs, entry); err != nil {
 		return err
-	}
-	pending = append(pending, sectionLeaves...)
-	if _, err := tx.CopyFrom(ctx, pgx.Identifier{"log_pending"}, pendingColumnList, pgx.CopyFromRows(pending)); err != nil {
-		return fmt.Errorf("log: %w", mapError(err))
 	}
 	return p.writeFlags(ctx, tx, now)
 }
@@ -120,16 +115,16 @@ func copyRevisions(ctx context.Context, tx pgx.Tx, t table, rows [][]any) error 
 	return nil
 }
 
-// storedLeaves encodes a pending leaf for revision 1 of each record in ids
-// of table t, each from its row as stored, in id order (the import copies
-// the leaves of its coupons and sections in at once).
-func (s *Store) storedLeaves(ctx context.Context, tx pgx.Tx, t table, ids []uuid.UUID, e LeafEntry) ([][]any, error) {
+// logStored logs revision 1 of each record in ids of table t with one
+// pending entry of many leaves (log_many.go), each leaf encoded from its row
+// as stored, in id order; the sequencer gives every row its own leaf.
+func (s *Store) logStored(ctx context.Context, tx pgx.Tx, t table, ids []uuid.UUID, e LeafEntry) error {
 	if len(ids) == 0 {
-		return nil, nil
+		return nil
 	}
 	k, err := leafKind(t.entity, 0)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	e.Kind = k.Kind
 	// One seek per id (the LATERAL ... LIMIT 1 keeps it a seek whatever the
@@ -141,7 +136,34 @@ func (s *Store) storedLeaves(ctx context.Context, tx pgx.Tx, t table, ids []uuid
 	}
 	rows, _ := tx.Query(ctx, "SELECT "+strings.Join(cols, ", ")+" FROM unnest($2::uuid[]) AS u(id) CROSS JOIN LATERAL (SELECT * FROM "+k.Table+
 		" t WHERE t.site = $1 AND t.id = u.id AND t.revision = 1 LIMIT 1) r ORDER BY r.id", e.Site, ids)
-	return s.pendingLeaves(k, rows, e)
+	stored := make([]uuid.UUID, 0, len(ids))
+	hashes := make([][]byte, 0, len(ids))
+	idCol := slices.Index(k.Columns, "id")
+	for rows.Next() {
+		f, err := factOf(k, rows)
+		if err != nil {
+			rows.Close()
+			return err
+		}
+		id, err := uuid.Parse(f.Fields[idCol].Value)
+		if err != nil {
+			rows.Close()
+			return fmt.Errorf("db: %s row id: %w", k.Kind, err)
+		}
+		stored, hashes = append(stored, id), append(hashes, f.LeafHash())
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return fmt.Errorf("db: log %s: %w", k.Kind, mapError(err))
+	}
+	if len(stored) != len(ids) {
+		return fmt.Errorf("db: log %s: %d of %d rows read back", k.Kind, len(stored), len(ids))
+	}
+	m, err := s.newManyLeaves(k, e, 1, stored, hashes)
+	if err != nil {
+		return err
+	}
+	return appendMany(ctx, tx, m)
 }
 
 // writeFlags evaluates every new coupon of a procedure against that
