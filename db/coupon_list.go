@@ -128,11 +128,16 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 	if !byMonth && cf.Acceptance != "" {
 		f.add("k.verdict = ?", cf.Acceptance)
 	}
+	// The page size is written into the statement, not bound: a prepared
+	// statement's generic plan (which PostgreSQL switches to after five
+	// executions) then knows a page is small, and does not trade the
+	// walk for a hash join over every coupon of the site.
+	lim := strconv.Itoa(limit)
 	var keys string
 	if byMonth {
 		f.add("k.welded_month = m.month::date AND k.verdict = a.verdict")
-		f.args = append(f.args, firstOfMonth(cf.WeldedFrom, 0), firstOfMonth(cf.WeldedTo, -1), accepted, limit)
-		n := len(f.args)
+		f.args = append(f.args, firstOfMonth(cf.WeldedFrom, 0), firstOfMonth(cf.WeldedTo, -1), accepted)
+		n := len(f.args) + 1
 		// The walk reads index entries only (the month index carries the
 		// day, the void mark and the id); the page's rows are read by key.
 		keys = `SELECT ` + prefixed("c.", couponListColumns) + `
@@ -143,18 +148,17 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 				CROSS JOIN unnest($` + strconv.Itoa(n-1) + `::text[]) a(verdict)
 				CROSS JOIN LATERAL (SELECT k.id, k.leaf_index FROM coupon_list k
 					WHERE k.site = $1 AND k.leaf_index >= $2 AND ` + strings.Join(f.conds, " AND ") + `
-					ORDER BY k.leaf_index LIMIT $` + strconv.Itoa(n) + `) b
-				ORDER BY b.leaf_index LIMIT $` + strconv.Itoa(n) + `) b
+					ORDER BY k.leaf_index LIMIT ` + lim + `) b
+				ORDER BY b.leaf_index LIMIT ` + lim + `) b
 			JOIN coupon_list c ON c.site = $1 AND c.id = b.id`
 	} else {
-		f.args = append(f.args, limit)
 		where := ""
 		if len(f.conds) > 0 {
 			where = " AND " + strings.Join(f.conds, " AND ")
 		}
 		keys = `SELECT ` + prefixed("k.", couponListColumns) + ` FROM coupon_list k
 			WHERE k.site = $1 AND k.leaf_index >= $2` + where + `
-			ORDER BY k.leaf_index LIMIT $` + strconv.Itoa(len(f.args))
+			ORDER BY k.leaf_index LIMIT ` + lim
 	}
 	// One statement reads the page, from coupon_list alone, with what each
 	// coupon inherits from its procedure (latest revision), else its
