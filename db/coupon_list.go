@@ -77,10 +77,11 @@ var verdicts = []string{"", "accept", "reject"}
 // after the cursor. An equality filter (procedure, qualification record,
 // welder, mark), or none, pages through its index in log order. A
 // welding-day range without one would walk the whole log when the range
-// lies late in it (welding days grow with the log); instead each month of
-// the range (and each verdict) is walked in log order on its own, up to
-// a page each, and the heads are merged: at most months × verdicts ×
-// limit index entries, whatever the page depth.
+// lies late in it (welding days grow with the log); instead each day of a
+// range of up to maxDayWalk days, or each month of a longer one (and each
+// verdict), is walked in log order on its own, up to a page each, and the
+// heads are merged: at most days × limit, or months × verdicts × limit,
+// index entries, whatever the page depth.
 func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, cursor string, limit int) (Page[Coupon], error) {
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
@@ -125,6 +126,10 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 		return Page[Coupon]{}, &FieldError{Field: "acceptance", Reason: "want accept or reject"}
 	}
 	byMonth := !equality && (cf.WeldedFrom != nil || cf.WeldedTo != nil)
+	byDay := byMonth && cf.WeldedFrom != nil && cf.WeldedTo != nil && !cf.WeldedTo.After(cf.WeldedFrom.AddDate(0, 0, maxDayWalk))
+	if byDay {
+		byMonth = false
+	}
 	if !byMonth && cf.Acceptance != "" {
 		f.add("k.verdict = ?", cf.Acceptance)
 	}
@@ -134,7 +139,20 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 	// walk for a hash join over every coupon of the site.
 	lim := strconv.Itoa(limit)
 	var keys string
-	if byMonth {
+	if byDay {
+		// Each day of the range in log order, its first page (the day
+		// index carries the void mark, the verdict and the id), merged.
+		f.args = append(f.args, *cf.WeldedFrom, DateOf(cf.WeldedTo.AddDate(0, 0, -1)))
+		n := len(f.args)
+		keys = `SELECT ` + prefixed("c.", couponListColumns) + `
+			FROM (SELECT b.id, b.leaf_index
+				FROM generate_series($` + strconv.Itoa(n-1) + `::date, $` + strconv.Itoa(n) + `::date, interval '1 day') d(day)
+				CROSS JOIN LATERAL (SELECT k.id, k.leaf_index FROM coupon_list k
+					WHERE k.site = $1 AND k.welded_on = d.day::date AND k.leaf_index >= $2 AND ` + strings.Join(f.conds, " AND ") + `
+					ORDER BY k.leaf_index LIMIT ` + lim + `) b
+				ORDER BY b.leaf_index LIMIT ` + lim + `) b
+			JOIN coupon_list c ON c.site = $1 AND c.id = b.id`
+	} else if byMonth {
 		f.add("k.welded_month = m.month::date AND k.verdict = a.verdict")
 		f.args = append(f.args, firstOfMonth(cf.WeldedFrom, 0), firstOfMonth(cf.WeldedTo, -1), accepted)
 		n := len(f.args) + 1
@@ -217,6 +235,11 @@ type listedCoupon struct {
 	ShieldingGas   string   `db:"inherited_shielding_gas"`
 	Polarity       *string  `db:"inherited_polarity"`
 }
+
+// maxDayWalk is the longest welding-day range (in days) the coupons list
+// walks day by day; a longer one walks its months, whose entries outside
+// the range are read and dropped.
+const maxDayWalk = 31
 
 // firstOfMonth is the first day of the month of d shifted by days (nil: no bound).
 func firstOfMonth(d *Date, days int) *Date {

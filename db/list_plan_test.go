@@ -124,6 +124,7 @@ func TestListPlansUseIndexes(t *testing.T) {
 	pqr := seededID("q", 11)
 	coupon := seededID("c", 1234)
 	from, to := db.DateOf(time.Date(2021, 3, 1, 0, 0, 0, 0, time.UTC)), db.DateOf(time.Date(2021, 3, 8, 0, 0, 0, 0, time.UTC))
+	quarter := db.DateOf(time.Date(2021, 6, 1, 0, 0, 0, 0, time.UTC))
 	at, until := time.Date(2019, 6, 1, 0, 0, 0, 0, time.UTC), time.Date(2019, 6, 2, 0, 0, 0, 0, time.UTC)
 	deep := db.SeqCursor("coupons", planCoupons)
 	cases := []struct {
@@ -140,10 +141,12 @@ func TestListPlansUseIndexes(t *testing.T) {
 		"none": {}, "procedure_id": {ProcedureID: &proc}, "qualification_record_id": {QualificationRecordID: &pqr},
 		"welder_id": {WelderID: "W17"}, "coupon_mark": {CouponMark: "C-2024"},
 		"welded_from": {WeldedFrom: &from}, "welded_to": {WeldedTo: &from}, "welded_from+to": {WeldedFrom: &from, WeldedTo: &to},
-		"procedure_id+welder_id":      {ProcedureID: &proc, WelderID: "W17"},
-		"procedure_id+welded_from+to": {ProcedureID: &proc, WeldedFrom: &from, WeldedTo: &to},
-		"welder_id+welded_from+to":    {WelderID: "W17", WeldedFrom: &from, WeldedTo: &to},
-		"acceptance=reject":           {Acceptance: "reject"}, "acceptance=accept": {Acceptance: "accept"},
+		"welded_from+to(quarter)": {WeldedFrom: &from, WeldedTo: &quarter}, "welded_from+to(quarter)+acceptance=reject": {WeldedFrom: &from, WeldedTo: &quarter, Acceptance: "reject"},
+		"welded_from+to+acceptance=reject": {WeldedFrom: &from, WeldedTo: &to, Acceptance: "reject"},
+		"procedure_id+welder_id":           {ProcedureID: &proc, WelderID: "W17"},
+		"procedure_id+welded_from+to":      {ProcedureID: &proc, WeldedFrom: &from, WeldedTo: &to},
+		"welder_id+welded_from+to":         {WelderID: "W17", WeldedFrom: &from, WeldedTo: &to},
+		"acceptance=reject":                {Acceptance: "reject"}, "acceptance=accept": {Acceptance: "accept"},
 		"procedure_id+acceptance=reject":    {ProcedureID: &proc, Acceptance: "reject"},
 		"include_voided":                    {IncludeVoided: true},
 		"qualification_record_id+welder_id": {QualificationRecordID: &pqr, WelderID: "W17"},
@@ -249,7 +252,9 @@ func explainList(ctx context.Context, s *db.Store, sql string, args []any, gener
 		return nil, err
 	}
 	defer conn.Release()
-	defer func() { _, _ = conn.Exec(ctx, "DEALLOCATE list_plan; RESET plan_cache_mode", pgx.QueryExecModeSimpleProtocol) }()
+	defer func() {
+		_, _ = conn.Exec(ctx, "DEALLOCATE list_plan; RESET plan_cache_mode", pgx.QueryExecModeSimpleProtocol)
+	}()
 	if _, err := conn.Exec(ctx, "PREPARE list_plan AS "+sql+"; SET plan_cache_mode = force_generic_plan", pgx.QueryExecModeSimpleProtocol); err != nil {
 		return nil, err
 	}
