@@ -196,17 +196,20 @@ func leafOfRaw(fds []pgconn.FieldDescription, raw [][]byte) (logfmt.ExportLeaf, 
 func (s *Store) exportUnlogged(ctx context.Context, tx pgx.Tx, site string, emit func(string, any) error) (int64, error) {
 	var n int64
 	key := s.logKey()
-	rows, _ := tx.Query(ctx, `SELECT kind, version, record_id, revision, leaf_hash, tag FROM log_pending WHERE site = $1 ORDER BY seq`, site)
+	rows, _ := tx.Query(ctx, `SELECT kind, version, record_id, revision, leaf_hash, tag, record_ids, leaf_hashes
+		FROM log_pending WHERE site = $1 ORDER BY seq`, site)
 	type pending struct {
 		Kind      string    `db:"kind"`
 		Version   int       `db:"version"`
 		ID        uuid.UUID `db:"record_id"`
 		Rev       int       `db:"revision"`
 		Hash, Tag []byte
+		IDs       [][16]byte // a pending entry of many leaves (log_many.go)
+		Hashes    []byte
 	}
 	pend, err := pgx.CollectRows(rows, func(r pgx.CollectableRow) (pending, error) {
 		var p pending
-		return p, r.Scan(&p.Kind, &p.Version, &p.ID, &p.Rev, &p.Hash, &p.Tag)
+		return p, r.Scan(&p.Kind, &p.Version, &p.ID, &p.Rev, &p.Hash, &p.Tag, &p.IDs, &p.Hashes)
 	})
 	if err != nil {
 		return n, err
@@ -214,6 +217,15 @@ func (s *Store) exportUnlogged(ctx context.Context, tx pgx.Tx, site string, emit
 	var kind string
 	var id uuid.UUID
 	for _, p := range pend {
+		if p.IDs != nil {
+			m, err := s.exportUnloggedMany(ctx, tx, site, pendingLeaf{Kind: p.Kind, Version: p.Version, Revision: p.Rev,
+				LeafHash: p.Hash, Tag: p.Tag, RecordIDs: p.IDs, LeafHashes: p.Hashes}, emit)
+			n += m
+			if err != nil {
+				return n, err
+			}
+			continue
+		}
 		why := ""
 		switch {
 		case p.Hash == nil || key == nil || !key.TagOK(site, p.Hash, p.Tag):
@@ -245,6 +257,7 @@ func (s *Store) exportUnlogged(ctx context.Context, tx pgx.Tx, site string, emit
 		rows, _ := tx.Query(ctx, `SELECT r.id, `+rev+` FROM `+k.Table+` r WHERE r.site = $1
 			AND NOT EXISTS (SELECT 1 FROM log_leaves lg WHERE lg.site = r.site AND lg.record_id = r.id AND lg.revision = `+rev+` AND lg.kind = $2)
 			AND NOT EXISTS (SELECT 1 FROM log_pending p WHERE p.site = r.site AND p.record_id = r.id AND p.revision = `+rev+` AND p.kind = $2)
+			AND (r.id, `+rev+`) NOT IN (SELECT c.id, p.revision FROM log_pending p, unnest(p.record_ids) c(id) WHERE p.site = $1 AND p.kind = $2)
 			AND NOT EXISTS (SELECT 1 FROM log_rejected x WHERE x.site = r.site AND x.record_id = r.id AND x.revision = `+rev+` AND x.kind = $2)
 			ORDER BY r.id`, site, k.Kind)
 		var r int
@@ -253,6 +266,36 @@ func (s *Store) exportUnlogged(ctx context.Context, tx pgx.Tx, site string, emit
 			return emit(logfmt.LineUnlogged, logfmt.Unlogged{Kind: k.Kind, RecordID: id.String(), Revision: r, Why: "no leaf in the log"})
 		}); err != nil {
 			return n, err
+		}
+	}
+	return n, nil
+}
+
+// exportUnloggedMany emits the facts named by one pending entry of many
+// leaves that will not enter the log as they are: all of them when the
+// entry's tag or digest is not the service's, else each whose stored row no
+// longer encodes to its leaf hash.
+func (s *Store) exportUnloggedMany(ctx context.Context, tx pgx.Tx, site string, p pendingLeaf, emit func(string, any) error) (int64, error) {
+	var n int64
+	why := ""
+	if s.logKey() == nil {
+		why = "its pending leaf was not written by the service (no valid tag)"
+	} else if manyRefusal(s, site, p) != "" {
+		why = "its pending entry was not written by the service (no valid tag, or not what the tag covers)"
+	}
+	for i, id := range p.RecordIDs {
+		w := why
+		if w == "" {
+			h, err := encodeStored(ctx, tx, p.Kind, p.Version, site, id, p.Revision)
+			if err != nil || !bytes.Equal(h, p.LeafHashes[32*i:32*i+32]) {
+				w = "the stored row no longer matches its pending leaf (altered before it was logged)"
+			}
+		}
+		if w != "" {
+			n++
+			if err := emit(logfmt.LineUnlogged, logfmt.Unlogged{Kind: p.Kind, RecordID: uuid.UUID(id).String(), Revision: p.Revision, Why: w}); err != nil {
+				return n, err
+			}
 		}
 	}
 	return n, nil
