@@ -93,11 +93,11 @@ func benchSite(b testing.TB, n int) (string, *pgx.Conn, func(int) uuid.UUID) {
 	now := time.Now()
 	if err := indexAfter(ctx, conn, "coupons", func() error {
 		_, err := conn.CopyFrom(ctx, pgx.Identifier{"coupons"}, []string{"site", "id", "revision", "created_at",
-		"created_by", "procedure_id", "coupon_mark", "welder_id", "welded_on", "joint_type", "thickness_mm",
-		"pass_number", "current_a", "voltage_v", "travel_speed_mm_s", "wire_diameter_mm", "polarity", "position"},
-		pgx.CopyFromSlice(n, func(i int) ([]any, error) {
-			return []any{site, ids[i], 1, now, "bench", proc(i * 13), fmt.Sprint("C-", i), fmt.Sprint("W", i*31%250),
-				day0.AddDate(0, 0, i*2500/n), "butt", 10.0, 1, 250.0, 25.0, 5.0, 1.2, "DCEP", "1G"}, nil
+			"created_by", "procedure_id", "coupon_mark", "welder_id", "welded_on", "joint_type", "thickness_mm",
+			"pass_number", "current_a", "voltage_v", "travel_speed_mm_s", "wire_diameter_mm", "polarity", "position"},
+			pgx.CopyFromSlice(n, func(i int) ([]any, error) {
+				return []any{site, ids[i], 1, now, "bench", proc(i * 13), fmt.Sprint("C-", i), fmt.Sprint("W", i*31%250),
+					day0.AddDate(0, 0, i*2500/n), "butt", 10.0, 1, 250.0, 25.0, 5.0, 1.2, "DCEP", "1G"}, nil
 			}))
 		return err
 	}); err != nil {
