@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"reflect"
 	"strings"
 
 	"github.com/jackc/pgx/v5"
@@ -62,10 +63,11 @@ func (s *Store) export(ctx context.Context, pool *pgxpool.Pool, site string, rec
 			return sum, err
 		}
 	}
-	if sum.Leaves, err = exportLeaves(ctx, tx, site, emit); err != nil {
+	var claimed map[string]*unclaimed
+	if sum.Leaves, claimed, err = exportLeaves(ctx, tx, site, emit); err != nil {
 		return sum, fmt.Errorf("db: export leaves: %w", err)
 	}
-	if sum.Unlogged, err = s.exportUnlogged(ctx, tx, site, emit); err != nil {
+	if sum.Unlogged, err = s.exportUnlogged(ctx, tx, site, claimed, emit); err != nil {
 		return sum, fmt.Errorf("db: export unlogged: %w", err)
 	}
 	return sum, nil
@@ -121,8 +123,21 @@ func exportTable[T any](ctx context.Context, tx pgx.Tx, t table, site string, em
 	if err != nil {
 		return 0, fmt.Errorf("db: export %s: %w", t.name, err)
 	}
+	var enc *recordEncoder
+	if _, sg := any(new(T)).(signable); !sg { // a signed record carries its sign-off: encoded as before
+		enc = newRecordEncoder(reflect.TypeFor[T](), rows.FieldDescriptions())
+	}
 	var n int64
 	for rows.Next() {
+		if enc != nil {
+			if b, ok := enc.append(make([]byte, 0, 512), rows.RawValues()); ok {
+				if err := emit(t.entity, recordJSON(b)); err != nil {
+					return n, err
+				}
+				n++
+				continue
+			}
+		}
 		var v T
 		if err := scan(rows, &v); err != nil {
 			return n, err
