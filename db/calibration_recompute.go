@@ -356,7 +356,7 @@ func (r *groupRecompute) catchUp(ctx context.Context, tx pgx.Tx) error {
 }
 
 // writtenSince lists what site logged after the mark: every leaf pending
-// now or integrated past leaf index mark whose pending row was not among
+// now (each row a pending entry names) or integrated past leaf index mark whose pending row was not among
 // seen (committed before the mark, so part 1 read it). It returns the
 // coupons written (directly, or by one of their sections), and whether any
 // procedure, qualified ranges or qualification record was written (these
@@ -364,7 +364,7 @@ func (r *groupRecompute) catchUp(ctx context.Context, tx pgx.Tx) error {
 func writtenSince(ctx context.Context, tx pgx.Tx, site string, mark int64, seen map[int64]bool) ([]uuid.UUID, bool, error) {
 	rows, _ := tx.Query(ctx, `
 		WITH l AS (
-			SELECT seq, kind, record_id FROM log_pending WHERE site = $1
+			SELECT seq, kind, unnest(coalesce(record_ids, ARRAY[record_id])) AS record_id FROM log_pending WHERE site = $1
 			UNION SELECT pending_seq, kind, record_id FROM log_leaves WHERE site = $1 AND leaf_index > $2)
 		SELECT l.seq, l.kind, coalesce(m.coupon_id, l.record_id)
 		FROM l LEFT JOIN LATERAL (SELECT coupon_id FROM measurements m
