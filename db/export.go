@@ -110,6 +110,11 @@ func exportRecords(ctx context.Context, tx pgx.Tx, site string, emit func(string
 // storage order: ordering by id would read the table through its index,
 // one random page per row, several times the cost of the sequential read.
 func exportTable[T any](ctx context.Context, tx pgx.Tx, t table, site string, emit func(string, any) error) (int64, error) {
+	if _, sg := any(new(T)).(signable); !sg { // a signed record carries its sign-off: read below
+		if n, ok, err := exportTableCopy[T](ctx, tx, t, site, emit); ok || err != nil {
+			return n, err
+		}
+	}
 	signed, err := signOffsOf(ctx, tx, site) // read first: the connection serves one query at a time
 	if err != nil {
 		return 0, err
