@@ -124,7 +124,8 @@ func (s *Server) handleCalibrationGet(c echo.Context) error {
 		return err
 	}
 	ctx, site := c.Request().Context(), actorOf(c).Site
-	cal, err := s.store.Calibration(ctx, site, id)
+	verify := c.QueryParam("check") == "samples" // the document allows no other value
+	cal, err := s.store.CalibrationChecked(ctx, site, id, verify)
 	if err != nil {
 		return err
 	}

@@ -64,6 +64,15 @@ func TestCalibrationFitThroughAPI(t *testing.T) {
 			}
 			created := e.fit(calibrationBody(tc.model, extra))
 			read := decode[calibrationReply](t, "GET calibration", e.do(http.MethodGet, "/v1/calibrations/"+created.ID, "auditor", nil), http.StatusOK)
+			// The explicit check answers the same calibration, its samples re-derived and matching.
+			checked := decode[map[string]any](t, "GET calibration?check=samples",
+				e.do(http.MethodGet, "/v1/calibrations/"+created.ID+"?check=samples", "auditor", nil), http.StatusOK)
+			if sc, _ := checked["sample_check"].(map[string]any); sc["finding"] != "matches" {
+				t.Errorf("check=samples: sample_check %v, want finding matches", checked["sample_check"])
+			}
+			if r := e.do(http.MethodGet, "/v1/calibrations/"+created.ID+"?check=everything", "auditor", nil); r.status != http.StatusUnprocessableEntity {
+				t.Errorf("check=everything = %d %s, want 422 (a value refused)", r.status, r.body)
+			}
 			wantDiag, err := tc.diag()
 			if err != nil {
 				t.Fatal(err)

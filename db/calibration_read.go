@@ -28,8 +28,17 @@ const latestActivations = `latest AS (
 	WHERE action = 'activate')`
 
 // Calibration reads one calibration with the samples it was fitted to:
-// stored inline, or re-derived from its selection and checked (rederive).
+// stored inline, or, up to InlineSampleLimit samples, re-derived from its
+// selection and checked (rederive). Above that it reads the row alone and
+// says so in SampleCheck ("not_checked"): CalibrationChecked re-derives.
 func (s *Store) Calibration(ctx context.Context, site string, id uuid.UUID) (Calibration, error) {
+	return s.CalibrationChecked(ctx, site, id, false)
+}
+
+// CalibrationChecked is Calibration; with verify it re-derives the
+// selection and checks its count and digest whatever the number of samples
+// (one pass over the selection, memory flat in its size).
+func (s *Store) CalibrationChecked(ctx context.Context, site string, id uuid.UUID, verify bool) (Calibration, error) {
 	rows, _ := s.pool.Query(ctx, `WITH `+latestActivations+`
 		SELECT `+calibrationColumns+`, c.samples, l.calibration_id IS NOT NULL AS active
 		FROM calibrations c LEFT JOIN latest l ON l.calibration_id = c.id
@@ -41,7 +50,7 @@ func (s *Store) Calibration(ctx context.Context, site string, id uuid.UUID) (Cal
 	if err != nil {
 		return c, fmt.Errorf("db: calibration %s: %w", id, err)
 	}
-	if err := s.rederive(ctx, &c); err != nil {
+	if err := s.rederive(ctx, &c, verify); err != nil {
 		return c, err
 	}
 	c.listSampleIDs()

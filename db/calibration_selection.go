@@ -169,13 +169,23 @@ func runSelection(ctx context.Context, q querier, site string, f SampleFilter, m
 
 // rederive fills c's samples from its stored selection, when they are not
 // stored inline, and checks them against the stored count and digest: the
-// samples and ids only up to InlineSampleLimit, the check always (one pass
-// over the group, in memory that does not grow with it).
-func (s *Store) rederive(ctx context.Context, c *Calibration) error {
+// samples and ids only up to InlineSampleLimit. Above that limit it does
+// nothing unless verify (SampleCheck "not_checked"): the pass reads the
+// whole selection, so a plain read of a big calibration would cost a scan
+// of its group. With verify the check runs whatever the size (one pass over
+// the group, in memory that does not grow with it).
+func (s *Store) rederive(ctx context.Context, c *Calibration, verify bool) error {
 	if c.Selection == nil {
 		if c.Samples != nil {
 			c.SampleCheck = &SampleCheck{Finding: "inline", Note: "the samples were stored with the calibration"}
 		}
+		return nil
+	}
+	if !verify && c.SampleCount > InlineSampleLimit {
+		c.SampleCheck = &SampleCheck{Finding: "not_checked", Note: fmt.Sprintf(
+			"%d samples, more than %d: the selection was not re-derived for this read (their ids, values and per-coupon "+
+				"diagnostics are not listed); read with check=samples to re-derive it and compare its count and digest with the stored ones",
+			c.SampleCount, InlineSampleLimit)}
 		return nil
 	}
 	sel := *c.Selection

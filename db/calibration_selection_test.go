@@ -5,6 +5,7 @@ import (
 	"crypto/sha256"
 	"encoding/binary"
 	"encoding/hex"
+	"fmt"
 	"strings"
 	"testing"
 
@@ -117,5 +118,29 @@ func TestCalibrationStoresSelection(t *testing.T) {
 	}
 	if read.SampleCheck == nil || read.SampleCheck.Finding != "differs" || !strings.Contains(read.SampleCheck.Note, c.SampleDigest) {
 		t.Errorf("read after a late section: check %+v; want differs, naming the fitted digest %s", read.SampleCheck, c.SampleDigest)
+	}
+
+	// Above InlineSampleLimit a plain read re-derives nothing; check=samples does.
+	// (A copy of the row claiming more samples than the selection gives.)
+	big := uuid.New()
+	if _, err := pool.Exec(ctx, `INSERT INTO calibrations SELECT (jsonb_populate_record(c, jsonb_build_object('id', $3::uuid, 'sample_count', $4::int))).*
+		FROM calibrations c WHERE site = $1 AND id = $2`, site, c.ID, big, db.InlineSampleLimit+1); err != nil {
+		t.Fatal(err)
+	}
+	read, err = s.Calibration(ctx, site, big)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if read.SampleCheck == nil || read.SampleCheck.Finding != "not_checked" || read.Samples != nil || len(read.CouponIDs) != 0 ||
+		!strings.Contains(read.SampleCheck.Note, "check=samples") {
+		t.Errorf("plain read of %d samples: check %+v, samples %v, %d ids; want not_checked naming check=samples, none listed",
+			db.InlineSampleLimit+1, read.SampleCheck, read.Samples, len(read.CouponIDs))
+	}
+	read, err = s.CalibrationChecked(ctx, site, big, true)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if read.SampleCheck == nil || read.SampleCheck.Finding != "differs" || !strings.Contains(read.SampleCheck.Note, fmt.Sprint(db.InlineSampleLimit+1)) {
+		t.Errorf("checked read: %+v; want differs, naming the stored count %d", read.SampleCheck, db.InlineSampleLimit+1)
 	}
 }

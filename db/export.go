@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"reflect"
 	"strings"
 
 	"github.com/jackc/pgx/v5"
@@ -62,10 +63,11 @@ func (s *Store) export(ctx context.Context, pool *pgxpool.Pool, site string, rec
 			return sum, err
 		}
 	}
-	if sum.Leaves, err = exportLeaves(ctx, tx, site, emit); err != nil {
+	var claimed map[string]*unclaimed
+	if sum.Leaves, claimed, err = exportLeaves(ctx, tx, site, emit); err != nil {
 		return sum, fmt.Errorf("db: export leaves: %w", err)
 	}
-	if sum.Unlogged, err = s.exportUnlogged(ctx, tx, site, emit); err != nil {
+	if sum.Unlogged, err = s.exportUnlogged(ctx, tx, site, claimed, emit); err != nil {
 		return sum, fmt.Errorf("db: export unlogged: %w", err)
 	}
 	return sum, nil
@@ -108,6 +110,11 @@ func exportRecords(ctx context.Context, tx pgx.Tx, site string, emit func(string
 // storage order: ordering by id would read the table through its index,
 // one random page per row, several times the cost of the sequential read.
 func exportTable[T any](ctx context.Context, tx pgx.Tx, t table, site string, emit func(string, any) error) (int64, error) {
+	if _, sg := any(new(T)).(signable); !sg { // a signed record carries its sign-off: read below
+		if n, ok, err := exportTableCopy[T](ctx, tx, t, site, emit); ok || err != nil {
+			return n, err
+		}
+	}
 	signed, err := signOffsOf(ctx, tx, site) // read first: the connection serves one query at a time
 	if err != nil {
 		return 0, err
@@ -121,8 +128,21 @@ func exportTable[T any](ctx context.Context, tx pgx.Tx, t table, site string, em
 	if err != nil {
 		return 0, fmt.Errorf("db: export %s: %w", t.name, err)
 	}
+	var enc *recordEncoder
+	if _, sg := any(new(T)).(signable); !sg { // a signed record carries its sign-off: encoded as before
+		enc = newRecordEncoder(reflect.TypeFor[T](), rows.FieldDescriptions())
+	}
 	var n int64
 	for rows.Next() {
+		if enc != nil {
+			if b, ok := enc.append(make([]byte, 0, 512), rows.RawValues()); ok {
+				if err := emit(t.entity, recordJSON(b)); err != nil {
+					return n, err
+				}
+				n++
+				continue
+			}
+		}
 		var v T
 		if err := scan(rows, &v); err != nil {
 			return n, err

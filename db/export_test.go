@@ -2,6 +2,9 @@ package db
 
 import (
 	"context"
+	"encoding/json"
+	"fmt"
+	"reflect"
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
@@ -29,3 +32,43 @@ func OpenTraced(ctx context.Context, url string, tr pgx.QueryTracer) (*Store, er
 // CouponListRefresh is the statement the sequencer rewrites coupon_list
 // rows with, for the plan test.
 var CouponListRefresh = couponListRefresh
+
+// RecordJSONBothWays reads the coupons of a site (up to the first the
+// driver cannot scan) and returns each row's
+// record as the export's record encoder writes it (nil where it declines
+// the row) and as encoding/json writes the scanned Coupon.
+func RecordJSONBothWays(ctx context.Context, s *Store, site string) (fast, slow [][]byte, err error) {
+	rows, err := s.pool.Query(ctx, "SELECT "+coupons.columns()+" FROM coupons WHERE site = $1 ORDER BY coupon_mark COLLATE \"C\"", site)
+	if err != nil {
+		return nil, nil, err
+	}
+	defer rows.Close()
+	scan, err := structScanner[Coupon](rows.FieldDescriptions())
+	if err != nil {
+		return nil, nil, err
+	}
+	enc := newRecordEncoder(reflect.TypeFor[Coupon](), rows.FieldDescriptions())
+	if enc == nil {
+		return nil, nil, fmt.Errorf("no record encoder for Coupon")
+	}
+	for rows.Next() {
+		b, ok := enc.append(nil, rows.RawValues())
+		if !ok {
+			b = nil
+		}
+		fast = append(fast, b)
+		var c Coupon
+		if err := scan(rows, &c); err != nil { // the driver ends the result here
+			return fast, append(slow, []byte(err.Error())), nil
+		}
+		j, err := json.Marshal(c)
+		if err != nil {
+			j = []byte(err.Error())
+		}
+		slow = append(slow, j)
+	}
+	return fast, slow, rows.Err()
+}
+
+// AppendJSONFloat is the export's float64 writer, for its test.
+var AppendJSONFloat = appendJSONFloat

@@ -1,16 +1,15 @@
 package db
 
 import (
-	"bytes"
 	"context"
 	"encoding/binary"
 	"fmt"
+	"slices"
 	"strings"
 
+	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
-
-	"etchlog/db/logfmt"
 )
 
 // A kind's leaves must carry their rows in log order. Joining each leaf to
@@ -44,6 +43,7 @@ type rowWindow struct {
 	ahead  map[rowKey][][]byte // rows read before their leaf
 	byKey  map[rowKey]bool     // rows read by key, not yet passed
 	ended  bool
+	over   bool // a bound was reached: the rows no leaf claimed are not known
 	lookup string
 }
 
@@ -63,8 +63,9 @@ func newRowWindow(ctx context.Context, tx pgx.Tx, k LeafKind, site, name string)
 			k.revisionExpr("r") + " = $3"}, nil
 }
 
-// read fetches the next rows in storage order into ahead.
-func (w *rowWindow) read(ctx context.Context, tx pgx.Tx) error {
+// read fetches the next rows in storage order into ahead, or, when keep is
+// false, only their keys into seen (rows read by key are dropped either way).
+func (w *rowWindow) read(ctx context.Context, tx pgx.Tx, keep bool, seen func(rowKey)) error {
 	rows, err := tx.Query(ctx, fmt.Sprintf("FETCH %d FROM %s", rowFetch, w.name))
 	if err != nil {
 		return err
@@ -75,7 +76,7 @@ func (w *rowWindow) read(ctx context.Context, tx pgx.Tx) error {
 		got++
 		raw := rows.RawValues()
 		if w.fds == nil {
-			w.fds = append([]pgconn.FieldDescription(nil), rows.FieldDescriptions()[2:]...)
+			w.fds = slices.Clone(rows.FieldDescriptions()[2:])
 		}
 		if len(raw[0]) != 16 || len(raw[1]) != 4 {
 			return fmt.Errorf("%s row: unexpected key encoding", w.k.Table)
@@ -85,34 +86,33 @@ func (w *rowWindow) read(ctx context.Context, tx pgx.Tx) error {
 			delete(w.byKey, key)
 			continue
 		}
-		vals := make([][]byte, len(raw)-2)
-		for i, v := range raw[2:] {
-			if v != nil {
-				vals[i] = bytes.Clone(v)
-			}
+		if keep {
+			w.ahead[key] = cloneRow(raw[2:])
+		} else {
+			seen(key)
 		}
-		w.ahead[key] = vals
 	}
 	w.ended = got == 0
 	return rows.Err()
 }
 
-// fields returns the fact of the leaf's row (nil when the site has no such row).
-func (w *rowWindow) fields(ctx context.Context, tx pgx.Tx, id [16]byte, rev int) ([]logfmt.Field, error) {
+// row returns the raw values of the leaf's row (nil when the site has no
+// such row); w.fds describes them.
+func (w *rowWindow) row(ctx context.Context, tx pgx.Tx, id [16]byte, rev int) ([][]byte, error) {
 	key := rowKey{id, int32(rev)}
 	for {
 		if raw, ok := w.ahead[key]; ok {
 			delete(w.ahead, key)
-			f, err := factFromRaw(w.k, w.fds, raw, tx.Conn().TypeMap())
-			return f.Fields, err
+			return raw, nil
 		}
 		if w.ended || len(w.ahead) >= windowRows || len(w.byKey) >= windowRows {
 			break
 		}
-		if err := w.read(ctx, tx); err != nil {
+		if err := w.read(ctx, tx, true, nil); err != nil {
 			return nil, err
 		}
 	}
+	w.over = w.over || !w.ended
 	rows, err := tx.Query(ctx, w.lookup, w.site, id, rev)
 	if err != nil {
 		return nil, err
@@ -121,12 +121,54 @@ func (w *rowWindow) fields(ctx context.Context, tx pgx.Tx, id [16]byte, rev int)
 	if !rows.Next() {
 		return nil, rows.Err()
 	}
-	f, err := factFromRaw(w.k, rows.FieldDescriptions(), rows.RawValues(), tx.Conn().TypeMap())
-	if err != nil {
-		return nil, err
+	if w.fds == nil {
+		w.fds = slices.Clone(rows.FieldDescriptions())
 	}
-	if !w.ended {
+	raw := cloneRow(rows.RawValues())
+	if !w.ended && len(w.byKey) < windowRows {
 		w.byKey[key] = true // the storage-order read drops it when it passes
 	}
-	return f.Fields, rows.Err()
+	return raw, rows.Err()
+}
+
+// unclaimed holds the rows of one kind that no leaf claimed: every row of
+// the kind's table at the site with no leaf is among them.
+type unclaimed struct {
+	k    LeafKind
+	ids  []uuid.UUID
+	revs []int32
+}
+
+// unclaimedRows finishes the windows once every leaf is read: the rows left
+// ahead and the rows the storage-order read has not reached yet are the
+// ones no leaf claimed. A window that overflowed (a row read by key that the
+// read may not have passed, or more unclaimed rows than it holds) gives no
+// answer; its kind's rows are then checked against the log in one query.
+func unclaimedRows(ctx context.Context, tx pgx.Tx, streams []*leafStream) (map[string]*unclaimed, error) {
+	out := map[string]*unclaimed{}
+	for _, st := range streams {
+		w := st.rows
+		if w == nil || w.over {
+			continue
+		}
+		u := &unclaimed{k: w.k}
+		add := func(key rowKey) {
+			if len(u.ids) <= windowRows {
+				u.ids, u.revs = append(u.ids, key.id), append(u.revs, key.rev)
+			}
+		}
+		for key := range w.ahead {
+			add(key)
+		}
+		w.ahead = nil
+		for !w.ended && len(u.ids) <= windowRows {
+			if err := w.read(ctx, tx, false, add); err != nil {
+				return nil, err
+			}
+		}
+		if len(u.ids) <= windowRows && len(w.byKey) == 0 {
+			out[w.k.Kind] = u
+		}
+	}
+	return out, nil
 }

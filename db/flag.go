@@ -85,6 +85,28 @@ func (w *flagWriter) add(s *subject) {
 	if s.model != nil {
 		w.scratch = s.model.Evaluate(&s.obs, s.measuredMM, w.scratch)
 	}
+	w.queue(s)
+}
+
+// calibratedFlags is the SQL condition (on flags) that holds exactly for the
+// flags addCalibrated writes: those a change of the group's calibration can
+// change (the model's own, its not_checkable, and suspect units, which
+// compare with the model's prediction). TestCalibratedFlagsCondition checks
+// it against add.
+const calibratedFlags = `(kind IN ('model', 'suspect_units') OR (kind = 'not_checkable' AND variable = 'predicted_penetration_mm'))`
+
+// addCalibrated queues only the flags of s that depend on its model check
+// (calibratedFlags): what add would queue of them, in the same order.
+func (w *flagWriter) addCalibrated(s *subject) {
+	w.scratch = predict.SuspectUnits(s.sections, s.predicted, w.scratch[:0])
+	if s.model != nil {
+		w.scratch = s.model.Evaluate(&s.obs, s.measuredMM, w.scratch)
+	}
+	w.queue(s)
+}
+
+// queue turns the evaluated flags in w.scratch into rows of subject s.
+func (w *flagWriter) queue(s *subject) {
 	for _, f := range w.scratch {
 		if w.ranges.Stale != "" && (f.Kind == predict.FlagRange || f.Kind == predict.FlagNotCheckable) {
 			f.Detail += " (the ranges are stale: " + w.ranges.Stale + ")"

@@ -27,15 +27,18 @@ import (
 // pgEpoch is 2000-01-01 UTC, where PostgreSQL's binary dates and times count from.
 var pgEpoch = time.Date(2000, 1, 1, 0, 0, 0, 0, time.UTC)
 
-// canonicalRaw returns the canonical text of one non-NULL binary value, or
-// false when the type (or an infinite date or time) needs the general path.
+// canonicalRaw returns the canonical text of one non-NULL binary value (or
+// text value of a text type), or false when the type (or an infinite date or
+// time) needs the general path.
 func canonicalRaw(oid uint32, format int16, b []byte) (string, bool) {
+	switch oid {
+	case pgtype.TextOID, pgtype.VarcharOID, pgtype.NameOID, pgtype.BPCharOID:
+		return string(b), true // the text and binary formats of text are the same bytes (pgx asks for text)
+	}
 	if format != pgtype.BinaryFormatCode {
 		return "", false
 	}
 	switch oid {
-	case pgtype.TextOID, pgtype.VarcharOID, pgtype.NameOID, pgtype.BPCharOID:
-		return string(b), true
 	case pgtype.BoolOID:
 		if len(b) != 1 {
 			return "", false

@@ -19,7 +19,7 @@ import (
 // stored exactly as sent), so it encodes each leaf with factFrom, the one
 // function that encodes stored rows, over the table's own column
 // descriptions. Verification encodes the same facts again from the rows
-// (TestStreamLeavesMatchStoredRows).
+// (TestChunkLeavesOnePerRecord, and the tampering fixture's production batch).
 
 // productionShape caches the column descriptions of a production record
 // leaf's columns, as the database describes them.

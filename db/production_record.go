@@ -8,6 +8,7 @@ import (
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgtype"
 )
 
 // MaxProductionBatch caps how many production records one batch may hold.
@@ -90,6 +91,9 @@ type ChunkResult struct {
 
 // weldColumns are production_welds' columns in the order a write copies them.
 var weldColumns = []string{"site", "procedure_id", "weld_id", "record_id"}
+
+// weldTypes are the types of weldColumns (migration 000015).
+var weldTypes = []uint32{pgtype.TextOID, pgtype.UUIDOID, pgtype.TextOID, pgtype.UUIDOID}
 
 // flagBatch evaluates a new batch against each procedure's latest ranges,
 // writes the flags and attaches them to the records.

@@ -9,6 +9,8 @@ import (
 	"testing"
 	"time"
 
+	"github.com/jackc/pgx/v5"
+
 	"etchlog/db"
 	"etchlog/db/dbtest"
 )
@@ -159,5 +161,48 @@ func TestDetachProductionMonth(t *testing.T) {
 	v, err := s.VerifyLog(ctx, site, nil)
 	if err != nil || v.OK || !strings.Contains(strings.Join(v.Problems, "\n"), "missing from the database") {
 		t.Errorf("VerifyLog after dropping the month = %+v, %v; want the two facts missing", v, err)
+	}
+}
+
+// TestChunkLeavesOnePerRecord: a chunk leaves one pending entry naming its
+// records, and the sequencer gives each record a leaf of its own, in the
+// chunk's order, under the leaf hash its stored row encodes to; the log
+// verifies.
+func TestChunkLeavesOnePerRecord(t *testing.T) {
+	t.Parallel()
+	s, site := dbtest.Store(t), dbtest.Site(t)
+	a, ctx := actor(site), context.Background()
+	p := rangesProcedure(t, s, a)
+	rows := []db.ProductionRecordData{productionRow(p.ID, "L-1", 200), productionRow(p.ID, "L-2", 210), productionRow(p.ID, "L-3", 220)}
+	r, err := s.ProductionChunk(ctx, a, rows, lineOf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := s.AwaitLogged(ctx, site); err != nil {
+		t.Fatal(err)
+	}
+	conn := superuser(t)
+	q, _ := conn.Query(ctx, `SELECT r.weld_id, l.leaf_index, l.pending_seq FROM log_leaves l
+		JOIN production_records r ON r.site = l.site AND r.id = l.record_id
+		WHERE l.site = $1 AND l.kind = 'production_record' AND r.batch_id = $2 ORDER BY l.leaf_index`, site, r.BatchID)
+	type leaf struct {
+		weld       string
+		index, seq int64
+	}
+	var got []leaf
+	var l leaf
+	if _, err := pgx.ForEachRow(q, []any{&l.weld, &l.index, &l.seq}, func() error { got = append(got, l); return nil }); err != nil {
+		t.Fatal(err)
+	}
+	if len(got) != 3 {
+		t.Fatalf("leaves of the chunk = %+v, want one per record (3)", got)
+	}
+	for i, g := range got {
+		if g.weld != rows[i].WeldID || g.index != got[0].index+int64(i) || g.seq != got[0].seq {
+			t.Errorf("leaf %d = %+v, want weld %s at index %d from one pending entry", i, g, rows[i].WeldID, got[0].index+int64(i))
+		}
+	}
+	if v, err := s.VerifyLog(ctx, site, nil); err != nil || !v.OK {
+		t.Fatalf("VerifyLog = %+v, %v; want ok", v, err)
 	}
 }

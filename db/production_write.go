@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"slices"
 	"time"
 
 	"github.com/google/uuid"
@@ -21,9 +22,9 @@ type PreparedChunk struct {
 	batch    uuid.UUID
 	now      time.Time
 	out      []ProductionRecord
-	rows     [][]any
-	welds    [][]any
-	pending  [][]any
+	rows     *copyRows   // the records, laid out for COPY
+	welds    *copyRows   // one weld claim per record
+	leaves   *ManyLeaves // one pending entry naming every record's leaf
 	procs    []uuid.UUID
 	firstRow map[uuid.UUID]int
 }
@@ -47,10 +48,6 @@ func (s *Store) PrepareProductionChunk(ctx context.Context, a Actor, recs []Prod
 		}
 		first[weldKey{r.ProcedureID, r.WeldID}] = i
 	}
-	key := s.logKey()
-	if key == nil {
-		return nil, ErrNoLogKey
-	}
 	k, err := leafKind("production_record", 0)
 	if err != nil {
 		return nil, err
@@ -64,8 +61,9 @@ func (s *Store) PrepareProductionChunk(ctx context.Context, a Actor, recs []Prod
 		return nil, err
 	}
 	p := &PreparedChunk{actor: a, recs: recs, row: row, now: s.now(), firstRow: map[uuid.UUID]int{},
-		out: make([]ProductionRecord, len(recs)), rows: make([][]any, len(recs)), welds: make([][]any, len(recs)),
-		pending: make([][]any, len(recs))}
+		out: make([]ProductionRecord, len(recs))}
+	rows, welds := make([][]any, len(recs)), make([][]any, len(recs))
+	ids, hashes := make([]uuid.UUID, len(recs)), make([][]byte, len(recs))
 	if p.batch, err = uuid.NewV7(); err != nil {
 		return nil, err
 	}
@@ -76,18 +74,37 @@ func (s *Store) PrepareProductionChunk(ctx context.Context, a Actor, recs []Prod
 		}
 		r.RecordedAt = r.RecordedAt.UTC().Truncate(time.Microsecond)
 		p.out[i] = ProductionRecord{Site: a.Site, ID: id, BatchID: p.batch, CreatedAt: p.now, CreatedBy: a.Name, ProductionRecordData: r, Flags: []Flag{}}
-		p.rows[i] = append([]any{a.Site, id, p.batch, p.now, a.Name}, recordValues(r)...)
-		p.welds[i] = []any{a.Site, r.ProcedureID, r.WeldID, id}
-		f, err := productionFact(k, fds, at, p.rows[i])
+		rows[i] = append([]any{a.Site, id, p.batch, p.now, a.Name}, recordValues(r)...)
+		welds[i] = []any{a.Site, r.ProcedureID, r.WeldID, id}
+		f, err := productionFact(k, fds, at, rows[i])
 		if err != nil {
 			return nil, err
 		}
-		h := f.LeafHash()
-		p.pending[i] = []any{a.Site, k.Kind, k.Version, id, 1, h, key.Tag(a.Site, h), a.Name, "create", "", p.now}
+		ids[i], hashes[i] = id, f.LeafHash()
 		if _, ok := p.firstRow[r.ProcedureID]; !ok {
 			p.firstRow[r.ProcedureID] = i
 			p.procs = append(p.procs, r.ProcedureID)
 		}
+	}
+	// The rows leave as encoded here, typed as the table describes its columns.
+	oids := make([]uint32, len(productionColumns))
+	for i := range oids {
+		j := slices.Index(at, i)
+		if j < 0 {
+			return nil, fmt.Errorf("db: production record column %s is not in its leaf", productionColumns[i])
+		}
+		oids[i] = fds[j].DataTypeOID
+	}
+	if p.rows, err = encodeCopyRows("production_records", productionColumns, oids, rows); err != nil {
+		return nil, err
+	}
+	if p.welds, err = encodeCopyRows("production_welds", weldColumns, weldTypes, welds); err != nil {
+		return nil, err
+	}
+	// The entry is named by the batch: one batch, one entry.
+	e := LeafEntry{Site: a.Site, ID: p.batch, Actor: a.Name, Action: "create", At: p.now}
+	if p.leaves, err = s.newManyLeaves(k, e, 1, ids, hashes); err != nil {
+		return nil, err
 	}
 	return p, nil
 }
@@ -109,8 +126,8 @@ func (s *Store) StoreProductionChunk(ctx context.Context, p *PreparedChunk) (Chu
 
 // storeProduction is the one write of production records: a batch row and
 // its leaf, the records (COPY), one weld claim per record (COPY into
-// production_welds, whose key refuses a weld logged before), the records'
-// prepared leaves (COPY into log_pending), and the flags, evaluated in one
+// production_welds, whose key refuses a weld logged before), one pending
+// entry naming the records' prepared leaves (appendMany), and the flags, evaluated in one
 // pass over the rows per procedure's ranges.
 func (s *Store) storeProduction(ctx context.Context, p *PreparedChunk) error {
 	err := s.storeProductionOnce(ctx, p)
@@ -150,17 +167,17 @@ func (s *Store) storeProductionOnce(ctx context.Context, p *PreparedChunk) error
 		if err := s.AppendLeaf(ctx, tx, entry); err != nil {
 			return err
 		}
-		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"production_records"}, productionColumns, pgx.CopyFromRows(p.rows)); err != nil {
+		if err := copyIn(ctx, tx, p.rows); err != nil {
 			if noPartition(err) {
 				return errMonthGone
 			}
 			return mapError(err)
 		}
-		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"production_welds"}, weldColumns, pgx.CopyFromRows(p.welds)); err != nil {
+		if err := copyIn(ctx, tx, p.welds); err != nil {
 			return mapError(err)
 		}
-		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"log_pending"}, pendingColumnList, pgx.CopyFromRows(p.pending)); err != nil {
-			return mapError(err)
+		if err := appendMany(ctx, tx, p.leaves); err != nil {
+			return err
 		}
 		for i := range p.out {
 			p.out[i].Flags = []Flag{}

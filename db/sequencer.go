@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgtype"
 	"github.com/transparency-dev/merkle/compact"
 
 	"etchlog/db/logfmt"
@@ -132,59 +133,77 @@ func (s *Store) integratePass(ctx context.Context, conn *pgx.Conn, batch int) (b
 	}
 	full := false
 	for _, site := range sites {
-		n, err := s.integrate(ctx, conn, site, batch)
+		more, err := s.integrate(ctx, conn, site, batch)
 		if err != nil {
 			return false, fmt.Errorf("site %q: %w", site, err)
 		}
-		full = full || n == batch
+		full = full || more
 	}
 	return full, nil
 }
 
 // pendingLeaf is one row of log_pending.
 type pendingLeaf struct {
-	Seq      int64     `db:"seq"`
-	Kind     string    `db:"kind"`
-	Version  int       `db:"version"`
-	RecordID [16]byte  `db:"record_id"`
-	Revision int       `db:"revision"`
-	LeafHash []byte    `db:"leaf_hash"`
-	Tag      []byte    `db:"tag"`
-	Actor    string    `db:"actor"`
-	Action   string    `db:"action"`
-	Reason   string    `db:"reason"`
-	At       time.Time `db:"at"`
+	Seq      int64    `db:"seq"`
+	Kind     string   `db:"kind"`
+	Version  int      `db:"version"`
+	RecordID [16]byte `db:"record_id"`
+	Revision int      `db:"revision"`
+	LeafHash []byte   `db:"leaf_hash"`
+	Tag      []byte   `db:"tag"`
+	// A pending entry of many leaves (log_many.go): the rows it names, in
+	// order, and their leaf hashes, 32 bytes each; nil for one leaf.
+	RecordIDs  [][16]byte `db:"record_ids"`
+	LeafHashes []byte     `db:"leaf_hashes"`
+	Actor      string     `db:"actor"`
+	Action     string     `db:"action"`
+	Reason     string     `db:"reason"`
+	At         time.Time  `db:"at"`
 }
 
-// integrate moves up to batch committed pending leaves of one site into its
-// tree, in one transaction with the new nodes and a signed checkpoint.
-func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batch int) (int, error) {
+// integrate moves committed pending leaves of one site into its tree, in
+// one transaction with the new nodes and a signed checkpoint: up to batch
+// pending rows, and no more than batch leaves unless the first row alone (a
+// pending entry of many) names more. It reports whether more were waiting.
+func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batch int) (bool, error) {
 	key := s.logKey()
 	if key == nil {
-		return 0, ErrNoLogKey
+		return false, ErrNoLogKey
 	}
 	tx, err := conn.Begin(ctx)
 	if err != nil {
-		return 0, err
+		return false, err
 	}
 	defer tx.Rollback(ctx) //nolint:errcheck // no-op after Commit
 	size, rng, err := latestRange(ctx, tx, site)
 	if err != nil {
-		return 0, err
+		return false, err
 	}
-	rows, _ := tx.Query(ctx, `SELECT seq, kind, version, record_id, revision, leaf_hash, tag, actor, action, reason, at
-		FROM log_pending WHERE site = $1 ORDER BY seq LIMIT $2`, site, batch)
+	// Rows in order while the leaves before them number under batch: a
+	// pending entry of many is read whole only when it will be taken (its
+	// count is read from the stored length of its hashes, without reading them).
+	rows, _ := tx.Query(ctx, `SELECT p.seq, p.kind, p.version, p.record_id, p.revision, p.leaf_hash, p.tag, p.actor, p.action,
+		p.reason, p.at, p.record_ids, p.leaf_hashes
+		FROM (SELECT seq, sum(coalesce(length(leaf_hashes) / 32, 1)) OVER (ORDER BY seq) - coalesce(length(leaf_hashes) / 32, 1) AS before
+			FROM log_pending WHERE site = $1 ORDER BY seq LIMIT $2) c
+		JOIN log_pending p ON p.site = $1 AND p.seq = c.seq
+		WHERE c.before < $2 ORDER BY p.seq`, site, batch)
 	pend, err := pgx.CollectRows(rows, pgx.RowToStructByName[pendingLeaf])
 	if err != nil || len(pend) == 0 {
-		return 0, err
+		return false, err
 	}
+	var waiting bool // rows past those read
+	if err := tx.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM log_pending WHERE site = $1 AND seq > $2)`, site, pend[len(pend)-1].Seq).Scan(&waiting); err != nil {
+		return false, err
+	}
+	more := waiting
 	// Rows stored before the log existed enter it without a hash, once: only
 	// below the migration's horizon and above every sequence already logged.
 	var horizon, lastSeq int64
 	if slices.ContainsFunc(pend, func(p pendingLeaf) bool { return p.LeafHash == nil }) {
 		if err := tx.QueryRow(ctx, `SELECT (SELECT coalesce(max(horizon), 0) FROM log_backfill),
 			(SELECT coalesce(max(pending_seq), 0) FROM log_leaves WHERE site = $1)`, site).Scan(&horizon, &lastSeq); err != nil {
-			return 0, err
+			return false, err
 		}
 	}
 	now := s.now()
@@ -195,6 +214,31 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 		nodes = append(nodes, []any{site, int16(id.Level), int64(id.Index), hash})
 	}
 	for _, p := range pend {
+		if p.RecordIDs != nil { // a pending entry of many leaves, each row its own leaf
+			if len(leaves) > 0 && len(leaves)+len(p.RecordIDs) > batch {
+				more = true // left for the next transaction
+				break
+			}
+			seqs = append(seqs, p.Seq)
+			if why := manyRefusal(s, site, p); why != "" {
+				rejected = append(rejected, []any{p.Seq, site, p.Kind, p.RecordID, p.Revision, why, now})
+				continue
+			}
+			for i, id := range p.RecordIDs {
+				h := p.LeafHashes[32*i : 32*i+32]
+				idx := size + uint64(len(leaves))
+				leaves = append(leaves, []any{site, int64(idx), p.Kind, p.Version, id, p.Revision, h, p.Actor, p.Action, p.Reason, p.At, now, p.Seq})
+				listed.add(p.Kind, id)
+				if err := rng.Append(h, visit); err != nil {
+					return false, err
+				}
+			}
+			continue
+		}
+		if len(leaves) >= batch {
+			more = true
+			break
+		}
 		seqs = append(seqs, p.Seq)
 		why := ""
 		switch {
@@ -215,48 +259,70 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 		leaves = append(leaves, []any{site, int64(idx), p.Kind, p.Version, p.RecordID, p.Revision, p.LeafHash, p.Actor, p.Action, p.Reason, p.At, now, p.Seq})
 		listed.add(p.Kind, p.RecordID)
 		if err := rng.Append(p.LeafHash, visit); err != nil {
-			return 0, err
+			return false, err
 		}
 	}
+	// Leaves and nodes leave in the binary COPY format, encoded here in one
+	// pass (a large pending entry makes thousands of each).
 	for _, c := range []struct {
 		table string
 		cols  []string
+		types []uint32
 		rows  [][]any
 	}{
-		{"log_leaves", []string{"site", "leaf_index", "kind", "version", "record_id", "revision", "leaf_hash",
-			"actor", "action", "reason", "at", "integrated_at", "pending_seq"}, leaves},
-		{"log_nodes", []string{"site", "tree_level", "tree_index", "hash"}, nodes},
-		{"log_rejected", []string{"seq", "site", "kind", "record_id", "revision", "why", "rejected_at"}, rejected},
+		{"log_leaves", leafColumns, leafTypes, leaves},
+		{"log_nodes", nodeColumns, nodeTypes, nodes},
 	} {
 		if len(c.rows) == 0 {
 			continue
 		}
-		if _, err := tx.CopyFrom(ctx, pgx.Identifier{c.table}, c.cols, pgx.CopyFromRows(c.rows)); err != nil {
-			return 0, fmt.Errorf("%s: %w", c.table, err)
+		data, err := encodeCopyRows(c.table, c.cols, c.types, c.rows)
+		if err == nil {
+			err = copyIn(ctx, tx, data)
+		}
+		if err != nil {
+			return false, fmt.Errorf("%s: %w", c.table, err)
+		}
+	}
+	if len(rejected) > 0 {
+		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"log_rejected"}, []string{"seq", "site", "kind", "record_id", "revision", "why", "rejected_at"},
+			pgx.CopyFromRows(rejected)); err != nil {
+			return false, fmt.Errorf("log_rejected: %w", err)
 		}
 	}
 	if _, err := tx.Exec(ctx, `DELETE FROM log_pending WHERE site = $1 AND seq = ANY($2)`, site, seqs); err != nil {
-		return 0, err
+		return false, err
 	}
 	if err := listed.refresh(ctx, tx, site); err != nil {
-		return 0, fmt.Errorf("coupon_list: %w", err)
+		return false, fmt.Errorf("coupon_list: %w", err)
 	}
 	if len(leaves) > 0 {
 		root, err := rng.GetRootHash(nil)
 		if err != nil {
-			return 0, err
+			return false, err
 		}
 		note, err := logfmt.SignCheckpoint(key, site, rng.End(), root)
 		if err != nil {
-			return 0, err
+			return false, err
 		}
 		if _, err := tx.Exec(ctx, `INSERT INTO log_checkpoints (site, size, root, range_hashes, note, created_at)
 			VALUES ($1, $2, $3, $4, $5, $6)`, site, int64(rng.End()), root, rng.Hashes(), note, now); err != nil {
-			return 0, err
+			return false, err
 		}
 	}
-	return len(pend), tx.Commit(ctx)
+	return more, tx.Commit(ctx)
 }
+
+// The columns the sequencer copies into log_leaves and log_nodes, and their
+// types (migration 000009).
+var (
+	leafColumns = []string{"site", "leaf_index", "kind", "version", "record_id", "revision", "leaf_hash",
+		"actor", "action", "reason", "at", "integrated_at", "pending_seq"}
+	leafTypes = []uint32{pgtype.TextOID, pgtype.Int8OID, pgtype.TextOID, pgtype.Int4OID, pgtype.UUIDOID, pgtype.Int4OID,
+		pgtype.ByteaOID, pgtype.TextOID, pgtype.TextOID, pgtype.TextOID, pgtype.TimestamptzOID, pgtype.TimestamptzOID, pgtype.Int8OID}
+	nodeColumns = []string{"site", "tree_level", "tree_index", "hash"}
+	nodeTypes   = []uint32{pgtype.TextOID, pgtype.Int2OID, pgtype.Int8OID, pgtype.ByteaOID}
+)
 
 var rangeFactory = &compact.RangeFactory{Hash: logfmt.HashChildren}
 

@@ -133,6 +133,9 @@ func revisionLeafHash(ctx context.Context, tx pgx.Tx, site, kind string, id uuid
 		SELECT leaf_hash, version FROM log_leaves WHERE site = $1 AND kind = $2 AND record_id = $3 AND revision = $4
 		UNION ALL
 		SELECT leaf_hash, version FROM log_pending WHERE site = $1 AND kind = $2 AND record_id = $3 AND revision = $4
+		UNION ALL
+		SELECT substring(leaf_hashes FROM 32 * (array_position(record_ids, $3::uuid) - 1) + 1 FOR 32), version
+		FROM log_pending WHERE site = $1 AND kind = $2 AND revision = $4 AND $3::uuid = ANY (record_ids)
 		LIMIT 1`, site, kind, id, rev).Scan(&h, &version)
 	switch {
 	case errors.Is(err, pgx.ErrNoRows):

@@ -14,6 +14,22 @@ import (
 // scans the current row into a T. pgx.RowToStructByName finds the fields
 // again for every row, which an export of a million rows feels.
 func structScanner[T any](fds []pgconn.FieldDescription) (func(pgx.Rows, *T) error, error) {
+	cols, err := structPaths[T](fds)
+	if err != nil {
+		return nil, err
+	}
+	dst := make([]any, len(fds))
+	return func(rows pgx.Rows, v *T) error {
+		rv := reflect.ValueOf(v).Elem()
+		for i, p := range cols {
+			dst[i] = rv.FieldByIndex(p).Addr().Interface()
+		}
+		return rows.Scan(dst...)
+	}, nil
+}
+
+// structPaths maps each column of a result to the index path of its field in T.
+func structPaths[T any](fds []pgconn.FieldDescription) ([][]int, error) {
 	paths := map[string][]int{}
 	var walk func(t reflect.Type, prefix []int)
 	walk = func(t reflect.Type, prefix []int) {
@@ -45,12 +61,5 @@ func structScanner[T any](fds []pgconn.FieldDescription) (func(pgx.Rows, *T) err
 		}
 		cols[i] = p
 	}
-	dst := make([]any, len(fds))
-	return func(rows pgx.Rows, v *T) error {
-		rv := reflect.ValueOf(v).Elem()
-		for i, p := range cols {
-			dst[i] = rv.FieldByIndex(p).Addr().Interface()
-		}
-		return rows.Scan(dst...)
-	}, nil
+	return cols, nil
 }

@@ -9,6 +9,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 	"github.com/transparency-dev/merkle/compact"
 
@@ -264,6 +265,22 @@ func TestTamperingIsDetected(t *testing.T) {
 				f.site, f.coupon.ID, fact.LeafHash(), bytes.Repeat([]byte{7}, 32)))
 			mustLogged(t, s, f.site)
 			return []string{fmt.Sprintf("coupon %s revision 3: stored but not in the log (refused by the sequencer", f.coupon.ID)}
+		}},
+		{name: "ForgeManyEntry", tamper: func(t *testing.T, f tamperFixture) []string {
+			// A production record added by INSERT, with a pending entry of
+			// many leaves naming it under its true leaf hash but a made-up tag.
+			id := uuid.New()
+			run(t, conn, fmt.Sprintf(`INSERT INTO production_records SELECT (jsonb_populate_record(r, '{"id": "%s", "weld_id": "W9"}')).*
+				FROM production_records r WHERE id = '%s'`, id, f.prod[0].ID))
+			fact, err := s.Fact(ctx, "production_record", f.site, id, 1)
+			if err != nil {
+				t.Fatal(err)
+			}
+			run(t, conn, fmt.Sprintf(`INSERT INTO log_pending (site, kind, version, record_id, revision, leaf_hash, tag, actor, action, reason, at, record_ids, leaf_hashes)
+				VALUES ('%s', 'production_record', 1, '%s', 1, decode('%x', 'hex'), decode('%x', 'hex'), 'oskar.engineer', 'create', '', now(), ARRAY['%s']::uuid[], decode('%x', 'hex'))`,
+				f.site, uuid.New(), bytes.Repeat([]byte{5}, 32), bytes.Repeat([]byte{7}, 32), id, fact.LeafHash()))
+			mustLogged(t, s, f.site)
+			return []string{fmt.Sprintf("production_record %s revision 1: stored but not in the log (no leaf in the log)", id)}
 		}},
 	} {
 		t.Run(c.name, func(t *testing.T) {

@@ -69,6 +69,23 @@ func (s *Signer) TagOK(site string, leafHash, tag []byte) bool {
 	return hmac.Equal(tag, s.Tag(site, leafHash))
 }
 
+// TagMany authenticates a pending entry that names many leaves at once by
+// its digest: HMAC-SHA-256 over the site, a marker and the digest, so that
+// no such tag is ever the tag of a single leaf hash (Tag's input after the
+// site is the 32-byte hash alone).
+func (s *Signer) TagMany(site string, digest []byte) []byte {
+	h := hmac.New(sha256.New, s.mac)
+	h.Write([]byte(site))
+	h.Write([]byte("\x00many\x00"))
+	h.Write(digest)
+	return h.Sum(nil)
+}
+
+// TagManyOK reports whether tag is the signer's tag of a pending entry's digest.
+func (s *Signer) TagManyOK(site string, digest, tag []byte) bool {
+	return hmac.Equal(tag, s.TagMany(site, digest))
+}
+
 // verifierKeyOf derives "name+hash+data" from "PRIVATE+KEY+name+hash+data":
 // the data is an algorithm byte (1: Ed25519) and the 32-byte seed.
 func verifierKeyOf(skey string) (string, error) {

@@ -1,0 +1,164 @@
+package db
+
+import (
+	"bytes"
+	"context"
+	"encoding/binary"
+	"fmt"
+	"math"
+	"strings"
+	"time"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgtype"
+)
+
+// A large write lays its rows out in PostgreSQL's binary COPY format while
+// it prepares them, outside its transaction, so that inside the transaction
+// the rows only travel: a stream encodes chunk N+1 while chunk N is copied.
+// copyRows knows the few column types those rows hold.
+
+// copyRows is rows of one table in the binary COPY format (header, tuples,
+// trailer), ready to send.
+type copyRows struct {
+	table string
+	cols  []string
+	data  []byte
+	n     int
+}
+
+// pgEpochMicro is the origin of PostgreSQL's binary timestamps (pgEpoch) in Unix microseconds.
+var pgEpochMicro = pgEpoch.UnixMicro()
+
+// encodeCopyRows lays rows out for COPY ... FROM STDIN BINARY into table's
+// cols; oids[i] is the type of column i (text, uuid, timestamptz, float8,
+// int2, int4, int8, bytea),
+// checked against each value's Go type (integers also against its range;
+// bytea takes []byte). A time is sent at microseconds,
+// truncated, as pgx sends it; a nil *float64 is NULL.
+func encodeCopyRows(table string, cols []string, oids []uint32, rows [][]any) (*copyRows, error) {
+	var b bytes.Buffer
+	b.Grow(len(rows) * len(cols) * 16)
+	b.WriteString("PGCOPY\n\xff\r\n\x00")
+	b.Write([]byte{0, 0, 0, 0, 0, 0, 0, 0}) // flags, header extension length
+	var w [8]byte
+	for _, row := range rows {
+		if len(row) != len(cols) {
+			return nil, fmt.Errorf("db: copy into %s: a row of %d values for %d columns", table, len(row), len(cols))
+		}
+		binary.BigEndian.PutUint16(w[:2], uint16(len(cols)))
+		b.Write(w[:2])
+		for i, v := range row {
+			if err := appendCopyValue(&b, oids[i], v); err != nil {
+				return nil, fmt.Errorf("db: copy into %s, column %s: %w", table, cols[i], err)
+			}
+		}
+	}
+	b.Write([]byte{0xff, 0xff})
+	return &copyRows{table: table, cols: cols, data: b.Bytes(), n: len(rows)}, nil
+}
+
+// appendCopyValue appends one field: its length, then its bytes.
+func appendCopyValue(b *bytes.Buffer, oid uint32, v any) error {
+	var w [8]byte
+	field := func(p []byte) {
+		binary.BigEndian.PutUint32(w[:4], uint32(len(p)))
+		b.Write(w[:4])
+		b.Write(p)
+	}
+	switch x := v.(type) {
+	case nil:
+		b.Write([]byte{0xff, 0xff, 0xff, 0xff})
+		return nil
+	case *float64:
+		if x == nil {
+			b.Write([]byte{0xff, 0xff, 0xff, 0xff})
+			return nil
+		}
+		v = *x
+	}
+	switch x := v.(type) {
+	case string:
+		if oid == pgtype.TextOID {
+			binary.BigEndian.PutUint32(w[:4], uint32(len(x)))
+			b.Write(w[:4])
+			b.WriteString(x)
+			return nil
+		}
+	case uuid.UUID:
+		if oid == pgtype.UUIDOID {
+			field(x[:])
+			return nil
+		}
+	case [16]byte:
+		if oid == pgtype.UUIDOID {
+			field(x[:])
+			return nil
+		}
+	case []byte:
+		if oid == pgtype.ByteaOID {
+			field(x)
+			return nil
+		}
+	case int:
+		return appendCopyInt(b, oid, int64(x))
+	case int16:
+		return appendCopyInt(b, oid, int64(x))
+	case int64:
+		return appendCopyInt(b, oid, x)
+	case float64:
+		if oid == pgtype.Float8OID {
+			var p [8]byte
+			binary.BigEndian.PutUint64(p[:], math.Float64bits(x))
+			field(p[:])
+			return nil
+		}
+	case time.Time:
+		if oid == pgtype.TimestamptzOID {
+			var p [8]byte
+			us := x.Unix()*1_000_000 + int64(x.Nanosecond())/1000 - pgEpochMicro
+			binary.BigEndian.PutUint64(p[:], uint64(us))
+			field(p[:])
+			return nil
+		}
+	}
+	return fmt.Errorf("a %T for a column of type %d", v, oid)
+}
+
+// appendCopyInt appends an integer as the column's integer type, which must hold it.
+func appendCopyInt(b *bytes.Buffer, oid uint32, x int64) error {
+	var w [12]byte
+	switch {
+	case oid == pgtype.Int2OID && x >= math.MinInt16 && x <= math.MaxInt16:
+		binary.BigEndian.PutUint32(w[:4], 2)
+		binary.BigEndian.PutUint16(w[4:], uint16(x))
+		b.Write(w[:6])
+	case oid == pgtype.Int4OID && x >= math.MinInt32 && x <= math.MaxInt32:
+		binary.BigEndian.PutUint32(w[:4], 4)
+		binary.BigEndian.PutUint32(w[4:], uint32(x))
+		b.Write(w[:8])
+	case oid == pgtype.Int8OID:
+		binary.BigEndian.PutUint32(w[:4], 8)
+		binary.BigEndian.PutUint64(w[4:], uint64(x))
+		b.Write(w[:12])
+	default:
+		return fmt.Errorf("the integer %d for a column of type %d", x, oid)
+	}
+	return nil
+}
+
+// copyIn sends prepared rows inside the write transaction tx.
+func copyIn(ctx context.Context, tx pgx.Tx, c *copyRows) error {
+	if t, ok := tx.(*pipeTx); ok {
+		if err := t.begun(ctx); err != nil {
+			return err
+		}
+	}
+	sql := "COPY " + pgx.Identifier{c.table}.Sanitize() + " (" + strings.Join(c.cols, ", ") + ") FROM STDIN BINARY"
+	tag, err := tx.Conn().PgConn().CopyFrom(ctx, bytes.NewReader(c.data), sql)
+	if err == nil && tag.RowsAffected() != int64(c.n) {
+		err = fmt.Errorf("db: copy into %s: %d rows of %d", c.table, tag.RowsAffected(), c.n)
+	}
+	return err
+}
