@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
 
 	"etchlog/db"
 )
@@ -31,29 +32,7 @@ func BenchmarkRecordListScale(b *testing.B) {
 	ctx := context.Background()
 	dbURL, conn, proc := benchSite(b, n)
 	const site = "bench"
-	for _, q := range []string{
-		"SET session_replication_role = replica", // the seed's rows are unique by construction
-		`INSERT INTO measurements (site, id, revision, created_at, created_by, coupon_id, section, penetration_mm,
-			bead_width_mm, reinforcement_mm, acceptance, inspector)
-		SELECT site, md5('section' || leaf_index)::uuid, 1, now(), 'bench', record_id, 'A', 2, 8, 1,
-			CASE WHEN leaf_index % 20 = 0 THEN 'reject' ELSE 'accept' END, 'QC'
-		FROM log_leaves WHERE site = 'bench' AND kind = 'coupon' AND leaf_index % 2 = 0`,
-		`INSERT INTO log_leaves (site, leaf_index, kind, version, record_id, revision, leaf_hash, actor, action, at, integrated_at, pending_seq)
-		SELECT 'bench', ` + strconv.Itoa(n) + ` + g.i - 1, 'measurement', 1, g.id, 1, sha256(g.id::text::bytea), 'bench', 'create', now(), now(), ` +
-			strconv.Itoa(n) + ` + g.i
-		FROM (SELECT id, row_number() OVER (ORDER BY created_at, coupon_id) AS i FROM measurements WHERE site = 'bench') g`,
-		`INSERT INTO flags (site, subject_kind, subject_id, subject_at, procedure_id, ranges_version, kind, variable, detail, computed_at)
-		SELECT c.site, 'coupon', c.id, c.welded_on, c.procedure_id, 1, (ARRAY['range','model','not_checkable'])[1 + l.leaf_index / 3 % 3],
-			(ARRAY['current_a','voltage_v','travel_speed_mm_s','thickness_mm'])[1 + l.leaf_index / 3 % 4], 'seeded', now()
-		FROM log_leaves l JOIN coupons c ON c.site = l.site AND c.id = l.record_id
-		WHERE l.site = 'bench' AND l.kind = 'coupon' AND l.leaf_index % 3 = 0`,
-		"SET session_replication_role = origin",
-		"VACUUM ANALYZE measurements", "VACUUM ANALYZE log_leaves", "VACUUM ANALYZE flags",
-	} {
-		if _, err := conn.Exec(ctx, q); err != nil {
-			b.Fatalf("%v\n%s", err, q)
-		}
-	}
+	seedSectionsAndFlags(ctx, b, conn, n)
 	s, _ := tracedStore(b, dbURL)
 	var sectionCols string
 	if err := s.Pool().QueryRow(ctx, `SELECT string_agg(column_name, ', ' ORDER BY ordinal_position)
@@ -74,7 +53,7 @@ func BenchmarkRecordListScale(b *testing.B) {
 		b.Fatal(err)
 	}
 	deepFlags := db.EncodeCursor("flags", dSubject.String(), dVariable, dKind)
-	p := proc(7)
+	p := proc(9)                    // flagged coupons (every third) use procedures 0, 3, 6, 9, ...: 13i mod 60 = 9 for i = 33
 	day := func(i int) *time.Time { // the welding day benchSite gives coupon i
 		d := time.Date(2019, 1, 1, 0, 0, 0, 0, time.UTC).AddDate(0, 0, i*2500/n)
 		return &d
@@ -186,4 +165,34 @@ func sideBySide(b *testing.B, name string, store, raw func() error) {
 		b.ReportMetric(float64(b.N)/dr.Seconds(), "raw-pages/s")
 		b.ReportMetric(dr.Seconds()/ds.Seconds(), "x-of-raw")
 	})
+}
+
+// seedSectionsAndFlags adds to benchSite's n coupons a section on every
+// second coupon (every tenth of them rejected), logged after the coupons,
+// and a flag on every third coupon, then analyzes the tables.
+func seedSectionsAndFlags(ctx context.Context, tb testing.TB, conn *pgx.Conn, n int) {
+	tb.Helper()
+	for _, q := range []string{
+		"SET session_replication_role = replica", // the seed's rows are unique by construction
+		`INSERT INTO measurements (site, id, revision, created_at, created_by, coupon_id, section, penetration_mm,
+			bead_width_mm, reinforcement_mm, acceptance, inspector)
+		SELECT site, md5('section' || leaf_index)::uuid, 1, now(), 'bench', record_id, 'A', 2, 8, 1,
+			CASE WHEN leaf_index % 20 = 0 THEN 'reject' ELSE 'accept' END, 'QC'
+		FROM log_leaves WHERE site = 'bench' AND kind = 'coupon' AND leaf_index % 2 = 0`,
+		`INSERT INTO log_leaves (site, leaf_index, kind, version, record_id, revision, leaf_hash, actor, action, at, integrated_at, pending_seq)
+		SELECT 'bench', ` + strconv.Itoa(n) + ` + g.i - 1, 'measurement', 1, g.id, 1, sha256(g.id::text::bytea), 'bench', 'create', now(), now(), ` +
+			strconv.Itoa(n) + ` + g.i
+		FROM (SELECT id, row_number() OVER (ORDER BY created_at, coupon_id) AS i FROM measurements WHERE site = 'bench') g`,
+		`INSERT INTO flags (site, subject_kind, subject_id, subject_at, procedure_id, ranges_version, kind, variable, detail, computed_at)
+		SELECT c.site, 'coupon', c.id, c.welded_on, c.procedure_id, 1, (ARRAY['range','model','not_checkable'])[1 + l.leaf_index / 3 % 3],
+			(ARRAY['current_a','voltage_v','travel_speed_mm_s','thickness_mm'])[1 + l.leaf_index / 3 % 4], 'seeded', now()
+		FROM log_leaves l JOIN coupons c ON c.site = l.site AND c.id = l.record_id
+		WHERE l.site = 'bench' AND l.kind = 'coupon' AND l.leaf_index % 3 = 0`,
+		"SET session_replication_role = origin",
+		"VACUUM ANALYZE measurements", "VACUUM ANALYZE log_leaves", "VACUUM ANALYZE flags",
+	} {
+		if _, err := conn.Exec(ctx, q); err != nil {
+			tb.Fatalf("%v\n%s", err, q)
+		}
+	}
 }

@@ -121,7 +121,8 @@ func groupForFlags(t *testing.T, s *db.Store, site string) (db.Procedure, []stor
 }
 
 // TestActivationFlagsMatchPerCoupon activates, replaces and deactivates a
-// calibration of a group and checks after each step that the set-based
+// calibration of a group (and activates and deactivates a melting
+// calibration beside it) and checks after each step that the set-based
 // recomputation left exactly the flags the per-coupon code writes.
 func TestActivationFlagsMatchPerCoupon(t *testing.T) {
 	t.Parallel()
@@ -157,10 +158,25 @@ func TestActivationFlagsMatchPerCoupon(t *testing.T) {
 		t.Fatal(err)
 	}
 	sameAsPerCoupon(t, s, site, "after activating jackson_fixed in its place")
+	// A melting calibration of the same group: its own chart, no coupon's model flags.
+	ms := spec(db.CalibrationLesnewich)
+	ms.ArcLengthMM = ptr(3.5)
+	melt, err := s.CreateCalibration(ctx, a, ms)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := s.ActivateCalibration(ctx, a, melt.ID, "melting rate"); err != nil {
+		t.Fatal(err)
+	}
+	sameAsPerCoupon(t, s, site, "after activating lesnewich beside jackson_fixed")
 	if _, err := s.DeactivateCalibration(ctx, a, fixed.ID, "withdrawn"); err != nil {
 		t.Fatal(err)
 	}
-	sameAsPerCoupon(t, s, site, "after deactivating")
+	sameAsPerCoupon(t, s, site, "after deactivating jackson_fixed")
+	if _, err := s.DeactivateCalibration(ctx, a, melt.ID, "withdrawn"); err != nil {
+		t.Fatal(err)
+	}
+	sameAsPerCoupon(t, s, site, "after deactivating lesnewich")
 }
 
 // TestActivationDoesNotBlockWriters pauses an activation after it has

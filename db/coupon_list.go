@@ -198,26 +198,12 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas, polarity FROM qualification_records
 			WHERE site = $1 AND id = k.qualification_record_id ORDER BY revision DESC LIMIT 1) r ON true
 		ORDER BY k.leaf_index`
-	// A page shows every write acknowledged before it was asked for: the
-	// newest pending leaf is read in the same round trip as the page, and
-	// only when the site had one does the list wait for the sequencer and
-	// read the page again.
-	b := &pgx.Batch{}
-	var pending *int64
-	b.Queue(lastPending, site).QueryRow(func(r pgx.Row) error { return r.Scan(&pending) })
 	var page []listedCoupon
-	read := func(rows pgx.Rows) error {
+	err = s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) error {
 		var err error
 		page, err = pgx.CollectRows(rows, pgx.RowToStructByName[listedCoupon])
 		return err
-	}
-	b.Queue(sql, f.args...).Query(read)
-	err = s.pool.SendBatch(ctx, b).Close()
-	if err == nil && pending != nil {
-		s.awaitSequenced(ctx, site, *pending)
-		rows, _ := s.pool.Query(ctx, sql, f.args...)
-		err = read(rows)
-	}
+	})
 	if err != nil {
 		return Page[Coupon]{}, fmt.Errorf("db: list coupon: %w", mapError(err))
 	}
