@@ -141,7 +141,9 @@ func (w *flagWriter) flush(ctx context.Context, tx pgx.Tx) (int, error) {
 		}
 		f := &w.flags[i]
 		i++
-		return []any{w.site, f.SubjectKind, f.SubjectID, f.SubjectAt, f.ProcedureID, f.RangesVersion, f.Kind,
+		// Ids as [16]byte, pgx's direct encoding of a uuid (a uuid.UUID
+		// takes its slower driver.Valuer path).
+		return []any{w.site, f.SubjectKind, [16]byte(f.SubjectID), f.SubjectAt, [16]byte(f.ProcedureID), f.RangesVersion, f.Kind,
 			f.Variable, f.Unit, f.Value, f.ValueText, f.Min, f.Max, f.Allowed, f.Direction, f.Excess, f.ExcessPct,
 			f.Detail, f.ComputedAt}, nil
 	})

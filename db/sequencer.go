@@ -19,7 +19,13 @@ type SequencerOptions struct {
 	Idle  time.Duration // longest wait between passes when no write is seen (default 20 ms)
 	Retry time.Duration // how often a follower tries to become the leader (default 1 s)
 	Batch int           // most leaves integrated per site and transaction (default 2000)
-	Logf  func(format string, args ...any)
+	// Pace is the least time between the starts of two passes that writes
+	// of this process woke (default 40 ms): while writes keep coming, the
+	// leaves committed meanwhile are integrated together, in one
+	// transaction under one checkpoint, instead of a pass for each commit
+	// competing with the writers. A write after a quiet spell is taken at once.
+	Pace time.Duration
+	Logf func(format string, args ...any)
 }
 
 func (o *SequencerOptions) defaults() {
@@ -31,6 +37,9 @@ func (o *SequencerOptions) defaults() {
 	}
 	if o.Batch <= 0 {
 		o.Batch = 2000
+	}
+	if o.Pace <= 0 {
+		o.Pace = 40 * time.Millisecond
 	}
 	if o.Logf == nil {
 		o.Logf = func(string, ...any) {}
@@ -79,6 +88,7 @@ func (s *Store) leadOnce(ctx context.Context, opt SequencerOptions) error {
 	opt.Logf("log sequencer: this process leads")
 	tick := time.NewTicker(opt.Idle)
 	defer tick.Stop()
+	var kicked time.Time // when the last pass a write woke started
 	for {
 		for {
 			full, err := s.integratePass(ctx, conn, opt.Batch)
@@ -89,11 +99,26 @@ func (s *Store) leadOnce(ctx context.Context, opt SequencerOptions) error {
 				break
 			}
 		}
-		select {
-		case <-ctx.Done():
-			return nil
-		case <-s.kick:
-		case <-tick.C:
+	wait:
+		for {
+			select {
+			case <-ctx.Done():
+				return nil
+			case <-s.kick:
+				if wait := time.Until(kicked.Add(opt.Pace)); wait > 0 { // writes keep coming: gather them
+					select {
+					case <-ctx.Done():
+						return nil
+					case <-time.After(wait):
+					}
+				}
+				kicked = time.Now()
+				break wait
+			case <-tick.C:
+				if time.Since(kicked) >= opt.Pace { // no paced pass is due
+					break wait
+				}
+			}
 		}
 	}
 }
