@@ -73,7 +73,8 @@ func roundAnswer(v float64) float64 {
 	if v == 0 || math.IsNaN(v) || math.IsInf(v, 0) {
 		return v
 	}
-	r, err := strconv.ParseFloat(strconv.FormatFloat(v, 'g', answerDigits, 64), 64)
+	var buf [32]byte
+	r, err := strconv.ParseFloat(string(strconv.AppendFloat(buf[:0], v, 'g', answerDigits, 64)), 64)
 	if err != nil {
 		return v
 	}
@@ -227,12 +228,29 @@ func writeNumber(out *bytes.Buffer, lit string, f float64, isFloat bool) {
 			return
 		}
 	}
-	b, err := json.Marshal(roundAnswer(f))
-	if err != nil { // NaN or ±Inf never reach here: encoding/json refused them already
+	r := roundAnswer(f)
+	if math.IsNaN(r) || math.IsInf(r, 0) { // never from encoding/json, which refuses them
 		out.WriteString(lit)
 		return
 	}
-	out.Write(b)
+	var buf [32]byte
+	out.Write(appendFloat(buf[:0], r))
+}
+
+// appendFloat appends f as encoding/json writes a float64: the shortest
+// decimal that reads back as f, plain between 1e-6 and 1e21, else with an
+// exponent of at least one digit.
+func appendFloat(b []byte, f float64) []byte {
+	format := byte('f')
+	if abs := math.Abs(f); abs != 0 && (abs < 1e-6 || abs >= 1e21) {
+		format = 'e'
+	}
+	b = strconv.AppendFloat(b, f, format, -1, 64)
+	if n := len(b); format == 'e' && n >= 4 && b[n-4] == 'e' && b[n-3] == '-' && b[n-2] == '0' {
+		b[n-2] = b[n-1] // e-07 -> e-7
+		b = b[:n-1]
+	}
+	return b
 }
 
 // roundNumbers is rewriteAnswer without unit conversion, in one pass over
@@ -264,7 +282,11 @@ func roundNumbers(doc []byte) []byte {
 			for j < len(doc) && (doc[j] >= '0' && doc[j] <= '9' || doc[j] == '.' || doc[j] == 'e' || doc[j] == 'E' || doc[j] == '+' || doc[j] == '-') {
 				j++
 			}
-			writeNumber(&out, string(doc[i:j]), 0, false)
+			if lit := doc[i:j]; bytes.ContainsAny(lit, ".eE") {
+				writeNumber(&out, string(lit), 0, false)
+			} else {
+				out.Write(lit) // an integer passes unchanged
+			}
 			i = j - 1
 		default:
 			out.WriteByte(c)

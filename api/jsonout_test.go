@@ -110,3 +110,24 @@ func TestRoundNumbersMatchesTree(t *testing.T) {
 		}
 	}
 }
+
+// TestAppendFloatMatchesEncodingJSON checks the number writer against
+// encoding/json's own float64 encoding on random values of every
+// magnitude, both signs and the exponent limits (1e-6, 1e21).
+func TestAppendFloatMatchesEncodingJSON(t *testing.T) {
+	rng := rand.New(rand.NewPCG(56, 78))
+	values := []float64{0, math.Copysign(0, -1), 1e-6, 1e-7, 9.999999e-7, 1e21, 1e20, 123456789012345678901, 5e-324, math.MaxFloat64, 0.1, -2.5}
+	for range 20000 {
+		v := (rng.Float64() - 0.5) * math.Pow(10, float64(rng.IntN(60)-30))
+		values = append(values, v, roundAnswer(v))
+	}
+	for _, v := range values {
+		want, err := json.Marshal(v)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := appendFloat(nil, v); string(got) != string(want) {
+			t.Fatalf("appendFloat(%v) = %s, encoding/json writes %s", v, got, want)
+		}
+	}
+}

@@ -1,11 +1,13 @@
 package api
 
 import (
+	"bytes"
 	"context"
 	"errors"
 	"fmt"
 	"mime"
 	"net/http"
+	"runtime"
 	"strconv"
 	"time"
 
@@ -22,7 +24,7 @@ import (
 // next is read past. The first chunk holding a bad row is stored not at all
 // and ends the stream; the answer says how many records were stored and the
 // line to resend from. Memory holds at most a chunk being read, one being
-// written and one line (at most maxStreamLine bytes).
+// written and parseWindow+1 lines (each at most maxStreamLine bytes).
 
 const (
 	streamPath = "/v1/production-records/stream"
@@ -139,6 +141,7 @@ func (s *Server) readChunks(ctx context.Context, actor db.Actor, src rowSource, 
 			}
 		}
 	}()
+	parsed := s.parseAhead(ctx, src)
 	for {
 		patience()
 		ch := streamChunk{recs: make([]db.ProductionRecordData, 0, size), lines: make([]int, 0, size)}
@@ -146,7 +149,14 @@ func (s *Server) readChunks(ctx context.Context, actor db.Actor, src rowSource, 
 		status := http.StatusUnprocessableEntity
 		rows, done := 0, false
 		for rows < size {
-			line, obj, err := src.next()
+			var r *parsedRow
+			select {
+			case r = <-parsed:
+			case <-ctx.Done():
+				return
+			}
+			<-r.done
+			line, err := r.line, r.readErr
 			if errors.Is(err, errEndOfStream) {
 				done = true
 				break
@@ -169,7 +179,7 @@ func (s *Server) readChunks(ctx context.Context, actor db.Actor, src rowSource, 
 				done = true
 				break
 			}
-			rec, err := s.streamRow(obj)
+			rec, err := r.rec, r.err
 			if errors.As(err, &inv) {
 				issues, status = lineIssues(issues, status, line, inv)
 			} else if err != nil {
@@ -205,6 +215,92 @@ func (s *Server) readChunks(ctx context.Context, actor db.Actor, src rowSource, 
 			return
 		}
 	}
+}
+
+// parseWindow is how many rows the stream reads and parses ahead of the
+// row being gathered into a chunk; parseAhead parses them on as many
+// goroutines as the process has processors.
+const parseWindow = 64
+
+// parsedRow is one row of the stream as read (its line, or the read's
+// error) and, once done is closed, as bound and validated (streamRow).
+type parsedRow struct {
+	line    int
+	obj     []byte
+	readErr error
+	rec     db.ProductionRecordData
+	err     error
+	done    chan struct{}
+}
+
+// parseAhead reads src in order on one goroutine and binds and validates
+// its rows on several, handing them out in the order read: the rows a
+// chunk gathers, the issues it reports and where it stops are exactly
+// those of reading and parsing one row at a time, but parsing uses every
+// processor. At most parseWindow rows (each at most maxStreamLine bytes)
+// wait; reading stops at the first error that ends the stream, or when ctx
+// ends.
+func (s *Server) parseAhead(ctx context.Context, src rowSource) <-chan *parsedRow {
+	ordered := make(chan *parsedRow, parseWindow)
+	jobs := make(chan *parsedRow, parseWindow)
+	for range runtime.GOMAXPROCS(0) {
+		go func() {
+			for r := range jobs {
+				s.parseRow(r)
+			}
+		}()
+	}
+	go func() {
+		defer close(jobs)
+		for {
+			r := &parsedRow{done: make(chan struct{})}
+			func() {
+				defer func() { // outside echo's recovery: a fault ends the stream, not the server
+					if p := recover(); p != nil {
+						s.log.Error("production stream reader failed", "panic", p)
+						r.readErr = fmt.Errorf("the stream could not be read past this point")
+					}
+				}()
+				var obj []byte
+				r.line, obj, r.readErr = src.next()
+				r.obj = bytes.Clone(obj) // the source may reuse its buffer
+			}()
+			var inv *invalidError
+			last := r.readErr != nil && !errors.As(r.readErr, &inv)
+			if r.readErr != nil {
+				close(r.done)
+			}
+			select {
+			case ordered <- r:
+			case <-ctx.Done():
+				return
+			}
+			if last {
+				return
+			}
+			if r.readErr == nil {
+				select {
+				case jobs <- r:
+				case <-ctx.Done():
+					return
+				}
+			}
+		}
+	}()
+	return ordered
+}
+
+// parseRow binds and validates one row read (streamRow) and marks it done.
+func (s *Server) parseRow(r *parsedRow) {
+	defer close(r.done)
+	defer func() {
+		if p := recover(); p != nil {
+			s.log.Error("production stream row failed", "panic", p)
+			r.err = fmt.Errorf("the stream could not be read past this point")
+		}
+	}()
+	r.rec, r.err = s.streamRow(r.obj)
+	r.obj = nil
 }
 
 // lineIssues adds a bad line's issues, each field named after its line

@@ -34,10 +34,8 @@ func BenchmarkCouponListScale(b *testing.B) {
 	ctx := context.Background()
 	dbURL, conn, proc := benchSite(b, n)
 	const site = "bench"
-	for _, q := range []string{"INSERT INTO coupon_list SELECT * FROM coupon_list_derived WHERE site = 'bench'", "VACUUM ANALYZE coupon_list"} {
-		if _, err := conn.Exec(ctx, q); err != nil {
-			b.Fatal(err)
-		}
+	if err := fillCouponList(ctx, conn); err != nil {
+		b.Fatal(err)
 	}
 	s, _ := tracedStore(b, dbURL)
 	var cols string

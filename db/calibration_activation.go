@@ -5,10 +5,13 @@ import (
 	"errors"
 	"fmt"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
+
+	"etchlog/predict"
 )
 
 // CalibrationActivation records that a calibration became the one used for
@@ -128,11 +131,26 @@ func (s *Store) activationEvent(ctx context.Context, a Actor, calibrationID uuid
 			Actor: act.ActivatedBy, Action: action, Reason: reason, At: act.ActivatedAt}); err != nil {
 			return err
 		}
-		// The group's model flags follow the calibration now in use, in this transaction.
-		if err := recomputeGroup(ctx, tx, act.ActivatedAt, a.Site, act.CalibrationGroup); err != nil {
+		// The group's model flags and drift chart follow the calibration now
+		// in use, in this transaction: computed first without the flag locks,
+		// then reconciled under them (calibration_recompute.go).
+		r, err := s.newGroupRecompute(ctx, tx, act)
+		if err != nil {
 			return err
 		}
-		return recomputeDrift(ctx, tx, act.ActivatedAt, a.Site, []CalibrationGroup{act.CalibrationGroup})
+		if err := r.compute(ctx, tx); err != nil {
+			return err
+		}
+		activationStep(a.Site, "computed")
+		if err := r.catchUp(ctx, tx); err != nil {
+			return err
+		}
+		activationStep(a.Site, "caught-up")
+		if err := lockProcess(ctx, tx, a.Site, act.Process); err != nil {
+			return err
+		}
+		activationStep(a.Site, "locked")
+		return r.reconcile(ctx, tx)
 	})
 	if err != nil {
 		return CalibrationActivation{}, fmt.Errorf("db: %s calibration %s: %w", action, calibrationID, err)
@@ -149,6 +167,48 @@ func (s *Store) CalibrationActivations(ctx context.Context, site string, calibra
 		return nil, fmt.Errorf("db: activations of calibration %s: %w", calibrationID, err)
 	}
 	return acts, nil
+}
+
+// activationHook holds, per site and step ("computed": before the
+// catch-up rounds; "caught-up": before the flag locks; "locked": once they
+// are held), what a test or benchmark runs
+// there (see SetActivationHookForTest).
+var activationHook struct {
+	sync.Mutex
+	fs map[string]func()
+}
+
+// activationStep runs the hook of the site and step, if any.
+func activationStep(site, step string) {
+	activationHook.Lock()
+	f := activationHook.fs[site+"\x00"+step]
+	activationHook.Unlock()
+	if f != nil {
+		f()
+	}
+}
+
+// newGroupRecompute prepares the recomputation of the group's flags after
+// activation event act: the check and chart of the calibration it makes
+// active, or none after a deactivation.
+func (s *Store) newGroupRecompute(ctx context.Context, tx pgx.Tx, act CalibrationActivation) (*groupRecompute, error) {
+	r := &groupRecompute{site: act.Site, now: act.ActivatedAt, g: act.CalibrationGroup.canonical(), family: act.Model.Family(), long: s.long}
+	if act.Action != ActionActivate {
+		return r, nil
+	}
+	if r.family == CalibrationJacksonFixed.Family() {
+		var level float64
+		var fit CalibrationFit
+		if err := tx.QueryRow(ctx, `SELECT level, fit FROM calibrations WHERE site = $1 AND id = $2`, act.Site, act.CalibrationID).
+			Scan(&level, &fit); err != nil {
+			return nil, fmt.Errorf("active calibration: %w", err)
+		}
+		if fit.Penetration != nil {
+			r.check = &predict.PenetrationCheck{Fit: *fit.Penetration, Level: level, Label: act.CalibrationID.String()}
+		}
+	}
+	r.calID = act.CalibrationID
+	return r, nil
 }
 
 // inUse names the calibration in use, or says there is none.

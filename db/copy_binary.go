@@ -32,8 +32,10 @@ type copyRows struct {
 var pgEpochMicro = pgEpoch.UnixMicro()
 
 // encodeCopyRows lays rows out for COPY ... FROM STDIN BINARY into table's
-// cols; oids[i] is the type of column i (text, uuid, timestamptz, float8),
-// checked against each value's Go type. A time is sent at microseconds,
+// cols; oids[i] is the type of column i (text, uuid, timestamptz, float8,
+// int2, int4, int8, bytea),
+// checked against each value's Go type (integers also against its range;
+// bytea takes []byte). A time is sent at microseconds,
 // truncated, as pgx sends it; a nil *float64 is NULL.
 func encodeCopyRows(table string, cols []string, oids []uint32, rows [][]any) (*copyRows, error) {
 	var b bytes.Buffer
@@ -94,6 +96,17 @@ func appendCopyValue(b *bytes.Buffer, oid uint32, v any) error {
 			field(x[:])
 			return nil
 		}
+	case []byte:
+		if oid == pgtype.ByteaOID {
+			field(x)
+			return nil
+		}
+	case int:
+		return appendCopyInt(b, oid, int64(x))
+	case int16:
+		return appendCopyInt(b, oid, int64(x))
+	case int64:
+		return appendCopyInt(b, oid, x)
 	case float64:
 		if oid == pgtype.Float8OID {
 			var p [8]byte
@@ -111,6 +124,28 @@ func appendCopyValue(b *bytes.Buffer, oid uint32, v any) error {
 		}
 	}
 	return fmt.Errorf("a %T for a column of type %d", v, oid)
+}
+
+// appendCopyInt appends an integer as the column's integer type, which must hold it.
+func appendCopyInt(b *bytes.Buffer, oid uint32, x int64) error {
+	var w [12]byte
+	switch {
+	case oid == pgtype.Int2OID && x >= math.MinInt16 && x <= math.MaxInt16:
+		binary.BigEndian.PutUint32(w[:4], 2)
+		binary.BigEndian.PutUint16(w[4:], uint16(x))
+		b.Write(w[:6])
+	case oid == pgtype.Int4OID && x >= math.MinInt32 && x <= math.MaxInt32:
+		binary.BigEndian.PutUint32(w[:4], 4)
+		binary.BigEndian.PutUint32(w[4:], uint32(x))
+		b.Write(w[:8])
+	case oid == pgtype.Int8OID:
+		binary.BigEndian.PutUint32(w[:4], 8)
+		binary.BigEndian.PutUint64(w[4:], uint64(x))
+		b.Write(w[:12])
+	default:
+		return fmt.Errorf("the integer %d for a column of type %d", x, oid)
+	}
+	return nil
 }
 
 // copyIn sends prepared rows inside the write transaction tx.

@@ -4,7 +4,6 @@ import (
 	"context"
 
 	"github.com/google/uuid"
-	"github.com/jackc/pgx/v5"
 )
 
 // CouponData is what was welded on one test coupon. Units: mm, mm/s (travel
@@ -49,58 +48,40 @@ type Coupon struct {
 
 var coupons = table{name: "coupons", entity: "coupon", fields: recordColumns(CouponData{})}
 
-// checkLinks verifies that the procedure and qualification record a coupon names exist at the site.
-func (c CouponData) checkLinks(ctx context.Context, site string) func(pgx.Tx) error {
-	return func(tx pgx.Tx) error {
-		if c.ProcedureID == nil && c.QualificationRecordID == nil {
-			return &FieldError{Field: "procedure_id", Reason: "a coupon belongs to a procedure or a qualification record; give at least one"}
-		}
-		if c.ProcedureID != nil {
-			if err := exists(ctx, tx, procedures, site, *c.ProcedureID, "procedure_id"); err != nil {
-				return err
-			}
-		}
-		if c.QualificationRecordID != nil {
-			return exists(ctx, tx, qualificationRecords, site, *c.QualificationRecordID, "qualification_record_id")
-		}
-		return nil
-	}
-}
-
 // CreateCoupon stores revision 1 of a new coupon and its flags.
 func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon, error) {
 	m, err := s.newRecord(a)
 	if err != nil {
 		return Coupon{}, err
 	}
-	out := []Coupon{{Meta: m, CouponData: c}}
+	out := Coupon{Meta: m, CouponData: c}
+	var in *couponInputs
 	if err := s.write(ctx, "create coupon",
-		c.checkLinks(ctx, a.Site),
+		readWrittenCoupon(ctx, m, c, &in),
 		claimMark(ctx, couponMark, m, c.CouponMark),
 		s.recorded(ctx, coupons, m, recordValues(c), actionCreate),
-		inherited(ctx, a.Site, out),
-		writtenCouponFlags(ctx, m, c),
+		writtenCouponFlags(ctx, m, &in, &out),
 	); err != nil {
 		return Coupon{}, s.duplicateMark(ctx, a.Site, c.CouponMark, err)
 	}
-	return out[0], nil
+	return out, nil
 }
 
 // CorrectCoupon stores the next revision of a coupon and rewrites its flags.
 func (s *Store) CorrectCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Change, c CouponData) (Coupon, error) {
 	m := s.nextRevision(a, id, ch, false)
-	out := []Coupon{{Meta: m, CouponData: c}}
+	out := Coupon{Meta: m, CouponData: c}
+	var in *couponInputs
 	if err := s.write(ctx, "correct coupon "+id.String(),
 		coupons.baseIs(ctx, a.Site, id, ch),
-		c.checkLinks(ctx, a.Site),
+		readWrittenCoupon(ctx, m, c, &in),
 		claimMark(ctx, couponMark, m, c.CouponMark),
 		s.recorded(ctx, coupons, m, recordValues(c), actionCorrect),
-		inherited(ctx, a.Site, out),
-		writtenCouponFlags(ctx, m, c),
+		writtenCouponFlags(ctx, m, &in, &out),
 	); err != nil {
 		return Coupon{}, err
 	}
-	return out[0], nil
+	return out, nil
 }
 
 // VoidCoupon voids a coupon with a reason; a voided coupon has no flags.

@@ -59,15 +59,6 @@ func (s *Store) inheritCoupons(ctx context.Context, q querier, site string, cs [
 	return readInherited(rows, cs)
 }
 
-// inherited is the write step that fills the left-out fields of the
-// coupons cs (as written) from their procedure, else their qualification
-// record, read in the writing transaction with its other statements.
-func inherited(ctx context.Context, site string, cs []Coupon) step {
-	return func(tx pgx.Tx) error {
-		return queueRows(ctx, tx, func(rows pgx.Rows) error { return readInherited(rows, cs) }, inheritSQL, inheritArgs(site, cs)...)
-	}
-}
-
 // inheritSQL reads the defaults of each coupon: $2 its procedure ids, $3
 // its qualification record ids.
 const inheritSQL = `

@@ -3,6 +3,7 @@ package db
 import (
 	"context"
 	"fmt"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -77,10 +78,12 @@ var verdicts = []string{"", "accept", "reject"}
 // after the cursor. An equality filter (procedure, qualification record,
 // welder, mark), or none, pages through its index in log order. A
 // welding-day range without one would walk the whole log when the range
-// lies late in it (welding days grow with the log); instead each month of
-// the range (and each verdict) is walked in log order on its own, up to
-// a page each, and the heads are merged: at most months × verdicts ×
-// limit index entries, whatever the page depth.
+// lies late in it (welding days grow with the log); instead each day of a
+// range of up to maxDayWalk days, or of the partial months at the ends of a
+// longer one, and each whole month between (and each verdict), is walked
+// in log order on its own, up to a page each, and the heads are merged: at
+// most (days + months × verdicts) × limit index entries, none outside the
+// range, whatever the page depth.
 func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, cursor string, limit int) (Page[Coupon], error) {
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
@@ -124,37 +127,62 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 	default:
 		return Page[Coupon]{}, &FieldError{Field: "acceptance", Reason: "want accept or reject"}
 	}
-	byMonth := !equality && (cf.WeldedFrom != nil || cf.WeldedTo != nil)
-	if !byMonth && cf.Acceptance != "" {
+	byDays := !equality && (cf.WeldedFrom != nil || cf.WeldedTo != nil)
+	if !byDays && cf.Acceptance != "" {
 		f.add("k.verdict = ?", cf.Acceptance)
 	}
+	// The page size is written into the statement, not bound: a prepared
+	// statement's generic plan (which PostgreSQL switches to after five
+	// executions) then knows a page is small, and does not trade the
+	// walk for a hash join over every coupon of the site.
+	lim := strconv.Itoa(limit)
 	var keys string
-	if byMonth {
-		f.add("k.welded_month = m.month::date AND k.verdict = a.verdict")
-		f.args = append(f.args, firstOfMonth(cf.WeldedFrom, 0), firstOfMonth(cf.WeldedTo, -1), accepted, limit)
-		n := len(f.args)
-		// The walk reads index entries only (the month index carries the
-		// day, the void mark and the id); the page's rows are read by key.
-		keys = `SELECT ` + prefixed("c.", couponListColumns) + `
-			FROM (SELECT b.id, b.leaf_index
-				FROM (SELECT min(welded_month) AS lo, max(welded_month) AS hi FROM coupon_list WHERE site = $1) span
-				CROSS JOIN generate_series(greatest(span.lo, $` + strconv.Itoa(n-3) + `::date), least(span.hi, $` + strconv.Itoa(n-2) +
-			`::date), interval '1 month') m(month)
-				CROSS JOIN unnest($` + strconv.Itoa(n-1) + `::text[]) a(verdict)
+	if byDays {
+		// Each day of the range's partial months (all of it when it spans
+		// at most maxDayWalk days) through coupon_list_day, and each whole
+		// month between (and each verdict) through coupon_list_month, each
+		// walked in log order for a page, the heads merged. Both indexes
+		// carry the void mark, the verdict and the id; the page's rows are
+		// read by key.
+		w := splitDays(cf.WeldedFrom, cf.WeldedTo)
+		base := slices.Clone(f.conds)
+		arg := func(v any) string {
+			f.args = append(f.args, v)
+			return "$" + strconv.Itoa(len(f.args))
+		}
+		dayConds := base
+		if cf.Acceptance != "" {
+			dayConds = append(slices.Clone(base), "k.verdict = "+arg(cf.Acceptance))
+		}
+		walks := []string{`SELECT b.id, b.leaf_index
+				FROM (SELECT day FROM generate_series(` + arg(w.head[0]) + `::date, ` + arg(w.head[1]) + `::date, interval '1 day') day
+					UNION ALL SELECT day FROM generate_series(` + arg(w.tail[0]) + `::date, ` + arg(w.tail[1]) + `::date, interval '1 day') day) d
 				CROSS JOIN LATERAL (SELECT k.id, k.leaf_index FROM coupon_list k
-					WHERE k.site = $1 AND k.leaf_index >= $2 AND ` + strings.Join(f.conds, " AND ") + `
-					ORDER BY k.leaf_index LIMIT $` + strconv.Itoa(n) + `) b
-				ORDER BY b.leaf_index LIMIT $` + strconv.Itoa(n) + `) b
+					WHERE k.site = $1 AND k.welded_on = d.day::date AND k.leaf_index >= $2 AND ` + strings.Join(dayConds, " AND ") + `
+					ORDER BY k.leaf_index LIMIT ` + lim + `) b`}
+		if w.months {
+			walks = append(walks, `SELECT b.id, b.leaf_index
+				FROM (SELECT min(welded_month) AS lo, max(welded_month) AS hi FROM coupon_list WHERE site = $1) span
+				CROSS JOIN generate_series(greatest(span.lo, `+arg(w.monthFrom)+`::date), least(span.hi, `+arg(w.monthTo)+
+				`::date), interval '1 month') m(month)
+				CROSS JOIN unnest(`+arg(accepted)+`::text[]) a(verdict)
+				CROSS JOIN LATERAL (SELECT k.id, k.leaf_index FROM coupon_list k
+					WHERE k.site = $1 AND k.welded_month = m.month::date AND k.verdict = a.verdict AND k.leaf_index >= $2 AND `+
+				strings.Join(base, " AND ")+`
+					ORDER BY k.leaf_index LIMIT `+lim+`) b`)
+		}
+		keys = `SELECT ` + prefixed("c.", couponListColumns) + `
+			FROM (` + strings.Join(walks, "\n\t\t\tUNION ALL ") + `
+				ORDER BY leaf_index LIMIT ` + lim + `) b
 			JOIN coupon_list c ON c.site = $1 AND c.id = b.id`
 	} else {
-		f.args = append(f.args, limit)
 		where := ""
 		if len(f.conds) > 0 {
 			where = " AND " + strings.Join(f.conds, " AND ")
 		}
 		keys = `SELECT ` + prefixed("k.", couponListColumns) + ` FROM coupon_list k
 			WHERE k.site = $1 AND k.leaf_index >= $2` + where + `
-			ORDER BY k.leaf_index LIMIT $` + strconv.Itoa(len(f.args))
+			ORDER BY k.leaf_index LIMIT ` + lim
 	}
 	// One statement reads the page, from coupon_list alone, with what each
 	// coupon inherits from its procedure (latest revision), else its
@@ -170,26 +198,12 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas, polarity FROM qualification_records
 			WHERE site = $1 AND id = k.qualification_record_id ORDER BY revision DESC LIMIT 1) r ON true
 		ORDER BY k.leaf_index`
-	// A page shows every write acknowledged before it was asked for: the
-	// newest pending leaf is read in the same round trip as the page, and
-	// only when the site had one does the list wait for the sequencer and
-	// read the page again.
-	b := &pgx.Batch{}
-	var pending *int64
-	b.Queue(lastPending, site).QueryRow(func(r pgx.Row) error { return r.Scan(&pending) })
 	var page []listedCoupon
-	read := func(rows pgx.Rows) error {
+	err = s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) error {
 		var err error
 		page, err = pgx.CollectRows(rows, pgx.RowToStructByName[listedCoupon])
 		return err
-	}
-	b.Queue(sql, f.args...).Query(read)
-	err = s.pool.SendBatch(ctx, b).Close()
-	if err == nil && pending != nil {
-		s.awaitSequenced(ctx, site, *pending)
-		rows, _ := s.pool.Query(ctx, sql, f.args...)
-		err = read(rows)
-	}
+	})
 	if err != nil {
 		return Page[Coupon]{}, fmt.Errorf("db: list coupon: %w", mapError(err))
 	}
@@ -212,6 +226,55 @@ type listedCoupon struct {
 	WireDiameterMM *float64 `db:"inherited_wire_diameter_mm"`
 	ShieldingGas   string   `db:"inherited_shielding_gas"`
 	Polarity       *string  `db:"inherited_polarity"`
+}
+
+// maxDayWalk is the longest welding-day range (in days) the coupons list
+// walks day by day; a longer one walks its whole months by month.
+const maxDayWalk = 31
+
+// dayWalk splits a welding-day range for the coupons list's walk: the days
+// of the partial months at its ends (head and tail, inclusive; nil: none)
+// and, when months is set, the whole months between (first days,
+// inclusive; nil: unbounded on that side).
+type dayWalk struct {
+	head, tail         [2]*Date
+	months             bool
+	monthFrom, monthTo *Date
+}
+
+// splitDays splits the range [from, to) (nil: unbounded): all of it day by
+// day when it spans at most maxDayWalk days, else its partial months day by
+// day and its whole months month by month.
+func splitDays(from, to *Date) dayWalk {
+	var last *Date // the last day in the range
+	if to != nil {
+		l := DateOf(to.AddDate(0, 0, -1))
+		last = &l
+	}
+	if from != nil && last != nil && !to.After(from.AddDate(0, 0, maxDayWalk)) {
+		return dayWalk{head: [2]*Date{from, last}}
+	}
+	w := dayWalk{months: true}
+	if from != nil {
+		first := firstOfMonth(from, 0)
+		if from.Day() == 1 {
+			w.monthFrom = first
+		} else {
+			end := DateOf(first.AddDate(0, 1, -1))
+			next := DateOf(first.AddDate(0, 1, 0))
+			w.head, w.monthFrom = [2]*Date{from, &end}, &next
+		}
+	}
+	if last != nil {
+		first := firstOfMonth(last, 0)
+		if last.AddDate(0, 0, 1).Day() == 1 { // the last day of its month
+			w.monthTo = first
+		} else {
+			prev := DateOf(first.AddDate(0, -1, 0))
+			w.tail, w.monthTo = [2]*Date{first, last}, &prev
+		}
+	}
+	return w
 }
 
 // firstOfMonth is the first day of the month of d shifted by days (nil: no bound).

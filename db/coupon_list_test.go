@@ -87,6 +87,11 @@ func TestCouponListIsDerived(t *testing.T) {
 	all = append(slices.Delete(all, 5, 6), voided)
 
 	from, to := db.DateOf(time.Date(2026, 8, 20, 0, 0, 0, 0, time.UTC)), db.DateOf(time.Date(2026, 10, 1, 0, 0, 0, 0, time.UTC))
+	// A range of at most a month is walked day by day, a longer one by month.
+	dayFrom, dayTo := db.DateOf(time.Date(2026, 8, 1, 0, 0, 0, 0, time.UTC)), db.DateOf(time.Date(2026, 8, 25, 0, 0, 0, 0, time.UTC))
+	inDays := func(c *listedCoupon) bool { return !c.day.Before(dayFrom.Time) && c.day.Before(dayTo.Time) }
+	// A longer one walks its partial months day by day and its whole months by month.
+	midTo, earlyTo := db.DateOf(time.Date(2026, 10, 10, 0, 0, 0, 0, time.UTC)), db.DateOf(time.Date(2026, 9, 5, 0, 0, 0, 0, time.UTC))
 	for _, tc := range []struct {
 		name string
 		f    db.CouponFilter
@@ -107,6 +112,16 @@ func TestCouponListIsDerived(t *testing.T) {
 		{"welded_from+to+include_voided", db.CouponFilter{WeldedFrom: &from, WeldedTo: &to, IncludeVoided: true}, nil},
 		{"welded_to+accept", db.CouponFilter{WeldedTo: &to, Acceptance: "accept"},
 			func(c *listedCoupon) bool { return c.day.Before(to.Time) && c.acceptance == "accept" }},
+		{"welded_from+to(days)", db.CouponFilter{WeldedFrom: &dayFrom, WeldedTo: &dayTo}, inDays},
+		{"welded_from+to(days)+reject", db.CouponFilter{WeldedFrom: &dayFrom, WeldedTo: &dayTo, Acceptance: "reject"},
+			func(c *listedCoupon) bool { return inDays(c) && c.acceptance == "reject" }},
+		{"welded_from+to(days)+accept", db.CouponFilter{WeldedFrom: &dayFrom, WeldedTo: &dayTo, Acceptance: "accept"},
+			func(c *listedCoupon) bool { return inDays(c) && c.acceptance == "accept" }},
+		{"welded_from+to(days, month, days)", db.CouponFilter{WeldedFrom: &from, WeldedTo: &midTo},
+			func(c *listedCoupon) bool { return !c.day.Before(from.Time) && c.day.Before(midTo.Time) }},
+		{"welded_to(months, days)", db.CouponFilter{WeldedTo: &earlyTo}, func(c *listedCoupon) bool { return c.day.Before(earlyTo.Time) }},
+		{"welded_to(months, days)+reject", db.CouponFilter{WeldedTo: &earlyTo, Acceptance: "reject"},
+			func(c *listedCoupon) bool { return c.day.Before(earlyTo.Time) && c.acceptance == "reject" }},
 		{"welded_from+welder_id", db.CouponFilter{WeldedFrom: &from, WelderID: "W-1"},
 			func(c *listedCoupon) bool { return !c.day.Before(from.Time) && c.welder == "W-1" }},
 	} {

@@ -15,6 +15,7 @@ import (
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgerrcode"
+	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgxpool"
 
@@ -106,6 +107,10 @@ func open(ctx context.Context, url, role string, unprivileged bool) (*Store, err
 	cfg.ConnConfig.RuntimeParams["jit"] = "off"
 	if role != "" {
 		cfg.ConnConfig.RuntimeParams["role"] = role
+	}
+	cfg.AfterConnect = func(_ context.Context, c *pgx.Conn) error {
+		sendUUIDsAsBytes(c.TypeMap())
+		return nil
 	}
 	pool, err := pgxpool.NewWithConfig(ctx, cfg)
 	if err != nil {

@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strings"
 	"time"
 
 	"github.com/google/uuid"
@@ -101,55 +102,113 @@ const driftCoupons = `
 	WHERE NOT cur.voided AND coalesce(p.process, r.process, '') = $2
 	ORDER BY cur.welded_on, cur.id`
 
-// driftOf charts group g for one family against calibration cal (in one
-// pass over the group's coupons read by one query).
-func driftOf(ctx context.Context, q querier, site string, g CalibrationGroup, family string, calID uuid.UUID) (DriftReport, error) {
-	rep := DriftReport{Group: g, Family: family, CalibrationID: calID}
-	var fit CalibrationFit
-	var arc *float64
+// driftCouponsOf is driftCoupons restricted to the coupons $4 (the rows
+// an activation reads again for the coupons written while it computed).
+var driftCouponsOf = strings.Replace(driftCoupons, "WHERE site = $1 AND joint_type = $3 ORDER BY id, revision DESC",
+	"WHERE site = $1 AND joint_type = $3 AND id = ANY($4) ORDER BY id, revision DESC", 1)
+
+// driftCal is what a drift chart reads of its calibration: the model, the
+// fit, the arc length and the coupons it was fitted to (not charted).
+type driftCal struct {
+	id     uuid.UUID
+	model  CalibrationModel
+	fit    CalibrationFit
+	arc    *float64
+	fitted map[uuid.UUID]bool
+}
+
+// driftCalibration reads calibration calID for a drift chart.
+func driftCalibration(ctx context.Context, q querier, site string, calID uuid.UUID) (driftCal, error) {
+	dc := driftCal{id: calID}
 	var ids []uuid.UUID
 	var sel *CalibrationSelection
 	err := q.QueryRow(ctx, `SELECT model, fit, arc_length_mm, coupon_ids, selection FROM calibrations WHERE site = $1 AND id = $2`,
-		site, calID).Scan(&rep.Model, &fit, &arc, &ids, &sel)
+		site, calID).Scan(&dc.model, &dc.fit, &dc.arc, &ids, &sel)
 	if err != nil {
-		return rep, fmt.Errorf("drift: calibration %s: %w", calID, err)
+		return dc, fmt.Errorf("drift: calibration %s: %w", calID, err)
 	}
 	if sel != nil { // stored by its selection: the coupons it gave as of the fit
 		if ids, err = selectedIDs(ctx, q, site, *sel); err != nil {
-			return rep, fmt.Errorf("drift: calibration %s: %w", calID, err)
+			return dc, fmt.Errorf("drift: calibration %s: %w", calID, err)
 		}
 	}
-	rows, _ := q.Query(ctx, driftCoupons, site, g.Process, g.JointType)
+	dc.fitted = make(map[uuid.UUID]bool, len(ids))
+	for _, id := range ids {
+		dc.fitted[id] = true
+	}
+	return dc, nil
+}
+
+// driftPoint is one row of driftCoupons with its residual and SD against
+// the chart's calibration; ok is false when the coupon is not charted (it
+// was fitted, is outside the group, or the fit cannot judge it).
+type driftPoint struct {
+	row     driftRow
+	res, sd float64
+	ok      bool
+}
+
+// point judges one coupon of the candidate rows for group g.
+func (dc driftCal) point(c driftRow, g CalibrationGroup) driftPoint {
+	p := driftPoint{row: c}
+	if dc.fitted[c.ID] || !g.has(c.Process, c.WireDiameterMM, c.ShieldingGas, c.JointType) {
+		return p
+	}
+	p.res, p.sd, p.ok = driftResidual(c, dc.fit, dc.arc)
+	return p
+}
+
+// readDriftPoints runs query (driftCoupons or driftCouponsOf, with args)
+// and judges each row.
+func (dc driftCal) readDriftPoints(ctx context.Context, q querier, g CalibrationGroup, query string, args ...any) ([]driftPoint, error) {
+	rows, _ := q.Query(ctx, query, args...)
 	cs, err := pgx.CollectRows(rows, pgx.RowToStructByName[driftRow])
 	if err != nil {
-		return rep, fmt.Errorf("drift: coupons: %w", err)
+		return nil, fmt.Errorf("drift: coupons: %w", err)
 	}
-	fitted := map[uuid.UUID]bool{}
-	for _, id := range ids {
-		fitted[id] = true
+	pts := make([]driftPoint, len(cs))
+	for i, c := range cs {
+		pts[i] = dc.point(c, g)
 	}
+	return pts, nil
+}
+
+// report charts the points (in welding order) of group g for one family.
+func (dc driftCal) report(g CalibrationGroup, family string, pts []driftPoint) DriftReport {
+	rep := DriftReport{Group: g, Family: family, CalibrationID: dc.id, Model: dc.model}
 	var obs []predict.DriftObservation
-	for _, c := range cs {
-		if fitted[c.ID] || !g.has(c.Process, c.WireDiameterMM, c.ShieldingGas, c.JointType) {
+	for _, p := range pts {
+		if !p.ok {
 			continue
 		}
-		res, sd, ok := driftResidual(c, fit, arc)
-		if !ok {
-			continue
-		}
+		c := p.row
 		rep.Coupons = append(rep.Coupons, DriftCoupon{ID: c.ID, Mark: c.CouponMark, ProcedureID: c.ProcedureID, WeldedOn: c.WeldedOn,
-			WelderID: c.WelderID, PowerSourceID: c.PowerSourceID, FillerLot: c.FillerLot, Residual: res, SD: sd})
-		obs = append(obs, predict.DriftObservation{ID: c.ID.String(), Residual: res, SD: sd,
+			WelderID: c.WelderID, PowerSourceID: c.PowerSourceID, FillerLot: c.FillerLot, Residual: p.res, SD: p.sd})
+		obs = append(obs, predict.DriftObservation{ID: c.ID.String(), Residual: p.res, SD: p.sd,
 			PowerSource: c.PowerSourceID, Welder: c.WelderID, FillerLot: c.FillerLot})
 	}
 	switch {
-	case fit.Penetration != nil:
-		rep.Unit, rep.ResidualSD = "ln(mm)", fit.Penetration.ResidualSDLn
-	case fit.Melting != nil:
-		rep.Unit, rep.ResidualSD = "kg/h", fit.Melting.ResidualSDKgPerH
+	case dc.fit.Penetration != nil:
+		rep.Unit, rep.ResidualSD = "ln(mm)", dc.fit.Penetration.ResidualSDLn
+	case dc.fit.Melting != nil:
+		rep.Unit, rep.ResidualSD = "kg/h", dc.fit.Melting.ResidualSDKgPerH
 	}
 	rep.Series = predict.DriftCharts(obs)
-	return rep, nil
+	return rep
+}
+
+// driftOf charts group g for one family against calibration cal (in one
+// pass over the group's coupons read by one query).
+func driftOf(ctx context.Context, q querier, site string, g CalibrationGroup, family string, calID uuid.UUID) (DriftReport, error) {
+	dc, err := driftCalibration(ctx, q, site, calID)
+	if err != nil {
+		return DriftReport{Group: g, Family: family, CalibrationID: calID}, err
+	}
+	pts, err := dc.readDriftPoints(ctx, q, g, driftCoupons, site, g.Process, g.JointType)
+	if err != nil {
+		return DriftReport{Group: g, Family: family, CalibrationID: calID, Model: dc.model}, err
+	}
+	return dc.report(g, family, pts), nil
 }
 
 // driftResidual is a coupon's residual against the fit; false when the
@@ -286,9 +345,7 @@ func recomputeDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, 
 			return err
 		}
 		for _, f := range driftFlags(rep, now) {
-			rows = append(rows, []any{site, f.SubjectKind, f.SubjectID, f.SubjectAt, f.ProcedureID, f.RangesVersion, f.Kind,
-				f.Variable, f.Unit, f.Value, f.ValueText, f.Min, f.Max, f.Allowed, f.Direction, f.Excess, f.ExcessPct,
-				f.Detail, f.ComputedAt, k})
+			rows = append(rows, driftFlagRow(site, f, k))
 		}
 	}
 	if len(rows) == 0 {
@@ -299,6 +356,14 @@ func recomputeDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, 
 		return fmt.Errorf("write drift flags: %w", mapError(err))
 	}
 	return nil
+}
+
+// driftFlagRow is drift flag f of chart key at site, as a row to copy
+// into flags with the column drift_group.
+func driftFlagRow(site string, f Flag, key string) []any {
+	return []any{site, f.SubjectKind, f.SubjectID, f.SubjectAt, f.ProcedureID, f.RangesVersion, f.Kind,
+		f.Variable, f.Unit, f.Value, f.ValueText, f.Min, f.Max, f.Allowed, f.Direction, f.Excess, f.ExcessPct,
+		f.Detail, f.ComputedAt, key}
 }
 
 // driftFamily is the family part of a drift key.

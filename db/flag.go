@@ -85,6 +85,28 @@ func (w *flagWriter) add(s *subject) {
 	if s.model != nil {
 		w.scratch = s.model.Evaluate(&s.obs, s.measuredMM, w.scratch)
 	}
+	w.queue(s)
+}
+
+// calibratedFlags is the SQL condition (on flags) that holds exactly for the
+// flags addCalibrated writes: those a change of the group's calibration can
+// change (the model's own, its not_checkable, and suspect units, which
+// compare with the model's prediction). TestCalibratedFlagsCondition checks
+// it against add.
+const calibratedFlags = `(kind IN ('model', 'suspect_units') OR (kind = 'not_checkable' AND variable = 'predicted_penetration_mm'))`
+
+// addCalibrated queues only the flags of s that depend on its model check
+// (calibratedFlags): what add would queue of them, in the same order.
+func (w *flagWriter) addCalibrated(s *subject) {
+	w.scratch = predict.SuspectUnits(s.sections, s.predicted, w.scratch[:0])
+	if s.model != nil {
+		w.scratch = s.model.Evaluate(&s.obs, s.measuredMM, w.scratch)
+	}
+	w.queue(s)
+}
+
+// queue turns the evaluated flags in w.scratch into rows of subject s.
+func (w *flagWriter) queue(s *subject) {
 	for _, f := range w.scratch {
 		if w.ranges.Stale != "" && (f.Kind == predict.FlagRange || f.Kind == predict.FlagNotCheckable) {
 			f.Detail += " (the ranges are stale: " + w.ranges.Stale + ")"
@@ -119,7 +141,9 @@ func (w *flagWriter) flush(ctx context.Context, tx pgx.Tx) (int, error) {
 		}
 		f := &w.flags[i]
 		i++
-		return []any{w.site, f.SubjectKind, f.SubjectID, f.SubjectAt, f.ProcedureID, f.RangesVersion, f.Kind,
+		// Ids as [16]byte, pgx's direct encoding of a uuid (a uuid.UUID
+		// takes its slower driver.Valuer path).
+		return []any{w.site, f.SubjectKind, [16]byte(f.SubjectID), f.SubjectAt, [16]byte(f.ProcedureID), f.RangesVersion, f.Kind,
 			f.Variable, f.Unit, f.Value, f.ValueText, f.Min, f.Max, f.Allowed, f.Direction, f.Excess, f.ExcessPct,
 			f.Detail, f.ComputedAt}, nil
 	})

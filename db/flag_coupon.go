@@ -16,12 +16,12 @@ import (
 // A coupon's flags derive from its latest revision, its procedure's latest
 // revision, the procedure's latest ranges (and whether they are stale), the
 // coupon's current sections, its qualification record and the calibration
-// in use for its group. recomputeCoupon reads all of them in one round trip:
-// each statement names the coupon and finds the rest by subquery, and all of
-// them run after the shared flag lock of the coupon's procedures is held, as
-// separate statements in the order below, each with its own snapshot. Only
-// the calibration is chosen in Go, because the group's wire and gas are
-// canonicalised there (CalibrationGroup.canonical).
+// in use for its group. queueCouponInputs reads all of them in one round
+// trip: each statement names the coupon and finds the rest by subquery, and
+// all of them run after the shared flag lock of the coupon's procedures is
+// held, as separate statements in the order below, each with its own
+// snapshot. Only the calibration is chosen in Go, because the group's wire
+// and gas are canonicalised there (CalibrationGroup.canonical).
 
 // latestCoupon is the subquery of coupon $2's latest revision at site $1.
 const latestCoupon = `(SELECT %s FROM coupons WHERE site = $1 AND id = $2 ORDER BY revision DESC LIMIT 1)`
@@ -37,15 +37,15 @@ type groupActivation struct {
 	fit         []byte
 }
 
-// couponInputs is what recomputeCoupon reads.
+// couponInputs is what queueCouponInputs reads.
 type couponInputs struct {
 	coupon      *Coupon
 	procedure   *Procedure
-	ranges      *ProcedureRanges
-	stale       string
+	ranges      *ProcedureRanges // Stale filled
 	sections    []predict.Section
 	record      *QualificationRecord
 	activations []groupActivation
+	calibrated  bool // some calibration of the procedure's process was activated or deactivated at the site (read for a written revision)
 }
 
 // optionalRow reads at most one row into a T (nil when there is none).
@@ -65,81 +65,141 @@ func optionalRow[T any](dst **T) func(pgx.Rows) error {
 	}
 }
 
+// linked reads at most one row of table t into dst, as optionalRow, and
+// refuses the write when the record id that field names is not there or is
+// voided (linkRefused).
+func linked[T any](dst **T, t table, field string, id uuid.UUID, voided func(*T) bool) func(pgx.Rows) error {
+	return func(rows pgx.Rows) error {
+		if err := optionalRow(dst)(rows); err != nil || rows.Err() != nil {
+			return err
+		}
+		return t.linkRefused(field, id, *dst != nil, *dst != nil && voided(*dst))
+	}
+}
+
 // recomputeCoupon rewrites one coupon's flags from its latest revision: none
 // when it is voided, names no procedure, or its procedure is voided.
 func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID) (int, error) {
-	return recomputeCouponOf(ctx, tx, now, site, id, nil, nil)
+	in, err := queueCouponInputs(ctx, tx, site, id, nil)
+	if err := firstError(err, flushed(ctx, tx)); err != nil {
+		return 0, err
+	}
+	return in.flags(ctx, tx, now, site, id)
 }
 
-// writtenCouponFlags is the step that rewrites the flags of coupon m.ID
-// after the write of revision m with values c, which is its latest: the
-// write holds the record (a new one, or a correction's record lock), so no
-// other revision can come between. Its values are taken as written instead
-// of read back; a new coupon has no flags to clear and no sections yet (a
-// section must name a coupon that is there, and this one is not until the
-// write commits).
-func writtenCouponFlags(ctx context.Context, m Meta, c CouponData) step {
+// readWrittenCoupon is the step that checks the links of a coupon revision
+// m about to be written with values c and reads what its flags and its
+// inherited fields derive from into *in (queueCouponInputs), before the
+// revision's own statements: a procedure or qualification record that is
+// not there, or is voided, refuses the write.
+func readWrittenCoupon(ctx context.Context, m Meta, c CouponData, in **couponInputs) step {
 	return func(tx pgx.Tx) error {
+		if c.ProcedureID == nil && c.QualificationRecordID == nil {
+			return &FieldError{Field: "procedure_id", Reason: "a coupon belongs to a procedure or a qualification record; give at least one"}
+		}
 		c.WeldedOn = DateOf(c.WeldedOn.Time) // as the date column keeps it
-		var calibrated bool
-		if _, err := recomputeCouponOf(ctx, tx, m.CreatedAt, m.Site, m.ID, &Coupon{Meta: m, CouponData: c}, &calibrated); err != nil {
+		var err error
+		*in, err = queueCouponInputs(ctx, tx, m.Site, m.ID, &Coupon{Meta: m, CouponData: c})
+		return err
+	}
+}
+
+// writtenCouponFlags is the step, after readWrittenCoupon and the write of
+// revision m, that fills the fields out leaves out from what it read (as
+// inheritCoupons would) and rewrites the coupon's flags. The revision is
+// the coupon's latest: the write holds the record (a new one, or a
+// correction's record lock), so no other revision can come between. Its
+// values are taken as written instead of read back; a new coupon has no
+// flags to clear and no sections yet (a section must name a coupon that is
+// there, and this one is not until the write commits).
+func writtenCouponFlags(ctx context.Context, m Meta, in **couponInputs, out *Coupon) step {
+	return func(tx pgx.Tx) error {
+		if err := flushed(ctx, tx); err != nil {
 			return err
 		}
-		if !calibrated { // no calibration of the process was ever chosen: no drift chart to redraw
+		out.inherit((*in).defaults())
+		if _, err := (*in).flags(ctx, tx, m.CreatedAt, m.Site, m.ID); err != nil {
+			return err
+		}
+		if !(*in).calibrated { // no calibration of the process was ever chosen: no drift chart to redraw
 			return nil
 		}
 		return couponDrift(ctx, tx, m.CreatedAt, m.Site, m.ID)
 	}
 }
 
-// recomputeCouponOf is recomputeCoupon; written, when not nil, is the
-// coupon's latest revision as just written in this transaction. When
-// calibrated is not nil it is set, in the same round trip, to whether any
-// calibration of the procedure's process was ever activated or deactivated
-// at the site (the drift charts a coupon write may change need one).
-func recomputeCouponOf(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID, written *Coupon, calibrated *bool) (int, error) {
-	var in couponInputs
+// defaults is what the coupon takes for the fields it leaves out, as
+// inheritSQL reads it: from its procedure's latest revision when there is
+// one, else from its qualification record's.
+func (in *couponInputs) defaults() couponDefaults {
+	switch {
+	case in.procedure != nil:
+		return procedureDefaults(*in.procedure)
+	case in.record != nil:
+		r := in.record
+		return couponDefaults{Process: r.Process, WireDiameterMM: &r.WireDiameterMM, ShieldingGas: r.ShieldingGas, Polarity: &r.Polarity}
+	}
+	return couponDefaults{}
+}
+
+// Flag locks of a coupon write, as lockProcedures takes them: a new coupon
+// names one procedure ($2), or none; a correction holds those its stored
+// revisions ($2 is the coupon) name and the one it names now ($3), in byte
+// order of their ids.
+const (
+	lockNewCouponProcedure = `SELECT pg_advisory_xact_lock_shared(hashtextextended('etchlog-flags:' || $1 || ':' || $2::uuid::text, 0))
+		WHERE $2::uuid IS NOT NULL`
+	lockCorrectedCouponProcedures = `SELECT pg_advisory_xact_lock_shared(hashtextextended('etchlog-flags:' || $1 || ':' || p::text, 0))
+		FROM (SELECT procedure_id AS p FROM coupons WHERE site = $1 AND id = $2 AND procedure_id IS NOT NULL
+		      UNION SELECT $3::uuid WHERE $3::uuid IS NOT NULL) ids
+		ORDER BY p`
+)
+
+// queueCouponInputs takes the shared flag lock of the coupon's procedures
+// and queues the reads of what its flags derive from; they arrive in *in
+// with the next flush. written, when not nil, is the revision about to be
+// written in this transaction, which is then the coupon's latest: its
+// procedure, qualification record and joint type are taken from it, and
+// the procedure and record it names are checked as links (a missing or
+// voided one refuses the write, in that order).
+func queueCouponInputs(ctx context.Context, tx pgx.Tx, site string, id uuid.UUID, written *Coupon) (*couponInputs, error) {
+	in := &couponInputs{}
 	// The procedure and joint type are the latest revision's: read by
-	// subquery, or given when the revision was just written.
-	lock, procID, joint, args := lockCouponProcedures, fmt.Sprintf(latestCoupon, "procedure_id"), fmt.Sprintf(latestCoupon, "joint_type"), []any{site, id}
-	fresh := written != nil && written.Revision == 1
+	// subquery, or given when the revision is written here.
+	lock, lockArgs := lockCouponProcedures, []any{site, id}
+	procID, joint, args := fmt.Sprintf(latestCoupon, "procedure_id"), fmt.Sprintf(latestCoupon, "joint_type"), []any{site, id}
+	readProcedure := optionalRow(&in.procedure)
 	if written != nil {
 		procID, joint, args = "$2::uuid", "$3::text", []any{site, written.ProcedureID, written.JointType}
+		lock, lockArgs = lockCorrectedCouponProcedures, []any{site, id, written.ProcedureID}
+		if written.Revision == 1 {
+			lock, lockArgs = lockNewCouponProcedure, []any{site, written.ProcedureID}
+		}
+		if written.ProcedureID != nil {
+			readProcedure = linked(&in.procedure, procedures, "procedure_id", *written.ProcedureID, func(p *Procedure) bool { return p.Voided })
+		}
 	}
-	var lockOn any = id
-	if fresh { // a new coupon names one procedure, or none: its lock, as lockProcedures takes it
-		lockOn = written.ProcedureID
-		lock = `SELECT pg_advisory_xact_lock_shared(hashtextextended('etchlog-flags:' || $1 || ':' || $2::uuid::text, 0))
-			WHERE $2::uuid IS NOT NULL`
-	}
+	latestProcess := `(SELECT process FROM procedures WHERE site = $1 AND id = ` + procID + ` ORDER BY revision DESC LIMIT 1)`
 	queued := []error{
-		queueExec(ctx, tx, lock, site, lockOn),
-		queueRows(ctx, tx, optionalRow(&in.procedure), `SELECT `+procedures.columns()+` FROM procedures
+		queueExec(ctx, tx, lock, lockArgs...),
+		queueRows(ctx, tx, readProcedure, `SELECT `+procedures.columns()+` FROM procedures
 			WHERE site = $1 AND id = `+procID+` ORDER BY revision DESC LIMIT 1`, args[:2]...),
-		queueRows(ctx, tx, optionalRow(&in.ranges), `SELECT `+rangesColumns+` FROM procedure_ranges
-			WHERE site = $1 AND procedure_id = `+procID+` ORDER BY version DESC LIMIT 1`, args[:2]...),
-		queueRows(ctx, tx, func(rows pgx.Rows) (err error) { in.stale, err = readStale(rows); return err },
-			staleSQL(`SELECT procedure_id, version, procedure_revision FROM procedure_ranges
-				WHERE site = $1 AND procedure_id = `+procID+` ORDER BY version DESC LIMIT 1`), args[:2]...),
+		queueRows(ctx, tx, readRangesWithStale(&in.ranges), rangesWithStaleSQL(procID), args[:2]...),
 		queueRows(ctx, tx, in.readActivations, `
 			SELECT a.wire_diameter_mm, a.shielding_gas, a.calibration_id, a.action, c.level, c.fit FROM (
 				SELECT DISTINCT ON (wire_diameter_mm, shielding_gas) wire_diameter_mm, shielding_gas, calibration_id, action
 				FROM calibration_activations
-				WHERE site = $1 AND family = $`+fmt.Sprint(len(args)+1)+` AND joint_type = `+joint+`
-				  AND process = (SELECT process FROM procedures WHERE site = $1 AND id = `+procID+`
-				                 ORDER BY revision DESC LIMIT 1)
+				WHERE site = $1 AND family = $`+fmt.Sprint(len(args)+1)+` AND joint_type = `+joint+` AND process = `+latestProcess+`
 				ORDER BY wire_diameter_mm, shielding_gas, activated_at DESC, id DESC) a
 			JOIN calibrations c ON c.site = $1 AND c.id = a.calibration_id`, append(args, CalibrationJacksonFixed.Family())...),
 	}
-	if calibrated != nil {
+	if written != nil { // the drift charts a coupon write may redraw need a calibration of its process
 		queued = append(queued, queueRows(ctx, tx, func(rows pgx.Rows) (err error) {
-			*calibrated, err = pgx.CollectExactlyOneRow(rows, pgx.RowTo[bool])
+			in.calibrated, err = pgx.CollectExactlyOneRow(rows, pgx.RowTo[bool])
 			return err
-		},
-			`SELECT EXISTS (SELECT 1 FROM calibration_activations WHERE site = $1
-				AND process = (SELECT process FROM procedures WHERE site = $1 AND id = `+procID+` ORDER BY revision DESC LIMIT 1))`, args[:2]...))
+		}, `SELECT EXISTS (SELECT 1 FROM calibration_activations WHERE site = $1 AND process = `+latestProcess+`)`, args[:2]...))
 	}
-	if !fresh {
+	if written == nil || written.Revision > 1 {
 		queued = append(queued,
 			queueExec(ctx, tx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2 AND kind <> 'drift'`, site, id),
 			queueRows(ctx, tx, func(rows pgx.Rows) (err error) { in.sections, err = readSections(rows); return err },
@@ -151,14 +211,18 @@ func recomputeCouponOf(ctx context.Context, tx pgx.Tx, now time.Time, site strin
 				WHERE site = $1 AND id = `+fmt.Sprintf(latestCoupon, "qualification_record_id")+` ORDER BY revision DESC LIMIT 1`, site, id))
 	} else {
 		in.coupon = written
-		if written.QualificationRecordID != nil {
-			queued = append(queued, queueRows(ctx, tx, optionalRow(&in.record), `SELECT `+qualificationRecords.columns()+` FROM qualification_records
-				WHERE site = $1 AND id = $2 ORDER BY revision DESC LIMIT 1`, site, *written.QualificationRecordID))
+		if rid := written.QualificationRecordID; rid != nil {
+			queued = append(queued, queueRows(ctx, tx,
+				linked(&in.record, qualificationRecords, "qualification_record_id", *rid, func(r *QualificationRecord) bool { return r.Voided }),
+				`SELECT `+qualificationRecords.columns()+` FROM qualification_records
+				WHERE site = $1 AND id = $2 ORDER BY revision DESC LIMIT 1`, site, *rid))
 		}
 	}
-	if err := firstError(append(queued, flushed(ctx, tx))...); err != nil {
-		return 0, err
-	}
+	return in, firstError(queued...)
+}
+
+// flags rewrites the flags of coupon id from what queueCouponInputs read.
+func (in *couponInputs) flags(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID) (int, error) {
 	if in.coupon == nil {
 		return 0, fmt.Errorf("db: coupon %s: %w", id, ErrNotFound)
 	}
@@ -176,7 +240,6 @@ func recomputeCouponOf(ctx context.Context, tx pgx.Tx, now time.Time, site strin
 	pr := ProcedureRanges{Site: site, ProcedureID: p.ID} // no ranges yet: model flags only
 	if in.ranges != nil {
 		pr = *in.ranges
-		pr.Stale = in.stale
 	}
 	if c.QualificationRecordID != nil && in.record == nil {
 		return 0, fmt.Errorf("db: qualification_record %s: %w", *c.QualificationRecordID, ErrNotFound)

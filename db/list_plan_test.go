@@ -4,6 +4,7 @@ import (
 	"context"
 	"crypto/md5"
 	"fmt"
+	"regexp"
 	"strconv"
 	"strings"
 	"sync"
@@ -41,8 +42,9 @@ func tracedStore(tb testing.TB, dbURL string) (*db.Store, *listTracer) {
 	return s, tr
 }
 
-// listTracer keeps the last list statement (the one with ORDER BY ... LIMIT)
-// a store sent, alone or in a batch, with its arguments.
+// listTracer keeps the last list statement (the one with ORDER BY ... LIMIT
+// and a page's size, bound or written in) a store sent, alone or in a
+// batch, with its arguments.
 type listTracer struct {
 	mu   sync.Mutex
 	sql  string
@@ -50,13 +52,17 @@ type listTracer struct {
 }
 
 func (t *listTracer) TraceQueryStart(ctx context.Context, _ *pgx.Conn, d pgx.TraceQueryStartData) context.Context {
-	if strings.Contains(d.SQL, "ORDER BY ") && strings.Contains(d.SQL, " LIMIT $") {
+	if strings.Contains(d.SQL, "ORDER BY ") && pageLimit.MatchString(d.SQL) {
 		t.mu.Lock()
 		t.sql, t.args = d.SQL, d.Args
 		t.mu.Unlock()
 	}
 	return ctx
 }
+
+// pageLimit matches the LIMIT of a page: bound, or written in (a page is
+// never a single row; LIMIT 1 picks a record's latest revision).
+var pageLimit = regexp.MustCompile(` LIMIT (\$[0-9]+|[0-9]{2,})`)
 
 func (t *listTracer) TraceQueryEnd(context.Context, *pgx.Conn, pgx.TraceQueryEndData) {}
 
@@ -118,6 +124,7 @@ func TestListPlansUseIndexes(t *testing.T) {
 	pqr := seededID("q", 11)
 	coupon := seededID("c", 1234)
 	from, to := db.DateOf(time.Date(2021, 3, 1, 0, 0, 0, 0, time.UTC)), db.DateOf(time.Date(2021, 3, 8, 0, 0, 0, 0, time.UTC))
+	quarter := db.DateOf(time.Date(2021, 6, 1, 0, 0, 0, 0, time.UTC))
 	at, until := time.Date(2019, 6, 1, 0, 0, 0, 0, time.UTC), time.Date(2019, 6, 2, 0, 0, 0, 0, time.UTC)
 	deep := db.SeqCursor("coupons", planCoupons)
 	cases := []struct {
@@ -134,10 +141,12 @@ func TestListPlansUseIndexes(t *testing.T) {
 		"none": {}, "procedure_id": {ProcedureID: &proc}, "qualification_record_id": {QualificationRecordID: &pqr},
 		"welder_id": {WelderID: "W17"}, "coupon_mark": {CouponMark: "C-2024"},
 		"welded_from": {WeldedFrom: &from}, "welded_to": {WeldedTo: &from}, "welded_from+to": {WeldedFrom: &from, WeldedTo: &to},
-		"procedure_id+welder_id":      {ProcedureID: &proc, WelderID: "W17"},
-		"procedure_id+welded_from+to": {ProcedureID: &proc, WeldedFrom: &from, WeldedTo: &to},
-		"welder_id+welded_from+to":    {WelderID: "W17", WeldedFrom: &from, WeldedTo: &to},
-		"acceptance=reject":           {Acceptance: "reject"}, "acceptance=accept": {Acceptance: "accept"},
+		"welded_from+to(quarter)": {WeldedFrom: &from, WeldedTo: &quarter}, "welded_from+to(quarter)+acceptance=reject": {WeldedFrom: &from, WeldedTo: &quarter, Acceptance: "reject"},
+		"welded_from+to+acceptance=reject": {WeldedFrom: &from, WeldedTo: &to, Acceptance: "reject"},
+		"procedure_id+welder_id":           {ProcedureID: &proc, WelderID: "W17"},
+		"procedure_id+welded_from+to":      {ProcedureID: &proc, WeldedFrom: &from, WeldedTo: &to},
+		"welder_id+welded_from+to":         {WelderID: "W17", WeldedFrom: &from, WeldedTo: &to},
+		"acceptance=reject":                {Acceptance: "reject"}, "acceptance=accept": {Acceptance: "accept"},
 		"procedure_id+acceptance=reject":    {ProcedureID: &proc, Acceptance: "reject"},
 		"include_voided":                    {IncludeVoided: true},
 		"qualification_record_id+welder_id": {QualificationRecordID: &pqr, WelderID: "W17"},
@@ -202,21 +211,65 @@ func TestListPlansUseIndexes(t *testing.T) {
 			t.Errorf("%s: no list statement seen", c.name)
 			continue
 		}
-		var plan []map[string]any
-		if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+sql, args...).Scan(&plan); err != nil {
-			t.Errorf("%s: explain: %v", c.name, err)
-			continue
-		}
-		root, _ := plan[0]["Plan"].(map[string]any)
-		scans := seqScans(root)
-		if reason, ok := planGaps[c.name]; ok && len(scans) > 0 {
-			t.Logf("%s: known gap (%s): %s", c.name, reason, planText(root))
-		} else if len(scans) > 0 {
-			t.Errorf("%s: sequential scan of %v: %s", c.name, scans, planText(root))
-		} else if testing.Verbose() {
-			t.Logf("%s: %s", c.name, planText(root))
+		for _, generic := range []bool{false, true} {
+			root, err := explainList(ctx, s, sql, args, generic)
+			name := c.name
+			if generic {
+				name += " (generic plan)"
+			}
+			if err != nil {
+				t.Errorf("%s: explain: %v", name, err)
+				continue
+			}
+			scans := seqScans(root)
+			if reason, ok := planGaps[c.name]; ok && len(scans) > 0 {
+				t.Logf("%s: known gap (%s): %s", name, reason, planText(root))
+			} else if len(scans) > 0 {
+				t.Errorf("%s: sequential scan of %v: %s", name, scans, planText(root))
+			} else if testing.Verbose() {
+				t.Logf("%s: %s", name, planText(root))
+			}
 		}
 	}
+}
+
+// explainList returns the plan of a list statement for its arguments: the
+// plan made for them, or with generic set the generic plan, the one
+// PostgreSQL reuses for every later execution of a prepared statement once
+// five executions have not found it dearer (the service's pool prepares
+// each statement once per connection). Both must stay off sequential scans.
+func explainList(ctx context.Context, s *db.Store, sql string, args []any, generic bool) (map[string]any, error) {
+	var plan []map[string]any
+	if !generic {
+		if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+sql, args...).Scan(&plan); err != nil {
+			return nil, err
+		}
+		root, _ := plan[0]["Plan"].(map[string]any)
+		return root, nil
+	}
+	conn, err := s.Pool().Acquire(ctx)
+	if err != nil {
+		return nil, err
+	}
+	defer conn.Release()
+	defer func() {
+		_, _ = conn.Exec(ctx, "DEALLOCATE list_plan; RESET plan_cache_mode", pgx.QueryExecModeSimpleProtocol)
+	}()
+	if _, err := conn.Exec(ctx, "PREPARE list_plan AS "+sql+"; SET plan_cache_mode = force_generic_plan", pgx.QueryExecModeSimpleProtocol); err != nil {
+		return nil, err
+	}
+	params := make([]string, len(args))
+	for i := range args {
+		params[i] = "$" + strconv.Itoa(i+1)
+	}
+	// The simple protocol writes the arguments into EXECUTE as literals.
+	rows, _ := conn.Query(ctx, "EXPLAIN (FORMAT JSON) EXECUTE list_plan("+strings.Join(params, ", ")+")",
+		append([]any{pgx.QueryExecModeSimpleProtocol}, args...)...)
+	if plan, err = pgx.CollectExactlyOneRow(rows, pgx.RowTo[[]map[string]any]); err != nil {
+		return nil, err
+	}
+	root, _ := plan[0]["Plan"].(map[string]any)
+	return root, nil
 }
 
 // TestListPlansUseIndexes also covers the sequencer's rewrite of

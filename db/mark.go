@@ -41,37 +41,32 @@ func claimMark(ctx context.Context, k markKind, m Meta, mark string) step {
 				return err
 			}
 		}
-		// The claim and the holder in one statement: the INSERT's row when
-		// it went in, else the holder this statement's snapshot sees. A
-		// holder that committed while the INSERT waited for it is not in
-		// that snapshot: then a statement of its own asks again.
+		// The claim: the INSERT's row when it went in. When it did not, the
+		// mark is held (by another record, or by this one when a correction
+		// keeps its mark): a statement of its own, after the INSERT waited
+		// for any holder still writing, reads who holds it.
 		return queueRows(ctx, tx, func(rows pgx.Rows) error {
-			holders, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+			claimed, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
 			switch {
 			case rows.Err() != nil:
 				return nil // the statement's own error is reported
 			case err != nil:
 				return err
-			case len(holders) == 0:
-				return queueRows(ctx, tx, func(rows pgx.Rows) error {
-					holder, err := pgx.CollectOneRow(rows, pgx.RowTo[uuid.UUID])
-					if rows.Err() != nil {
-						return nil
-					}
-					if err != nil {
-						return err
-					}
-					return k.held(m.ID, holder, mark)
-				}, `SELECT record_id FROM current_marks WHERE site = $1 AND kind = $2 AND mark = $3`, m.Site, k.kind, mark)
+			case len(claimed) > 0:
+				return nil
 			}
-			return k.held(m.ID, holders[0], mark)
-		}, `WITH claim AS (
-				INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, $2, $3, $4)
-				ON CONFLICT DO NOTHING RETURNING record_id)
-			SELECT record_id FROM claim
-			UNION ALL
-			SELECT record_id FROM current_marks
-			WHERE site = $1 AND kind = $2 AND mark = $3 AND NOT EXISTS (SELECT 1 FROM claim)`, m.Site, k.kind, mark, m.ID)
+			return queueRows(ctx, tx, func(rows pgx.Rows) error {
+				holder, err := pgx.CollectOneRow(rows, pgx.RowTo[uuid.UUID])
+				if rows.Err() != nil {
+					return nil
+				}
+				if err != nil {
+					return err
+				}
+				return k.held(m.ID, holder, mark)
+			}, `SELECT record_id FROM current_marks WHERE site = $1 AND kind = $2 AND mark = $3`, m.Site, k.kind, mark)
+		}, `INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, $2, $3, $4)
+			ON CONFLICT DO NOTHING RETURNING record_id`, m.Site, k.kind, mark, m.ID)
 	}
 }
 

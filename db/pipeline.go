@@ -207,12 +207,13 @@ func (t *pipeTx) Begin(ctx context.Context) (pgx.Tx, error) {
 func (t *pipeTx) Conn() *pgx.Conn { return t.conn.Conn() }
 
 // Commit sends COMMIT with the statements still queued; a queued reader that
-// may refuse is answered first, in a round trip of its own.
+// may refuse is answered first, in a round trip of its own, and so is any
+// such reader that one queues in turn.
 func (t *pipeTx) Commit(ctx context.Context) error {
 	if t.done {
 		return pgx.ErrTxClosed
 	}
-	if t.next.checking {
+	for t.next.checking { // a reader may queue another that may refuse
 		if err := t.flush(ctx); err != nil {
 			return err
 		}

@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
 )
 
 // ProductionRecordFilter selects production records; zero fields do not
@@ -58,12 +59,15 @@ func (s *Store) ProductionRecords(ctx context.Context, site string, pf Productio
 	for i, c := range productionColumns {
 		cols[i] = "production_records." + c
 	}
-	s.awaitLogged(ctx, site)
-	rows, _ := s.pool.Query(ctx, "SELECT "+strings.Join(cols, ", ")+", lg.leaf_index FROM log_leaves lg"+
+	var items []ProductionRecord
+	var last int64
+	err = s.readPage(ctx, site, "SELECT "+strings.Join(cols, ", ")+", lg.leaf_index FROM log_leaves lg"+
 		" JOIN production_records ON production_records.id = lg.record_id AND production_records.site = lg.site"+
 		" WHERE lg.site = $1 AND lg.kind = 'production_record' AND lg.leaf_index >= $2 AND "+where+
-		fmt.Sprintf(" ORDER BY lg.leaf_index LIMIT $%d", len(f.args)), f.args...)
-	items, last, err := collectIndexed[ProductionRecord](rows)
+		fmt.Sprintf(" ORDER BY lg.leaf_index LIMIT $%d", len(f.args)), f.args, func(rows pgx.Rows) (err error) {
+		items, last, err = collectIndexed[ProductionRecord](rows)
+		return err
+	})
 	if err != nil {
 		return Page[ProductionRecord]{}, fmt.Errorf("db: list production records: %w", mapError(err))
 	}

@@ -189,32 +189,90 @@ func rangesStale(ctx context.Context, q querier, pr ProcedureRanges) (string, er
 // names; $1 is the site.
 func staleSQL(ranges string) string {
 	return `
-		WITH pr AS (` + ranges + `),
+		WITH pr AS (` + ranges + `),` + staleCTEs + `
+		SELECT record_number, revision, voided FROM stale ORDER BY id`
+}
+
+// staleCTEs are the common table expressions, after pr (the ranges: at most
+// one row with procedure_id, version and procedure_revision), that end in
+// stale: each supporting qualification record of the procedure revision
+// the ranges were derived from that was corrected or voided after their
+// latest derivation, at its latest revision, in id order. $1 is the site.
+const staleCTEs = `
 		derived AS (
 			SELECT max(d.created_at) AS at FROM procedure_ranges d, pr
 			WHERE d.site = $1 AND d.procedure_id = pr.procedure_id AND d.action = 'derive' AND d.version <= pr.version),
 		support AS (
 			SELECT unnest(p.supporting_record_ids) AS id FROM procedures p, pr
-			WHERE p.site = $1 AND p.id = pr.procedure_id AND p.revision = pr.procedure_revision)
-		SELECT DISTINCT ON (r.id) r.record_number, r.revision, r.voided
-		FROM qualification_records r JOIN support s ON s.id = r.id, derived d
-		WHERE r.site = $1 AND r.created_at > d.at
-		ORDER BY r.id, r.revision DESC`
+			WHERE p.site = $1 AND p.id = pr.procedure_id AND p.revision = pr.procedure_revision),
+		stale AS (
+			SELECT DISTINCT ON (r.id) r.id, r.record_number, r.revision, r.voided
+			FROM qualification_records r JOIN support s ON s.id = r.id, derived d
+			WHERE r.site = $1 AND r.created_at > d.at
+			ORDER BY r.id, r.revision DESC)`
+
+// rangesWithStaleSQL reads the latest ranges of procedure proc (an SQL
+// expression; $1 is the site) and, in the same row, what staleCTEs finds
+// for them: no row when the procedure has no ranges.
+func rangesWithStaleSQL(proc string) string {
+	return `
+		WITH pr AS (SELECT ` + rangesColumns + ` FROM procedure_ranges
+			WHERE site = $1 AND procedure_id = ` + proc + ` ORDER BY version DESC LIMIT 1),` + staleCTEs + `
+		SELECT pr.*, st.stale_numbers, st.stale_revisions, st.stale_voided FROM pr,
+			(SELECT array_agg(record_number ORDER BY id) AS stale_numbers, array_agg(revision ORDER BY id) AS stale_revisions,
+			        array_agg(voided ORDER BY id) AS stale_voided FROM stale) st`
+}
+
+// rangesWithStale is a row of rangesWithStaleSQL.
+type rangesWithStale struct {
+	ProcedureRanges
+	StaleNumbers   []string `db:"stale_numbers"`
+	StaleRevisions []int    `db:"stale_revisions"`
+	StaleVoided    []bool   `db:"stale_voided"`
+}
+
+// readRangesWithStale reads at most one row of rangesWithStaleSQL: the
+// ranges with Stale filled, or nil when there are none.
+func readRangesWithStale(dst **ProcedureRanges) func(pgx.Rows) error {
+	return func(rows pgx.Rows) error {
+		var r *rangesWithStale
+		if err := optionalRow(&r)(rows); err != nil || r == nil {
+			return err
+		}
+		cs := make([]staleRecord, len(r.StaleNumbers))
+		for i := range cs {
+			cs[i] = staleRecord{r.StaleNumbers[i], r.StaleRevisions[i], r.StaleVoided[i]}
+		}
+		r.ProcedureRanges.Stale = staleWords(cs)
+		*dst = &r.ProcedureRanges
+		return nil
+	}
+}
+
+// staleRecord is a supporting qualification record changed after the
+// ranges were derived: its number and latest revision.
+type staleRecord struct {
+	number   string
+	revision int
+	voided   bool
 }
 
 // readStale reads the rows of staleSQL into rangesStale's answer.
 func readStale(rows pgx.Rows) (string, error) {
-	type changed struct {
-		number   string
-		revision int
-		voided   bool
-	}
-	cs, err := pgx.CollectRows(rows, func(r pgx.CollectableRow) (changed, error) {
-		var c changed
+	cs, err := pgx.CollectRows(rows, func(r pgx.CollectableRow) (staleRecord, error) {
+		var c staleRecord
 		return c, r.Scan(&c.number, &c.revision, &c.voided)
 	})
-	if err != nil || len(cs) == 0 {
+	if err != nil {
 		return "", err
+	}
+	return staleWords(cs), nil
+}
+
+// staleWords says why ranges are stale, or "" when no record changed.
+func staleWords(cs []staleRecord) string {
+	if len(cs) == 0 {
+		return ""
 	}
 	parts := make([]string, len(cs))
 	for i, c := range cs {
@@ -224,7 +282,7 @@ func readStale(rows pgx.Rows) (string, error) {
 		}
 		parts[i] = "qualification record " + c.number + " was " + what
 	}
-	return strings.Join(parts, "; ") + " after the ranges were derived: derive them again", nil
+	return strings.Join(parts, "; ") + " after the ranges were derived: derive them again"
 }
 
 // supportingValues reads the current revisions of a procedure's supporting

@@ -165,7 +165,6 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	for _, c := range strings.Split(t.columns(), ", ") {
 		cols = append(cols, "cur."+c)
 	}
-	s.awaitLogged(ctx, site) // a page shows every write acknowledged before it was asked for
 	// "cur" is a logged revision with no later logged one.
 	sql := "SELECT " + strings.Join(cols, ", ") + ", lg.leaf_index FROM log_leaves lg" +
 		" JOIN " + t.name + " cur ON cur.id = lg.record_id AND cur.revision = lg.revision AND cur.site = lg.site" +
@@ -173,10 +172,32 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 		" AND NOT EXISTS (SELECT 1 FROM log_leaves later WHERE later.site = lg.site AND later.record_id = lg.record_id" +
 		" AND later.kind = lg.kind AND later.revision > lg.revision)" +
 		" AND " + where + " ORDER BY lg.leaf_index LIMIT $" + strconv.Itoa(len(f.args)-1)
-	rows, _ := s.pool.Query(ctx, sql, f.args...)
-	items, last, err := collectIndexed[T](rows)
+	var items []T
+	var last int64
+	err = s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
+		items, last, err = collectIndexed[T](rows)
+		return err
+	})
 	if err != nil {
 		return Page[T]{}, fmt.Errorf("db: list %s: %w", t.entity, mapError(err))
 	}
 	return Page[T]{Items: items, Next: nextLogCursor(t.name, from, last, len(items))}, attachSignOffs(ctx, s.pool, site, items)
+}
+
+// readPage reads one page of a list with read, showing every write
+// acknowledged before it was asked for: the site's newest pending leaf is
+// read in the same round trip as the page, and only when the site had one
+// does the list wait for the sequencer and read the page again.
+func (s *Store) readPage(ctx context.Context, site, sql string, args []any, read func(pgx.Rows) error) error {
+	b := &pgx.Batch{}
+	var pending *int64
+	b.Queue(lastPending, site).QueryRow(func(r pgx.Row) error { return r.Scan(&pending) })
+	b.Queue(sql, args...).Query(read)
+	err := s.pool.SendBatch(ctx, b).Close()
+	if err == nil && pending != nil {
+		s.awaitSequenced(ctx, site, *pending)
+		rows, _ := s.pool.Query(ctx, sql, args...)
+		err = read(rows)
+	}
+	return err
 }

@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgtype"
 	"github.com/transparency-dev/merkle/compact"
 
 	"etchlog/db/logfmt"
@@ -18,7 +19,13 @@ type SequencerOptions struct {
 	Idle  time.Duration // longest wait between passes when no write is seen (default 20 ms)
 	Retry time.Duration // how often a follower tries to become the leader (default 1 s)
 	Batch int           // most leaves integrated per site and transaction (default 2000)
-	Logf  func(format string, args ...any)
+	// Pace is the least time between the starts of two passes that writes
+	// of this process woke (default 40 ms): while writes keep coming, the
+	// leaves committed meanwhile are integrated together, in one
+	// transaction under one checkpoint, instead of a pass for each commit
+	// competing with the writers. A write after a quiet spell is taken at once.
+	Pace time.Duration
+	Logf func(format string, args ...any)
 }
 
 func (o *SequencerOptions) defaults() {
@@ -30,6 +37,9 @@ func (o *SequencerOptions) defaults() {
 	}
 	if o.Batch <= 0 {
 		o.Batch = 2000
+	}
+	if o.Pace <= 0 {
+		o.Pace = 40 * time.Millisecond
 	}
 	if o.Logf == nil {
 		o.Logf = func(string, ...any) {}
@@ -78,6 +88,7 @@ func (s *Store) leadOnce(ctx context.Context, opt SequencerOptions) error {
 	opt.Logf("log sequencer: this process leads")
 	tick := time.NewTicker(opt.Idle)
 	defer tick.Stop()
+	var kicked time.Time // when the last pass a write woke started
 	for {
 		for {
 			full, err := s.integratePass(ctx, conn, opt.Batch)
@@ -88,11 +99,26 @@ func (s *Store) leadOnce(ctx context.Context, opt SequencerOptions) error {
 				break
 			}
 		}
-		select {
-		case <-ctx.Done():
-			return nil
-		case <-s.kick:
-		case <-tick.C:
+	wait:
+		for {
+			select {
+			case <-ctx.Done():
+				return nil
+			case <-s.kick:
+				if wait := time.Until(kicked.Add(opt.Pace)); wait > 0 { // writes keep coming: gather them
+					select {
+					case <-ctx.Done():
+						return nil
+					case <-time.After(wait):
+					}
+				}
+				kicked = time.Now()
+				break wait
+			case <-tick.C:
+				if time.Since(kicked) >= opt.Pace { // no paced pass is due
+					break wait
+				}
+			}
 		}
 	}
 }
@@ -153,14 +179,24 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 	if err != nil {
 		return false, err
 	}
-	rows, _ := tx.Query(ctx, `SELECT seq, kind, version, record_id, revision, leaf_hash, tag, actor, action, reason, at,
-		record_ids, leaf_hashes
-		FROM log_pending WHERE site = $1 ORDER BY seq LIMIT $2`, site, batch)
+	// Rows in order while the leaves before them number under batch: a
+	// pending entry of many is read whole only when it will be taken (its
+	// count is read from the stored length of its hashes, without reading them).
+	rows, _ := tx.Query(ctx, `SELECT p.seq, p.kind, p.version, p.record_id, p.revision, p.leaf_hash, p.tag, p.actor, p.action,
+		p.reason, p.at, p.record_ids, p.leaf_hashes
+		FROM (SELECT seq, sum(coalesce(length(leaf_hashes) / 32, 1)) OVER (ORDER BY seq) - coalesce(length(leaf_hashes) / 32, 1) AS before
+			FROM log_pending WHERE site = $1 ORDER BY seq LIMIT $2) c
+		JOIN log_pending p ON p.site = $1 AND p.seq = c.seq
+		WHERE c.before < $2 ORDER BY p.seq`, site, batch)
 	pend, err := pgx.CollectRows(rows, pgx.RowToStructByName[pendingLeaf])
 	if err != nil || len(pend) == 0 {
 		return false, err
 	}
-	more := len(pend) == batch
+	var waiting bool // rows past those read
+	if err := tx.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM log_pending WHERE site = $1 AND seq > $2)`, site, pend[len(pend)-1].Seq).Scan(&waiting); err != nil {
+		return false, err
+	}
+	more := waiting
 	// Rows stored before the log existed enter it without a hash, once: only
 	// below the migration's horizon and above every sequence already logged.
 	var horizon, lastSeq int64
@@ -226,21 +262,32 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 			return false, err
 		}
 	}
+	// Leaves and nodes leave in the binary COPY format, encoded here in one
+	// pass (a large pending entry makes thousands of each).
 	for _, c := range []struct {
 		table string
 		cols  []string
+		types []uint32
 		rows  [][]any
 	}{
-		{"log_leaves", []string{"site", "leaf_index", "kind", "version", "record_id", "revision", "leaf_hash",
-			"actor", "action", "reason", "at", "integrated_at", "pending_seq"}, leaves},
-		{"log_nodes", []string{"site", "tree_level", "tree_index", "hash"}, nodes},
-		{"log_rejected", []string{"seq", "site", "kind", "record_id", "revision", "why", "rejected_at"}, rejected},
+		{"log_leaves", leafColumns, leafTypes, leaves},
+		{"log_nodes", nodeColumns, nodeTypes, nodes},
 	} {
 		if len(c.rows) == 0 {
 			continue
 		}
-		if _, err := tx.CopyFrom(ctx, pgx.Identifier{c.table}, c.cols, pgx.CopyFromRows(c.rows)); err != nil {
+		data, err := encodeCopyRows(c.table, c.cols, c.types, c.rows)
+		if err == nil {
+			err = copyIn(ctx, tx, data)
+		}
+		if err != nil {
 			return false, fmt.Errorf("%s: %w", c.table, err)
+		}
+	}
+	if len(rejected) > 0 {
+		if _, err := tx.CopyFrom(ctx, pgx.Identifier{"log_rejected"}, []string{"seq", "site", "kind", "record_id", "revision", "why", "rejected_at"},
+			pgx.CopyFromRows(rejected)); err != nil {
+			return false, fmt.Errorf("log_rejected: %w", err)
 		}
 	}
 	if _, err := tx.Exec(ctx, `DELETE FROM log_pending WHERE site = $1 AND seq = ANY($2)`, site, seqs); err != nil {
@@ -265,6 +312,17 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 	}
 	return more, tx.Commit(ctx)
 }
+
+// The columns the sequencer copies into log_leaves and log_nodes, and their
+// types (migration 000009).
+var (
+	leafColumns = []string{"site", "leaf_index", "kind", "version", "record_id", "revision", "leaf_hash",
+		"actor", "action", "reason", "at", "integrated_at", "pending_seq"}
+	leafTypes = []uint32{pgtype.TextOID, pgtype.Int8OID, pgtype.TextOID, pgtype.Int4OID, pgtype.UUIDOID, pgtype.Int4OID,
+		pgtype.ByteaOID, pgtype.TextOID, pgtype.TextOID, pgtype.TextOID, pgtype.TimestamptzOID, pgtype.TimestamptzOID, pgtype.Int8OID}
+	nodeColumns = []string{"site", "tree_level", "tree_index", "hash"}
+	nodeTypes   = []uint32{pgtype.TextOID, pgtype.Int2OID, pgtype.Int8OID, pgtype.ByteaOID}
+)
 
 var rangeFactory = &compact.RangeFactory{Hash: logfmt.HashChildren}
 

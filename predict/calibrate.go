@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"sync"
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -114,7 +115,25 @@ func checkLevel(level float64) error {
 // tQuantile is the two-sided Student t critical value t(1−(1−level)/2, dof)
 // (gonum distuv.StudentsT).
 func tQuantile(level float64, dof int) float64 {
-	return distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(dof)}.Quantile(1 - (1-level)/2)
+	k := tKey{level, dof}
+	if v, ok := tQuantiles.Load(k); ok {
+		return v.(float64)
+	}
+	v := distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(dof)}.Quantile(1 - (1-level)/2)
+	tQuantiles.Store(k, v)
+	return v
+}
+
+// tQuantiles remembers tQuantile's values: a calibration judging a group
+// of coupons asks for the same level and degrees of freedom once per
+// coupon, and the inverse incomplete beta function is most of that work.
+// The keys are the few levels and fit sizes in use.
+var tQuantiles sync.Map
+
+// tKey is a tQuantiles key.
+type tKey struct {
+	level float64
+	dof   int
 }
 
 // covToRows copies a p×p covariance into [][]float64 for storage.

@@ -1,0 +1,1 @@
+DROP INDEX coupon_list_day;
