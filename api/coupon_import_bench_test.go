@@ -101,7 +101,8 @@ const benchPartSize = 256 << 10
 // part parsed, checked, written with its marks, log leaves and flags, in
 // its own transaction) beside a raw COPY of the same coupon and section
 // rows into the same tables, one transaction per part likewise, and reports
-// both rates and their ratio.
+// both rates and their ratio, and apart from them how long the log took to
+// take in the import's leaves after its last part was answered.
 func BenchmarkCouponImport(b *testing.B) {
 	e := newEnv(b)
 	proc := e.procedure()
@@ -114,7 +115,8 @@ func BenchmarkCouponImport(b *testing.B) {
 	sectionCols := []string{"site", "id", "revision", "created_at", "created_by", "reason", "voided", "coupon_id", "section",
 		"penetration_mm", "bead_width_mm", "reinforcement_mm", "leg1_mm", "leg2_mm", "throat_mm", "fused_area_mm2",
 		"acceptance", "inspector", "remark"}
-	var importTime, rawTime time.Duration
+	var importTime, rawTime, logTime, firstTime, lastTime time.Duration
+	var firstRows, lastRows, logged, logLeft int
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {
 		b.StopTimer()
@@ -139,8 +141,13 @@ func BenchmarkCouponImport(b *testing.B) {
 		}
 		rawTime += time.Since(t0)
 
+		// The first and the last tenth of the parts are timed apart too: a
+		// part that costs more as the site grows shows as a slower last tenth.
+		// The final part, shorter than the others, is in neither.
+		tenth := max(1, (len(parts)-1)/10)
 		t0 = time.Now()
 		for k, p := range parts {
+			tp := time.Now()
 			req := httptest.NewRequest(http.MethodPost, fmt.Sprintf("/v1/coupons/import?mode=commit&first_row=%d", p.firstRow), bytes.NewReader(p.body))
 			req.Header.Set("Content-Type", "text/csv")
 			req.Header.Set("Authorization", "Bearer "+e.tokens["technician"])
@@ -149,25 +156,82 @@ func BenchmarkCouponImport(b *testing.B) {
 			if rec.Code != http.StatusOK {
 				b.Fatalf("import part %d = %d %.300s", k, rec.Code, rec.Body)
 			}
+			switch {
+			case k < tenth:
+				firstTime += time.Since(tp)
+				firstRows += len(p.sections)
+			case k >= len(parts)-1-tenth && k < len(parts)-1:
+				lastTime += time.Since(tp)
+				lastRows += len(p.sections)
+			}
 		}
 		importTime += time.Since(t0)
 		b.StopTimer()
-		// The sequencer's backlog is not the next round's: wait it out. A
-		// large import leaves more leaves than one AwaitLogged bound covers.
-		for deadline := time.Now().Add(10 * time.Minute); ; {
+		// The sequencer's backlog is not the next round's: wait it out, and
+		// report apart how long the log took to take in the import's leaves
+		// after the last part was answered (log-s) and at what rate
+		// (log-leaves/s). Waiting is bounded (ETCHLOG_BENCH_IMPORT_LOG_WAIT,
+		// default 15m): after the last round, leaves still pending then are
+		// reported (log-left) instead of failing the run.
+		before, err := pendingLeaves(ctx, e)
+		if err != nil {
+			b.Fatal(err)
+		}
+		t0 = time.Now()
+		deadline := t0.Add(benchLogWait(b))
+		for {
 			err := e.store.AwaitLogged(ctx, e.site)
 			if err == nil {
 				break
 			}
-			if !errors.Is(err, db.ErrNotLogged) || time.Now().After(deadline) {
+			if !errors.Is(err, db.ErrNotLogged) {
 				b.Fatal(err)
 			}
+			if time.Now().After(deadline) {
+				if i < b.N-1 {
+					b.Fatalf("log after %s: %v", time.Since(t0).Round(time.Second), err)
+				}
+				break
+			}
 		}
+		logTime += time.Since(t0)
+		left, err := pendingLeaves(ctx, e)
+		if err != nil {
+			b.Fatal(err)
+		}
+		logged += before - left
+		logLeft = left
 		b.StartTimer()
 	}
 	rows := float64(n) * float64(b.N)
 	b.ReportMetric(rows/importTime.Seconds(), "import-rows/s")
 	b.ReportMetric(rows/rawTime.Seconds(), "copy-rows/s")
 	b.ReportMetric(rawTime.Seconds()/importTime.Seconds(), "x-of-raw")
+	b.ReportMetric(float64(firstRows)/firstTime.Seconds(), "first-tenth-rows/s")
+	b.ReportMetric(float64(lastRows)/lastTime.Seconds(), "last-tenth-rows/s")
+	b.ReportMetric(logTime.Seconds()/float64(b.N), "log-s")
+	b.ReportMetric(float64(logged)/logTime.Seconds(), "log-leaves/s")
+	b.ReportMetric(float64(logLeft), "log-left")
 	b.ReportMetric(0, "ns/op")
+}
+
+// pendingLeaves counts the env site's leaves not yet in the log.
+func pendingLeaves(ctx context.Context, e *testEnv) (int, error) {
+	var n int
+	err := e.store.Pool().QueryRow(ctx, `SELECT count(*) FROM log_pending WHERE site = $1`, e.site).Scan(&n)
+	return n, err
+}
+
+// benchLogWait bounds the wait for the log after an import round:
+// ETCHLOG_BENCH_IMPORT_LOG_WAIT (a Go duration), default 15 minutes.
+func benchLogWait(tb testing.TB) time.Duration {
+	v := os.Getenv("ETCHLOG_BENCH_IMPORT_LOG_WAIT")
+	if v == "" {
+		return 15 * time.Minute
+	}
+	d, err := time.ParseDuration(v)
+	if err != nil || d <= 0 {
+		tb.Fatalf("ETCHLOG_BENCH_IMPORT_LOG_WAIT=%q: want a duration such as 10m", v)
+	}
+	return d
 }

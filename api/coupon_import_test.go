@@ -101,11 +101,13 @@ func (e *testEnv) couponByMark(tb testing.TB, mark string) map[string]any {
 	return items[0]
 }
 
-// logSize is the number of leaves the site's log holds or has pending.
+// logSize is the number of leaves the site's log holds or has pending (a
+// pending entry of many leaves counts each leaf it names).
 func (e *testEnv) logSize(tb testing.TB) int {
 	tb.Helper()
 	var n int
-	if err := e.store.Pool().QueryRow(tb.Context(), `SELECT (SELECT count(*) FROM log_pending WHERE site = $1) +
+	if err := e.store.Pool().QueryRow(tb.Context(), `SELECT (SELECT coalesce(sum(coalesce(cardinality(record_ids), 1)), 0)
+			FROM log_pending WHERE site = $1) +
 		(SELECT count(*) FROM log_leaves WHERE site = $1)`, e.site).Scan(&n); err != nil {
 		tb.Fatal(err)
 	}

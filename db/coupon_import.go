@@ -266,8 +266,11 @@ func (p *importPlan) storedMarks(ctx context.Context, q querier, cs []ImportCoup
 	if len(marks) == 0 {
 		return held, nil
 	}
+	// Planned with the marks in hand (no cached generic plan): the planner
+	// then hashes them, instead of comparing every mark of the site with
+	// every mark of the part.
 	rows, _ := q.Query(ctx, `SELECT mark, record_id FROM current_marks WHERE site = $1 AND kind = $2 AND mark = ANY($3)`,
-		p.site, couponMark.kind, marks)
+		pgx.QueryExecModeExec, p.site, couponMark.kind, marks)
 	holders := map[string]uuid.UUID{}
 	var ids []uuid.UUID
 	var mark string

@@ -16,8 +16,9 @@ import (
 )
 
 // writeImport writes the planned coupons inside tx: claims their marks,
-// copies the coupon and section rows, logs a pending leaf per row as stored
-// and writes their flags.
+// copies the coupon and section rows, logs a leaf per row as stored (one
+// pending entry for the coupons, one for the sections) and writes their
+// flags.
 func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPlan) error {
 	if len(p.create) == 0 {
 		return nil
@@ -114,8 +115,9 @@ func copyRevisions(ctx context.Context, tx pgx.Tx, t table, rows [][]any) error 
 	return nil
 }
 
-// logStored appends a pending leaf for revision 1 of each record in ids of
-// table t, each encoded from its row as stored (appendRows).
+// logStored logs revision 1 of each record in ids of table t with one
+// pending entry of many leaves (log_many.go), each leaf encoded from its row
+// as stored, in id order; the sequencer gives every row its own leaf.
 func (s *Store) logStored(ctx context.Context, tx pgx.Tx, t table, ids []uuid.UUID, e LeafEntry) error {
 	if len(ids) == 0 {
 		return nil
@@ -125,9 +127,43 @@ func (s *Store) logStored(ctx context.Context, tx pgx.Tx, t table, ids []uuid.UU
 		return err
 	}
 	e.Kind = k.Kind
-	rows, _ := tx.Query(ctx, "SELECT "+strings.Join(k.Columns, ", ")+" FROM "+k.Table+
-		" WHERE site = $1 AND id = ANY($2) AND revision = 1 ORDER BY id", e.Site, ids)
-	return s.appendRows(ctx, tx, k, rows, e)
+	// One seek per id (the LATERAL ... LIMIT 1 keeps it a seek whatever the
+	// statistics say of a site that grew a moment ago): a scan of the site's
+	// rows would slow every part as the site grows.
+	cols := make([]string, len(k.Columns))
+	for i, c := range k.Columns {
+		cols[i] = "r." + c
+	}
+	rows, _ := tx.Query(ctx, "SELECT "+strings.Join(cols, ", ")+" FROM unnest($2::uuid[]) AS u(id) CROSS JOIN LATERAL (SELECT * FROM "+k.Table+
+		" t WHERE t.site = $1 AND t.id = u.id AND t.revision = 1 LIMIT 1) r ORDER BY r.id", e.Site, ids)
+	stored := make([]uuid.UUID, 0, len(ids))
+	hashes := make([][]byte, 0, len(ids))
+	idCol := slices.Index(k.Columns, "id")
+	for rows.Next() {
+		f, err := factOf(k, rows)
+		if err != nil {
+			rows.Close()
+			return err
+		}
+		id, err := uuid.Parse(f.Fields[idCol].Value)
+		if err != nil {
+			rows.Close()
+			return fmt.Errorf("db: %s row id: %w", k.Kind, err)
+		}
+		stored, hashes = append(stored, id), append(hashes, f.LeafHash())
+	}
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return fmt.Errorf("db: log %s: %w", k.Kind, mapError(err))
+	}
+	if len(stored) != len(ids) {
+		return fmt.Errorf("db: log %s: %d of %d rows read back", k.Kind, len(stored), len(ids))
+	}
+	m, err := s.newManyLeaves(k, e, 1, stored, hashes)
+	if err != nil {
+		return err
+	}
+	return appendMany(ctx, tx, m)
 }
 
 // writeFlags evaluates every new coupon of a procedure against that

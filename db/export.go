@@ -64,7 +64,7 @@ func (s *Store) export(ctx context.Context, pool *pgxpool.Pool, site string, rec
 		}
 	}
 	var claimed map[string]*unclaimed
-	if sum.Leaves, claimed, err = exportLeaves(ctx, tx, site, emit); err != nil {
+	if sum.Leaves, claimed, err = exportLeaves(ctx, pool, tx, site, emit); err != nil {
 		return sum, fmt.Errorf("db: export leaves: %w", err)
 	}
 	if sum.Unlogged, err = s.exportUnlogged(ctx, tx, site, claimed, emit); err != nil {

@@ -14,6 +14,7 @@ import (
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgtype"
+	"github.com/jackc/pgx/v5/pgxpool"
 
 	"etchlog/db/logfmt"
 )
@@ -40,6 +41,12 @@ type leafOut struct {
 	raw [][]byte
 }
 
+// kindVersion is one (kind, version) with leaves at the site.
+type kindVersion struct {
+	Kind    string `db:"kind"`
+	Version int    `db:"version"`
+}
+
 // leafFetch is how many leaves one FETCH of a kind's cursor takes, and
 // leafBatch how many leaves go from the reader to the writer at a time.
 const (
@@ -55,15 +62,14 @@ const (
 // read, so neither waits for the other. It returns, for each kind whose rows
 // were read beside its leaves without overflowing the window, the rows that
 // no leaf claimed (every row with no leaf is among them; see unlogged).
-func exportLeaves(ctx context.Context, tx pgx.Tx, site string, emit func(string, any) error) (int64, map[string]*unclaimed, error) {
+func exportLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string, emit func(string, any) error) (int64, map[string]*unclaimed, error) {
 	rows, _ := tx.Query(ctx, `SELECT DISTINCT kind, version FROM log_leaves WHERE site = $1`, site)
-	type kv struct {
-		Kind    string `db:"kind"`
-		Version int    `db:"version"`
-	}
-	kinds, err := pgx.CollectRows(rows, pgx.RowToStructByName[kv])
+	kinds, err := pgx.CollectRows(rows, pgx.RowToStructByName[kindVersion])
 	if err != nil {
 		return 0, nil, err
+	}
+	if n, claimed, ok, err := splitLeaves(ctx, pool, tx, site, kinds, emit); ok || err != nil {
+		return n, claimed, err
 	}
 	streams := make([]*leafStream, 0, len(kinds))
 	for i, kv := range kinds {
@@ -117,9 +123,23 @@ func exportLeaves(ctx context.Context, tx pgx.Tx, site string, emit func(string,
 	go func() {
 		defer close(batches)
 		if rerr = mergeLeaves(rctx, tx, streams, batches); rerr == nil {
-			claimed, rerr = unclaimedRows(rctx, tx, streams)
+			windows := make([]*rowWindow, len(streams))
+			for i, st := range streams {
+				windows[i] = st.rows
+			}
+			claimed, rerr = unclaimedRows(rctx, tx, windows)
 		}
 	}()
+	n, werr := writeLeaves(batches, emit, stop)
+	if werr != nil {
+		return n, nil, werr
+	}
+	return n, claimed, rerr
+}
+
+// writeLeaves encodes and emits the leaves of each batch until batches is
+// closed. On an error it calls stop and drains batches.
+func writeLeaves(batches <-chan []leafOut, emit func(string, any) error, stop func()) (int64, error) {
 	tm := pgtype.NewMap() // the reader's connection is busy: decode with a map of our own
 	var n int64
 	var werr error
@@ -145,10 +165,7 @@ func exportLeaves(ctx context.Context, tx pgx.Tx, site string, emit func(string,
 			stop() // the reader stops at its next batch; the loop drains what it sent
 		}
 	}
-	if werr != nil {
-		return n, nil, werr
-	}
-	return n, claimed, rerr
+	return n, werr
 }
 
 // mergeLeaves reads the streams' leaves and sends them in index order, in
@@ -293,10 +310,20 @@ func leafOfRaw(fds []pgconn.FieldDescription, raw [][]byte) (logfmt.ExportLeaf, 
 	if us == math.MaxInt64 || us == math.MinInt64 {
 		return logfmt.ExportLeaf{}, false
 	}
-	return logfmt.ExportLeaf{Index: binary.BigEndian.Uint64(raw[0]), Kind: string(raw[1]),
-		Version: int(int32(binary.BigEndian.Uint32(raw[2]))), RecordID: uuid.UUID(raw[3]).String(),
-		Revision: int(int32(binary.BigEndian.Uint32(raw[4]))), LeafHash: bytes.Clone(raw[5]),
-		Actor: string(raw[6]), Action: string(raw[7]), Reason: string(raw[8]), At: rawTime(us)}, true
+	// The texts go into one string (one allocation a leaf, not six).
+	var buf [512]byte
+	b := append(buf[:0], raw[1]...)
+	b = appendUUID(b, raw[3])
+	b = append(append(append(b, raw[6]...), raw[7]...), raw[8]...)
+	b = appendRawTime(b, us)
+	all := string(b)
+	cut := func(n int) string { s := all[:n]; all = all[n:]; return s }
+	l := logfmt.ExportLeaf{Index: binary.BigEndian.Uint64(raw[0]), Kind: cut(len(raw[1])),
+		Version: int(int32(binary.BigEndian.Uint32(raw[2]))), RecordID: cut(36),
+		Revision: int(int32(binary.BigEndian.Uint32(raw[4]))), LeafHash: bytes.Clone(raw[5])}
+	l.Actor, l.Action, l.Reason = cut(len(raw[6])), cut(len(raw[7])), cut(len(raw[8]))
+	l.At = all
+	return l, true
 }
 
 // exportUnlogged emits every stored fact with no leaf: rows with neither a

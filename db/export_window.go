@@ -144,10 +144,9 @@ type unclaimed struct {
 // ones no leaf claimed. A window that overflowed (a row read by key that the
 // read may not have passed, or more unclaimed rows than it holds) gives no
 // answer; its kind's rows are then checked against the log in one query.
-func unclaimedRows(ctx context.Context, tx pgx.Tx, streams []*leafStream) (map[string]*unclaimed, error) {
+func unclaimedRows(ctx context.Context, tx pgx.Tx, windows []*rowWindow) (map[string]*unclaimed, error) {
 	out := map[string]*unclaimed{}
-	for _, st := range streams {
-		w := st.rows
+	for _, w := range windows {
 		if w == nil || w.over {
 			continue
 		}

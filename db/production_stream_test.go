@@ -206,3 +206,38 @@ func TestChunkLeavesOnePerRecord(t *testing.T) {
 		t.Fatalf("VerifyLog = %+v, %v; want ok", v, err)
 	}
 }
+
+// TestDetachWaitsForManyEntry: a month holding a record that a pending entry
+// of many leaves still names is not detached (the entry is inserted and the
+// detach tried in one transaction of the database owner, which is rolled
+// back, so the sequencer never sees it).
+func TestDetachWaitsForManyEntry(t *testing.T) {
+	t.Parallel()
+	s, site := dbtest.Store(t), dbtest.Site(t)
+	a, ctx := actor(site), context.Background()
+	p := rangesProcedure(t, s, a)
+	row := productionRow(p.ID, "M-1", 200)
+	row.RecordedAt = time.Date(1913, 5, 14, 6, 0, 0, 0, time.UTC) // a month no other test writes
+	r, err := s.ProductionChunk(ctx, a, []db.ProductionRecordData{row}, lineOf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := s.AwaitLogged(ctx, site); err != nil {
+		t.Fatal(err)
+	}
+	conn := superuser(t)
+	tx, err := conn.Begin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tx.Rollback(ctx) //nolint:errcheck // the point is to roll back
+	if _, err := tx.Exec(ctx, `INSERT INTO log_pending (site, kind, version, record_id, revision, leaf_hash, tag, actor, action, reason, at, record_ids, leaf_hashes)
+		SELECT $1, 'production_record', 1, gen_random_uuid(), 1, decode(repeat('05', 32), 'hex'), decode(repeat('07', 32), 'hex'), 'ops', 'create', '', now(),
+			ARRAY[id], decode(repeat('00', 32), 'hex') FROM production_records WHERE site = $1 AND batch_id = $2`, site, r.BatchID); err != nil {
+		t.Fatal(err)
+	}
+	_, err = tx.Exec(ctx, `SELECT etchlog_detach_production_month('1913-05-01', 'ops')`)
+	if err == nil || !strings.Contains(err.Error(), "still wait for their log leaf") {
+		t.Errorf("detaching 1913-05 while a pending entry names its record: %v, want a refusal", err)
+	}
+}

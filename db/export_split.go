@@ -1,0 +1,192 @@
+package db
+
+import (
+	"context"
+	"fmt"
+	"sync"
+	"time"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgxpool"
+
+	"etchlog/db/logfmt"
+)
+
+// On one connection the leaf cursors and the row windows take turns: the
+// database computes one FETCH while the other waits. With a second
+// connection of the long-read pool free at once, splitLeaves reads the
+// leaves as one streamed query (index order, every kind) on the export's
+// connection and the rows beside them on the second, in the same snapshot
+// (pg_export_snapshot), so the two reads run at the same time and the
+// leaves need no cursor. It waits for no connection: when none is free
+// within splitWait (another export may hold it), or a kind has leaves of
+// two versions (their rows are joined in a cursor), the export reads on its
+// one connection as before.
+
+// splitWait bounds the wait for the second connection.
+const splitWait = 250 * time.Millisecond
+
+// splitLeaves emits the leaves as exportLeaves does, or reports false
+// without reading any when it cannot split the read.
+func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string, kinds []kindVersion, emit func(string, any) error) (int64, map[string]*unclaimed, bool, error) {
+	seen := map[string]bool{}
+	for _, kv := range kinds {
+		if seen[kv.Kind] {
+			return 0, nil, false, nil
+		}
+		seen[kv.Kind] = true
+	}
+	if pool == nil {
+		return 0, nil, false, nil
+	}
+	actx, cancel := context.WithTimeout(ctx, splitWait)
+	c2, err := pool.Acquire(actx)
+	cancel()
+	if err != nil {
+		return 0, nil, false, ctx.Err() // nil unless the export itself was cancelled
+	}
+	defer c2.Release()
+	var snap string
+	if err := tx.QueryRow(ctx, `SELECT pg_export_snapshot()`).Scan(&snap); err != nil {
+		return 0, nil, true, err
+	}
+	tx2, err := c2.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
+	if err != nil {
+		return 0, nil, true, err
+	}
+	defer tx2.Rollback(ctx) //nolint:errcheck // read-only
+	if _, err := tx2.Exec(ctx, "SET TRANSACTION SNAPSHOT "+quoteLiteral(snap)); err != nil {
+		return 0, nil, true, err
+	}
+	windows := map[string]*rowWindow{}
+	var all []*rowWindow
+	for _, kv := range kinds {
+		k, err := leafKind(kv.Kind, kv.Version)
+		if err != nil {
+			continue // unknown: its leaves say so
+		}
+		w, err := newRowWindow(ctx, tx2, k, site, fmt.Sprintf("etchlog_rows_%s_%d", identifier(kv.Kind), kv.Version))
+		if err != nil {
+			return 0, nil, true, err
+		}
+		windows[kv.Kind] = w
+		all = append(all, w)
+	}
+
+	rctx, stop := context.WithCancel(ctx)
+	defer stop()
+	listed := make(chan []leafOut, 2)
+	batches := make(chan []leafOut, 2)
+	var (
+		wg         sync.WaitGroup
+		lerr, rerr error
+		claimed    map[string]*unclaimed
+	)
+	wg.Add(2)
+	go func() { // the leaves, on the export's connection
+		defer wg.Done()
+		defer close(listed)
+		if lerr = listLeaves(rctx, tx, site, windows, listed); lerr != nil {
+			stop()
+		}
+	}()
+	go func() { // their rows, on the second connection
+		defer wg.Done()
+		defer close(batches)
+		for b := range listed {
+			if rerr != nil {
+				continue // drain
+			}
+			for i := range b {
+				o := &b[i]
+				w := windows[o.l.Kind]
+				if w == nil || o.l.Missing != "" {
+					continue
+				}
+				id, err := uuid.Parse(o.l.RecordID)
+				if err == nil {
+					o.raw, err = w.row(rctx, tx2, id, o.l.Revision)
+				}
+				if err != nil {
+					rerr = err
+					stop()
+					break
+				}
+				if o.raw == nil {
+					o.l.Missing = "no such row at the site"
+				} else {
+					o.k, o.fds = w.k, w.fds
+				}
+			}
+			if rerr == nil {
+				select {
+				case batches <- b:
+				case <-rctx.Done():
+					rerr = rctx.Err()
+				}
+			}
+		}
+		if rerr == nil && lerr == nil {
+			claimed, rerr = unclaimedRows(rctx, tx2, all)
+		}
+	}()
+	n, werr := writeLeaves(batches, emit, stop)
+	wg.Wait()
+	for _, err := range []error{werr, lerr, rerr} {
+		if err != nil {
+			return n, nil, true, err
+		}
+	}
+	return n, claimed, true, nil
+}
+
+// listLeaves sends every leaf of the site in index order, in batches, with
+// no row: unknown kinds marked so.
+func listLeaves(ctx context.Context, tx pgx.Tx, site string, windows map[string]*rowWindow, out chan<- []leafOut) error {
+	rows, err := tx.Query(ctx, `SELECT leaf_index, kind, version, record_id, revision, leaf_hash, actor, action, reason, at, true
+		FROM log_leaves WHERE site = $1 ORDER BY leaf_index`, site)
+	if err != nil {
+		return err
+	}
+	defer rows.Close()
+	batch := make([]leafOut, 0, leafBatch)
+	send := func() error {
+		select {
+		case out <- batch:
+			batch = make([]leafOut, 0, leafBatch)
+			return nil
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+	}
+	for rows.Next() {
+		l, ok := leafOfRaw(rows.FieldDescriptions(), rows.RawValues())
+		if !ok {
+			vals, err := rows.Values()
+			if err != nil {
+				return err
+			}
+			l = logfmt.ExportLeaf{Index: uint64(vals[0].(int64)), Kind: vals[1].(string), Version: int(vals[2].(int32)),
+				RecordID: uuid.UUID(vals[3].([16]byte)).String(), Revision: int(vals[4].(int32)), LeafHash: vals[5].([]byte),
+				Actor: vals[6].(string), Action: vals[7].(string), Reason: vals[8].(string),
+				At: vals[9].(time.Time).UTC().Format("2006-01-02T15:04:05.000000Z")}
+		}
+		if windows[l.Kind] == nil {
+			l.Missing = "this etchlog does not know the fact kind " + l.Kind
+		}
+		batch = append(batch, leafOut{l: l})
+		if len(batch) == leafBatch {
+			if err := send(); err != nil {
+				return err
+			}
+		}
+	}
+	if err := rows.Err(); err != nil {
+		return err
+	}
+	if len(batch) > 0 {
+		return send()
+	}
+	return nil
+}
