@@ -169,7 +169,8 @@ func (s *Store) CalibrationActivations(ctx context.Context, site string, calibra
 	return acts, nil
 }
 
-// activationHook holds, per site and step ("computed": before the
+// activationHook holds, per site and step ("marked": once the log's
+// position is read, before the group is; "computed": before the
 // catch-up rounds; "caught-up": before the flag locks; "locked": once they
 // are held), what a test or benchmark runs
 // there (see SetActivationHookForTest).
@@ -192,7 +193,7 @@ func activationStep(site, step string) {
 // activation event act: the check and chart of the calibration it makes
 // active, or none after a deactivation.
 func (s *Store) newGroupRecompute(ctx context.Context, tx pgx.Tx, act CalibrationActivation) (*groupRecompute, error) {
-	r := &groupRecompute{site: act.Site, now: act.ActivatedAt, g: act.CalibrationGroup.canonical(), family: act.Model.Family(), long: s.long}
+	r := &groupRecompute{site: act.Site, now: act.ActivatedAt, g: act.CalibrationGroup.canonical(), family: act.Model.Family()}
 	if act.Action != ActionActivate {
 		return r, nil
 	}

@@ -48,7 +48,6 @@ type groupRecompute struct {
 	check  *predict.PenetrationCheck // nil: no penetration calibration in use
 	drift  *driftCal                 // nil: no chart
 	calID  uuid.UUID                 // the chart's calibration (uuid.Nil: none)
-	long   querier                   // where part 1 reads the chart, beside the transaction
 	mark   int64                     // the site's last leaf index before part 1
 	seen   map[int64]bool            // the site's pending leaves then (their seq)
 	// The temporary tables activation_members, activation_flags and
@@ -245,35 +244,7 @@ func (r *groupRecompute) compute(ctx context.Context, tx pgx.Tx) error {
 	if err := r.readMark(ctx, tx); err != nil {
 		return err
 	}
-	// The chart's calibration (the coupons it was fitted to: its selection
-	// re-derived) and candidates are read on a connection of their own while
-	// the members stream here; that read starts after the mark, so what it
-	// misses is reconciled like the members.
-	type chartRead struct {
-		dc  *driftCal
-		pts []driftPoint
-		err error
-	}
-	chart := make(chan chartRead, 1)
-	go func() {
-		if r.calID == uuid.Nil {
-			chart <- chartRead{}
-			return
-		}
-		dc, err := driftCalibration(ctx, r.long, r.site, r.calID)
-		if err != nil {
-			chart <- chartRead{err: err}
-			return
-		}
-		pts, err := dc.readDriftPoints(ctx, r.long, r.g, driftCoupons, r.site, r.g.Process, r.g.JointType)
-		chart <- chartRead{&dc, pts, err}
-	}()
-	defer func() {
-		select { // on an early return, the read still ends on its own
-		case <-chart:
-		default:
-		}
-	}()
+	activationStep(r.site, "marked")
 	for _, q := range []string{
 		`CREATE TEMP TABLE activation_members (id uuid PRIMARY KEY) ON COMMIT DROP`,
 		`CREATE TEMP TABLE activation_flags (LIKE flags) ON COMMIT DROP`,
@@ -295,11 +266,25 @@ func (r *groupRecompute) compute(ctx context.Context, tx pgx.Tx) error {
 			return fmt.Errorf("group flags: %w", mapError(err))
 		}
 	}
-	got := <-chart
-	if got.err != nil {
-		return got.err
+	// The chart's calibration (the coupons it was fitted to) and candidates
+	// are read in this transaction too, after the mark, so that what it
+	// misses is reconciled like the members. Not on a connection of its own:
+	// this transaction holds its tables' locks while it waits, so a lock
+	// request queued between the two (a TRUNCATE or ALTER TABLE of one of
+	// them) would leave both waiting for ever, where PostgreSQL's deadlock
+	// check cannot see it.
+	if r.calID == uuid.Nil {
+		return nil
 	}
-	r.drift, r.points = got.dc, got.pts
+	dc, err := driftCalibration(ctx, tx, r.site, r.calID)
+	if err != nil {
+		return err
+	}
+	pts, err := dc.readDriftPoints(ctx, tx, r.g, driftCoupons, r.site, r.g.Process, r.g.JointType)
+	if err != nil {
+		return err
+	}
+	r.drift, r.points = &dc, pts
 	return nil
 }
 

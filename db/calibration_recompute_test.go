@@ -2,13 +2,16 @@ package db_test
 
 import (
 	"context"
+	"errors"
 	"slices"
 	"strings"
 	"testing"
 	"time"
 
 	"github.com/google/uuid"
+	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
 
 	"etchlog/db"
 	"etchlog/db/dbtest"
@@ -256,4 +259,59 @@ func TestActivationDoesNotBlockWriters(t *testing.T) {
 		t.Fatalf("committed during the activation: %v, want all five steps", during)
 	}
 	sameAsPerCoupon(t, s, site, "after an activation with writes during its computation")
+}
+
+// TestActivationBesideQueuedLock checks that an activation finishes when a
+// request for a table's exclusive lock (here a superuser's TRUNCATE, which
+// the append-only trigger then refuses) queues behind it while it computes:
+// every read of the activation must come from its own transaction, whose
+// locks are already held, never from a second connection whose lock would
+// queue behind the TRUNCATE while the transaction waits for it (a wait
+// PostgreSQL's deadlock check cannot see). Found by running the package's
+// tests together: a TRUNCATE test and an activation hung both for good.
+func TestActivationBesideQueuedLock(t *testing.T) {
+	t.Parallel()
+	s, site, ctx := dbtest.Store(t), dbtest.Site(t), context.Background()
+	a := actor(site)
+	groupForFlags(t, s, site)
+	cal, err := s.CreateCalibration(ctx, a, spec(db.CalibrationJacksonFree))
+	if err != nil {
+		t.Fatal(err)
+	}
+	conn, watch := superuser(t), superuser(t)
+	truncated := make(chan error, 1)
+	db.SetActivationHookForTest(site, "marked", func() {
+		var pid int32
+		if err := conn.QueryRow(ctx, `SELECT pg_backend_pid()`).Scan(&pid); err != nil {
+			t.Error(err)
+		}
+		go func() {
+			_, err := conn.Exec(ctx, "TRUNCATE calibrations CASCADE")
+			truncated <- err
+		}()
+		// Go on once the TRUNCATE waits for a lock this transaction holds.
+		for range 200 {
+			var waiting bool
+			if err := watch.QueryRow(ctx, `SELECT coalesce(wait_event_type = 'Lock', false) FROM pg_stat_activity WHERE pid = $1`, pid).
+				Scan(&waiting); err != nil {
+				t.Error(err)
+				return
+			}
+			if waiting {
+				return
+			}
+			time.Sleep(25 * time.Millisecond)
+		}
+		t.Error("the TRUNCATE never waited for the activation's lock")
+	})
+	defer db.SetActivationHookForTest(site, "marked", nil)
+	actx, cancel := context.WithTimeout(ctx, 60*time.Second)
+	defer cancel()
+	if _, err := s.ActivateCalibration(actx, a, cal.ID, "first fit"); err != nil {
+		t.Fatalf("activation beside a queued TRUNCATE: %v (want it to finish)", err)
+	}
+	var pg *pgconn.PgError
+	if err := <-truncated; !errors.As(err, &pg) || pg.Code != pgerrcode.InsufficientPrivilege {
+		t.Errorf("TRUNCATE after the activation: %v, want the append-only refusal", err)
+	}
 }
