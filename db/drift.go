@@ -7,6 +7,7 @@ import (
 	"math"
 	"slices"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/google/uuid"
@@ -128,6 +129,9 @@ func driftCalibration(ctx context.Context, q querier, site string, calID uuid.UU
 		return dc, fmt.Errorf("drift: calibration %s: %w", calID, err)
 	}
 	if sel != nil { // stored by its selection: the coupons it gave as of the fit
+		if dc.fitted = fittedSets.get(site, calID); dc.fitted != nil {
+			return dc, nil
+		}
 		if ids, err = selectedIDs(ctx, q, site, *sel); err != nil {
 			return dc, fmt.Errorf("drift: calibration %s: %w", calID, err)
 		}
@@ -136,7 +140,62 @@ func driftCalibration(ctx context.Context, q querier, site string, calID uuid.UU
 	for _, id := range ids {
 		dc.fitted[id] = true
 	}
+	if sel != nil {
+		fittedSets.put(site, calID, dc.fitted)
+	}
 	return dc, nil
+}
+
+// fittedSets keeps, per calibration stored by its selection, the set of
+// coupons the selection gave as of its fit, so that a write redrawing a
+// drift chart does not derive the selection again over the whole group.
+// The set depends only on the selection and the records as of the
+// calibration's time, which no later write changes, so an entry never goes
+// stale; the cache holds the most recently used few and is shared by every
+// Store of the process (calibration ids are unique across sites and
+// databases). A derivation is a read inside the caller's transaction of
+// data committed before it, so caching it whether or not that transaction
+// commits is safe.
+var fittedSets = &fittedCache{max: 8}
+
+type fittedCache struct {
+	mu      sync.Mutex
+	max     int
+	entries []fittedEntry // most recently used last
+}
+
+type fittedEntry struct {
+	site  string
+	calID uuid.UUID
+	ids   map[uuid.UUID]bool
+}
+
+// get returns the cached set (nil when absent); callers only read it.
+func (c *fittedCache) get(site string, calID uuid.UUID) map[uuid.UUID]bool {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	for i, e := range c.entries {
+		if e.site == site && e.calID == calID {
+			c.entries = append(append(c.entries[:i:i], c.entries[i+1:]...), e)
+			return e.ids
+		}
+	}
+	return nil
+}
+
+// put caches a set, dropping the least recently used entry when full.
+func (c *fittedCache) put(site string, calID uuid.UUID, ids map[uuid.UUID]bool) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	for _, e := range c.entries {
+		if e.site == site && e.calID == calID {
+			return
+		}
+	}
+	if len(c.entries) >= c.max {
+		c.entries = slices.Delete(c.entries, 0, 1)
+	}
+	c.entries = append(c.entries, fittedEntry{site: site, calID: calID, ids: ids})
 }
 
 // driftPoint is one row of driftCoupons with its residual and SD against

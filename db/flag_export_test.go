@@ -36,3 +36,11 @@ func SetActivationHookForTest(site, step string, f func()) {
 // group's members ($1 site, $2 process, $3 joint type) and the drift
 // chart's candidates (the same parameters).
 var ActivationQueriesForTest = map[string]string{"members": memberAll, "drift": driftCoupons}
+
+// ForgetFittedSetsForTest empties the process's cache of calibrations'
+// fitted sets, so the next drift chart derives its selection again.
+func ForgetFittedSetsForTest() {
+	fittedSets.mu.Lock()
+	defer fittedSets.mu.Unlock()
+	fittedSets.entries = nil
+}

@@ -179,15 +179,9 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 	if err != nil {
 		return false, err
 	}
-	// Rows in order while the leaves before them number under batch: a
-	// pending entry of many is read whole only when it will be taken (its
-	// count is read from the stored length of its hashes, without reading them).
-	rows, _ := tx.Query(ctx, `SELECT p.seq, p.kind, p.version, p.record_id, p.revision, p.leaf_hash, p.tag, p.actor, p.action,
-		p.reason, p.at, p.record_ids, p.leaf_hashes
-		FROM (SELECT seq, sum(coalesce(length(leaf_hashes) / 32, 1)) OVER (ORDER BY seq) - coalesce(length(leaf_hashes) / 32, 1) AS before
-			FROM log_pending WHERE site = $1 ORDER BY seq LIMIT $2) c
-		JOIN log_pending p ON p.site = $1 AND p.seq = c.seq
-		WHERE c.before < $2 ORDER BY p.seq`, site, batch)
+	rows, _ := tx.Query(ctx, `SELECT seq, kind, version, record_id, revision, leaf_hash, tag, actor, action, reason, at,
+		record_ids, leaf_hashes
+		FROM log_pending WHERE site = $1 ORDER BY seq LIMIT $2`, site, batch)
 	pend, err := pgx.CollectRows(rows, pgx.RowToStructByName[pendingLeaf])
 	if err != nil || len(pend) == 0 {
 		return false, err
