@@ -164,6 +164,15 @@ var uniqueWords = map[string]string{
 	"coupons_mark_key":                 "another coupon at this site has this mark",
 }
 
+// pgErrCode is the SQLSTATE of a PostgreSQL error in err's chain ("" when none).
+func pgErrCode(err error) string {
+	var pg *pgconn.PgError
+	if errors.As(err, &pg) {
+		return pg.Code
+	}
+	return ""
+}
+
 // mapError turns PostgreSQL errors into the package's sentinel errors by SQLSTATE.
 func mapError(err error) error {
 	var pg *pgconn.PgError

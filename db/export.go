@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"reflect"
 	"strings"
+	"sync/atomic"
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
@@ -37,6 +38,10 @@ func (s *Store) Export(ctx context.Context, site string, emit func(kind string, 
 	return s.export(ctx, s.longRead(ctx), site, true, emit)
 }
 
+// exportHook, when set, runs between an export's records and its leaves
+// (see SetExportHookForTest).
+var exportHook atomic.Pointer[func(site string)]
+
 func (s *Store) export(ctx context.Context, pool *pgxpool.Pool, site string, records bool, emit func(kind string, v any) error) (ExportSummary, error) {
 	var sum ExportSummary
 	tx, err := pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
@@ -62,6 +67,9 @@ func (s *Store) export(ctx context.Context, pool *pgxpool.Pool, site string, rec
 		if sum.Records, err = exportRecords(ctx, tx, site, emit); err != nil {
 			return sum, err
 		}
+	}
+	if h := exportHook.Load(); h != nil {
+		(*h)(site)
 	}
 	var claimed map[string]*unclaimed
 	if sum.Leaves, claimed, err = exportLeaves(ctx, pool, tx, site, emit); err != nil {

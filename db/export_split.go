@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"github.com/google/uuid"
+	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
 
@@ -59,6 +60,17 @@ func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string
 	if _, err := tx2.Exec(ctx, "SET TRANSACTION SNAPSHOT "+quoteLiteral(snap)); err != nil {
 		return 0, nil, true, err
 	}
+	// The export's transaction holds its tables' locks while it waits for
+	// this one, so a lock request queued between the two (a TRUNCATE, an
+	// ALTER TABLE, a production month detached) would leave both waiting
+	// for good, where PostgreSQL's deadlock check cannot see it. So this
+	// connection waits at most splitWait for a lock: while it opens its
+	// windows (the only statements that take new locks) the export then
+	// reads on its one connection as before; later, the export fails
+	// instead of hanging.
+	if _, err := tx2.Exec(ctx, "SET LOCAL lock_timeout = "+quoteLiteral(fmt.Sprintf("%dms", splitWait.Milliseconds()))); err != nil {
+		return 0, nil, true, err
+	}
 	windows := map[string]*rowWindow{}
 	var all []*rowWindow
 	for _, kv := range kinds {
@@ -67,6 +79,9 @@ func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string
 			continue // unknown: its leaves say so
 		}
 		w, err := newRowWindow(ctx, tx2, k, site, fmt.Sprintf("etchlog_rows_%s_%d", identifier(kv.Kind), kv.Version))
+		if pgErrCode(err) == pgerrcode.LockNotAvailable {
+			return 0, nil, false, nil // a lock request is queued: read on one connection
+		}
 		if err != nil {
 			return 0, nil, true, err
 		}

@@ -44,3 +44,13 @@ func ForgetFittedSetsForTest() {
 	defer fittedSets.mu.Unlock()
 	fittedSets.entries = nil
 }
+
+// SetExportHookForTest makes every export call f(site) between its records
+// and its leaves (nil: none).
+func SetExportHookForTest(f func(site string)) {
+	if f == nil {
+		exportHook.Store(nil)
+		return
+	}
+	exportHook.Store(&f)
+}
