@@ -22,6 +22,9 @@ import (
 // that table's lock, so a second connection that asked for it next would
 // queue behind the TRUNCATE while the export waits for it, a wait
 // PostgreSQL's deadlock check cannot see.
+//
+// Not parallel: the queued TRUNCATE stalls every other transaction that
+// reads coupons until the export ends.
 func TestExportBesideQueuedLock(t *testing.T) {
 	s, site, ctx := dbtest.Store(t), dbtest.Site(t), context.Background()
 	p := mustProcedure(t, s, site)
