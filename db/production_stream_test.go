@@ -103,7 +103,9 @@ func TestProductionMonths(t *testing.T) {
 // partition, and a month dropped altogether shows in verify as facts
 // missing from the database.
 func TestDetachProductionMonth(t *testing.T) {
-	t.Parallel()
+	// Not parallel: detaching a month locks production_records for every
+	// site, so a production write of another test may be chosen as the
+	// deadlock victim and told to retry.
 	s, site := dbtest.Store(t), dbtest.Site(t)
 	a, ctx := actor(site), context.Background()
 	p := rangesProcedure(t, s, a)
@@ -212,7 +214,9 @@ func TestChunkLeavesOnePerRecord(t *testing.T) {
 // detach tried in one transaction of the database owner, which is rolled
 // back, so the sequencer never sees it).
 func TestDetachWaitsForManyEntry(t *testing.T) {
-	t.Parallel()
+	// Not parallel: detaching a month locks production_records for every
+	// site, so a production write of another test may be chosen as the
+	// deadlock victim and told to retry.
 	s, site := dbtest.Store(t), dbtest.Site(t)
 	a, ctx := actor(site), context.Background()
 	p := rangesProcedure(t, s, a)
