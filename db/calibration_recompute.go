@@ -255,15 +255,8 @@ func (r *groupRecompute) compute(ctx context.Context, tx pgx.Tx) error {
 		}
 	}
 	if r.family == CalibrationJacksonFixed.Family() { // a melting calibration judges no coupon flag
-		ids, err := r.evaluate(ctx, tx, memberAll, r.site, r.g.Process, r.g.JointType)
-		if err != nil {
+		if err := r.judge(ctx, tx, memberAll, r.site, r.g.Process, r.g.JointType); err != nil {
 			return err
-		}
-		if err := copyIDs(ctx, tx, r.site, ids); err != nil {
-			return fmt.Errorf("group members: %w", err)
-		}
-		if err := r.copyQueued(ctx, tx); err != nil {
-			return fmt.Errorf("group flags: %w", mapError(err))
 		}
 	}
 	// The chart's calibration (the coupons it was fitted to) and candidates
@@ -414,18 +407,28 @@ func (r *groupRecompute) reconcile(ctx context.Context, tx pgx.Tx) error {
 	return r.redraw(ctx, tx)
 }
 
+// judge evaluates the coupons query gives (memberAll or memberOf, with
+// args) and copies the members and their flags into the activation's
+// tables.
+func (r *groupRecompute) judge(ctx context.Context, tx pgx.Tx, query string, args ...any) error {
+	ids, err := r.evaluate(ctx, tx, query, args...)
+	if err != nil {
+		return err
+	}
+	if err := copyIDs(ctx, tx, r.site, ids); err != nil {
+		return fmt.Errorf("group members: %w", err)
+	}
+	if err := r.copyQueued(ctx, tx); err != nil {
+		return fmt.Errorf("group flags: %w", mapError(err))
+	}
+	return nil
+}
+
 // evaluateAll redoes part 1's reads under the lock.
 func (r *groupRecompute) evaluateAll(ctx context.Context, tx pgx.Tx) error {
 	if r.family == CalibrationJacksonFixed.Family() {
-		ids, err := r.evaluate(ctx, tx, memberAll, r.site, r.g.Process, r.g.JointType)
-		if err != nil {
+		if err := r.judge(ctx, tx, memberAll, r.site, r.g.Process, r.g.JointType); err != nil {
 			return err
-		}
-		if err := copyIDs(ctx, tx, r.site, ids); err != nil {
-			return err
-		}
-		if err := r.copyQueued(ctx, tx); err != nil {
-			return mapError(err)
 		}
 	}
 	if r.drift != nil {
@@ -447,15 +450,8 @@ func (r *groupRecompute) evaluateChanged(ctx context.Context, tx pgx.Tx, changed
 				return err
 			}
 		}
-		ids, err := r.evaluate(ctx, tx, memberOf, r.site, r.g.Process, r.g.JointType, changed)
-		if err != nil {
+		if err := r.judge(ctx, tx, memberOf, r.site, r.g.Process, r.g.JointType, changed); err != nil {
 			return err
-		}
-		if err := copyIDs(ctx, tx, r.site, ids); err != nil {
-			return err
-		}
-		if err := r.copyQueued(ctx, tx); err != nil {
-			return mapError(err)
 		}
 	}
 	if r.drift != nil {

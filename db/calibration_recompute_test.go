@@ -279,32 +279,8 @@ func TestActivationBesideQueuedLock(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	conn, watch := superuser(t), superuser(t)
-	truncated := make(chan error, 1)
-	db.SetActivationHookForTest(site, "marked", func() {
-		var pid int32
-		if err := conn.QueryRow(ctx, `SELECT pg_backend_pid()`).Scan(&pid); err != nil {
-			t.Error(err)
-		}
-		go func() {
-			_, err := conn.Exec(ctx, "TRUNCATE calibrations CASCADE")
-			truncated <- err
-		}()
-		// Go on once the TRUNCATE waits for a lock this transaction holds.
-		for range 200 {
-			var waiting bool
-			if err := watch.QueryRow(ctx, `SELECT coalesce(wait_event_type = 'Lock', false) FROM pg_stat_activity WHERE pid = $1`, pid).
-				Scan(&waiting); err != nil {
-				t.Error(err)
-				return
-			}
-			if waiting {
-				return
-			}
-			time.Sleep(25 * time.Millisecond)
-		}
-		t.Error("the TRUNCATE never waited for the activation's lock")
-	})
+	var truncated <-chan error
+	db.SetActivationHookForTest(site, "marked", func() { truncated = queueTruncate(t, "calibrations") })
 	defer db.SetActivationHookForTest(site, "marked", nil)
 	actx, cancel := context.WithTimeout(ctx, 60*time.Second)
 	defer cancel()

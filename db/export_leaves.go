@@ -171,16 +171,7 @@ func writeLeaves(batches <-chan []leafOut, emit func(string, any) error, stop fu
 // mergeLeaves reads the streams' leaves and sends them in index order, in
 // batches, until every stream is done.
 func mergeLeaves(ctx context.Context, tx pgx.Tx, streams []*leafStream, out chan<- []leafOut) error {
-	batch := make([]leafOut, 0, leafBatch)
-	send := func() error {
-		select {
-		case out <- batch:
-			batch = make([]leafOut, 0, leafBatch)
-			return nil
-		case <-ctx.Done():
-			return ctx.Err()
-		}
-	}
+	b := leafBatcher{out: out}
 	for {
 		var next *leafStream
 		for _, st := range streams {
@@ -194,18 +185,13 @@ func mergeLeaves(ctx context.Context, tx pgx.Tx, streams []*leafStream, out chan
 			}
 		}
 		if next == nil {
-			if len(batch) > 0 {
-				return send()
-			}
-			return nil
+			return b.flush(ctx)
 		}
-		batch = append(batch, next.buf[0])
+		o := next.buf[0]
 		next.buf[0] = leafOut{}
 		next.buf = next.buf[1:]
-		if len(batch) == leafBatch {
-			if err := send(); err != nil {
-				return err
-			}
+		if err := b.add(ctx, o); err != nil {
+			return err
 		}
 	}
 }
@@ -222,17 +208,9 @@ func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
 	}
 	st.buf = st.buf[:0]
 	for rows.Next() {
-		fds := rows.FieldDescriptions()
-		l, ok := leafOfRaw(fds, rows.RawValues())
-		if !ok {
-			vals, err := rows.Values()
-			if err != nil {
-				return err
-			}
-			l = logfmt.ExportLeaf{Index: uint64(vals[0].(int64)), Kind: vals[1].(string), Version: int(vals[2].(int32)),
-				RecordID: uuid.UUID(vals[3].([16]byte)).String(), Revision: int(vals[4].(int32)), LeafHash: vals[5].([]byte),
-				Actor: vals[6].(string), Action: vals[7].(string), Reason: vals[8].(string),
-				At: vals[9].(time.Time).UTC().Format("2006-01-02T15:04:05.000000Z")}
+		l, err := leafOfRow(rows)
+		if err != nil {
+			return err
 		}
 		raw := rows.RawValues()
 		o := leafOut{l: l, k: st.k}
@@ -244,7 +222,7 @@ func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
 			o.l.Missing = "no such row at the site"
 		default:
 			if st.fds == nil {
-				st.fds = slices.Clone(fds[11:])
+				st.fds = slices.Clone(rows.FieldDescriptions()[11:])
 			}
 			o.fds, o.raw = st.fds, cloneRow(raw[11:])
 		}
@@ -292,6 +270,56 @@ func cloneRow(raw [][]byte) [][]byte {
 		}
 	}
 	return out
+}
+
+// leafOfRow is the leaf of the current row of a leaf query (its columns
+// leaf_index, kind, version, record_id, revision, leaf_hash, actor, action,
+// reason, at first): from its raw values, or through the driver's decoding
+// when leafOfRaw cannot read them.
+func leafOfRow(rows pgx.Rows) (logfmt.ExportLeaf, error) {
+	if l, ok := leafOfRaw(rows.FieldDescriptions(), rows.RawValues()); ok {
+		return l, nil
+	}
+	vals, err := rows.Values()
+	if err != nil {
+		return logfmt.ExportLeaf{}, err
+	}
+	return logfmt.ExportLeaf{Index: uint64(vals[0].(int64)), Kind: vals[1].(string), Version: int(vals[2].(int32)),
+		RecordID: uuid.UUID(vals[3].([16]byte)).String(), Revision: int(vals[4].(int32)), LeafHash: vals[5].([]byte),
+		Actor: vals[6].(string), Action: vals[7].(string), Reason: vals[8].(string),
+		At: vals[9].(time.Time).UTC().Format("2006-01-02T15:04:05.000000Z")}, nil
+}
+
+// leafBatcher gathers leaves into batches of leafBatch for a channel.
+type leafBatcher struct {
+	out   chan<- []leafOut
+	batch []leafOut
+}
+
+// add appends o, sending the batch once it is full.
+func (b *leafBatcher) add(ctx context.Context, o leafOut) error {
+	if b.batch == nil {
+		b.batch = make([]leafOut, 0, leafBatch)
+	}
+	b.batch = append(b.batch, o)
+	if len(b.batch) < leafBatch {
+		return nil
+	}
+	return b.flush(ctx)
+}
+
+// flush sends what is gathered (nothing when empty).
+func (b *leafBatcher) flush(ctx context.Context) error {
+	if len(b.batch) == 0 {
+		return nil
+	}
+	select {
+	case b.out <- b.batch:
+		b.batch = nil
+		return nil
+	case <-ctx.Done():
+		return ctx.Err()
+	}
 }
 
 // leafOfRaw reads a leaf's listing (the first ten columns of a leafStream

@@ -34,33 +34,12 @@ func TestExportBesideQueuedLock(t *testing.T) {
 		}
 	}
 	mustLogged(t, s, site)
-	conn, watch := superuser(t), superuser(t)
-	truncated := make(chan error, 1)
+	var truncated <-chan error
 	db.SetExportHookForTest(func(s string) {
 		if s != site {
 			return
 		}
-		var pid int32
-		if err := conn.QueryRow(ctx, `SELECT pg_backend_pid()`).Scan(&pid); err != nil {
-			t.Error(err)
-		}
-		go func() {
-			_, err := conn.Exec(ctx, "TRUNCATE coupons CASCADE")
-			truncated <- err
-		}()
-		for range 200 { // go on once the TRUNCATE waits for the export's lock
-			var waiting bool
-			if err := watch.QueryRow(ctx, `SELECT coalesce(wait_event_type = 'Lock', false) FROM pg_stat_activity WHERE pid = $1`, pid).
-				Scan(&waiting); err != nil {
-				t.Error(err)
-				return
-			}
-			if waiting {
-				return
-			}
-			time.Sleep(25 * time.Millisecond)
-		}
-		t.Error("the TRUNCATE never waited for the export's lock")
+		truncated = queueTruncate(t, "coupons")
 	})
 	defer db.SetExportHookForTest(nil)
 	ectx, cancel := context.WithTimeout(ctx, 60*time.Second)
@@ -82,4 +61,39 @@ func TestExportBesideQueuedLock(t *testing.T) {
 	if err := <-truncated; !errors.As(err, &pg) || pg.Code != pgerrcode.InsufficientPrivilege {
 		t.Errorf("TRUNCATE after the export: %v, want the append-only refusal", err)
 	}
+}
+
+// queueTruncate starts a superuser's TRUNCATE table CASCADE and returns
+// once it waits for a lock (its result comes on the channel): called while
+// a transaction of the test holds that table's lock, it leaves an exclusive
+// lock request queued behind that transaction.
+func queueTruncate(t *testing.T, table string) <-chan error {
+	t.Helper()
+	ctx := context.Background()
+	conn, watch := superuser(t), superuser(t)
+	done := make(chan error, 1)
+	var pid int32
+	if err := conn.QueryRow(ctx, `SELECT pg_backend_pid()`).Scan(&pid); err != nil {
+		t.Error(err)
+		done <- err
+		return done
+	}
+	go func() {
+		_, err := conn.Exec(ctx, "TRUNCATE "+table+" CASCADE")
+		done <- err
+	}()
+	for range 200 {
+		var waiting bool
+		if err := watch.QueryRow(ctx, `SELECT coalesce(wait_event_type = 'Lock', false) FROM pg_stat_activity WHERE pid = $1`, pid).
+			Scan(&waiting); err != nil {
+			t.Error(err)
+			return done
+		}
+		if waiting {
+			return done
+		}
+		time.Sleep(25 * time.Millisecond)
+	}
+	t.Errorf("the TRUNCATE of %s never waited for a lock", table)
+	return done
 }

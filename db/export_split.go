@@ -10,8 +10,6 @@ import (
 	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
-
-	"etchlog/db/logfmt"
 )
 
 // On one connection the leaf cursors and the row windows take turns: the
@@ -165,43 +163,21 @@ func listLeaves(ctx context.Context, tx pgx.Tx, site string, windows map[string]
 		return err
 	}
 	defer rows.Close()
-	batch := make([]leafOut, 0, leafBatch)
-	send := func() error {
-		select {
-		case out <- batch:
-			batch = make([]leafOut, 0, leafBatch)
-			return nil
-		case <-ctx.Done():
-			return ctx.Err()
-		}
-	}
+	b := leafBatcher{out: out}
 	for rows.Next() {
-		l, ok := leafOfRaw(rows.FieldDescriptions(), rows.RawValues())
-		if !ok {
-			vals, err := rows.Values()
-			if err != nil {
-				return err
-			}
-			l = logfmt.ExportLeaf{Index: uint64(vals[0].(int64)), Kind: vals[1].(string), Version: int(vals[2].(int32)),
-				RecordID: uuid.UUID(vals[3].([16]byte)).String(), Revision: int(vals[4].(int32)), LeafHash: vals[5].([]byte),
-				Actor: vals[6].(string), Action: vals[7].(string), Reason: vals[8].(string),
-				At: vals[9].(time.Time).UTC().Format("2006-01-02T15:04:05.000000Z")}
+		l, err := leafOfRow(rows)
+		if err != nil {
+			return err
 		}
 		if windows[l.Kind] == nil {
 			l.Missing = "this etchlog does not know the fact kind " + l.Kind
 		}
-		batch = append(batch, leafOut{l: l})
-		if len(batch) == leafBatch {
-			if err := send(); err != nil {
-				return err
-			}
+		if err := b.add(ctx, leafOut{l: l}); err != nil {
+			return err
 		}
 	}
 	if err := rows.Err(); err != nil {
 		return err
 	}
-	if len(batch) > 0 {
-		return send()
-	}
-	return nil
+	return b.flush(ctx)
 }
