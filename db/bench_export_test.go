@@ -3,10 +3,8 @@ package db_test
 import (
 	"context"
 	"io"
-	"os"
 	"runtime"
 	"runtime/metrics"
-	"strconv"
 	"testing"
 
 	"etchlog/db"
@@ -22,10 +20,7 @@ import (
 // with COPY. It reports the largest live heap seen while the export ran
 // (peak-heap-MiB): a constant-memory export keeps it flat as the site grows.
 func BenchmarkExport(b *testing.B) {
-	n := 100000
-	if v, err := strconv.Atoi(os.Getenv("ETCHLOG_BENCH_EXPORT_COUPONS")); err == nil && v > 0 {
-		n = v
-	}
+	n := envInt(b, "ETCHLOG_BENCH_EXPORT_COUPONS", 100000)
 	ctx := context.Background()
 	dbURL, conn, _ := benchSite(b, n)
 	const site = "bench"

@@ -3,7 +3,6 @@ package db_test
 import (
 	"context"
 	"fmt"
-	"os"
 	"strconv"
 	"testing"
 	"time"
@@ -25,10 +24,7 @@ import (
 // x-of-raw, the raw time over the Store's; clients=8: pages/s of each and
 // their ratio).
 func BenchmarkRecordListScale(b *testing.B) {
-	n := 100000
-	if v, err := strconv.Atoi(os.Getenv("ETCHLOG_BENCH_LIST_COUPONS")); err == nil && v > 0 {
-		n = v
-	}
+	n := envInt(b, "ETCHLOG_BENCH_LIST_COUPONS", 100000)
 	ctx := context.Background()
 	dbURL, conn, proc := benchSite(b, n)
 	const site = "bench"

@@ -3,9 +3,7 @@ package db_test
 import (
 	"context"
 	"fmt"
-	"os"
 	"slices"
-	"strconv"
 	"sync"
 	"testing"
 	"time"
@@ -27,10 +25,7 @@ import (
 //     SELECT, b.N calls in all each; x-of-raw is the Store's throughput
 //     over the raw SELECT's.
 func BenchmarkCouponListScale(b *testing.B) {
-	n := 100000
-	if v, err := strconv.Atoi(os.Getenv("ETCHLOG_BENCH_LIST_COUPONS")); err == nil && v > 0 {
-		n = v
-	}
+	n := envInt(b, "ETCHLOG_BENCH_LIST_COUPONS", 100000)
 	ctx := context.Background()
 	dbURL, conn, proc := benchSite(b, n)
 	const site = "bench"
