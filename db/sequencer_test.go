@@ -110,7 +110,8 @@ func waitLeader(t *testing.T, conn *pgx.Conn, not int) int {
 // the kind's explicit field list, so every old leaf still verifies, and a
 // coupon written after the change is logged and verifies too.
 func TestAddedColumnKeepsOldLeaves(t *testing.T) {
-	t.Parallel()
+	// Not parallel: it takes table-wide locks (ALTER TABLE, TRUNCATE) that
+	// can make another test's write a deadlock victim.
 	s, site, ctx := dbtest.Store(t), dbtest.Site(t), context.Background()
 	p := mustProcedure(t, s, site)
 	c, err := s.CreateCoupon(ctx, actor(site), couponData(p.ID, "C-COL-1"))

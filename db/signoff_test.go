@@ -31,7 +31,8 @@ func leafHash(data []byte) []byte {
 // sign-off is refused, other roles cannot sign, and the sign-off is itself a
 // leaf of the log that verify checks.
 func TestSignOff(t *testing.T) {
-	t.Parallel()
+	// Not parallel: it takes table-wide locks (ALTER TABLE, TRUNCATE) that
+	// can make another test's write a deadlock victim.
 	s, site, ctx := dbtest.Store(t), dbtest.Site(t), context.Background()
 	eng := actor(site)
 	q, err := s.CreateQualificationRecord(ctx, eng, rangesPQRData("PQR-SIGN-1"))

@@ -170,7 +170,8 @@ const (
 // no check can find without a saved checkpoint: cutting the log's tail back
 // to an earlier checkpoint of its own.
 func TestTamperingIsDetected(t *testing.T) {
-	t.Parallel()
+	// Not parallel: it takes table-wide locks (ALTER TABLE, TRUNCATE) that
+	// can make another test's write a deadlock victim.
 	s := dbtest.Store(t)
 	conn := superuser(t)
 	ctx := context.Background()
