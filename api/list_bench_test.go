@@ -5,13 +5,12 @@ import (
 	"fmt"
 	"io"
 	"net/http"
-	"sync"
 	"testing"
-	"time"
 
 	"github.com/jackc/pgx/v5"
 
 	"etchlog/db"
+	"etchlog/db/dbtest"
 )
 
 // BenchmarkCouponListAPI asks GET /v1/coupons?limit=50 from 8 clients at
@@ -65,42 +64,15 @@ func BenchmarkCouponListAPI(b *testing.B) {
 		return err
 	}
 	b.ResetTimer()
-	de, err := eightClients(b.N, endpoint)
+	de, err := dbtest.Clients(8, b.N, endpoint)
 	if err != nil {
 		b.Fatal(err)
 	}
-	dr, err := eightClients(b.N, raw)
+	dr, err := dbtest.Clients(8, b.N, raw)
 	if err != nil {
 		b.Fatal(err)
 	}
 	b.ReportMetric(float64(b.N)/de.Seconds(), "endpoint-pages/s")
 	b.ReportMetric(float64(b.N)/dr.Seconds(), "raw-pages/s")
 	b.ReportMetric(dr.Seconds()/de.Seconds(), "x-of-raw")
-}
-
-// eightClients runs call n times from 8 goroutines; it returns the wall
-// time and the first error.
-func eightClients(n int, call func() error) (time.Duration, error) {
-	var wg sync.WaitGroup
-	var once sync.Once
-	var first error
-	work := make(chan struct{}, n)
-	for range n {
-		work <- struct{}{}
-	}
-	close(work)
-	t0 := time.Now()
-	for range 8 {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for range work {
-				if err := call(); err != nil {
-					once.Do(func() { first = err })
-				}
-			}
-		}()
-	}
-	wg.Wait()
-	return time.Since(t0), first
 }

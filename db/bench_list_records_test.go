@@ -11,6 +11,7 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"etchlog/db"
+	"etchlog/db/dbtest"
 )
 
 // BenchmarkRecordListScale pages the sections list and the flags list of
@@ -149,11 +150,11 @@ func sideBySide(b *testing.B, name string, store, raw func() error) {
 		b.ReportMetric(float64(sum(tr))/float64(sum(ts)), "x-of-raw")
 	})
 	b.Run(name+"/clients=8", func(b *testing.B) {
-		ds, err := clients(8, b.N, store)
+		ds, err := dbtest.Clients(8, b.N, store)
 		if err != nil {
 			b.Fatal(err)
 		}
-		dr, err := clients(8, b.N, raw)
+		dr, err := dbtest.Clients(8, b.N, raw)
 		if err != nil {
 			b.Fatal(err)
 		}

@@ -4,13 +4,13 @@ import (
 	"context"
 	"fmt"
 	"slices"
-	"sync"
 	"testing"
 	"time"
 
 	"github.com/jackc/pgx/v5"
 
 	"etchlog/db"
+	"etchlog/db/dbtest"
 )
 
 // BenchmarkCouponListScale pages the coupons list of one site holding
@@ -99,11 +99,11 @@ func BenchmarkCouponListScale(b *testing.B) {
 			b.ReportMetric(float64(sum(tr))/float64(sum(ts)), "x-of-raw")
 		})
 		b.Run(c.name+"/clients=8", func(b *testing.B) {
-			ds, err := clients(8, b.N, store)
+			ds, err := dbtest.Clients(8, b.N, store)
 			if err != nil {
 				b.Fatal(err)
 			}
-			dr, err := clients(8, b.N, raw)
+			dr, err := dbtest.Clients(8, b.N, raw)
 			if err != nil {
 				b.Fatal(err)
 			}
@@ -112,33 +112,6 @@ func BenchmarkCouponListScale(b *testing.B) {
 			b.ReportMetric(dr.Seconds()/ds.Seconds(), "x-of-raw")
 		})
 	}
-}
-
-// clients runs call n times from k goroutines and returns the wall time
-// and the first error.
-func clients(k, n int, call func() error) (time.Duration, error) {
-	var wg sync.WaitGroup
-	var once sync.Once
-	var first error
-	work := make(chan struct{}, n)
-	for range n {
-		work <- struct{}{}
-	}
-	close(work)
-	t0 := time.Now()
-	for range k {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for range work {
-				if err := call(); err != nil {
-					once.Do(func() { first = err })
-				}
-			}
-		}()
-	}
-	wg.Wait()
-	return time.Since(t0), first
 }
 
 // p95 is the 95th percentile of ds in milliseconds.

@@ -1,0 +1,34 @@
+package dbtest
+
+import (
+	"sync"
+	"time"
+)
+
+// Clients runs call n times from k goroutines, as k clients would, and
+// returns the wall time and the first error (the benchmarks' side-by-side
+// runs at a fixed concurrency).
+func Clients(k, n int, call func() error) (time.Duration, error) {
+	var wg sync.WaitGroup
+	var once sync.Once
+	var first error
+	work := make(chan struct{}, n)
+	for range n {
+		work <- struct{}{}
+	}
+	close(work)
+	t0 := time.Now()
+	for range k {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for range work {
+				if err := call(); err != nil {
+					once.Do(func() { first = err })
+				}
+			}
+		}()
+	}
+	wg.Wait()
+	return time.Since(t0), first
+}
