@@ -10,7 +10,6 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"etchlog/db"
-	"etchlog/db/dbtest"
 )
 
 // BenchmarkCouponListScale pages the coupons list of one site holding
@@ -81,36 +80,7 @@ func BenchmarkCouponListScale(b *testing.B) {
 			}
 			return err
 		}
-		b.Run(c.name+"/clients=1", func(b *testing.B) {
-			var ts, tr []time.Duration
-			for i := 0; i < b.N; i++ {
-				t0 := time.Now()
-				if err := store(); err != nil {
-					b.Fatal(err)
-				}
-				t1 := time.Now()
-				if err := raw(); err != nil {
-					b.Fatal(err)
-				}
-				ts, tr = append(ts, t1.Sub(t0)), append(tr, time.Since(t1))
-			}
-			b.ReportMetric(p95(ts), "store-p95-ms")
-			b.ReportMetric(p95(tr), "raw-p95-ms")
-			b.ReportMetric(float64(sum(tr))/float64(sum(ts)), "x-of-raw")
-		})
-		b.Run(c.name+"/clients=8", func(b *testing.B) {
-			ds, err := dbtest.Clients(8, b.N, store)
-			if err != nil {
-				b.Fatal(err)
-			}
-			dr, err := dbtest.Clients(8, b.N, raw)
-			if err != nil {
-				b.Fatal(err)
-			}
-			b.ReportMetric(float64(b.N)/ds.Seconds(), "store-pages/s")
-			b.ReportMetric(float64(b.N)/dr.Seconds(), "raw-pages/s")
-			b.ReportMetric(dr.Seconds()/ds.Seconds(), "x-of-raw")
-		})
+		sideBySide(b, c.name, store, raw)
 	}
 }
 
