@@ -37,33 +37,33 @@ func (l *listedLeaves) add(kind string, id [16]byte) {
 	}
 }
 
-// refresh rewrites, inside the sequencer's transaction, the coupon_list rows
-// of the batch's coupons and of the coupons its sections belong (or
-// belonged, before a correction) to, from coupon_list_derived.
-func (l *listedLeaves) refresh(ctx context.Context, tx pgx.Tx, site string) error {
+// queue adds to the sequencer's batch of writes the rewrite of the
+// coupon_list rows of the batch's coupons and of the coupons its sections
+// belong (or belonged, before a correction) to, from coupon_list_derived.
+func (l *listedLeaves) queue(b *pgx.Batch, site string) {
 	if len(l.coupons) == 0 && len(l.sections) == 0 {
-		return nil
+		return
 	}
-	ids := l.coupons
-	if len(l.sections) > 0 {
-		rows, _ := tx.Query(ctx, `SELECT DISTINCT coupon_id FROM measurements WHERE site = $1 AND id = ANY($2)`, site, l.sections)
-		of, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
-		if err != nil {
-			return err
-		}
-		ids = append(ids, of...)
-	}
-	// Ids as an array (not a subquery), so the condition reaches inside the
-	// view's latest-leaf DISTINCT ON instead of ordering every coupon leaf.
-	b := &pgx.Batch{}
-	b.Queue(`DELETE FROM coupon_list WHERE site = $1 AND id = ANY($2)`, site, ids)
-	b.Queue(couponListRefresh, site, ids)
-	return tx.SendBatch(ctx, b).Close()
+	b.Queue(couponListDelete, site, l.coupons, l.sections)
+	b.Queue(couponListRefresh, site, l.coupons, l.sections)
 }
 
-// couponListRefresh writes the coupon_list rows of coupons $2 at site $1.
-var couponListRefresh = `INSERT INTO coupon_list (` + couponListColumns + `) SELECT ` + couponListColumns +
-	` FROM coupon_list_derived WHERE site = $1 AND id = ANY($2)`
+// listedCoupons are the coupons $2 and those sections $3 name in any
+// revision, at site $1, each once, as an array. A section is found by its
+// key, one seek per id (measurements has no other index that leads with the
+// site).
+const listedCoupons = `WITH ids AS (SELECT array_agg(DISTINCT id) AS ids FROM (SELECT unnest($2::uuid[]) AS id
+		UNION ALL SELECT m.coupon_id FROM unnest($3::uuid[]) s(id)
+			CROSS JOIN LATERAL (SELECT coupon_id FROM measurements WHERE site = $1 AND id = s.id OFFSET 0) m) c) `
+
+// couponListDelete removes their coupon_list rows.
+const couponListDelete = listedCoupons + `DELETE FROM coupon_list WHERE site = $1 AND id = ANY ((SELECT ids FROM ids)::uuid[])`
+
+// couponListRefresh writes their coupon_list rows from coupon_list_derived.
+// Ids as an array (not a join), so the condition reaches inside the view's
+// latest-leaf lookup instead of ordering every coupon leaf.
+var couponListRefresh = listedCoupons + `INSERT INTO coupon_list (` + couponListColumns + `) SELECT ` + couponListColumns +
+	` FROM coupon_list_derived WHERE site = $1 AND id = ANY ((SELECT ids FROM ids)::uuid[])`
 
 // couponListColumns are coupon_list's columns, named (a column the table or
 // the view lacks fails every list and every sequencer pass).

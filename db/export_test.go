@@ -72,3 +72,7 @@ func RecordJSONBothWays(ctx context.Context, s *Store, site string) (fast, slow 
 
 // AppendJSONFloat is the export's float64 writer, for its test.
 var AppendJSONFloat = appendJSONFloat
+
+// CouponListDelete is the statement that removes the coupon_list rows the
+// sequencer then writes again, for the plan test.
+const CouponListDelete = couponListDelete

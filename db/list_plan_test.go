@@ -278,7 +278,8 @@ func explainList(ctx context.Context, s *db.Store, sql string, args []any, gener
 func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
 	var plan []map[string]any
 	ids := []uuid.UUID{seededID("c", 5), seededID("c", 77)}
-	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.CouponListRefresh, planSite, ids).Scan(&plan); err != nil {
+	sections := []uuid.UUID{seededID("m", 8), seededID("m", 90)}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.CouponListRefresh, planSite, ids, sections).Scan(&plan); err != nil {
 		t.Fatalf("explain coupon_list refresh: %v", err)
 	}
 	root, _ := plan[0]["Plan"].(map[string]any)

@@ -2,13 +2,12 @@ package db
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"slices"
 	"time"
 
+	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
-	"github.com/jackc/pgx/v5/pgtype"
 	"github.com/transparency-dev/merkle/compact"
 
 	"etchlog/db/logfmt"
@@ -76,7 +75,11 @@ func (s *Store) RunSequencer(ctx context.Context, opt SequencerOptions) error {
 // until ctx ends or the connection fails. Closing the connection releases
 // the lock.
 func (s *Store) leadOnce(ctx context.Context, opt SequencerOptions) error {
-	conn, err := pgx.ConnectConfig(ctx, s.pool.Config().ConnConfig.Copy())
+	cfg := s.pool.Config().ConnConfig.Copy()
+	// The planner's cost of a large batch had it compile the statements to
+	// machine code first (JIT), which took longer than their reads by key.
+	cfg.RuntimeParams["jit"] = "off"
+	conn, err := pgx.ConnectConfig(ctx, cfg)
 	if err != nil {
 		return err
 	}
@@ -144,27 +147,47 @@ func (s *Store) integratePass(ctx context.Context, conn *pgx.Conn, batch int) (b
 
 // pendingLeaf is one row of log_pending.
 type pendingLeaf struct {
-	Seq      int64    `db:"seq"`
-	Kind     string   `db:"kind"`
-	Version  int      `db:"version"`
-	RecordID [16]byte `db:"record_id"`
-	Revision int      `db:"revision"`
-	LeafHash []byte   `db:"leaf_hash"`
-	Tag      []byte   `db:"tag"`
-	// A pending entry of many leaves (log_many.go): the rows it names, in
-	// order, and their leaf hashes, 32 bytes each; nil for one leaf.
-	RecordIDs  [][16]byte `db:"record_ids"`
-	LeafHashes []byte     `db:"leaf_hashes"`
-	Actor      string     `db:"actor"`
-	Action     string     `db:"action"`
-	Reason     string     `db:"reason"`
-	At         time.Time  `db:"at"`
+	Seq      int64
+	Kind     string
+	Version  int
+	RecordID [16]byte
+	Revision int
+	LeafHash []byte
+	Tag      []byte
+	Actor    string
+	Action   string
+	Reason   string
+	At       time.Time
+	// A pending entry of many leaves (log_many.go): how many it names, the
+	// rows it names, in order, and their leaf hashes, 32 bytes each; nil
+	// for one leaf.
+	Many       bool
+	Leaves     int
+	RecordIDs  [][16]byte
+	LeafHashes []byte
 }
 
+// A pass takes four round trips, five when it takes entries of many
+// leaves: BEGIN; the site's latest checkpoint and the heads of its pending
+// rows (every column but an entry's lists, which a second read fetches for
+// the entries taken only); one pipelined batch of every write (leaves,
+// nodes, the pending rows' deletion, the coupon_list rows, the
+// checkpoint); COMMIT. On a loaded machine every round trip waits for the
+// server's turn.
+
+// pendingHeads reads the first $2 pending rows of site $1 in sequence order,
+// without the lists of an entry of many leaves: octet_length of a stored
+// value reads its size, not the value, so an entry waiting behind the batch
+// is neither read nor decoded on every pass.
+const pendingHeads = `SELECT seq, kind, version, record_id, revision, leaf_hash, tag, actor, action, reason, at,
+	record_ids IS NOT NULL, coalesce(octet_length(leaf_hashes) / 32, 1)
+	FROM log_pending WHERE site = $1 ORDER BY seq LIMIT $2`
+
 // integrate moves committed pending leaves of one site into its tree, in
-// one transaction with the new nodes and a signed checkpoint: up to batch
-// pending rows, and no more than batch leaves unless the first row alone (a
-// pending entry of many) names more. It reports whether more were waiting.
+// one transaction with the new nodes and a signed checkpoint: pending rows
+// in sequence order while they bring no more than batch leaves, the first
+// always (a pending entry of many may name more). It reports whether more
+// were waiting when it read them.
 func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batch int) (bool, error) {
 	key := s.logKey()
 	if key == nil {
@@ -175,22 +198,39 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 		return false, err
 	}
 	defer tx.Rollback(ctx) //nolint:errcheck // no-op after Commit
-	size, rng, err := latestRange(ctx, tx, site)
-	if err != nil {
+	var (
+		size   uint64
+		rng    *compact.Range
+		pend   []pendingLeaf
+		leaves int
+		more   bool
+	)
+	rb := &pgx.Batch{}
+	rb.Queue(latestCheckpoint, site).Query(func(rows pgx.Rows) error {
+		var e error
+		size, rng, e = latestRange(rows)
+		return e
+	})
+	rb.Queue(pendingHeads, site, batch+1).Query(func(rows pgx.Rows) error {
+		var p pendingLeaf
+		_, err := pgx.ForEachRow(rows, []any{&p.Seq, &p.Kind, &p.Version, &p.RecordID, &p.Revision, &p.LeafHash, &p.Tag,
+			&p.Actor, &p.Action, &p.Reason, &p.At, &p.Many, &p.Leaves}, func() error {
+			if more || (len(pend) > 0 && leaves+p.Leaves > batch) {
+				more = true // left for the next transaction
+				return nil
+			}
+			pend = append(pend, p)
+			leaves += p.Leaves
+			return nil
+		})
+		return err
+	})
+	if err := tx.SendBatch(ctx, rb).Close(); err != nil || len(pend) == 0 {
 		return false, err
 	}
-	rows, _ := tx.Query(ctx, `SELECT seq, kind, version, record_id, revision, leaf_hash, tag, actor, action, reason, at,
-		record_ids, leaf_hashes
-		FROM log_pending WHERE site = $1 ORDER BY seq LIMIT $2`, site, batch)
-	pend, err := pgx.CollectRows(rows, pgx.RowToStructByName[pendingLeaf])
-	if err != nil || len(pend) == 0 {
+	if err := readManyLists(ctx, tx, site, pend); err != nil {
 		return false, err
 	}
-	var waiting bool // rows past those read
-	if err := tx.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM log_pending WHERE site = $1 AND seq > $2)`, site, pend[len(pend)-1].Seq).Scan(&waiting); err != nil {
-		return false, err
-	}
-	more := waiting
 	// Rows stored before the log existed enter it without a hash, once: only
 	// below the migration's horizon and above every sequence already logged.
 	var horizon, lastSeq int64
@@ -201,27 +241,22 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 		}
 	}
 	now := s.now()
-	var leaves, nodes, rejected [][]any
+	var out leafRows
+	var nodes nodeRows
+	var rejected [][]any
 	var listed listedLeaves
-	seqs := make([]int64, 0, len(pend))
-	visit := func(id compact.NodeID, hash []byte) {
-		nodes = append(nodes, []any{site, int16(id.Level), int64(id.Index), hash})
-	}
-	for _, p := range pend {
-		if p.RecordIDs != nil { // a pending entry of many leaves, each row its own leaf
-			if len(leaves) > 0 && len(leaves)+len(p.RecordIDs) > batch {
-				more = true // left for the next transaction
-				break
-			}
-			seqs = append(seqs, p.Seq)
+	seqs := make([]int64, len(pend))
+	visit := func(id compact.NodeID, hash []byte) { nodes.add(id, hash) }
+	for i, p := range pend {
+		seqs[i] = p.Seq
+		if p.Many { // a pending entry of many leaves, each row its own leaf
 			if why := manyRefusal(s, site, p); why != "" {
 				rejected = append(rejected, []any{p.Seq, site, p.Kind, p.RecordID, p.Revision, why, now})
 				continue
 			}
 			for i, id := range p.RecordIDs {
 				h := p.LeafHashes[32*i : 32*i+32]
-				idx := size + uint64(len(leaves))
-				leaves = append(leaves, []any{site, int64(idx), p.Kind, p.Version, id, p.Revision, h, p.Actor, p.Action, p.Reason, p.At, now, p.Seq})
+				out.add(p, id, h)
 				listed.add(p.Kind, id)
 				if err := rng.Append(h, visit); err != nil {
 					return false, err
@@ -229,11 +264,6 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 			}
 			continue
 		}
-		if len(leaves) >= batch {
-			more = true
-			break
-		}
-		seqs = append(seqs, p.Seq)
 		why := ""
 		switch {
 		case p.LeafHash == nil && p.Seq <= horizon && p.Seq > lastSeq: // stored before the log existed
@@ -249,33 +279,10 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 			rejected = append(rejected, []any{p.Seq, site, p.Kind, p.RecordID, p.Revision, why, now})
 			continue
 		}
-		idx := size + uint64(len(leaves))
-		leaves = append(leaves, []any{site, int64(idx), p.Kind, p.Version, p.RecordID, p.Revision, p.LeafHash, p.Actor, p.Action, p.Reason, p.At, now, p.Seq})
+		out.add(p, p.RecordID, p.LeafHash)
 		listed.add(p.Kind, p.RecordID)
 		if err := rng.Append(p.LeafHash, visit); err != nil {
 			return false, err
-		}
-	}
-	// Leaves and nodes leave in the binary COPY format, encoded here in one
-	// pass (a large pending entry makes thousands of each).
-	for _, c := range []struct {
-		table string
-		cols  []string
-		types []uint32
-		rows  [][]any
-	}{
-		{"log_leaves", leafColumns, leafTypes, leaves},
-		{"log_nodes", nodeColumns, nodeTypes, nodes},
-	} {
-		if len(c.rows) == 0 {
-			continue
-		}
-		data, err := encodeCopyRows(c.table, c.cols, c.types, c.rows)
-		if err == nil {
-			err = copyIn(ctx, tx, data)
-		}
-		if err != nil {
-			return false, fmt.Errorf("%s: %w", c.table, err)
 		}
 	}
 	if len(rejected) > 0 {
@@ -284,13 +291,18 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 			return false, fmt.Errorf("log_rejected: %w", err)
 		}
 	}
-	if _, err := tx.Exec(ctx, `DELETE FROM log_pending WHERE site = $1 AND seq = ANY($2)`, site, seqs); err != nil {
-		return false, err
+	// Every write of the pass in one round trip, in this order (each
+	// statement sees the ones before it: the coupon_list rows are derived
+	// from the leaves just written).
+	wb := &pgx.Batch{}
+	if len(out.ids) > 0 {
+		wb.Queue(insertLeaves, site, int64(size), now, out.kinds, out.versions, out.ids, out.revisions, out.hashes,
+			out.actors, out.actions, out.reasons, out.at, out.seqs)
+		wb.Queue(insertNodes, site, nodes.levels, nodes.indexes, nodes.hashes)
 	}
-	if err := listed.refresh(ctx, tx, site); err != nil {
-		return false, fmt.Errorf("coupon_list: %w", err)
-	}
-	if len(leaves) > 0 {
+	wb.Queue(`DELETE FROM log_pending WHERE site = $1 AND seq = ANY($2)`, site, seqs)
+	listed.queue(wb, site)
+	if len(out.ids) > 0 {
 		root, err := rng.GetRootHash(nil)
 		if err != nil {
 			return false, err
@@ -299,37 +311,115 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 		if err != nil {
 			return false, err
 		}
-		if _, err := tx.Exec(ctx, `INSERT INTO log_checkpoints (site, size, root, range_hashes, note, created_at)
-			VALUES ($1, $2, $3, $4, $5, $6)`, site, int64(rng.End()), root, rng.Hashes(), note, now); err != nil {
-			return false, err
-		}
+		wb.Queue(`INSERT INTO log_checkpoints (site, size, root, range_hashes, note, created_at)
+			VALUES ($1, $2, $3, $4, $5, $6)`, site, int64(rng.End()), root, rng.Hashes(), note, now)
+	}
+	if err := tx.SendBatch(ctx, wb).Close(); err != nil {
+		return false, err
 	}
 	return more, tx.Commit(ctx)
 }
 
-// The columns the sequencer copies into log_leaves and log_nodes, and their
-// types (migration 000009).
-var (
-	leafColumns = []string{"site", "leaf_index", "kind", "version", "record_id", "revision", "leaf_hash",
-		"actor", "action", "reason", "at", "integrated_at", "pending_seq"}
-	leafTypes = []uint32{pgtype.TextOID, pgtype.Int8OID, pgtype.TextOID, pgtype.Int4OID, pgtype.UUIDOID, pgtype.Int4OID,
-		pgtype.ByteaOID, pgtype.TextOID, pgtype.TextOID, pgtype.TextOID, pgtype.TimestamptzOID, pgtype.TimestamptzOID, pgtype.Int8OID}
-	nodeColumns = []string{"site", "tree_level", "tree_index", "hash"}
-	nodeTypes   = []uint32{pgtype.TextOID, pgtype.Int2OID, pgtype.Int8OID, pgtype.ByteaOID}
-)
+// readManyLists reads the lists (record_ids, leaf_hashes) of the entries of
+// many leaves among pend, in one statement when there are any.
+func readManyLists(ctx context.Context, tx pgx.Tx, site string, pend []pendingLeaf) error {
+	at := map[int64]int{}
+	var seqs []int64
+	for i, p := range pend {
+		if p.Many {
+			at[p.Seq] = i
+			seqs = append(seqs, p.Seq)
+		}
+	}
+	if len(seqs) == 0 {
+		return nil
+	}
+	rows, _ := tx.Query(ctx, `SELECT seq, record_ids, leaf_hashes FROM log_pending WHERE site = $1 AND seq = ANY($2)`, site, seqs)
+	var seq int64
+	var ids [][16]byte
+	var hashes []byte
+	n := 0
+	_, err := pgx.ForEachRow(rows, []any{&seq, &ids, &hashes}, func() error {
+		p := &pend[at[seq]]
+		p.RecordIDs, p.LeafHashes = ids, hashes
+		ids, hashes = nil, nil
+		n++
+		return nil
+	})
+	if err == nil && n != len(seqs) {
+		err = fmt.Errorf("read the lists of %d of %d pending entries", n, len(seqs))
+	}
+	return err
+}
+
+// leafRows are the leaves of a pass, column by column, as insertLeaves
+// takes them.
+type leafRows struct {
+	kinds, actors, actions, reasons []string
+	versions, revisions             []int32
+	ids                             []uuid.UUID
+	hashes                          [][]byte
+	at                              []time.Time
+	seqs                            []int64
+}
+
+// add appends the leaf of record id (hash h) that pending row p names.
+func (l *leafRows) add(p pendingLeaf, id [16]byte, h []byte) {
+	l.kinds = append(l.kinds, p.Kind)
+	l.versions = append(l.versions, int32(p.Version))
+	l.ids = append(l.ids, id)
+	l.revisions = append(l.revisions, int32(p.Revision))
+	l.hashes = append(l.hashes, h)
+	l.actors = append(l.actors, p.Actor)
+	l.actions = append(l.actions, p.Action)
+	l.reasons = append(l.reasons, p.Reason)
+	l.at = append(l.at, p.At)
+	l.seqs = append(l.seqs, p.Seq)
+}
+
+// insertLeaves writes a pass's leaves at site $1 from index $2 on, in the
+// arrays' order, integrated at $3.
+const insertLeaves = `INSERT INTO log_leaves (site, leaf_index, kind, version, record_id, revision, leaf_hash,
+		actor, action, reason, at, integrated_at, pending_seq)
+	SELECT $1, $2 + l.n - 1, l.kind, l.version, l.record_id, l.revision, l.leaf_hash, l.actor, l.action, l.reason, l.at, $3, l.seq
+	FROM unnest($4::text[], $5::int[], $6::uuid[], $7::int[], $8::bytea[], $9::text[], $10::text[], $11::text[],
+		$12::timestamptz[], $13::bigint[]) WITH ORDINALITY
+		AS l(kind, version, record_id, revision, leaf_hash, actor, action, reason, at, seq, n)`
+
+// nodeRows are the tree nodes a pass completes, column by column.
+type nodeRows struct {
+	levels  []int16
+	indexes []int64
+	hashes  [][]byte
+}
+
+func (n *nodeRows) add(id compact.NodeID, hash []byte) {
+	n.levels = append(n.levels, int16(id.Level))
+	n.indexes = append(n.indexes, int64(id.Index))
+	n.hashes = append(n.hashes, hash)
+}
+
+// insertNodes writes a pass's tree nodes at site $1.
+const insertNodes = `INSERT INTO log_nodes (site, tree_level, tree_index, hash)
+	SELECT $1, n.level, n.index, n.hash FROM unnest($2::smallint[], $3::bigint[], $4::bytea[]) AS n(level, index, hash)`
 
 var rangeFactory = &compact.RangeFactory{Hash: logfmt.HashChildren}
 
-// latestRange reads the compact range of the site's latest checkpoint.
-func latestRange(ctx context.Context, q querier, site string) (uint64, *compact.Range, error) {
+// latestCheckpoint reads the size and compact range of site $1's latest
+// checkpoint (no row: an empty log).
+const latestCheckpoint = `SELECT size, range_hashes FROM log_checkpoints WHERE site = $1 ORDER BY size DESC LIMIT 1`
+
+// latestRange reads the compact range of a site's latest checkpoint from
+// the rows of latestCheckpoint.
+func latestRange(rows pgx.Rows) (uint64, *compact.Range, error) {
 	var size int64
 	var hashes [][]byte
-	err := q.QueryRow(ctx, `SELECT size, range_hashes FROM log_checkpoints WHERE site = $1 ORDER BY size DESC LIMIT 1`, site).Scan(&size, &hashes)
-	if errors.Is(err, pgx.ErrNoRows) {
-		return 0, rangeFactory.NewEmptyRange(0), nil
-	}
+	n, err := pgx.ForEachRow(rows, []any{&size, &hashes}, func() error { return nil })
 	if err != nil {
 		return 0, nil, err
+	}
+	if n.RowsAffected() == 0 {
+		return 0, rangeFactory.NewEmptyRange(0), nil
 	}
 	rng, err := rangeFactory.NewRange(0, uint64(size), hashes)
 	return uint64(size), rng, err

@@ -1,0 +1,189 @@
+package db_test
+
+import (
+	"context"
+	"crypto/md5"
+	"fmt"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+
+	"etchlog/db"
+	"etchlog/db/dbtest"
+)
+
+// TestSequencerRewriteReadsByKey runs the sequencer's rewrite of coupon_list
+// rows (the DELETE and the INSERT from coupon_list_derived) for a batch of
+// a few coupons and their sections, on a site that grew after the tables
+// were last analyzed, as it does during an import: the statistics say the
+// site holds nearly nothing. The statements must read rows in proportion
+// to the batch, not to the site: under such statistics the planner took a
+// scan of the site's index and filtered the ids, reading every coupon and
+// section of the site for each pass (and, for each coupon's verdict, every
+// section of the site again). Checked with EXPLAIN ANALYZE, in the plan made
+// for the arguments and in the generic plan a prepared statement switches
+// to after five executions.
+func TestSequencerRewriteReadsByKey(t *testing.T) {
+	ctx, cancel := context.WithTimeout(context.Background(), 3*time.Minute)
+	defer cancel()
+	dbURL, _, _ := dbtest.Fresh(t)
+	conn, err := pgx.Connect(ctx, dbURL)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer conn.Close(ctx)
+	const site, other, coupons = "grown", "settled", 3000
+	// Statistics taken while only other, small sites had rows, and kept so
+	// (no autovacuum in this database's tables) while the site grows.
+	for _, table := range []string{"coupons", "measurements", "log_leaves", "coupon_list"} {
+		if _, err := conn.Exec(ctx, "ALTER TABLE "+table+" SET (autovacuum_enabled = false)"); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for i := range 200 { // many small sites: a site's rows look few
+		seedGrown(ctx, t, conn, fmt.Sprintf("%s-%d", other, i), 10)
+	}
+	if _, err := conn.Exec(ctx, "ANALYZE"); err != nil {
+		t.Fatal(err)
+	}
+	seedGrown(ctx, t, conn, site, coupons)
+
+	// A batch: ten coupons, and the sections of ten others.
+	var ids, sections []uuid.UUID
+	for i := range 10 {
+		ids = append(ids, grownID(site, "c", 100+i))
+		for s := range 3 {
+			sections = append(sections, grownID(site, "m", 3*(2000+i)+s))
+		}
+	}
+	batch := len(ids) + len(sections)
+	for _, st := range []struct{ name, before, sql string }{
+		{"delete", "", db.CouponListDelete},
+		{"insert", db.CouponListDelete, db.CouponListRefresh}, // the rows it writes, deleted first as in a pass
+	} {
+		for _, mode := range []string{"force_custom_plan", "force_generic_plan"} {
+			read, plan := rowsRead(ctx, t, conn, st.before, st.sql, mode, site, ids, sections)
+			// 30 rows per coupon or section of the batch covers its seeks (a
+			// coupon's verdict reads its three sections and their leaves);
+			// the site holds 3,000 coupons and 9,000 sections.
+			if read > 30*batch {
+				t.Errorf("coupon_list %s (%s): %d rows read for a batch of %d ids at a site of %d coupons:\n%s",
+					st.name, mode, read, batch, coupons, plan)
+			} else {
+				t.Logf("coupon_list %s (%s): %d rows read for a batch of %d ids", st.name, mode, read, batch)
+			}
+		}
+	}
+}
+
+// seedGrown writes n coupons of site with three sections each, their log
+// leaves and their coupon_list rows, as the sequencer would have left them.
+// The values are invented for the test.
+func seedGrown(ctx context.Context, t *testing.T, conn *pgx.Conn, site string, n int) {
+	t.Helper()
+	args := pgx.NamedArgs{"site": site, "n": n}
+	for _, q := range []string{
+		// Links are not checked (session_replication_role): the coupons name
+		// a procedure that is not stored.
+		`SET session_replication_role = replica`,
+		`INSERT INTO coupons (site, id, revision, created_at, created_by, procedure_id, coupon_mark, welder_id, welded_on, joint_type,
+			thickness_mm, pass_number, current_a, voltage_v, travel_speed_mm_s, wire_diameter_mm, polarity, position)
+		SELECT @site, md5(@site::text || 'c' || g)::uuid, 1, now(), 'seed', md5(@site::text || 'p')::uuid, 'C-' || g, 'W1',
+			date '2026-11-03', 'fillet',
+			6, 1, 180, 21, 5, 0.9, 'DCEP', '2F'
+		FROM generate_series(0, @n::int - 1) g`,
+		`INSERT INTO measurements (site, id, revision, created_at, created_by, coupon_id, section, penetration_mm,
+			bead_width_mm, reinforcement_mm, acceptance, inspector)
+		SELECT @site, md5(@site::text || 'm' || g)::uuid, 1, now(), 'seed', md5(@site::text || 'c' || g / 3)::uuid,
+			chr(65 + g % 3), 1.8, 7.5, 1.2, 'accept', 'QC'
+		FROM generate_series(0, 3 * @n::int - 1) g`,
+		`INSERT INTO log_leaves (site, leaf_index, kind, version, record_id, revision, leaf_hash, actor, action, at, integrated_at, pending_seq)
+		SELECT @site, g, CASE WHEN g % 4 = 0 THEN 'coupon' ELSE 'measurement' END, 1,
+			md5(@site::text || CASE WHEN g % 4 = 0 THEN 'c' || g / 4 ELSE 'm' || (3 * (g / 4) + g % 4 - 1) END)::uuid,
+			1, sha256(g::text::bytea), 'seed', 'create', now(), now(), g + 1
+		FROM generate_series(0, 4 * @n::int - 1) g`,
+		`INSERT INTO coupon_list SELECT * FROM coupon_list_derived WHERE site = @site`,
+		`RESET session_replication_role`,
+	} {
+		if _, err := conn.Exec(ctx, q, args); err != nil {
+			t.Fatalf("seed %s: %v\n%s", site, err, q)
+		}
+	}
+}
+
+// grownID is the id seedGrown gave the n-th row of a kind ("c", "m") at site.
+func grownID(site, kind string, n int) uuid.UUID {
+	return uuid.UUID(md5.Sum([]byte(site + kind + strconv.Itoa(n))))
+}
+
+// rowsRead runs sql with EXPLAIN ANALYZE in a transaction it rolls back
+// (after before, when given, with the same arguments),
+// under plan_cache_mode mode (a prepared statement, so a generic plan is
+// the one the sequencer's connection would reuse), and returns how many
+// rows its scans read (returned or filtered out, over all loops) and the
+// plan on one line.
+func rowsRead(ctx context.Context, t *testing.T, conn *pgx.Conn, before, sql, mode string, args ...any) (int, string) {
+	t.Helper()
+	tx, err := conn.Begin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tx.Rollback(ctx)                                                      //nolint:errcheck // the statement's writes are not kept
+	defer conn.Exec(ctx, "DEALLOCATE rewrite", pgx.QueryExecModeSimpleProtocol) //nolint:errcheck // after the rollback
+	if before != "" {
+		if _, err := tx.Exec(ctx, before, args...); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if _, err := tx.Exec(ctx, "SET LOCAL plan_cache_mode = "+mode+"; SET LOCAL jit = off; PREPARE rewrite AS "+sql,
+		pgx.QueryExecModeSimpleProtocol); err != nil {
+		t.Fatal(err)
+	}
+	params := make([]string, len(args))
+	for i := range args {
+		params[i] = fmt.Sprintf("$%d", i+1)
+	}
+	// The simple protocol writes the arguments into EXECUTE as literals
+	// (id lists as array literals).
+	literal := []any{pgx.QueryExecModeSimpleProtocol}
+	for _, a := range args {
+		if ids, ok := a.([]uuid.UUID); ok {
+			s := make([]string, len(ids))
+			for i, id := range ids {
+				s[i] = id.String()
+			}
+			a = "{" + strings.Join(s, ",") + "}"
+		}
+		literal = append(literal, a)
+	}
+	var plan []map[string]any
+	if err := tx.QueryRow(ctx, "EXPLAIN (ANALYZE, FORMAT JSON) EXECUTE rewrite("+strings.Join(params, ", ")+")",
+		literal...).Scan(&plan); err != nil {
+		t.Fatal(err)
+	}
+	root, _ := plan[0]["Plan"].(map[string]any)
+	return scannedRows(root), planText(root)
+}
+
+// scannedRows adds up the rows each scan of a plan read: those it returned
+// and those its filter removed, times its loops.
+func scannedRows(node map[string]any) int {
+	n := 0
+	if strings.HasSuffix(fmt.Sprint(node["Node Type"]), "Scan") && node["Relation Name"] != nil || node["Node Type"] == "Bitmap Index Scan" {
+		rows, _ := node["Actual Rows"].(float64)
+		removed, _ := node["Rows Removed by Filter"].(float64)
+		loops, _ := node["Actual Loops"].(float64)
+		n += int((rows + removed) * loops)
+	}
+	plans, _ := node["Plans"].([]any)
+	for _, p := range plans {
+		if m, ok := p.(map[string]any); ok {
+			n += scannedRows(m)
+		}
+	}
+	return n
+}
