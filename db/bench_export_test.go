@@ -10,10 +10,10 @@ import (
 	"etchlog/db"
 )
 
-// BenchmarkExport streams a whole site through Store.Export (every coupon
+// BenchmarkExport streams a whole site through Store.ExportTo (every coupon
 // revision in its readable form, then every leaf with its fact encoded again
-// from the stored row, written by the ExportWriter the export endpoint uses
-// to io.Discard) and, side by side on the
+// from the stored row, written as the export endpoint writes them, to
+// io.Discard) and, side by side on the
 // same database, a raw COPY TO of the same rows (coupons, then log_leaves).
 // Compare the two ns/op as a ratio. The site holds ETCHLOG_BENCH_EXPORT_COUPONS
 // coupons (default 100,000; set 1000000 for the million-coupon run), seeded
@@ -41,13 +41,13 @@ func BenchmarkExport(b *testing.B) {
 			runtime.GC()
 			out := db.NewExportWriter(io.Discard)
 			lines := 0
-			sum, err := s.Export(ctx, site, func(kind string, v any) error {
+			out.OnLine(func() {
 				if lines++; lines%20000 == 0 {
 					metrics.Read(sample)
 					peak = max(peak, sample[0].Value.Uint64())
 				}
-				return out.Line(kind, v)
 			})
+			sum, err := s.ExportTo(ctx, site, out)
 			if err == nil {
 				err = out.Flush()
 			}
