@@ -138,16 +138,18 @@ func (w *factWriter) appendFields(b []byte, raw [][]byte, tm *pgtype.Map) ([]byt
 			b = logfmt.AppendJSONString(b, unsafe.String(unsafe.SliceData(v), len(v))) // read, not kept
 			b = append(b, ']')
 			continue
-		case pgtype.JSONBOID, pgtype.JSONOID:
-		default:
-			// The canonical texts of these types need no JSON escaping.
-			mark := len(b)
-			var ok bool
-			if b, ok = appendCanonicalRaw(append(b, '"'), fd.DataTypeOID, fd.Format, v); ok {
-				b = append(b, '"', ']')
+		case pgtype.TimestamptzOID, pgtype.DateOID:
+			if out, ok := appendTimeValue(append(b, '"'), fd, v); ok {
+				b = append(out, '"', ']')
 				continue
 			}
-			b = b[:mark]
+		}
+		if fd.DataTypeOID != pgtype.JSONBOID && fd.DataTypeOID != pgtype.JSONOID {
+			// The canonical texts of these types need no JSON escaping.
+			if out, ok := appendCanonicalRaw(append(b, '"'), fd.DataTypeOID, fd.Format, v); ok {
+				b = append(out, '"', ']')
+				continue
+			}
 		}
 		f, err := factFromRaw(w.k, w.fds[i:i+1], raw[i:i+1], tm)
 		if err != nil {
@@ -157,6 +159,30 @@ func (w *factWriter) appendFields(b []byte, raw [][]byte, tm *pgtype.Map) ([]byt
 		b = append(b, ']')
 	}
 	return append(b, ']'), nil
+}
+
+// appendTimeValue appends a binary timestamptz or date's canonical text as
+// appendCanonicalRaw does, through appendCivil, or reports false (infinite,
+// out of its years, not binary).
+func appendTimeValue(b []byte, fd pgconn.FieldDescription, v []byte) ([]byte, bool) {
+	if fd.Format != pgtype.BinaryFormatCode {
+		return b, false
+	}
+	switch {
+	case fd.DataTypeOID == pgtype.TimestamptzOID && len(v) == 8:
+		us := int64(binary.BigEndian.Uint64(v))
+		if us == math.MaxInt64 || us == math.MinInt64 {
+			return b, false
+		}
+		return appendCivil(b, us, false)
+	case fd.DataTypeOID == pgtype.DateOID && len(v) == 4:
+		days := int32(binary.BigEndian.Uint32(v))
+		if days == math.MaxInt32 || days == math.MinInt32 {
+			return b, false
+		}
+		return appendDate(b, int64(days))
+	}
+	return b, false
 }
 
 // Reasons a leaf has no fields.
@@ -199,6 +225,6 @@ func appendListedLeaf(b []byte, list [][]byte, missing string, fields func([]byt
 	b = append(b, `,"reason":`...)
 	b = logfmt.AppendJSONString(b, unsafe.String(unsafe.SliceData(list[8]), len(list[8])))
 	b = append(b, `,"at":"`...)
-	b = appendRawTime(b, int64(binary.BigEndian.Uint64(list[9])))
+	b = appendExportTime(b, int64(binary.BigEndian.Uint64(list[9])))
 	return append(b, '"', '}'), nil
 }

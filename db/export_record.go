@@ -282,19 +282,22 @@ func (e *recordEncoder) append(b []byte, raw [][]byte) ([]byte, bool) {
 				if y := t.Year(); us != math.MaxInt64 && us != math.MinInt64 && y >= 1 && y <= 9999 {
 					ok = true
 					b = append(b, '"')
-					b = t.AppendFormat(b, time.RFC3339Nano)
+					if _, off := t.Zone(); off == 0 { // RFC 3339 at offset zero: Z
+						b, _ = appendCivil(b, us, true)
+					} else {
+						b = t.AppendFormat(b, time.RFC3339Nano)
+					}
 					b = append(b, '"')
 				}
 			}
 		case ftDate:
 			if len(v) == 4 {
 				days := int32(binary.BigEndian.Uint32(v))
-				t := time.Date(2000, 1, int(1+days), 0, 0, 0, 0, time.UTC)
-				if y := t.Year(); days != math.MaxInt32 && days != math.MinInt32 && y >= 1 && y <= 9999 {
-					ok = true
+				if days != math.MaxInt32 && days != math.MinInt32 {
 					b = append(b, '"')
-					b = t.AppendFormat(b, time.DateOnly)
-					b = append(b, '"')
+					if b, ok = appendDate(b, int64(days)); ok {
+						b = append(b, '"')
+					}
 				}
 			}
 		}
