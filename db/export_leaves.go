@@ -101,6 +101,7 @@ func exportLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site strin
 			}
 			q += ", true FROM log_leaves lg"
 		case st.known:
+			st.name += "_joined" // another shape than the same kind's cursor without its rows
 			cols := make([]string, len(st.k.Columns))
 			for j, c := range st.k.Columns {
 				cols[j] = "r." + c
