@@ -14,12 +14,14 @@ import (
 	"etchlog/db/dbtest"
 )
 
-// BenchmarkRecordListScale pages the sections list and the flags list of
-// one site holding ETCHLOG_BENCH_LIST_COUPONS coupons (default 100,000),
-// seeded like BenchmarkCouponListScale, with a section on every second
-// coupon (every tenth of those rejected) logged after the coupons, and a
-// flag on every third coupon (kinds and variables in turn). Each filter the
-// lists offer runs on the first page and deep, side by side with a raw
+// BenchmarkRecordListScale pages the sections list, the flags list and the
+// other record lists of one site holding ETCHLOG_BENCH_LIST_COUPONS coupons
+// (default 100,000), seeded like BenchmarkCouponListScale, with a section on
+// every second coupon (every tenth of those rejected) logged after the
+// coupons, a flag on every third coupon (kinds and variables in turn), and
+// the procedures, qualification records, production records and sign-offs
+// seedOtherLists adds. Each filter the lists offer runs on the first page
+// and deep, side by side with a raw
 // SELECT of a 50-row page of the same filter from the same table through the
 // same pool, as in BenchmarkCouponListScale (clients=1: p95 of each and
 // x-of-raw, the raw time over the Store's; clients=8: pages/s of each and
@@ -55,12 +57,6 @@ func BenchmarkRecordListScale(b *testing.B) {
 		d := time.Date(2019, 1, 1, 0, 0, 0, 0, time.UTC).AddDate(0, 0, i*2500/n)
 		return &d
 	}
-	type listCase struct {
-		name  string
-		store func() (int, error)
-		raw   string // a raw page's statement
-		args  []any
-	}
 	sections := func(f db.MeasurementFilter, cursor string) func() (int, error) {
 		return func() (int, error) {
 			page, err := s.Measurements(ctx, site, f, cursor, 50)
@@ -75,7 +71,8 @@ func BenchmarkRecordListScale(b *testing.B) {
 	}
 	rawSections := "SELECT " + sectionCols + " FROM measurements WHERE site = $1 AND "
 	rawFlags := "SELECT " + flagCols + " FROM flags WHERE site = $1 AND "
-	for _, c := range []listCase{
+	var cases []recordListCase
+	for _, c := range []recordListCase{
 		{"sections/none", sections(db.MeasurementFilter{}, ""), rawSections + "true ORDER BY id LIMIT 50", nil},
 		{"sections/none/deep", sections(db.MeasurementFilter{}, deepSections), rawSections + "true ORDER BY id LIMIT 50", nil},
 		{"sections/acceptance=reject", sections(db.MeasurementFilter{Acceptance: "reject"}, ""),
@@ -100,6 +97,10 @@ func BenchmarkRecordListScale(b *testing.B) {
 		{"flags/subject_id", flags(db.FlagFilter{SubjectID: &coupon}, ""),
 			rawFlags + "subject_id = $2 ORDER BY subject_id LIMIT 50", []any{coupon}},
 	} {
+		cases = append(cases, c)
+	}
+	cases = append(cases, otherListCases(ctx, b, s, conn, n)...)
+	for _, c := range cases {
 		store := func() error {
 			got, err := c.store()
 			if err == nil && got == 0 {
@@ -126,6 +127,16 @@ func BenchmarkRecordListScale(b *testing.B) {
 		}
 		sideBySide(b, c.name, store, raw)
 	}
+}
+
+// recordListCase is one list page of BenchmarkRecordListScale: the Store's
+// call (it returns the page's length) and a raw page's statement ($1 the
+// site, args after it).
+type recordListCase struct {
+	name  string
+	store func() (int, error)
+	raw   string
+	args  []any
 }
 
 // sideBySide runs one list case against its raw page at 1 client (calls

@@ -298,8 +298,11 @@ var planGaps = map[string]string{
 }
 
 // seededID is the id seedPlans gave the n-th row of a kind at planSite.
-func seededID(kind string, n int) uuid.UUID {
-	return uuid.UUID(md5.Sum([]byte(planSite + kind + strconv.Itoa(n))))
+func seededID(kind string, n int) uuid.UUID { return seedID(planSite, kind, n) }
+
+// seedID is the id seedStatements give the n-th row of a kind at site.
+func seedID(site, kind string, n int) uuid.UUID {
+	return uuid.UUID(md5.Sum([]byte(site + kind + strconv.Itoa(n))))
 }
 
 // planText writes a plan tree on one line: each node's type, relation and
