@@ -99,7 +99,10 @@ func otherListCases(ctx context.Context, tb testing.TB, s *db.Store, conn *pgx.C
 		t := time.Date(2019, 1, 1, 0, 0, 0, 0, time.UTC).Add(time.Duration(g) * step)
 		return &t
 	}
-	day := func(d int) *db.Date { v := db.DateOf(time.Date(2019, 1, 1, 0, 0, 0, 0, time.UTC).AddDate(0, 0, d)); return &v }
+	day := func(d int) *db.Date {
+		v := db.DateOf(time.Date(2019, 1, 1, 0, 0, 0, 0, time.UTC).AddDate(0, 0, d))
+		return &v
+	}
 	procDeep := deep("procedures", "procedure", procs)
 	pqrDeep := deep("qualification_records", "qualification_record", pqrs)
 	prodDeep := deep("production_records", "production_record", production)
