@@ -54,7 +54,6 @@ func (s *Store) ProductionRecords(ctx context.Context, site string, pf Productio
 	if len(f.conds) > 0 {
 		where = strings.Join(f.conds, " AND ")
 	}
-	f.args = append(f.args, limit)
 	cols := make([]string, len(productionColumns))
 	for i, c := range productionColumns {
 		cols[i] = "production_records." + c
@@ -64,7 +63,7 @@ func (s *Store) ProductionRecords(ctx context.Context, site string, pf Productio
 	err = s.readPage(ctx, site, "SELECT "+strings.Join(cols, ", ")+", lg.leaf_index FROM log_leaves lg"+
 		" JOIN production_records ON production_records.id = lg.record_id AND production_records.site = lg.site"+
 		" WHERE lg.site = $1 AND lg.kind = 'production_record' AND lg.leaf_index >= $2 AND "+where+
-		fmt.Sprintf(" ORDER BY lg.leaf_index LIMIT $%d", len(f.args)), f.args, func(rows pgx.Rows) (err error) {
+		" ORDER BY lg.leaf_index"+pageLimit(limit), f.args, func(rows pgx.Rows) (err error) {
 		items, last, err = collectIndexed[ProductionRecord](rows)
 		return err
 	})

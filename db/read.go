@@ -124,6 +124,10 @@ func revisions[T any](ctx context.Context, s *Store, t table, site string, id uu
 type filter struct {
 	conds []string
 	args  []any
+	// indexed is set when a condition has an index of its own on the record
+	// table that keeps few records (a welder, a range of days): the planner
+	// may then start from it (see listCurrent).
+	indexed bool
 }
 
 // newFilter returns an empty filter with the site and cursor placeholders reserved.
@@ -136,6 +140,13 @@ func (f *filter) add(cond string, vals ...any) {
 		cond = strings.Replace(cond, "?", "$"+strconv.Itoa(len(f.args)), 1)
 	}
 	f.conds = append(f.conds, cond)
+}
+
+// addIndexed appends a condition served by an index of the record table
+// that keeps few records (see filter.indexed).
+func (f *filter) addIndexed(cond string, vals ...any) {
+	f.add(cond, vals...)
+	f.indexed = true
 }
 
 // listCurrent returns the current revisions matching f in log order after
@@ -160,18 +171,37 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	if len(f.conds) > 0 {
 		where = strings.Join(f.conds, " AND ")
 	}
-	f.args = append(f.args, limit, t.entity)
 	cols := make([]string, 0, len(t.fields)+7)
 	for _, c := range strings.Split(t.columns(), ", ") {
 		cols = append(cols, "cur."+c)
 	}
-	// "cur" is a logged revision with no later logged one.
-	sql := "SELECT " + strings.Join(cols, ", ") + ", lg.leaf_index FROM log_leaves lg" +
-		" JOIN " + t.name + " cur ON cur.id = lg.record_id AND cur.revision = lg.revision AND cur.site = lg.site" +
-		" WHERE lg.site = $1 AND lg.kind = $" + strconv.Itoa(len(f.args)) + " AND lg.leaf_index >= $2" +
-		" AND NOT EXISTS (SELECT 1 FROM log_leaves later WHERE later.site = lg.site AND later.record_id = lg.record_id" +
-		" AND later.kind = lg.kind AND later.revision > lg.revision)" +
-		" AND " + where + " ORDER BY lg.leaf_index LIMIT $" + strconv.Itoa(len(f.args)-1)
+	// "cur" is a logged revision with no later logged one. The kind and the
+	// page size are written into the statement (pageLimit).
+	current := "NOT EXISTS (SELECT 1 FROM log_leaves later WHERE later.site = lg.site AND later.record_id = lg.record_id" +
+		" AND later.kind = lg.kind AND later.revision > lg.revision)"
+	var sql string
+	if f.indexed {
+		// A condition with an index that keeps few records: the planner
+		// may start from that index and sort the few it finds by log index.
+		sql = "SELECT " + strings.Join(cols, ", ") + ", lg.leaf_index FROM log_leaves lg" +
+			" JOIN " + t.name + " cur ON cur.id = lg.record_id AND cur.revision = lg.revision AND cur.site = lg.site" +
+			" WHERE lg.site = $1 AND lg.kind = '" + t.entity + "' AND lg.leaf_index >= $2 AND " + current +
+			" AND " + where + " ORDER BY lg.leaf_index" + pageLimit(limit)
+	} else {
+		// Conditions that keep most records (none, void mark, process,
+		// status, outcome): walk the kind's leaves in log order and look
+		// each record up, until a page is full. The lookup is a
+		// subquery the planner cannot flatten (OFFSET 0), so it cannot
+		// trade the walk for hashing every record of the kind, which a
+		// prepared statement's generic plan did (a first page of PQRs by
+		// process measured 88 ms at 10,000 PQRs).
+		sql = "SELECT " + strings.Join(cols, ", ") + ", lg.leaf_index FROM log_leaves lg" +
+			" CROSS JOIN LATERAL (SELECT " + t.columns() + " FROM " + t.name + " cur" +
+			" WHERE cur.site = lg.site AND cur.id = lg.record_id AND cur.revision = lg.revision AND " + current +
+			" AND " + where + " OFFSET 0) cur" +
+			" WHERE lg.site = $1 AND lg.kind = '" + t.entity + "' AND lg.leaf_index >= $2" +
+			" ORDER BY lg.leaf_index" + pageLimit(limit)
+	}
 	var items []T
 	var last int64
 	err = s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
@@ -183,6 +213,13 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	}
 	return Page[T]{Items: items, Next: nextLogCursor(t.name, from, last, len(items))}, attachSignOffs(ctx, s.pool, site, items)
 }
+
+// pageLimit is a list statement's LIMIT, the page size written in: bound as
+// a parameter, the generic plan PostgreSQL switches a prepared statement to
+// after five executions does not know a page is small, and hashes every
+// record of the kind instead of walking the log in order (a record list's
+// first page measured 140 ms at 10,000 records instead of 1-3 ms).
+func pageLimit(limit int) string { return " LIMIT " + strconv.Itoa(limit) }
 
 // readPage reads one page of a list with read, showing every write
 // acknowledged before it was asked for: the site's newest pending leaf is

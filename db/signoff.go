@@ -218,7 +218,7 @@ func (s *Store) SignOffs(ctx context.Context, site string, f SignOffFilter, curs
 		WHERE lg.site = $1 AND lg.kind = 'sign_off' AND lg.leaf_index >= $2
 		  AND ($3 = '' OR so.record_kind = $3) AND ($4::uuid IS NULL OR so.record_id = $4)
 		  AND ($5 = '' OR so.signed_by = $5)
-		ORDER BY lg.leaf_index LIMIT $6`, []any{site, from, f.RecordKind, f.RecordID, f.SignedBy, limit}, func(rows pgx.Rows) (err error) {
+		ORDER BY lg.leaf_index`+pageLimit(limit), []any{site, from, f.RecordKind, f.RecordID, f.SignedBy}, func(rows pgx.Rows) (err error) {
 		items, last, err = collectIndexed[SignOff](rows)
 		return err
 	})
