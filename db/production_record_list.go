@@ -60,9 +60,23 @@ func (s *Store) ProductionRecords(ctx context.Context, site string, pf Productio
 	}
 	var items []ProductionRecord
 	var last int64
-	if len(f.conds) == 0 {
+	switch {
+	case len(f.conds) == 0:
 		items, last, err = s.productionLeaves(ctx, site, from, limit)
-	} else {
+	case pf.ProcedureID != nil || pf.WeldID != "" || pf.WelderID != "" || pf.RecordedFrom != nil || pf.RecordedTo != nil:
+		// A condition with an index of its own: the matching records are
+		// read through it first (apart from the leaves: OFFSET 0), then
+		// each one's leaf, and the page is the first by log index. A walk
+		// of the leaves would look each record up in every month
+		// (procedure_id measured 1.7 s a page at 1,000,000 records).
+		err = s.readPage(ctx, site, "SELECT "+prefixed("p.", strings.Join(productionColumns, ", "))+", lg.leaf_index"+
+			" FROM (SELECT "+strings.Join(productionColumns, ", ")+" FROM production_records WHERE site = $1 AND "+where+" OFFSET 0) p"+
+			" JOIN log_leaves lg ON lg.site = $1 AND lg.record_id = p.id AND lg.kind = 'production_record' AND lg.leaf_index >= $2"+
+			" ORDER BY lg.leaf_index"+pageLimit(limit), f.args, func(rows pgx.Rows) (err error) {
+			items, last, err = collectIndexed[ProductionRecord](rows)
+			return err
+		})
+	default:
 		err = s.readPage(ctx, site, "SELECT "+strings.Join(cols, ", ")+", lg.leaf_index FROM log_leaves lg"+
 			" JOIN production_records ON production_records.id = lg.record_id AND production_records.site = lg.site"+
 			" WHERE lg.site = $1 AND lg.kind = 'production_record' AND lg.leaf_index >= $2 AND "+where+
