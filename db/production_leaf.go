@@ -4,10 +4,7 @@ import (
 	"context"
 	"fmt"
 	"slices"
-	"strings"
-	"sync"
 
-	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5/pgconn"
 
 	"etchlog/db/logfmt"
@@ -16,36 +13,14 @@ import (
 // A production record's leaf commits to its row as stored. A write of many
 // records does not read them back: the values it copies are the stored ones
 // (every column is text, uuid, binary64 or timestamptz at microseconds, each
-// stored exactly as sent), so it encodes each leaf with factFrom, the one
-// function that encodes stored rows, over the table's own column
-// descriptions. Verification encodes the same facts again from the rows
-// (TestChunkLeavesOnePerRecord, and the tampering fixture's production batch).
-
-// productionShape caches the column descriptions of a production record
-// leaf's columns, as the database describes them.
-var productionShape struct {
-	sync.Mutex
-	fds []pgconn.FieldDescription
-}
+// stored exactly as sent), so it encodes each leaf from them with valueFact
+// (leaf_values.go) over the table's own column descriptions. Verification
+// encodes the same facts again from the rows (TestChunkLeavesOnePerRecord,
+// and the tampering fixture's production batch).
 
 // productionFields returns the column descriptions of kind k's columns of production_records.
 func productionFields(ctx context.Context, q querier, k LeafKind) ([]pgconn.FieldDescription, error) {
-	productionShape.Lock()
-	defer productionShape.Unlock()
-	if len(productionShape.fds) == len(k.Columns) {
-		return productionShape.fds, nil
-	}
-	rows, err := q.Query(ctx, "SELECT "+strings.Join(k.Columns, ", ")+" FROM production_records LIMIT 0")
-	if err != nil {
-		return nil, err
-	}
-	fds := append([]pgconn.FieldDescription(nil), rows.FieldDescriptions()...)
-	rows.Close()
-	if err := rows.Err(); err != nil {
-		return nil, err
-	}
-	productionShape.fds = fds
-	return fds, nil
+	return leafFields(ctx, q, k, "production_records")
 }
 
 // productionFact encodes one production record row, its values in
@@ -53,25 +28,10 @@ func productionFields(ctx context.Context, q querier, k LeafKind) ([]pgconn.Fiel
 // the leaf's i-th column is in the row.
 func productionFact(k LeafKind, fds []pgconn.FieldDescription, at []int, row []any) (logfmt.Fact, error) {
 	vals := make([]any, len(fds))
-	raw := make([][]byte, len(fds))
 	for i := range fds {
-		v := row[at[i]]
-		switch x := v.(type) {
-		case *float64:
-			if x == nil {
-				v = nil
-			} else {
-				v = *x
-			}
-		case uuid.UUID:
-			v = [16]byte(x)
-		}
-		if v != nil {
-			raw[i] = []byte{} // not NULL; factFrom reads the raw bytes of JSON columns only
-		}
-		vals[i] = v
+		vals[i] = row[at[i]]
 	}
-	return factFrom(k, fds, vals, raw)
+	return valueFact(k, fds, vals)
 }
 
 // leafOrder maps each of k's columns to its place in productionColumns.
