@@ -54,7 +54,11 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 	if err := s.logStored(ctx, tx, measurements, sectionIDs, entry); err != nil {
 		return err
 	}
-	return p.writeFlags(ctx, tx, now)
+	if err := p.writeFlags(ctx, tx, now); err != nil {
+		return err
+	}
+	// The coupons join their groups' drift charts (drift.go), like a single create.
+	return importDrift(ctx, tx, now, a.Site, couponIDs)
 }
 
 // claimMarks claims every planned coupon's mark in current_marks. A mark
