@@ -2,6 +2,7 @@ package db_test
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"strings"
@@ -97,5 +98,58 @@ func TestImportLeavesVerify(t *testing.T) {
 	want := fmt.Sprintf("(measurement %s revision 1): the stored fact does not match its leaf hash", id)
 	if v.OK || !strings.Contains(strings.Join(v.Problems, "\n"), want) {
 		t.Errorf("VerifyLog after editing an imported section: ok %v, problems %q; want %q", v.OK, v.Problems, want)
+	}
+}
+
+// TestImportMarkTakenMeanwhile: a mark another write claims after the
+// import's plan read the marks, and commits while the import waits for it,
+// fails the import's claim on current_marks' primary key: the import is
+// rolled back whole (nothing of it stored) and the mark is named as a
+// conflict, as before the marks were copied.
+func TestImportMarkTakenMeanwhile(t *testing.T) {
+	t.Parallel()
+	s, site := dbtest.Store(t), dbtest.Site(t)
+	a, ctx := actor(site), context.Background()
+	p := mustProcedure(t, s, site)
+	mark := "RACE-" + uuid.NewString()[:8]
+	other := superuser(t)
+	tx, err := other.Begin(ctx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tx.Rollback(ctx) //nolint:errcheck // committed below
+	if _, err := tx.Exec(ctx, `INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, 'coupon_mark', $2, $3)`,
+		site, mark, uuid.New()); err != nil {
+		t.Fatal(err)
+	}
+	done := make(chan error, 1)
+	go func() {
+		_, err := s.ImportCoupons(ctx, a, []db.ImportCoupon{
+			{Row: 2, Data: couponData(p.ID, "FREE-"+mark)},
+			{Row: 3, Data: couponData(p.ID, mark), Sections: []db.ImportSection{{Row: 3, Data: measurementData(uuid.Nil, "A", "accept")}}},
+		}, true)
+		done <- err
+	}()
+	// Wait until the import's claim waits for the uncommitted mark, then commit it.
+	watch, waiting := superuser(t), false
+	for deadline := time.Now().Add(20 * time.Second); !waiting && time.Now().Before(deadline); time.Sleep(20 * time.Millisecond) {
+		if err := watch.QueryRow(ctx, `SELECT count(*) > 0 FROM pg_stat_activity
+			WHERE wait_event_type = 'Lock' AND query LIKE 'COPY "current_marks"%'`).Scan(&waiting); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if !waiting {
+		t.Fatal("the import's claim never waited for the other write's mark")
+	}
+	if err := tx.Commit(ctx); err != nil {
+		t.Fatal(err)
+	}
+	err = <-done
+	if !errors.Is(err, db.ErrConflict) || !strings.Contains(err.Error(), fmt.Sprintf("another write took the mark %q during the import", mark)) {
+		t.Fatalf("import = %v, want a conflict naming the mark %s", err, mark)
+	}
+	var n int
+	if err := other.QueryRow(ctx, `SELECT count(*) FROM coupons WHERE site = $1`, site).Scan(&n); err != nil || n != 0 {
+		t.Errorf("%d coupons stored (%v), want none: the import is one transaction", n, err)
 	}
 }

@@ -16,15 +16,22 @@ import (
 	"etchlog/predict"
 )
 
-// importRows is what an import copies in: the planned coupons' marks,
-// coupon rows and section rows laid out in the binary COPY format, and one
-// pending entry for the coupons' leaves and one for the sections', each
-// leaf encoded from the values copied (leaf_values.go), so nothing is read
-// back. Laying it out needs no transaction.
+// importRows is what an import copies in besides its marks: the planned
+// coupons' rows and their sections' laid out in the binary COPY format, and
+// the rows' values, from which each leaf is encoded (leaf_values.go), so
+// nothing is read back. Laying it out needs no transaction.
 type importRows struct {
-	marks, coupons, sections *copyRows
-	couponLeaves             *ManyLeaves
-	sectionLeaves            *ManyLeaves // nil: no sections
+	coupons, sections       *copyRows
+	couponRows, sectionRows [][]any // as copied
+	couponLeaf, sectionLeaf *rowLeaves
+	err                     error
+}
+
+// importLeaves is the pending entries of an import's rows: one for the
+// coupons, one for the sections (nil: none).
+type importLeaves struct {
+	coupons, sections *ManyLeaves
+	err               error
 }
 
 // markColumns are current_marks' columns as an import copies them.
@@ -37,94 +44,110 @@ var markTypes = []uint32{pgtype.TextOID, pgtype.TextOID, pgtype.TextOID, pgtype.
 // row is written in.
 func revisionColumns(t table) []string { return append(strings.Split(metaColumns, ", "), t.fields...) }
 
-// prepareImport lays out the planned coupons for writeImport.
-func (s *Store) prepareImport(ctx context.Context, a Actor, p *importPlan, now time.Time) (*importRows, error) {
+// importMarks lays out the planned coupons' marks for current_marks.
+func importMarks(p *importPlan) (*copyRows, error) {
+	marks := make([][]any, len(p.create))
+	for i, pc := range p.create {
+		marks[i] = []any{p.site, couponMark.kind, pc.in.Data.CouponMark, pc.id}
+	}
+	return encodeCopyRows("current_marks", markColumns, markTypes, marks)
+}
+
+// prepareImport lays out the planned coupons and their sections.
+func (s *Store) prepareImport(ctx context.Context, a Actor, p *importPlan, now time.Time) *importRows {
+	r := &importRows{couponRows: make([][]any, len(p.create))}
 	ck, err := leafKind(coupons.entity, 0)
 	if err != nil {
-		return nil, err
+		return &importRows{err: err}
 	}
 	mk, err := leafKind(measurements.entity, 0)
 	if err != nil {
-		return nil, err
+		return &importRows{err: err}
 	}
 	couponCols, sectionCols := revisionColumns(coupons), revisionColumns(measurements)
-	cl, err := newRowLeaves(ctx, s.pool, ck, coupons.name, couponCols)
-	if err != nil {
-		return nil, err
+	if r.couponLeaf, err = newRowLeaves(ctx, s.pool, ck, coupons.name, couponCols); err != nil {
+		return &importRows{err: err}
 	}
-	ml, err := newRowLeaves(ctx, s.pool, mk, measurements.name, sectionCols)
-	if err != nil {
-		return nil, err
+	if r.sectionLeaf, err = newRowLeaves(ctx, s.pool, mk, measurements.name, sectionCols); err != nil {
+		return &importRows{err: err}
 	}
-	marks := make([][]any, len(p.create))
-	couponRows := make([][]any, len(p.create))
-	couponIDs, couponHashes := make([]uuid.UUID, len(p.create)), make([][]byte, len(p.create))
-	var sectionRows [][]any
-	var sectionIDs []uuid.UUID
-	var sectionHashes [][]byte
 	for i, pc := range p.create {
-		marks[i] = []any{a.Site, couponMark.kind, pc.in.Data.CouponMark, pc.id}
-		couponRows[i] = append([]any{a.Site, pc.id, 1, now, a.Name, "", false}, recordValues(pc.in.Data)...)
-		f, err := cl.fact(couponRows[i])
-		if err != nil {
-			return nil, err
-		}
-		couponIDs[i], couponHashes[i] = pc.id, f.LeafHash()
+		r.couponRows[i] = append([]any{a.Site, pc.id, 1, now, a.Name, "", false}, recordValues(pc.in.Data)...)
 		for k, sec := range pc.in.Sections {
 			d := sec.Data
 			d.CouponID = pc.id
-			row := append([]any{a.Site, pc.sections[k], 1, now, a.Name, "", false}, recordValues(d)...)
-			f, err := ml.fact(row)
+			r.sectionRows = append(r.sectionRows, append([]any{a.Site, pc.sections[k], 1, now, a.Name, "", false}, recordValues(d)...))
+		}
+	}
+	if r.coupons, err = encodeCopyRows(coupons.name, couponCols, r.couponLeaf.oids, r.couponRows); err != nil {
+		return &importRows{err: err}
+	}
+	if r.sections, err = encodeCopyRows(measurements.name, sectionCols, r.sectionLeaf.oids, r.sectionRows); err != nil {
+		return &importRows{err: err}
+	}
+	return r
+}
+
+// leaves encodes every row's leaf from its copied values and prepares the
+// pending entries naming them, in row order.
+func (r *importRows) leaves(s *Store, e LeafEntry) importLeaves {
+	var out importLeaves
+	entry := func(rl *rowLeaves, rows [][]any) (*ManyLeaves, error) {
+		if len(rows) == 0 {
+			return nil, nil
+		}
+		ids, hashes := make([]uuid.UUID, len(rows)), make([][]byte, len(rows))
+		for i, row := range rows {
+			f, err := rl.fact(row)
 			if err != nil {
 				return nil, err
 			}
-			sectionRows = append(sectionRows, row)
-			sectionIDs, sectionHashes = append(sectionIDs, pc.sections[k]), append(sectionHashes, f.LeafHash())
+			ids[i], hashes[i] = row[1].(uuid.UUID), f.LeafHash()
 		}
+		return s.newManyLeaves(rl.kind, e, 1, ids, hashes)
 	}
-	r := &importRows{}
-	if r.marks, err = encodeCopyRows("current_marks", markColumns, markTypes, marks); err != nil {
-		return nil, err
+	if out.coupons, out.err = entry(r.couponLeaf, r.couponRows); out.err != nil {
+		return out
 	}
-	if r.coupons, err = encodeCopyRows(coupons.name, couponCols, cl.oids, couponRows); err != nil {
-		return nil, err
-	}
-	if r.sections, err = encodeCopyRows(measurements.name, sectionCols, ml.oids, sectionRows); err != nil {
-		return nil, err
-	}
-	entry := LeafEntry{Site: a.Site, Actor: a.Name, Action: actionCreate, At: now}
-	if r.couponLeaves, err = s.newManyLeaves(ck, entry, 1, couponIDs, couponHashes); err != nil {
-		return nil, err
-	}
-	if len(sectionIDs) > 0 {
-		if r.sectionLeaves, err = s.newManyLeaves(mk, entry, 1, sectionIDs, sectionHashes); err != nil {
-			return nil, err
-		}
-	}
-	return r, nil
+	out.sections, out.err = entry(r.sectionLeaf, r.sectionRows)
+	return out
 }
 
 // writeImport writes the planned coupons inside tx: claims their marks,
 // copies the coupon and section rows, logs a leaf per row (one pending
 // entry for the coupons, one for the sections) and writes their flags.
+// While the database takes the marks the rows are laid out, and while it
+// copies the rows their leaves are encoded.
 func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPlan) error {
 	if len(p.create) == 0 {
 		return nil
 	}
 	now := s.now()
-	r, err := s.prepareImport(ctx, a, p, now)
+	marks, err := importMarks(p)
 	if err != nil {
 		return err
 	}
+	prepared, leaves := make(chan *importRows, 1), make(chan importLeaves, 1)
+	go func() {
+		r := s.prepareImport(ctx, a, p, now)
+		prepared <- r
+		if r.err == nil {
+			leaves <- r.leaves(s, LeafEntry{Site: a.Site, Actor: a.Name, Action: actionCreate, At: now})
+		}
+	}()
 	// The marks' primary key refuses a mark another write claimed since
 	// the plan read the marks: the whole import is rolled back (ImportCoupons
 	// names the mark), and importing again finds that coupon.
-	if err := copyIn(ctx, tx, r.marks); err != nil {
+	if err := copyIn(ctx, tx, marks); err != nil {
 		var pg *pgconn.PgError
 		if errors.As(err, &pg) && pg.Code == pgerrcode.UniqueViolation && pg.TableName == "current_marks" {
 			return errMarkTaken
 		}
 		return fmt.Errorf("claim marks: %w", mapError(err))
+	}
+	r := <-prepared
+	if r.err != nil {
+		return r.err
 	}
 	for _, c := range []*copyRows{r.coupons, r.sections} {
 		if c.n == 0 {
@@ -134,11 +157,15 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 			return fmt.Errorf("copy %s: %w", c.table, mapError(err))
 		}
 	}
-	if err := appendMany(ctx, tx, r.couponLeaves); err != nil {
-		return err
+	l := <-leaves
+	if l.err != nil {
+		return l.err
 	}
-	if r.sectionLeaves != nil {
-		if err := appendMany(ctx, tx, r.sectionLeaves); err != nil {
+	for _, m := range []*ManyLeaves{l.coupons, l.sections} {
+		if m == nil {
+			continue
+		}
+		if err := appendMany(ctx, tx, m); err != nil {
 			return err
 		}
 	}
