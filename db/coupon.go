@@ -2,6 +2,7 @@ package db
 
 import (
 	"context"
+	"fmt"
 
 	"github.com/google/uuid"
 )
@@ -55,11 +56,14 @@ func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon
 		return Coupon{}, err
 	}
 	out := Coupon{Meta: m, CouponData: c}
+	written, err := s.recordedNew(ctx, coupons, couponMark, m, c.CouponMark, recordValues(c), actionCreate)
+	if err != nil {
+		return Coupon{}, fmt.Errorf("db: create coupon: %w", err)
+	}
 	var in *couponInputs
 	if err := s.write(ctx, "create coupon",
 		readWrittenCoupon(ctx, m, c, &in),
-		claimMark(ctx, couponMark, m, c.CouponMark),
-		s.recorded(ctx, coupons, m, recordValues(c), actionCreate),
+		written,
 		writtenCouponFlags(ctx, m, &in, &out),
 	); err != nil {
 		return Coupon{}, s.duplicateMark(ctx, a.Site, c.CouponMark, err)

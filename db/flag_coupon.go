@@ -180,24 +180,26 @@ func queueCouponInputs(ctx context.Context, tx pgx.Tx, site string, id uuid.UUID
 		}
 	}
 	latestProcess := `(SELECT process FROM procedures WHERE site = $1 AND id = ` + procID + ` ORDER BY revision DESC LIMIT 1)`
+	// The drift charts a coupon write may redraw need a calibration of its
+	// process: whether there was ever one comes with the group's activations.
+	calibrated := `false`
+	if written != nil {
+		calibrated = `EXISTS (SELECT 1 FROM calibration_activations WHERE site = $1 AND process = ` + latestProcess + `)`
+	}
 	queued := []error{
 		queueExec(ctx, tx, lock, lockArgs...),
 		queueRows(ctx, tx, readProcedure, `SELECT `+procedures.columns()+` FROM procedures
 			WHERE site = $1 AND id = `+procID+` ORDER BY revision DESC LIMIT 1`, args[:2]...),
 		queueRows(ctx, tx, readRangesWithStale(&in.ranges), rangesWithStaleSQL(procID), args[:2]...),
 		queueRows(ctx, tx, in.readActivations, `
-			SELECT a.wire_diameter_mm, a.shielding_gas, a.calibration_id, a.action, c.level, c.fit FROM (
-				SELECT DISTINCT ON (wire_diameter_mm, shielding_gas) wire_diameter_mm, shielding_gas, calibration_id, action
-				FROM calibration_activations
-				WHERE site = $1 AND family = $`+fmt.Sprint(len(args)+1)+` AND joint_type = `+joint+` AND process = `+latestProcess+`
-				ORDER BY wire_diameter_mm, shielding_gas, activated_at DESC, id DESC) a
-			JOIN calibrations c ON c.site = $1 AND c.id = a.calibration_id`, append(args, CalibrationJacksonFixed.Family())...),
-	}
-	if written != nil { // the drift charts a coupon write may redraw need a calibration of its process
-		queued = append(queued, queueRows(ctx, tx, func(rows pgx.Rows) (err error) {
-			in.calibrated, err = pgx.CollectExactlyOneRow(rows, pgx.RowTo[bool])
-			return err
-		}, `SELECT EXISTS (SELECT 1 FROM calibration_activations WHERE site = $1 AND process = `+latestProcess+`)`, args[:2]...))
+			SELECT x.calibrated, g.wire_diameter_mm, g.shielding_gas, g.calibration_id, g.action, g.level, g.fit
+			FROM (SELECT `+calibrated+` AS calibrated) x LEFT JOIN (
+				SELECT a.wire_diameter_mm, a.shielding_gas, a.calibration_id, a.action, c.level, c.fit FROM (
+					SELECT DISTINCT ON (wire_diameter_mm, shielding_gas) wire_diameter_mm, shielding_gas, calibration_id, action
+					FROM calibration_activations
+					WHERE site = $1 AND family = $`+fmt.Sprint(len(args)+1)+` AND joint_type = `+joint+` AND process = `+latestProcess+`
+					ORDER BY wire_diameter_mm, shielding_gas, activated_at DESC, id DESC) a
+				JOIN calibrations c ON c.site = $1 AND c.id = a.calibration_id) g ON true`, append(args, CalibrationJacksonFixed.Family())...),
 	}
 	if written == nil || written.Revision > 1 {
 		queued = append(queued,
@@ -254,14 +256,28 @@ func (in *couponInputs) flags(ctx context.Context, tx pgx.Tx, now time.Time, sit
 	return w.flush(ctx, tx)
 }
 
-// readActivations reads the latest activation event of each group.
+// readActivations reads whether the process was ever calibrated and the
+// latest activation event of each group: one row with no event when there
+// is none.
 func (in *couponInputs) readActivations(rows pgx.Rows) error {
-	var err error
-	in.activations, err = pgx.CollectRows(rows, func(r pgx.CollectableRow) (groupActivation, error) {
-		var a groupActivation
-		return a, r.Scan(&a.wireMM, &a.gas, &a.calibration, &a.action, &a.level, &a.fit)
-	})
-	return err
+	in.activations = nil
+	for rows.Next() {
+		var (
+			wireMM, level *float64
+			gas, action   *string
+			calibration   *uuid.UUID
+			fit           []byte
+		)
+		if err := rows.Scan(&in.calibrated, &wireMM, &gas, &calibration, &action, &level, &fit); err != nil {
+			return err
+		}
+		if calibration == nil {
+			continue
+		}
+		in.activations = append(in.activations, groupActivation{wireMM: *wireMM, gas: *gas, calibration: *calibration,
+			action: *action, level: *level, fit: fit})
+	}
+	return rows.Err()
 }
 
 // penetrationCheck is the package's penetrationCheck over the activations

@@ -107,8 +107,7 @@ func (s *Store) pendingLeaves(k LeafKind, rows pgx.Rows, e LeafEntry) ([][]any, 
 		if k.Revisioned && revCol >= 0 {
 			fmt.Sscan(f.Fields[revCol].Value, &rev) //nolint:errcheck // an integer column
 		}
-		h := f.LeafHash()
-		pending = append(pending, []any{e.Site, k.Kind, k.Version, pgtype.UUID{Bytes: id, Valid: true}, rev, h, key.Tag(e.Site, h), e.Actor, e.Action, e.Reason, e.At})
+		pending = append(pending, pendingRow(key, k, e, id, rev, f))
 	}
 	rows.Close()
 	if err := rows.Err(); err != nil {
@@ -118,6 +117,13 @@ func (s *Store) pendingLeaves(k LeafKind, rows pgx.Rows, e LeafEntry) ([][]any, 
 		return nil, fmt.Errorf("db: log %s %s revision %d: %w", k.Kind, e.ID, e.Revision, ErrNotFound)
 	}
 	return pending, nil
+}
+
+// pendingRow is the log_pending row (pendingColumns) of revision rev of
+// record id, the fact f of kind k, tagged with key.
+func pendingRow(key *logfmt.Signer, k LeafKind, e LeafEntry, id uuid.UUID, rev int, f logfmt.Fact) []any {
+	h := f.LeafHash()
+	return []any{e.Site, k.Kind, k.Version, pgtype.UUID{Bytes: id, Valid: true}, rev, h, key.Tag(e.Site, h), e.Actor, e.Action, e.Reason, e.At}
 }
 
 const pendingColumns = "site, kind, version, record_id, revision, leaf_hash, tag, actor, action, reason, at"

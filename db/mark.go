@@ -43,32 +43,37 @@ func claimMark(ctx context.Context, k markKind, m Meta, mark string) step {
 				return err
 			}
 		}
-		// The claim: the INSERT's row when it went in. When it did not, the
-		// mark is held (by another record, or by this one when a correction
-		// keeps its mark): a statement of its own, after the INSERT waited
-		// for any holder still writing, reads who holds it.
+		return queueRows(ctx, tx, k.claimed(ctx, tx, m, mark), `INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, $2, $3, $4)
+			ON CONFLICT DO NOTHING RETURNING record_id`, m.Site, k.kind, mark, m.ID)
+	}
+}
+
+// claimed reads the answer of a statement that claims the mark for record
+// m.ID: the claiming row's record_id when the INSERT went in. When it did
+// not, the mark is held (by another record, or by this one when a
+// correction keeps its mark): a statement of its own, after the INSERT
+// waited for any holder still writing, reads who holds it.
+func (k markKind) claimed(ctx context.Context, tx pgx.Tx, m Meta, mark string) func(pgx.Rows) error {
+	return func(rows pgx.Rows) error {
+		claimed, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+		switch {
+		case rows.Err() != nil:
+			return nil // the statement's own error is reported
+		case err != nil:
+			return err
+		case len(claimed) > 0:
+			return nil
+		}
 		return queueRows(ctx, tx, func(rows pgx.Rows) error {
-			claimed, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
-			switch {
-			case rows.Err() != nil:
-				return nil // the statement's own error is reported
-			case err != nil:
-				return err
-			case len(claimed) > 0:
+			holder, err := pgx.CollectOneRow(rows, pgx.RowTo[uuid.UUID])
+			if rows.Err() != nil {
 				return nil
 			}
-			return queueRows(ctx, tx, func(rows pgx.Rows) error {
-				holder, err := pgx.CollectOneRow(rows, pgx.RowTo[uuid.UUID])
-				if rows.Err() != nil {
-					return nil
-				}
-				if err != nil {
-					return err
-				}
-				return k.held(m.ID, holder, mark)
-			}, `SELECT record_id FROM current_marks WHERE site = $1 AND kind = $2 AND mark = $3`, m.Site, k.kind, mark)
-		}, `INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, $2, $3, $4)
-			ON CONFLICT DO NOTHING RETURNING record_id`, m.Site, k.kind, mark, m.ID)
+			if err != nil {
+				return err
+			}
+			return k.held(m.ID, holder, mark)
+		}, `SELECT record_id FROM current_marks WHERE site = $1 AND kind = $2 AND mark = $3`, m.Site, k.kind, mark)
 	}
 }
 

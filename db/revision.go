@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"reflect"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -110,6 +111,67 @@ func (s *Store) recorded(ctx context.Context, t table, m Meta, values []any, act
 		q := "INSERT INTO " + t.name + " (" + t.columns() + ") VALUES (" + strings.Join(ph, ", ") + ") RETURNING " + strings.Join(k.Columns, ", ")
 		return s.appendReturned(ctx, tx, k, m.leafEntry(t.entity, action), q, args...)
 	}
+}
+
+// recordedNew prepares, before the write's transaction, the step that
+// writes revision 1 (m) of a new record holding a mark of kind k: one
+// statement claims the mark (as claimMark does for revision 1: the
+// claiming row, or a refusal naming the holder), inserts the row and
+// appends its pending leaf. The leaf is encoded here from the values sent
+// (valueFact: every column of the row is stored exactly as sent, else this
+// refuses), so nothing is read back and the leaf leaves with the row.
+func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, mark string, values []any, action string) (step, error) {
+	if m.Revision != 1 {
+		return nil, fmt.Errorf("db: %s %s: revision %d is not a new record", t.entity, m.ID, m.Revision)
+	}
+	lk, err := leafKind(t.entity, 0)
+	if err != nil {
+		return nil, err
+	}
+	key := s.logKey()
+	if key == nil {
+		return nil, ErrNoLogKey
+	}
+	fds, err := leafFields(ctx, s.pool, lk, t.name)
+	if err != nil {
+		return nil, err
+	}
+	args := append([]any{m.Site, m.ID, m.Revision, m.CreatedAt, m.CreatedBy, m.Reason, m.Voided}, values...)
+	cols := strings.Split(t.columns(), ", ")
+	if len(cols) != len(args) {
+		return nil, fmt.Errorf("db: %s: %d values for %d columns", t.name, len(args), len(cols))
+	}
+	leafVals := make([]any, len(lk.Columns))
+	for i, c := range lk.Columns {
+		j := slices.Index(cols, c)
+		if j < 0 {
+			return nil, fmt.Errorf("db: %s leaf column %s is not written", t.entity, c)
+		}
+		leafVals[i] = args[j]
+	}
+	f, err := valueFact(lk, fds, leafVals)
+	if err != nil {
+		return nil, err
+	}
+	pending := pendingRow(key, lk, m.leafEntry(t.entity, action), m.ID, m.Revision, f)
+	n := len(args)
+	ph := func(from, count int) string {
+		p := make([]string, count)
+		for i := range p {
+			p[i] = "$" + strconv.Itoa(from+i)
+		}
+		return strings.Join(p, ", ")
+	}
+	q := `WITH claim AS (
+			INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, $` + strconv.Itoa(n+1) + `, $` + strconv.Itoa(n+2) + `, $2)
+			ON CONFLICT DO NOTHING RETURNING record_id),
+		stored AS (INSERT INTO ` + t.name + ` (` + t.columns() + `) VALUES (` + ph(1, n) + `)),
+		logged AS (INSERT INTO log_pending (` + pendingColumns + `) VALUES (` + ph(n+3, len(pending)) + `))
+		SELECT record_id FROM claim`
+	args = append(append(args, k.kind, mark), pending...)
+	return func(tx pgx.Tx) error {
+		return queueRows(ctx, tx, k.claimed(ctx, tx, m, mark), q, args...)
+	}, nil
 }
 
 // lockRecord serialises the writes to one record until the transaction ends.
