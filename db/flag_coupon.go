@@ -283,6 +283,9 @@ func (in *couponInputs) readActivations(rows pgx.Rows) error {
 // penetrationCheck is the package's penetrationCheck over the activations
 // read: the check of the calibration in use for group g, or nil.
 func (in *couponInputs) penetrationCheck(g CalibrationGroup, minMM *float64) (*predict.PenetrationCheck, error) {
+	if len(in.activations) == 0 { // no group of the process chose a calibration: nothing to match
+		return nil, nil
+	}
 	g = g.canonical()
 	for _, a := range in.activations {
 		if a.wireMM != g.WireDiameterMM || a.gas != g.ShieldingGas {
