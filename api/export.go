@@ -35,15 +35,15 @@ func (s *Server) handleExport(c echo.Context) error {
 		}
 	}
 	started := false
-	ctx := db.NoteReadSource(c.Request().Context(), func(src string) { w.Header().Set(headerReadFrom, src) })
-	sum, err := s.store.Export(ctx, actorOf(c).Site, func(kind string, v any) error {
+	out.OnLine(func() {
 		extend()
 		if !started {
 			w.WriteHeader(http.StatusOK)
 			started = true
 		}
-		return out.Line(kind, v)
 	})
+	ctx := db.NoteReadSource(c.Request().Context(), func(src string) { w.Header().Set(headerReadFrom, src) })
+	sum, err := s.store.ExportTo(ctx, actorOf(c).Site, out)
 	if err != nil {
 		if started { // the status is sent; end the stream with an error line the reader sees
 			if c.Request().Context().Err() != nil {

@@ -33,16 +33,36 @@ type ExportSummary struct {
 // in index order with its fact encoded again from the stored row, and every
 // stored fact that is not in the log. The line kinds are in logfmt. It
 // reads from the standby while one is set (UseStandby) and keeps up, else
-// from the primary; NoteReadSource tells which.
+// from the primary; NoteReadSource tells which. Each line's value is
+// emit's to keep: a record (a struct, or its JSON as a json.Marshaler), a
+// leaf as a logfmt.ExportLeaf, an Unlogged, the header or checkpoint.
 func (s *Store) Export(ctx context.Context, site string, emit func(kind string, v any) error) (ExportSummary, error) {
-	return s.export(ctx, s.longRead(ctx), site, true, emit)
+	return s.export(ctx, s.longRead(ctx), site, true, exportSink{emit: emit})
+}
+
+// ExportTo writes the export Export streams to out, the same lines byte
+// for byte, as the export endpoint does: the lines the export can write
+// itself (coupon records, leaves) go from the rows' bytes straight into
+// out's line buffer, with no value made for them. Flushing out is the
+// caller's.
+func (s *Store) ExportTo(ctx context.Context, site string, out *ExportWriter) (ExportSummary, error) {
+	return s.export(ctx, s.longRead(ctx), site, true, exportSink{emit: out.Line, out: out})
+}
+
+// exportSink takes an export's lines: each as a value through emit, or,
+// when out is set, the lines the export writes itself straight into out
+// (emit then writes the others to out).
+type exportSink struct {
+	emit func(kind string, v any) error
+	out  *ExportWriter
 }
 
 // exportHook, when set, runs between an export's records and its leaves
 // (see SetExportHookForTest).
 var exportHook atomic.Pointer[func(site string)]
 
-func (s *Store) export(ctx context.Context, pool *pgxpool.Pool, site string, records bool, emit func(kind string, v any) error) (ExportSummary, error) {
+func (s *Store) export(ctx context.Context, pool *pgxpool.Pool, site string, records bool, sink exportSink) (ExportSummary, error) {
+	emit := sink.emit
 	var sum ExportSummary
 	tx, err := pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 	if err != nil {
@@ -64,7 +84,7 @@ func (s *Store) export(ctx context.Context, pool *pgxpool.Pool, site string, rec
 		return sum, fmt.Errorf("db: export checkpoint: %w", err)
 	}
 	if records {
-		if sum.Records, err = exportRecords(ctx, tx, site, emit); err != nil {
+		if sum.Records, err = exportRecords(ctx, tx, site, sink); err != nil {
 			return sum, err
 		}
 	}
@@ -72,7 +92,7 @@ func (s *Store) export(ctx context.Context, pool *pgxpool.Pool, site string, rec
 		(*h)(site)
 	}
 	var claimed map[string]*unclaimed
-	if sum.Leaves, claimed, err = exportLeaves(ctx, pool, tx, site, emit); err != nil {
+	if sum.Leaves, claimed, err = exportLeaves(ctx, pool, tx, site, sink); err != nil {
 		return sum, fmt.Errorf("db: export leaves: %w", err)
 	}
 	if sum.Unlogged, err = s.exportUnlogged(ctx, tx, site, claimed, emit); err != nil {
@@ -82,14 +102,15 @@ func (s *Store) export(ctx context.Context, pool *pgxpool.Pool, site string, rec
 }
 
 // exportRecords emits every revision of every record in its readable form.
-func exportRecords(ctx context.Context, tx pgx.Tx, site string, emit func(string, any) error) (int64, error) {
+func exportRecords(ctx context.Context, tx pgx.Tx, site string, sink exportSink) (int64, error) {
+	emit := sink.emit
 	steps := []func() (int64, error){
-		func() (int64, error) { return exportTable[Procedure](ctx, tx, procedures, site, emit) },
+		func() (int64, error) { return exportTable[Procedure](ctx, tx, procedures, site, sink) },
 		func() (int64, error) {
-			return exportTable[QualificationRecord](ctx, tx, qualificationRecords, site, emit)
+			return exportTable[QualificationRecord](ctx, tx, qualificationRecords, site, sink)
 		},
-		func() (int64, error) { return exportTable[Coupon](ctx, tx, coupons, site, emit) },
-		func() (int64, error) { return exportTable[Measurement](ctx, tx, measurements, site, emit) },
+		func() (int64, error) { return exportTable[Coupon](ctx, tx, coupons, site, sink) },
+		func() (int64, error) { return exportTable[Measurement](ctx, tx, measurements, site, sink) },
 	}
 	// The remaining tables are exported as stored, one JSON object per row.
 	for _, r := range []struct {
@@ -117,9 +138,10 @@ func exportRecords(ctx context.Context, tx pgx.Tx, site string, emit func(string
 // exportTable emits every revision of one table's records at the site, in
 // storage order: ordering by id would read the table through its index,
 // one random page per row, several times the cost of the sequential read.
-func exportTable[T any](ctx context.Context, tx pgx.Tx, t table, site string, emit func(string, any) error) (int64, error) {
+func exportTable[T any](ctx context.Context, tx pgx.Tx, t table, site string, sink exportSink) (int64, error) {
+	emit := sink.emit
 	if _, sg := any(new(T)).(signable); !sg { // a signed record carries its sign-off: read below
-		if n, ok, err := exportTableCopy[T](ctx, tx, t, site, emit); ok || err != nil {
+		if n, ok, err := exportTableCopy[T](ctx, tx, t, site, sink); ok || err != nil {
 			return n, err
 		}
 	}

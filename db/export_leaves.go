@@ -5,14 +5,13 @@ import (
 	"context"
 	"encoding/binary"
 	"fmt"
-	"math"
 	"slices"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
-	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgtype"
 	"github.com/jackc/pgx/v5/pgxpool"
 
@@ -26,19 +25,26 @@ type leafStream struct {
 	k     LeafKind
 	known bool
 	buf   []leafOut
+	arena []byte // the listings of buf, packed
 	done  bool
-	fds   []pgconn.FieldDescription // the joined row's columns (join path)
-	rows  *rowWindow                // the kind's rows, read beside the leaves; nil: joined in the cursor
+	fw    *factWriter // the joined row's columns (join path)
+	rows  *rowWindow  // the kind's rows, read beside the leaves; nil: joined in the cursor
 }
 
 // leafOut is one leaf on its way from the goroutine that reads the database
-// to the one that encodes and writes it: its listing, and the raw values of
-// its row (owned, in PostgreSQL's binary format) for the writer to encode.
+// to the one that encodes and writes it: its listing and the values of its
+// row, as the database sent them (PostgreSQL's binary format, packed), for
+// the writer to encode.
 type leafOut struct {
-	l   logfmt.ExportLeaf
-	k   LeafKind
-	fds []pgconn.FieldDescription // nil: l is complete (missing row or unknown kind)
-	raw [][]byte
+	list    []byte             // the listing's values (listingOK), packed; nil when decoded is set
+	decoded *logfmt.ExportLeaf // the listing as the driver decoded it, when it was not in that form
+	index   uint64
+	id      uuid.UUID
+	rev     int
+	missing string      // why the leaf has no fields
+	w       *rowWindow  // where its row is read (split path)
+	fw      *factWriter // nil: no fields (missing set)
+	row     []byte      // the row's values, packed
 }
 
 // kindVersion is one (kind, version) with leaves at the site.
@@ -48,10 +54,10 @@ type kindVersion struct {
 }
 
 // leafFetch is how many leaves one FETCH of a kind's cursor takes, and
-// leafBatch how many leaves go from the reader to the writer at a time.
+// leafBatchLen how many leaves go from the reader to the writer at a time.
 const (
-	leafFetch = 5000
-	leafBatch = 1000
+	leafFetch    = 5000
+	leafBatchLen = 1000
 )
 
 // exportLeaves emits every leaf of the site in index order, its fact encoded
@@ -62,13 +68,13 @@ const (
 // read, so neither waits for the other. It returns, for each kind whose rows
 // were read beside its leaves without overflowing the window, the rows that
 // no leaf claimed (every row with no leaf is among them; see unlogged).
-func exportLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string, emit func(string, any) error) (int64, map[string]*unclaimed, error) {
+func exportLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string, sink exportSink) (int64, map[string]*unclaimed, error) {
 	rows, _ := tx.Query(ctx, `SELECT DISTINCT kind, version FROM log_leaves WHERE site = $1`, site)
 	kinds, err := pgx.CollectRows(rows, pgx.RowToStructByName[kindVersion])
 	if err != nil {
 		return 0, nil, err
 	}
-	if n, claimed, ok, err := splitLeaves(ctx, pool, tx, site, kinds, emit); ok || err != nil {
+	if n, claimed, ok, err := splitLeaves(ctx, pool, tx, site, kinds, sink); ok || err != nil {
 		return n, claimed, err
 	}
 	streams := make([]*leafStream, 0, len(kinds))
@@ -81,8 +87,7 @@ func exportLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site strin
 		}
 		st.k, err = leafKind(kv.Kind, kv.Version)
 		st.known = err == nil
-		q := `SELECT lg.leaf_index, lg.kind, lg.version, lg.record_id, lg.revision, lg.leaf_hash,
-			lg.actor, lg.action, lg.reason, lg.at`
+		q := "SELECT " + strings.ReplaceAll(", "+listingColumns, ", ", ", lg.")[2:]
 		versions := 0
 		for _, o := range kinds {
 			if o.Kind == kv.Kind {
@@ -96,6 +101,7 @@ func exportLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site strin
 			}
 			q += ", true FROM log_leaves lg"
 		case st.known:
+			st.name += "_joined" // another shape than the same kind's cursor without its rows
 			cols := make([]string, len(st.k.Columns))
 			for j, c := range st.k.Columns {
 				cols[j] = "r." + c
@@ -115,7 +121,7 @@ func exportLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site strin
 
 	rctx, stop := context.WithCancel(ctx)
 	defer stop()
-	batches := make(chan []leafOut, 2)
+	batches := make(chan *leafBatch, 2)
 	var (
 		rerr    error
 		claimed map[string]*unclaimed
@@ -130,7 +136,7 @@ func exportLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site strin
 			claimed, rerr = unclaimedRows(rctx, tx, windows)
 		}
 	}()
-	n, werr := writeLeaves(batches, emit, stop)
+	n, werr := writeLeaves(batches, sink, stop)
 	if werr != nil {
 		return n, nil, werr
 	}
@@ -139,38 +145,70 @@ func exportLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site strin
 
 // writeLeaves encodes and emits the leaves of each batch until batches is
 // closed. On an error it calls stop and drains batches.
-func writeLeaves(batches <-chan []leafOut, emit func(string, any) error, stop func()) (int64, error) {
-	tm := pgtype.NewMap() // the reader's connection is busy: decode with a map of our own
+func writeLeaves(batches <-chan *leafBatch, sink exportSink, stop func()) (int64, error) {
+	lw := leafWriter{tm: pgtype.NewMap()} // the reader's connection is busy: decode with a map of our own
 	var n int64
 	var werr error
 	for b := range batches {
-		for i := range b {
+		for i := range b.leaves {
 			if werr != nil {
 				break
 			}
-			o := &b[i]
-			if o.fds != nil {
-				f, err := factFromRaw(o.k, o.fds, o.raw, tm)
-				if err != nil {
-					werr = err
-					break
-				}
-				o.l.Fields = f.Fields
-			}
-			if werr = emit(logfmt.LineLeaf, o.l); werr == nil {
+			if werr = lw.write(sink, &b.leaves[i]); werr == nil {
 				n++
 			}
 		}
 		if werr != nil {
 			stop() // the reader stops at its next batch; the loop drains what it sent
 		}
+		b.recycle()
 	}
 	return n, werr
 }
 
+// leafWriter writes leaves, keeping its buffers from one to the next.
+type leafWriter struct {
+	tm        *pgtype.Map
+	list, row [][]byte
+}
+
+// write emits one leaf: straight into sink.out when set, else as the
+// logfmt.ExportLeaf decoded from the same bytes.
+func (lw *leafWriter) write(sink exportSink, o *leafOut) error {
+	if o.fw != nil {
+		lw.row = unpackRow(lw.row, o.row)
+	}
+	if out := sink.out; out != nil && o.decoded == nil {
+		lw.list = unpackRow(lw.list, o.list)
+		b, err := appendListedLeaf(out.begin(logfmt.LineLeaf), lw.list, o.missing, func(b []byte) ([]byte, error) {
+			return o.fw.appendFields(b, lw.row, lw.tm)
+		})
+		if err != nil {
+			out.drop(b)
+			return err
+		}
+		return out.end(b)
+	}
+	var l logfmt.ExportLeaf
+	if o.decoded != nil {
+		l = *o.decoded
+	} else {
+		l = leafOfListing(unpackRow(lw.list, o.list))
+	}
+	l.Missing = o.missing
+	if o.fw != nil {
+		f, err := factFromRaw(o.fw.k, o.fw.fds, lw.row, lw.tm)
+		if err != nil {
+			return err
+		}
+		l.Fields = f.Fields
+	}
+	return sink.emit(logfmt.LineLeaf, l)
+}
+
 // mergeLeaves reads the streams' leaves and sends them in index order, in
 // batches, until every stream is done.
-func mergeLeaves(ctx context.Context, tx pgx.Tx, streams []*leafStream, out chan<- []leafOut) error {
+func mergeLeaves(ctx context.Context, tx pgx.Tx, streams []*leafStream, out chan<- *leafBatch) error {
 	b := leafBatcher{out: out}
 	for {
 		var next *leafStream
@@ -180,7 +218,7 @@ func mergeLeaves(ctx context.Context, tx pgx.Tx, streams []*leafStream, out chan
 					return err
 				}
 			}
-			if len(st.buf) > 0 && (next == nil || st.buf[0].l.Index < next.buf[0].l.Index) {
+			if len(st.buf) > 0 && (next == nil || st.buf[0].index < next.buf[0].index) {
 				next = st
 			}
 		}
@@ -206,25 +244,24 @@ func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
 	if cap(st.buf) < leafFetch {
 		st.buf = make([]leafOut, 0, leafFetch)
 	}
-	st.buf = st.buf[:0]
+	st.buf, st.arena = st.buf[:0], st.arena[:0] // every leaf of the last FETCH went into a batch
 	for rows.Next() {
-		l, err := leafOfRow(rows)
-		if err != nil {
+		var o leafOut
+		if st.arena, err = listLeaf(rows, st.arena, &o); err != nil {
 			return err
 		}
 		raw := rows.RawValues()
-		o := leafOut{l: l, k: st.k}
 		switch {
 		case !st.known:
-			o.l.Missing = "this etchlog does not know the fact kind " + l.Kind
+			o.missing = unknownKind + string(raw[1]) // text: the same bytes in either format
 		case st.rows != nil: // read below, once this FETCH is done
 		case len(raw[10]) != 1 || raw[10][0] == 0:
-			o.l.Missing = "no such row at the site"
+			o.missing = missingRow
 		default:
-			if st.fds == nil {
-				st.fds = slices.Clone(rows.FieldDescriptions()[11:])
+			if st.fw == nil {
+				st.fw = newFactWriter(st.k, slices.Clone(rows.FieldDescriptions()[11:]))
 			}
-			o.fds, o.raw = st.fds, cloneRow(raw[11:])
+			o.fw, o.row = st.fw, packedRow(raw[11:])
 		}
 		st.buf = append(st.buf, o)
 	}
@@ -235,74 +272,81 @@ func (st *leafStream) fill(ctx context.Context, tx pgx.Tx) error {
 	st.done = len(st.buf) == 0
 	if st.rows != nil {
 		for i := range st.buf {
-			o := &st.buf[i]
-			id, err := uuid.Parse(o.l.RecordID)
-			if err != nil {
+			if err := st.rows.attach(ctx, tx, &st.buf[i]); err != nil {
 				return err
-			}
-			if o.raw, err = st.rows.row(ctx, tx, id, o.l.Revision); err != nil {
-				return err
-			}
-			if o.raw == nil {
-				o.l.Missing = "no such row at the site"
-			} else {
-				o.fds = st.rows.fds
 			}
 		}
 	}
 	return nil
 }
 
-// cloneRow copies a row's raw values (valid only until the next row is
-// read) into one allocation, keeping NULLs nil.
-func cloneRow(raw [][]byte) [][]byte {
-	n := 0
-	for _, v := range raw {
-		n += len(v)
-	}
-	buf := make([]byte, n)
-	out := make([][]byte, len(raw))
-	for i, v := range raw {
-		if v != nil {
-			out[i] = buf[:len(v):len(v)]
-			copy(out[i], v)
-			buf = buf[len(v):]
-		}
-	}
-	return out
-}
-
-// leafOfRow is the leaf of the current row of a leaf query (its columns
-// leaf_index, kind, version, record_id, revision, leaf_hash, actor, action,
-// reason, at first): from its raw values, or through the driver's decoding
-// when leafOfRaw cannot read them.
-func leafOfRow(rows pgx.Rows) (logfmt.ExportLeaf, error) {
-	if l, ok := leafOfRaw(rows.FieldDescriptions(), rows.RawValues()); ok {
-		return l, nil
+// listLeaf reads the listing of the current row of a leaf query (its
+// columns listingColumns, then a boolean, first) into o: packed onto arena
+// from its raw values, or decoded by the driver when they are not in the
+// form listingOK takes.
+func listLeaf(rows pgx.Rows, arena []byte, o *leafOut) ([]byte, error) {
+	raw := rows.RawValues()
+	if listingOK(rows.FieldDescriptions(), raw) {
+		start := len(arena)
+		arena = packRow(arena, raw[:10])
+		o.list = arena[start:]
+		o.index = binary.BigEndian.Uint64(raw[0])
+		o.id, o.rev = uuid.UUID(raw[3]), int(int32(binary.BigEndian.Uint32(raw[4])))
+		return arena, nil
 	}
 	vals, err := rows.Values()
 	if err != nil {
-		return logfmt.ExportLeaf{}, err
+		return arena, err
 	}
-	return logfmt.ExportLeaf{Index: uint64(vals[0].(int64)), Kind: vals[1].(string), Version: int(vals[2].(int32)),
+	t, ok := vals[9].(time.Time)
+	if !ok {
+		return arena, fmt.Errorf("leaf %v: its time %v is not finite", vals[0], vals[9])
+	}
+	l := logfmt.ExportLeaf{Index: uint64(vals[0].(int64)), Kind: vals[1].(string), Version: int(vals[2].(int32)),
 		RecordID: uuid.UUID(vals[3].([16]byte)).String(), Revision: int(vals[4].(int32)), LeafHash: vals[5].([]byte),
 		Actor: vals[6].(string), Action: vals[7].(string), Reason: vals[8].(string),
-		At: vals[9].(time.Time).UTC().Format("2006-01-02T15:04:05.000000Z")}, nil
+		At: t.UTC().Format("2006-01-02T15:04:05.000000Z")}
+	o.decoded, o.index, o.id, o.rev = &l, l.Index, uuid.UUID(vals[3].([16]byte)), l.Revision
+	return arena, nil
 }
 
-// leafBatcher gathers leaves into batches of leafBatch for a channel.
+// leafBatch is leaves on their way to the writer, with their listings.
+type leafBatch struct {
+	leaves []leafOut
+	arena  []byte
+}
+
+// leafBatches keeps batches the writer is done with for the next.
+var leafBatches = sync.Pool{New: func() any {
+	return &leafBatch{leaves: make([]leafOut, 0, leafBatchLen), arena: make([]byte, 0, leafBatchLen*192)}
+}}
+
+// recycle gives the batch back for another.
+func (b *leafBatch) recycle() {
+	clear(b.leaves)
+	b.leaves, b.arena = b.leaves[:0], b.arena[:0]
+	leafBatches.Put(b)
+}
+
+// leafBatcher gathers leaves into batches of leafBatchLen for a channel.
 type leafBatcher struct {
-	out   chan<- []leafOut
-	batch []leafOut
+	out   chan<- *leafBatch
+	batch *leafBatch
 }
 
-// add appends o, sending the batch once it is full.
+// add appends o, its listing copied into the batch, sending the batch once
+// it is full.
 func (b *leafBatcher) add(ctx context.Context, o leafOut) error {
 	if b.batch == nil {
-		b.batch = make([]leafOut, 0, leafBatch)
+		b.batch = leafBatches.Get().(*leafBatch)
 	}
-	b.batch = append(b.batch, o)
-	if len(b.batch) < leafBatch {
+	if o.list != nil {
+		start := len(b.batch.arena)
+		b.batch.arena = append(b.batch.arena, o.list...)
+		o.list = b.batch.arena[start:]
+	}
+	b.batch.leaves = append(b.batch.leaves, o)
+	if len(b.batch.leaves) < leafBatchLen {
 		return nil
 	}
 	return b.flush(ctx)
@@ -310,7 +354,7 @@ func (b *leafBatcher) add(ctx context.Context, o leafOut) error {
 
 // flush sends what is gathered (nothing when empty).
 func (b *leafBatcher) flush(ctx context.Context) error {
-	if len(b.batch) == 0 {
+	if b.batch == nil || len(b.batch.leaves) == 0 {
 		return nil
 	}
 	select {
@@ -320,38 +364,6 @@ func (b *leafBatcher) flush(ctx context.Context) error {
 	case <-ctx.Done():
 		return ctx.Err()
 	}
-}
-
-// leafOfRaw reads a leaf's listing (the first ten columns of a leafStream
-// row) from PostgreSQL's binary format, or reports false.
-func leafOfRaw(fds []pgconn.FieldDescription, raw [][]byte) (logfmt.ExportLeaf, bool) {
-	for i := range 11 {
-		text := fds[i].DataTypeOID == pgtype.TextOID // the same bytes in either format; pgx asks for text
-		if !text && fds[i].Format != pgtype.BinaryFormatCode || raw[i] == nil {
-			return logfmt.ExportLeaf{}, false
-		}
-	}
-	if len(raw[0]) != 8 || len(raw[2]) != 4 || len(raw[3]) != 16 || len(raw[4]) != 4 || len(raw[9]) != 8 {
-		return logfmt.ExportLeaf{}, false
-	}
-	us := int64(binary.BigEndian.Uint64(raw[9]))
-	if us == math.MaxInt64 || us == math.MinInt64 {
-		return logfmt.ExportLeaf{}, false
-	}
-	// The texts go into one string (one allocation a leaf, not six).
-	var buf [512]byte
-	b := append(buf[:0], raw[1]...)
-	b = appendUUID(b, raw[3])
-	b = append(append(append(b, raw[6]...), raw[7]...), raw[8]...)
-	b = appendRawTime(b, us)
-	all := string(b)
-	cut := func(n int) string { s := all[:n]; all = all[n:]; return s }
-	l := logfmt.ExportLeaf{Index: binary.BigEndian.Uint64(raw[0]), Kind: cut(len(raw[1])),
-		Version: int(int32(binary.BigEndian.Uint32(raw[2]))), RecordID: cut(36),
-		Revision: int(int32(binary.BigEndian.Uint32(raw[4]))), LeafHash: bytes.Clone(raw[5])}
-	l.Actor, l.Action, l.Reason = cut(len(raw[6])), cut(len(raw[7])), cut(len(raw[8]))
-	l.At = all
-	return l, true
 }
 
 // exportUnlogged emits every stored fact with no leaf: rows with neither a

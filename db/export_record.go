@@ -271,7 +271,7 @@ func (e *recordEncoder) append(b []byte, raw [][]byte) ([]byte, bool) {
 		case ftUUID:
 			if ok = len(v) == 16; ok {
 				b = append(b, '"')
-				b = append(b, uuid.UUID(v).String()...)
+				b = appendUUID(b, v)
 				b = append(b, '"')
 			}
 		case ftTime:
@@ -282,19 +282,22 @@ func (e *recordEncoder) append(b []byte, raw [][]byte) ([]byte, bool) {
 				if y := t.Year(); us != math.MaxInt64 && us != math.MinInt64 && y >= 1 && y <= 9999 {
 					ok = true
 					b = append(b, '"')
-					b = t.AppendFormat(b, time.RFC3339Nano)
+					if _, off := t.Zone(); off == 0 { // RFC 3339 at offset zero: Z
+						b, _ = appendCivil(b, us, true)
+					} else {
+						b = t.AppendFormat(b, time.RFC3339Nano)
+					}
 					b = append(b, '"')
 				}
 			}
 		case ftDate:
 			if len(v) == 4 {
 				days := int32(binary.BigEndian.Uint32(v))
-				t := time.Date(2000, 1, int(1+days), 0, 0, 0, 0, time.UTC)
-				if y := t.Year(); days != math.MaxInt32 && days != math.MinInt32 && y >= 1 && y <= 9999 {
-					ok = true
+				if days != math.MaxInt32 && days != math.MinInt32 {
 					b = append(b, '"')
-					b = t.AppendFormat(b, time.DateOnly)
-					b = append(b, '"')
+					if b, ok = appendDate(b, int64(days)); ok {
+						b = append(b, '"')
+					}
 				}
 			}
 		}
@@ -337,7 +340,7 @@ func appendJSONFloat(b []byte, f float64) []byte {
 // writes each from its raw values (a row it declines is decoded into T as
 // pgx decodes a result row, and encoded by encoding/json). It reports false
 // when T has a field recordEncoder does not write.
-func exportTableCopy[T any](ctx context.Context, tx pgx.Tx, t table, site string, emit func(string, any) error) (int64, bool, error) {
+func exportTableCopy[T any](ctx context.Context, tx pgx.Tx, t table, site string, sink exportSink) (int64, bool, error) {
 	q := "SELECT " + t.columns() + " FROM " + t.name + " WHERE site = " + quoteLiteral(site)
 	sd, err := tx.Conn().PgConn().Prepare(ctx, "", q, nil)
 	if err != nil {
@@ -358,9 +361,16 @@ func exportTableCopy[T any](ctx context.Context, tx pgx.Tx, t table, site string
 	tm := tx.Conn().TypeMap()
 	var n int64
 	r := &copyReader{cols: len(fds), row: func(raw [][]byte) error {
-		if b, ok := enc.append(make([]byte, 0, 512), raw); ok {
+		if out := sink.out; out != nil { // written in place
+			b, ok := enc.append(out.begin(t.entity), raw)
+			if ok {
+				n++
+				return out.end(b)
+			}
+			out.drop(b)
+		} else if b, ok := enc.append(make([]byte, 0, 512), raw); ok {
 			n++
-			return emit(t.entity, recordJSON(b))
+			return sink.emit(t.entity, recordJSON(b))
 		}
 		var v T
 		rv := reflect.ValueOf(&v).Elem()
@@ -370,7 +380,7 @@ func exportTableCopy[T any](ctx context.Context, tx pgx.Tx, t table, site string
 			}
 		}
 		n++
-		return emit(t.entity, v)
+		return sink.emit(t.entity, v)
 	}}
 	if _, err := tx.Conn().PgConn().CopyTo(ctx, r, "COPY ("+q+") TO STDOUT (FORMAT binary)"); err != nil {
 		return n, true, err

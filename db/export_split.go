@@ -6,7 +6,6 @@ import (
 	"sync"
 	"time"
 
-	"github.com/google/uuid"
 	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
@@ -28,7 +27,7 @@ const splitWait = 250 * time.Millisecond
 
 // splitLeaves emits the leaves as exportLeaves does, or reports false
 // without reading any when it cannot split the read.
-func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string, kinds []kindVersion, emit func(string, any) error) (int64, map[string]*unclaimed, bool, error) {
+func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string, kinds []kindVersion, sink exportSink) (int64, map[string]*unclaimed, bool, error) {
 	seen := map[string]bool{}
 	for _, kv := range kinds {
 		if seen[kv.Kind] {
@@ -89,8 +88,8 @@ func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string
 
 	rctx, stop := context.WithCancel(ctx)
 	defer stop()
-	listed := make(chan []leafOut, 2)
-	batches := make(chan []leafOut, 2)
+	listed := make(chan *leafBatch, 2)
+	batches := make(chan *leafBatch, 2)
 	var (
 		wg         sync.WaitGroup
 		lerr, rerr error
@@ -111,25 +110,15 @@ func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string
 			if rerr != nil {
 				continue // drain
 			}
-			for i := range b {
-				o := &b[i]
-				w := windows[o.l.Kind]
-				if w == nil || o.l.Missing != "" {
-					continue
+			for i := range b.leaves {
+				o := &b.leaves[i]
+				if o.w == nil {
+					continue // an unknown kind
 				}
-				id, err := uuid.Parse(o.l.RecordID)
-				if err == nil {
-					o.raw, err = w.row(rctx, tx2, id, o.l.Revision)
-				}
-				if err != nil {
+				if err := o.w.attach(rctx, tx2, o); err != nil {
 					rerr = err
 					stop()
 					break
-				}
-				if o.raw == nil {
-					o.l.Missing = "no such row at the site"
-				} else {
-					o.k, o.fds = w.k, w.fds
 				}
 			}
 			if rerr == nil {
@@ -144,7 +133,7 @@ func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string
 			claimed, rerr = unclaimedRows(rctx, tx2, all)
 		}
 	}()
-	n, werr := writeLeaves(batches, emit, stop)
+	n, werr := writeLeaves(batches, sink, stop)
 	wg.Wait()
 	for _, err := range []error{werr, lerr, rerr} {
 		if err != nil {
@@ -156,23 +145,24 @@ func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string
 
 // listLeaves sends every leaf of the site in index order, in batches, with
 // no row: unknown kinds marked so.
-func listLeaves(ctx context.Context, tx pgx.Tx, site string, windows map[string]*rowWindow, out chan<- []leafOut) error {
-	rows, err := tx.Query(ctx, `SELECT leaf_index, kind, version, record_id, revision, leaf_hash, actor, action, reason, at, true
-		FROM log_leaves WHERE site = $1 ORDER BY leaf_index`, site)
+func listLeaves(ctx context.Context, tx pgx.Tx, site string, windows map[string]*rowWindow, out chan<- *leafBatch) error {
+	rows, err := tx.Query(ctx, "SELECT "+listingColumns+", true FROM log_leaves WHERE site = $1 ORDER BY leaf_index", site)
 	if err != nil {
 		return err
 	}
 	defer rows.Close()
 	b := leafBatcher{out: out}
+	var list []byte
 	for rows.Next() {
-		l, err := leafOfRow(rows)
-		if err != nil {
+		var o leafOut
+		if list, err = listLeaf(rows, list[:0], &o); err != nil {
 			return err
 		}
-		if windows[l.Kind] == nil {
-			l.Missing = "this etchlog does not know the fact kind " + l.Kind
+		kind := rows.RawValues()[1] // text: the same bytes in either format
+		if o.w = windows[string(kind)]; o.w == nil {
+			o.missing = unknownKind + string(kind)
 		}
-		if err := b.add(ctx, leafOut{l: l}); err != nil {
+		if err := b.add(ctx, o); err != nil {
 			return err
 		}
 	}

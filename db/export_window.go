@@ -40,8 +40,9 @@ type rowWindow struct {
 	site   string
 	name   string // the cursor
 	fds    []pgconn.FieldDescription
-	ahead  map[rowKey][][]byte // rows read before their leaf
-	byKey  map[rowKey]bool     // rows read by key, not yet passed
+	fw     *factWriter       // writes the rows' fields (set with fds)
+	ahead  map[rowKey][]byte // rows read before their leaf, packed
+	byKey  map[rowKey]bool   // rows read by key, not yet passed
 	ended  bool
 	over   bool // a bound was reached: the rows no leaf claimed are not known
 	lookup string
@@ -58,7 +59,7 @@ func newRowWindow(ctx context.Context, tx pgx.Tx, k LeafKind, site, name string)
 	if _, err := tx.Exec(ctx, "DECLARE "+name+" NO SCROLL CURSOR FOR "+q); err != nil {
 		return nil, err
 	}
-	return &rowWindow{k: k, site: site, name: name, ahead: map[rowKey][][]byte{}, byKey: map[rowKey]bool{},
+	return &rowWindow{k: k, site: site, name: name, ahead: map[rowKey][]byte{}, byKey: map[rowKey]bool{},
 		lookup: "SELECT " + strings.Join(cols, ", ") + " FROM " + k.Table + " r WHERE r.site = $1 AND r.id = $2 AND " +
 			k.revisionExpr("r") + " = $3"}, nil
 }
@@ -76,7 +77,7 @@ func (w *rowWindow) read(ctx context.Context, tx pgx.Tx, keep bool, seen func(ro
 		got++
 		raw := rows.RawValues()
 		if w.fds == nil {
-			w.fds = slices.Clone(rows.FieldDescriptions()[2:])
+			w.setFields(rows.FieldDescriptions()[2:])
 		}
 		if len(raw[0]) != 16 || len(raw[1]) != 4 {
 			return fmt.Errorf("%s row: unexpected key encoding", w.k.Table)
@@ -87,7 +88,7 @@ func (w *rowWindow) read(ctx context.Context, tx pgx.Tx, keep bool, seen func(ro
 			continue
 		}
 		if keep {
-			w.ahead[key] = cloneRow(raw[2:])
+			w.ahead[key] = packedRow(raw[2:])
 		} else {
 			seen(key)
 		}
@@ -96,9 +97,29 @@ func (w *rowWindow) read(ctx context.Context, tx pgx.Tx, keep bool, seen func(ro
 	return rows.Err()
 }
 
-// row returns the raw values of the leaf's row (nil when the site has no
-// such row); w.fds describes them.
-func (w *rowWindow) row(ctx context.Context, tx pgx.Tx, id [16]byte, rev int) ([][]byte, error) {
+// setFields notes the columns of the rows read.
+func (w *rowWindow) setFields(fds []pgconn.FieldDescription) {
+	w.fds = slices.Clone(fds)
+	w.fw = newFactWriter(w.k, w.fds)
+}
+
+// attach gives the leaf o its row, or marks it missing.
+func (w *rowWindow) attach(ctx context.Context, tx pgx.Tx, o *leafOut) error {
+	row, err := w.row(ctx, tx, o.id, o.rev)
+	switch {
+	case err != nil:
+		return err
+	case row == nil:
+		o.missing = missingRow
+	default:
+		o.row, o.fw = row, w.fw
+	}
+	return nil
+}
+
+// row returns the raw values of the leaf's row, packed (nil when the site
+// has no such row); w.fds describes them.
+func (w *rowWindow) row(ctx context.Context, tx pgx.Tx, id [16]byte, rev int) ([]byte, error) {
 	key := rowKey{id, int32(rev)}
 	for {
 		if raw, ok := w.ahead[key]; ok {
@@ -122,9 +143,9 @@ func (w *rowWindow) row(ctx context.Context, tx pgx.Tx, id [16]byte, rev int) ([
 		return nil, rows.Err()
 	}
 	if w.fds == nil {
-		w.fds = slices.Clone(rows.FieldDescriptions())
+		w.setFields(rows.FieldDescriptions())
 	}
-	raw := cloneRow(rows.RawValues())
+	raw := packedRow(rows.RawValues())
 	if !w.ended && len(w.byKey) < windowRows {
 		w.byKey[key] = true // the storage-order read drops it when it passes
 	}

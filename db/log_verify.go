@@ -25,7 +25,7 @@ func (s *Store) VerifyLog(ctx context.Context, site string, saved []byte) (Verif
 			return out, nil
 		}
 	}
-	sum, err := s.export(ctx, s.long, site, false, func(kind string, rec any) error {
+	sum, err := s.export(ctx, s.long, site, false, exportSink{emit: func(kind string, rec any) error {
 		switch kind {
 		case logfmt.LineCheckpoint:
 			_, _ = v.Checkpoint([]byte(rec.(logfmt.ExportCheckpoint).Note), "the latest stored checkpoint")
@@ -35,7 +35,7 @@ func (s *Store) VerifyLog(ctx context.Context, site string, saved []byte) (Verif
 			v.Unlogged(rec.(logfmt.Unlogged))
 		}
 		return nil
-	})
+	}})
 	if err != nil {
 		return out, fmt.Errorf("db: verify log: %w", err)
 	}
