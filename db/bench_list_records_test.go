@@ -14,12 +14,14 @@ import (
 	"etchlog/db/dbtest"
 )
 
-// BenchmarkRecordListScale pages the sections list and the flags list of
-// one site holding ETCHLOG_BENCH_LIST_COUPONS coupons (default 100,000),
-// seeded like BenchmarkCouponListScale, with a section on every second
-// coupon (every tenth of those rejected) logged after the coupons, and a
-// flag on every third coupon (kinds and variables in turn). Each filter the
-// lists offer runs on the first page and deep, side by side with a raw
+// BenchmarkRecordListScale pages the sections list, the flags list and the
+// other record lists of one site holding ETCHLOG_BENCH_LIST_COUPONS coupons
+// (default 100,000), seeded like BenchmarkCouponListScale, with a section on
+// every second coupon (every tenth of those rejected) logged after the
+// coupons, a flag on every third coupon (kinds and variables in turn), and
+// the procedures, qualification records, production records and sign-offs
+// seedOtherLists adds. Each filter the lists offer runs on the first page
+// and deep, side by side with a raw
 // SELECT of a 50-row page of the same filter from the same table through the
 // same pool, as in BenchmarkCouponListScale (clients=1: p95 of each and
 // x-of-raw, the raw time over the Store's; clients=8: pages/s of each and
@@ -55,12 +57,6 @@ func BenchmarkRecordListScale(b *testing.B) {
 		d := time.Date(2019, 1, 1, 0, 0, 0, 0, time.UTC).AddDate(0, 0, i*2500/n)
 		return &d
 	}
-	type listCase struct {
-		name  string
-		store func() (int, error)
-		raw   string // a raw page's statement
-		args  []any
-	}
 	sections := func(f db.MeasurementFilter, cursor string) func() (int, error) {
 		return func() (int, error) {
 			page, err := s.Measurements(ctx, site, f, cursor, 50)
@@ -75,7 +71,7 @@ func BenchmarkRecordListScale(b *testing.B) {
 	}
 	rawSections := "SELECT " + sectionCols + " FROM measurements WHERE site = $1 AND "
 	rawFlags := "SELECT " + flagCols + " FROM flags WHERE site = $1 AND "
-	for _, c := range []listCase{
+	cases := []recordListCase{
 		{"sections/none", sections(db.MeasurementFilter{}, ""), rawSections + "true ORDER BY id LIMIT 50", nil},
 		{"sections/none/deep", sections(db.MeasurementFilter{}, deepSections), rawSections + "true ORDER BY id LIMIT 50", nil},
 		{"sections/acceptance=reject", sections(db.MeasurementFilter{Acceptance: "reject"}, ""),
@@ -99,7 +95,9 @@ func BenchmarkRecordListScale(b *testing.B) {
 			rawFlags + "subject_at >= $2 ORDER BY subject_at LIMIT 50", []any{day(n * 9 / 10)}},
 		{"flags/subject_id", flags(db.FlagFilter{SubjectID: &coupon}, ""),
 			rawFlags + "subject_id = $2 ORDER BY subject_id LIMIT 50", []any{coupon}},
-	} {
+	}
+	cases = append(cases, otherListCases(ctx, b, s, conn, n)...)
+	for _, c := range cases {
 		store := func() error {
 			got, err := c.store()
 			if err == nil && got == 0 {
@@ -126,6 +124,16 @@ func BenchmarkRecordListScale(b *testing.B) {
 		}
 		sideBySide(b, c.name, store, raw)
 	}
+}
+
+// recordListCase is one list page of BenchmarkRecordListScale: the Store's
+// call (it returns the page's length) and a raw page's statement ($1 the
+// site, args after it).
+type recordListCase struct {
+	name  string
+	store func() (int, error)
+	raw   string
+	args  []any
 }
 
 // sideBySide runs one list case against its raw page at 1 client (calls
@@ -166,7 +174,8 @@ func sideBySide(b *testing.B, name string, store, raw func() error) {
 
 // seedSectionsAndFlags adds to benchSite's n coupons a section on every
 // second coupon (every tenth of them rejected), logged after the coupons,
-// and a flag on every third coupon, then analyzes the tables.
+// and a flag on every third coupon, writes the sections list's key, and
+// analyzes the tables.
 func seedSectionsAndFlags(ctx context.Context, tb testing.TB, conn *pgx.Conn, n int) {
 	tb.Helper()
 	for _, q := range []string{
@@ -191,5 +200,82 @@ func seedSectionsAndFlags(ctx context.Context, tb testing.TB, conn *pgx.Conn, n 
 		if _, err := conn.Exec(ctx, q); err != nil {
 			tb.Fatalf("%v\n%s", err, q)
 		}
+	}
+	// The sections list's key, as the sequencer would have written it.
+	if err := indexAfter(ctx, conn, "section_list", func() error {
+		_, err := conn.Exec(ctx, "INSERT INTO section_list SELECT * FROM section_list_derived WHERE site = 'bench'")
+		return err
+	}); err != nil {
+		tb.Fatal(err)
+	}
+	if _, err := conn.Exec(ctx, "VACUUM ANALYZE section_list"); err != nil {
+		tb.Fatal(err)
+	}
+}
+
+// BenchmarkSectionListRefresh measures what the sections list's key adds to
+// the log sequencer per section leaf: on BenchmarkRecordListScale's site
+// (ETCHLOG_BENCH_LIST_COUPONS coupons, a section on every second), a batch of
+// sections (50, a paced pass under writes; 2,000, a full batch) has its
+// section_list rows rewritten as the sequencer does (DELETE, INSERT from
+// section_list_derived) beside the coupon_list rewrite the sequencer already
+// made for the same sections' coupons (their ids read, DELETE, INSERT from
+// coupon_list_derived), each in its own transaction rolled back, alternating.
+// It reports each one's time per leaf and the section rewrite as a share of
+// the coupon rewrite.
+func BenchmarkSectionListRefresh(b *testing.B) {
+	n := envInt(b, "ETCHLOG_BENCH_LIST_COUPONS", 100000)
+	ctx := context.Background()
+	_, conn, _ := benchSite(b, n)
+	seedSectionsAndFlags(ctx, b, conn, n)
+	if err := fillCouponList(ctx, conn); err != nil {
+		b.Fatal(err)
+	}
+	for _, size := range []int{50, 2000} {
+		b.Run(fmt.Sprintf("batch=%d", size), func(b *testing.B) {
+			var sections, couponsTime time.Duration
+			for i := 0; i < b.N; i++ {
+				// A different batch each time, spread over the log.
+				rows, _ := conn.Query(ctx, `SELECT id FROM measurements WHERE site = 'bench' ORDER BY id OFFSET $1 LIMIT $2`,
+					(i*size*7)%(n/2-size), size)
+				ids, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+				if err != nil {
+					b.Fatal(err)
+				}
+				timed := func(stmts func(tx pgx.Tx) error) time.Duration {
+					tx, err := conn.Begin(ctx)
+					if err != nil {
+						b.Fatal(err)
+					}
+					defer tx.Rollback(ctx) //nolint:errcheck // rolled back on purpose
+					t0 := time.Now()
+					if err := stmts(tx); err != nil {
+						b.Fatal(err)
+					}
+					return time.Since(t0)
+				}
+				sections += timed(func(tx pgx.Tx) error {
+					bt := &pgx.Batch{}
+					bt.Queue(`DELETE FROM section_list WHERE site = $1 AND id = ANY($2)`, "bench", ids)
+					bt.Queue(db.SectionListRefresh, "bench", ids)
+					return tx.SendBatch(ctx, bt).Close()
+				})
+				couponsTime += timed(func(tx pgx.Tx) error {
+					rows, _ := tx.Query(ctx, `SELECT DISTINCT coupon_id FROM measurements WHERE site = $1 AND id = ANY($2)`, "bench", ids)
+					of, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
+					if err != nil {
+						return err
+					}
+					bt := &pgx.Batch{}
+					bt.Queue(`DELETE FROM coupon_list WHERE site = $1 AND id = ANY($2)`, "bench", of)
+					bt.Queue(db.CouponListRefresh, "bench", of)
+					return tx.SendBatch(ctx, bt).Close()
+				})
+			}
+			leaves := float64(b.N * size)
+			b.ReportMetric(float64(sections.Microseconds())/leaves, "section-list-us/leaf")
+			b.ReportMetric(float64(couponsTime.Microseconds())/leaves, "coupon-list-us/leaf")
+			b.ReportMetric(float64(sections)/float64(couponsTime), "x-of-coupon-list")
+		})
 	}
 }

@@ -290,17 +290,5 @@ func firstOfMonth(d *Date, days int) *Date {
 // (the same rows computed from the coupons, their sections and the log) and
 // returns each difference; none means the list key is derived exactly.
 func (s *Store) RecheckCouponList(ctx context.Context, site string) ([]string, error) {
-	rows, _ := s.pool.Query(ctx, `
-		WITH want AS (SELECT `+couponListColumns+` FROM coupon_list_derived WHERE site = $1),
-		     have AS (SELECT `+couponListColumns+` FROM coupon_list WHERE site = $1)
-		SELECT format('coupon %s: %s', coalesce(w.id, h.id), CASE WHEN h.id IS NULL THEN 'not in coupon_list'
-		              WHEN w.id IS NULL THEN 'in coupon_list, not logged' ELSE 'differs: ' || to_jsonb(h)::text END)
-		FROM want w FULL JOIN have h ON h.id = w.id
-		WHERE w IS DISTINCT FROM h
-		ORDER BY 1`, site)
-	diffs, err := pgx.CollectRows(rows, pgx.RowTo[string])
-	if err != nil {
-		return nil, fmt.Errorf("db: recheck coupon list: %w", err)
-	}
-	return diffs, nil
+	return s.recheckDerived(ctx, site, "coupon_list", "coupon_list_derived", couponListColumns, "coupon")
 }

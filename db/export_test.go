@@ -33,6 +33,10 @@ func OpenTraced(ctx context.Context, url string, tr pgx.QueryTracer) (*Store, er
 // rows with, for the plan test.
 var CouponListRefresh = couponListRefresh
 
+// SectionListRefresh is the statement the sequencer rewrites section_list
+// rows with, for the plan test.
+const SectionListRefresh = sectionListRefresh
+
 // RecordJSONBothWays reads the coupons of a site (up to the first the
 // driver cannot scan) and returns each row's
 // record as the export's record encoder writes it (nil where it declines

@@ -126,17 +126,8 @@ type MeasurementFilter struct {
 	IncludeVoided bool
 }
 
-// Measurements lists current measurements after the cursor.
+// Measurements lists current measurements after the cursor, in log order
+// through the sections list's key (section_list.go).
 func (s *Store) Measurements(ctx context.Context, site string, mf MeasurementFilter, cursor string, limit int) (Page[Measurement], error) {
-	f := newFilter()
-	if !mf.IncludeVoided {
-		f.add("NOT voided")
-	}
-	if mf.CouponID != nil {
-		f.add("coupon_id = ?", *mf.CouponID)
-	}
-	if mf.Acceptance != "" {
-		f.add("acceptance = ?", mf.Acceptance)
-	}
-	return listCurrent[Measurement](ctx, s, measurements, site, f, cursor, limit)
+	return s.listSections(ctx, site, mf, cursor, limit)
 }

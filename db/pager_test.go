@@ -29,23 +29,91 @@ func TestPagerSeesEveryRowOnce(t *testing.T) {
 	s, site := dbtest.Store(t), dbtest.Site(t)
 	ctx := context.Background()
 	p := mustProcedure(t, s, site)
-	const writers, each = 16, 150
+	followEveryRowOnce(t, s, site, "coupon", func(w, i int) (uuid.UUID, bool, error) {
+		c, err := s.CreateCoupon(ctx, actor(site), couponData(p.ID, fmt.Sprintf("C-PGR-%02d-%03d", w, i)))
+		return c.ID, true, err
+	}, func(cursor string) ([]uuid.UUID, string, error) {
+		pg, err := s.Coupons(ctx, site, db.CouponFilter{IncludeVoided: true}, cursor, 50)
+		ids := make([]uuid.UUID, len(pg.Items))
+		for i, c := range pg.Items {
+			ids[i] = c.ID
+		}
+		return ids, pg.Next, err
+	})
+}
+
+// TestSectionPagerSeesEveryRowOnce follows the sections list filtered to
+// rejected sections while 16 writers add 2,400 sections, every fourth
+// rejected: the follower must see every committed rejected section exactly
+// once and no accepted one (the list's key, section_list, is written in the
+// transaction that gives a leaf its index).
+func TestSectionPagerSeesEveryRowOnce(t *testing.T) {
+	t.Parallel()
+	if testing.Short() {
+		t.Skip("2,400 writes")
+	}
+	s, site := dbtest.Store(t), dbtest.Site(t)
+	ctx := context.Background()
+	p := mustProcedure(t, s, site)
+	couponOf := make([]uuid.UUID, pagerWriters)
+	for w := range couponOf {
+		c, err := s.CreateCoupon(ctx, actor(site), couponData(p.ID, fmt.Sprintf("C-SPG-%02d", w)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		couponOf[w] = c.ID
+	}
+	followEveryRowOnce(t, s, site, "measurement", func(w, i int) (uuid.UUID, bool, error) {
+		acceptance := "accept"
+		if i%4 == 0 {
+			acceptance = "reject"
+		}
+		m, err := s.CreateMeasurement(ctx, actor(site), measurementData(couponOf[w], fmt.Sprintf("S%03d", i), acceptance))
+		return m.ID, acceptance == "reject", err
+	}, func(cursor string) ([]uuid.UUID, string, error) {
+		pg, err := s.Measurements(ctx, site, db.MeasurementFilter{Acceptance: "reject"}, cursor, 50)
+		ids := make([]uuid.UUID, len(pg.Items))
+		for i, m := range pg.Items {
+			ids[i] = m.ID
+		}
+		return ids, pg.Next, err
+	})
+}
+
+// pagerWriters write pagerEach records each in the pager tests.
+const pagerWriters, pagerEach = 16, 150
+
+// followEveryRowOnce runs pagerWriters writers calling write(w, i) for i <
+// pagerEach (it returns the record's id and whether the followed list shows
+// it) while one follower pages the list with page from the start, and fails
+// unless the follower saw every listed record exactly once and nothing
+// else, with a cursor on every page. It logs the sequencer's commit-to-index
+// lag for kind and the write-to-list visibility.
+func followEveryRowOnce(t *testing.T, s *db.Store, site, kind string, write func(w, i int) (uuid.UUID, bool, error),
+	page func(cursor string) ([]uuid.UUID, string, error)) {
+	t.Helper()
+	ctx := context.Background()
 	var mu sync.Mutex
-	acked := map[uuid.UUID]time.Time{}
+	acked := map[uuid.UUID]time.Time{} // the records the list shows
+	unlisted := map[uuid.UUID]bool{}   // the records it must not show
 	var wg sync.WaitGroup
-	for w := range writers {
+	for w := range pagerWriters {
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			for i := range each {
-				c, err := s.CreateCoupon(ctx, actor(site), couponData(p.ID, fmt.Sprintf("C-PGR-%02d-%03d", w, i)))
+			for i := range pagerEach {
+				id, listed, err := write(w, i)
 				if err != nil {
 					t.Error(err)
 					return
 				}
 				now := time.Now()
 				mu.Lock()
-				acked[c.ID] = now
+				if listed {
+					acked[id] = now
+				} else {
+					unlisted[id] = true
+				}
 				mu.Unlock()
 			}
 		}()
@@ -65,40 +133,40 @@ func TestPagerSeesEveryRowOnce(t *testing.T) {
 			default:
 			}
 		}
-		pg, err := s.Coupons(ctx, site, db.CouponFilter{IncludeVoided: true}, cursor, 50)
+		ids, next, err := page(cursor)
 		if err != nil {
 			t.Fatal(err)
 		}
-		if pg.Next == "" {
+		if next == "" {
 			t.Fatalf("page %d has no cursor", pages)
 		}
-		if len(pg.Items) == 0 && cursor != "" && pg.Next != cursor {
-			t.Fatalf("an empty page returned cursor %q, want the one it was asked with (%q)", pg.Next, cursor)
+		if len(ids) == 0 && cursor != "" && next != cursor {
+			t.Fatalf("an empty page returned cursor %q, want the one it was asked with (%q)", next, cursor)
 		}
 		now := time.Now()
-		for _, c := range pg.Items {
-			seen[c.ID]++
+		for _, id := range ids {
+			seen[id]++
 			mu.Lock()
-			if at, ok := acked[c.ID]; ok && seen[c.ID] == 1 {
+			if at, ok := acked[id]; ok && seen[id] == 1 {
 				delays = append(delays, now.Sub(at))
 			}
 			mu.Unlock()
 		}
-		cursor = pg.Next
-		if finished && len(pg.Items) == 0 {
+		cursor = next
+		if finished && len(ids) == 0 {
 			break
 		}
-		if len(pg.Items) < 50 {
+		if len(ids) < 50 {
 			time.Sleep(time.Millisecond)
 		}
 	}
 	if t.Failed() {
 		return
 	}
-	if len(acked) != writers*each {
-		t.Fatalf("%d coupons acknowledged, want %d", len(acked), writers*each)
+	if len(acked)+len(unlisted) != pagerWriters*pagerEach {
+		t.Fatalf("%d records acknowledged, want %d", len(acked)+len(unlisted), pagerWriters*pagerEach)
 	}
-	missed, repeated := 0, 0
+	missed, repeated, wrong := 0, 0, 0
 	for id := range acked {
 		switch seen[id] {
 		case 0:
@@ -108,19 +176,24 @@ func TestPagerSeesEveryRowOnce(t *testing.T) {
 			repeated++
 		}
 	}
-	if missed != 0 || repeated != 0 || len(seen) != len(acked) {
-		t.Errorf("follower saw %d distinct coupons of %d: %d missed, %d repeated", len(seen), len(acked), missed, repeated)
+	for id := range seen {
+		if unlisted[id] {
+			wrong++
+		}
+	}
+	if missed != 0 || repeated != 0 || wrong != 0 || len(seen) != len(acked) {
+		t.Errorf("follower saw %d distinct records of %d: %d missed, %d repeated, %d outside the filter", len(seen), len(acked), missed, repeated, wrong)
 	}
 	var p50, p99, maxLag float64
 	var batches int
 	if err := s.Pool().QueryRow(ctx, `SELECT percentile_cont(0.5) WITHIN GROUP (ORDER BY lag), percentile_cont(0.99) WITHIN GROUP (ORDER BY lag), max(lag),
 			(SELECT count(*) FROM log_checkpoints WHERE site = $1)
-		FROM (SELECT extract(epoch FROM integrated_at - at) AS lag FROM log_leaves WHERE site = $1 AND kind = 'coupon') l`, site).Scan(&p50, &p99, &maxLag, &batches); err == nil {
+		FROM (SELECT extract(epoch FROM integrated_at - at) AS lag FROM log_leaves WHERE site = $1 AND kind = $2) l`, site, kind).Scan(&p50, &p99, &maxLag, &batches); err == nil {
 		t.Logf("sequencer: commit-to-index p50 %.1f ms, p99 %.1f ms, max %.1f ms, %d batches", 1000*p50, 1000*p99, 1000*maxLag, batches)
 	}
 	slices.Sort(delays)
 	if len(delays) > 0 {
-		t.Logf("write-to-list visibility over %d coupons seen while writing: p50 %v, p99 %v, max %v", len(delays),
+		t.Logf("write-to-list visibility over %d records seen while writing: p50 %v, p99 %v, max %v", len(delays),
 			delays[len(delays)/2], delays[len(delays)*99/100], delays[len(delays)-1])
 	}
 }

@@ -133,6 +133,14 @@ func TestDetachProductionMonth(t *testing.T) {
 	if err != nil || len(page.Items) != 1 || page.Items[0].WeldID != "D-3" {
 		t.Fatalf("listed after the detach: %+v (err %v), want D-3 only", page.Items, err)
 	}
+	// In pages of one, the first page reads past the two detached leaves.
+	one, err := s.ProductionRecords(ctx, site, db.ProductionRecordFilter{}, "", 1)
+	if err != nil || len(one.Items) != 1 || one.Items[0].WeldID != "D-3" {
+		t.Errorf("first page of one after the detach: %+v (err %v), want D-3", one.Items, err)
+	}
+	if rest, err := s.ProductionRecords(ctx, site, db.ProductionRecordFilter{}, one.Next, 1); err != nil || len(rest.Items) != 0 || rest.Next != one.Next {
+		t.Errorf("page after D-3: %+v, cursor %q (err %v), want none and cursor %q", rest.Items, rest.Next, err, one.Next)
+	}
 	if len(procedureFlags(t, s, site, p.ID)) != 0 {
 		t.Errorf("the detached month's flag (D-2 at 230 A) is still listed")
 	}

@@ -130,16 +130,16 @@ func (s *Store) QualificationRecords(ctx context.Context, site string, qf Qualif
 		f.add("process = ?", qf.Process)
 	}
 	if qf.WelderID != "" {
-		f.add("welder_id = ?", qf.WelderID)
+		f.addIndexed("welder_id = ?", qf.WelderID)
 	}
 	if qf.Outcome != "" {
 		f.add("outcome = ?", qf.Outcome)
 	}
 	if qf.WeldedFrom != nil {
-		f.add("welded_on >= ?", *qf.WeldedFrom)
+		f.addIndexed("welded_on >= ?", *qf.WeldedFrom)
 	}
 	if qf.WeldedTo != nil {
-		f.add("welded_on < ?", *qf.WeldedTo)
+		f.addIndexed("welded_on < ?", *qf.WeldedTo)
 	}
 	return listCurrent[QualificationRecord](ctx, s, qualificationRecords, site, f, cursor, limit)
 }

@@ -124,6 +124,10 @@ func revisions[T any](ctx context.Context, s *Store, t table, site string, id uu
 type filter struct {
 	conds []string
 	args  []any
+	// indexed is set when a condition has an index of its own on the record
+	// table that keeps few records (a welder, a range of days): the planner
+	// may then start from it (see listCurrent).
+	indexed bool
 }
 
 // newFilter returns an empty filter with the site and cursor placeholders reserved.
@@ -136,6 +140,13 @@ func (f *filter) add(cond string, vals ...any) {
 		cond = strings.Replace(cond, "?", "$"+strconv.Itoa(len(f.args)), 1)
 	}
 	f.conds = append(f.conds, cond)
+}
+
+// addIndexed appends a condition served by an index of the record table
+// that keeps few records (see filter.indexed).
+func (f *filter) addIndexed(cond string, vals ...any) {
+	f.add(cond, vals...)
+	f.indexed = true
 }
 
 // listCurrent returns the current revisions matching f in log order after
@@ -156,22 +167,10 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 		f = newFilter()
 	}
 	f.args[0], f.args[1] = site, from
-	where := "true"
-	if len(f.conds) > 0 {
-		where = strings.Join(f.conds, " AND ")
-	}
-	f.args = append(f.args, limit, t.entity)
-	cols := make([]string, 0, len(t.fields)+7)
-	for _, c := range strings.Split(t.columns(), ", ") {
-		cols = append(cols, "cur."+c)
-	}
 	// "cur" is a logged revision with no later logged one.
-	sql := "SELECT " + strings.Join(cols, ", ") + ", lg.leaf_index FROM log_leaves lg" +
-		" JOIN " + t.name + " cur ON cur.id = lg.record_id AND cur.revision = lg.revision AND cur.site = lg.site" +
-		" WHERE lg.site = $1 AND lg.kind = $" + strconv.Itoa(len(f.args)) + " AND lg.leaf_index >= $2" +
-		" AND NOT EXISTS (SELECT 1 FROM log_leaves later WHERE later.site = lg.site AND later.record_id = lg.record_id" +
-		" AND later.kind = lg.kind AND later.revision > lg.revision)" +
-		" AND " + where + " ORDER BY lg.leaf_index LIMIT $" + strconv.Itoa(len(f.args)-1)
+	f.add("NOT EXISTS (SELECT 1 FROM log_leaves later WHERE later.site = lg.site AND later.record_id = lg.record_id" +
+		" AND later.kind = lg.kind AND later.revision > lg.revision)")
+	sql := logWalk(t.entity, t.name, t.columns(), f, "cur.revision = lg.revision", limit)
 	var items []T
 	var last int64
 	err = s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
@@ -183,6 +182,46 @@ func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f f
 	}
 	return Page[T]{Items: items, Next: nextLogCursor(t.name, from, last, len(items))}, attachSignOffs(ctx, s.pool, site, items)
 }
+
+// logWalk is the statement of a page of the records of one leaf kind
+// (stored in table, columns named), in log order from the cursor ($2), with
+// f's conditions on the record ("cur"; the leaf is "lg"); match pairs a leaf
+// with its row besides the id. The kind and the page size are written into
+// the statement (pageLimit). The last column is the leaf's index.
+func logWalk(kind, table, columns string, f filter, match string, limit int) string {
+	cols := prefixed("cur.", columns)
+	where := "true"
+	if len(f.conds) > 0 {
+		where = strings.Join(f.conds, " AND ")
+	}
+	if f.indexed {
+		// A condition with an index that keeps few records: the planner
+		// may start from that index and sort the few it finds by log index.
+		return "SELECT " + cols + ", lg.leaf_index FROM log_leaves lg" +
+			" JOIN " + table + " cur ON cur.site = lg.site AND cur.id = lg.record_id AND " + match +
+			" WHERE lg.site = $1 AND lg.kind = '" + kind + "' AND lg.leaf_index >= $2" +
+			" AND " + where + " ORDER BY lg.leaf_index" + pageLimit(limit)
+	}
+	// Conditions that keep most records (none, void mark, process, status,
+	// outcome, kind of record signed, signer): walk the kind's leaves in
+	// log order and look each record up, until a page is full. The lookup
+	// is a subquery the planner cannot flatten (OFFSET 0), so it cannot
+	// trade the walk for hashing every record of the kind, which a prepared
+	// statement's generic plan did (a first page of PQRs by process measured
+	// 88 ms at 10,000 PQRs, of sign-offs 141 ms at 15,000).
+	return "SELECT " + cols + ", lg.leaf_index FROM log_leaves lg" +
+		" CROSS JOIN LATERAL (SELECT " + columns + " FROM " + table + " cur" +
+		" WHERE cur.site = lg.site AND cur.id = lg.record_id AND " + match + " AND " + where + " OFFSET 0) cur" +
+		" WHERE lg.site = $1 AND lg.kind = '" + kind + "' AND lg.leaf_index >= $2" +
+		" ORDER BY lg.leaf_index" + pageLimit(limit)
+}
+
+// pageLimit is a list statement's LIMIT, the page size written in: bound as
+// a parameter, the generic plan PostgreSQL switches a prepared statement to
+// after five executions does not know a page is small, and hashes every
+// record of the kind instead of walking the log in order (a record list's
+// first page measured 140 ms at 10,000 records instead of 1-3 ms).
+func pageLimit(limit int) string { return " LIMIT " + strconv.Itoa(limit) }
 
 // readPage reads one page of a list with read, showing every write
 // acknowledged before it was asked for: the site's newest pending leaf is

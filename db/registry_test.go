@@ -31,6 +31,8 @@ var copiedTables = map[string]string{
 	"coupon_list":             "the current revision of each coupon, copied from coupons",
 	"coupon_list_derived":     "a view of coupons",
 	"production_records_all":  "a view of production_records and production_records_detached, whose CHECKs it shows",
+	"section_list":            "the current revision's acceptance of each section, copied from measurements",
+	"section_list_derived":    "a view of measurements",
 }
 
 var (

@@ -290,6 +290,9 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 	if err := listed.refresh(ctx, tx, site); err != nil {
 		return false, fmt.Errorf("coupon_list: %w", err)
 	}
+	if err := refreshSectionList(ctx, tx, site, listed.sections); err != nil {
+		return false, fmt.Errorf("section_list: %w", err)
+	}
 	if len(leaves) > 0 {
 		root, err := rng.GetRootHash(nil)
 		if err != nil {

@@ -211,14 +211,20 @@ func (s *Store) SignOffs(ctx context.Context, site string, f SignOffFilter, curs
 	if err != nil {
 		return Page[SignOff]{}, fmt.Errorf("db: list sign-offs: %w", err)
 	}
+	fl := newFilter()
+	fl.args[0], fl.args[1] = site, from
+	if f.RecordKind != "" {
+		fl.add("cur.record_kind = ?", f.RecordKind)
+	}
+	if f.RecordID != nil {
+		fl.addIndexed("cur.record_id = ?", *f.RecordID) // a record has few sign-offs
+	}
+	if f.SignedBy != "" {
+		fl.add("cur.signed_by = ?", f.SignedBy)
+	}
 	var items []SignOff
 	var last int64
-	err = s.readPage(ctx, site, `SELECT `+prefixed("so.", signOffColumns)+`, lg.leaf_index
-		FROM log_leaves lg JOIN sign_offs so ON so.site = lg.site AND so.id = lg.record_id
-		WHERE lg.site = $1 AND lg.kind = 'sign_off' AND lg.leaf_index >= $2
-		  AND ($3 = '' OR so.record_kind = $3) AND ($4::uuid IS NULL OR so.record_id = $4)
-		  AND ($5 = '' OR so.signed_by = $5)
-		ORDER BY lg.leaf_index LIMIT $6`, []any{site, from, f.RecordKind, f.RecordID, f.SignedBy, limit}, func(rows pgx.Rows) (err error) {
+	err = s.readPage(ctx, site, logWalk("sign_off", "sign_offs", signOffColumns, fl, "true", limit), fl.args, func(rows pgx.Rows) (err error) {
 		items, last, err = collectIndexed[SignOff](rows)
 		return err
 	})

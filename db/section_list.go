@@ -1,0 +1,114 @@
+package db
+
+import (
+	"context"
+	"fmt"
+	"strings"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// The sections list pages in log order through section_list (migration
+// 000031): one row per logged section with its latest logged revision, that
+// revision's log index and the columns the list filters on (coupon,
+// acceptance, void mark), each filter with an index (site, <column>,
+// leaf_index). The sequencer rewrites a section's row in the transaction
+// that gives one of its leaves its index (refreshSectionList), so the table
+// agrees with the log a reader sees and a client following the cursor sees
+// every section revision exactly once, as with the coupons list; a page of
+// a verdict few sections have reads only that verdict's entries.
+
+// sectionListColumns are section_list's columns, named.
+const sectionListColumns = "site, id, revision, leaf_index, coupon_id, acceptance, voided"
+
+// sectionListRefresh writes the section_list rows of sections $2 at site $1.
+// Ids as an array, so the condition reaches inside the view's latest-leaf
+// lookup and each section is read by key.
+const sectionListRefresh = `INSERT INTO section_list (` + sectionListColumns + `) SELECT ` + sectionListColumns +
+	` FROM section_list_derived WHERE site = $1 AND id = ANY($2)`
+
+// refreshSectionList rewrites, inside the sequencer's transaction, the
+// section_list rows of the sections the batch logs (ids; a section may
+// appear more than once), in one round trip; none, no statement.
+func refreshSectionList(ctx context.Context, tx pgx.Tx, site string, ids []uuid.UUID) error {
+	if len(ids) == 0 {
+		return nil
+	}
+	b := &pgx.Batch{}
+	b.Queue(`DELETE FROM section_list WHERE site = $1 AND id = ANY($2)`, site, ids)
+	b.Queue(sectionListRefresh, site, ids)
+	return tx.SendBatch(ctx, b).Close()
+}
+
+// listSections returns one page of current sections matching mf in log order
+// after the cursor: the page's keys walked in log order through the filter's
+// index of section_list (written into the statement with the page size, so
+// the generic plan knows a page is small), then each row read by key.
+func (s *Store) listSections(ctx context.Context, site string, mf MeasurementFilter, cursor string, limit int) (Page[Measurement], error) {
+	if limit <= 0 || limit > MaxPageSize {
+		limit = MaxPageSize
+	}
+	from, err := logCursor(measurements.name, cursor)
+	if err != nil {
+		return Page[Measurement]{}, fmt.Errorf("db: list measurement: %w", err)
+	}
+	f := newFilter()
+	f.args[0], f.args[1] = site, from
+	if !mf.IncludeVoided {
+		f.add("NOT k.voided")
+	}
+	if mf.CouponID != nil {
+		f.add("k.coupon_id = ?", *mf.CouponID)
+	}
+	if mf.Acceptance != "" {
+		f.add("k.acceptance = ?", mf.Acceptance)
+	}
+	where := ""
+	if len(f.conds) > 0 {
+		where = " AND " + strings.Join(f.conds, " AND ")
+	}
+	sql := `SELECT ` + prefixed("m.", measurements.columns()) + `, k.leaf_index
+		FROM (SELECT k.id, k.revision, k.leaf_index FROM section_list k
+			WHERE k.site = $1 AND k.leaf_index >= $2` + where + `
+			ORDER BY k.leaf_index` + pageLimit(limit) + `) k
+		JOIN measurements m ON m.site = $1 AND m.id = k.id AND m.revision = k.revision
+		ORDER BY k.leaf_index`
+	var items []Measurement
+	var last int64
+	err = s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
+		items, last, err = collectIndexed[Measurement](rows)
+		return err
+	})
+	if err != nil {
+		return Page[Measurement]{}, fmt.Errorf("db: list measurement: %w", mapError(err))
+	}
+	return Page[Measurement]{Items: items, Next: nextLogCursor(measurements.name, from, last, len(items))}, nil
+}
+
+// RecheckSectionList compares the site's section_list with
+// section_list_derived (the same rows computed from the sections and the
+// log) and returns each difference; none means the list key is derived
+// exactly.
+func (s *Store) RecheckSectionList(ctx context.Context, site string) ([]string, error) {
+	return s.recheckDerived(ctx, site, "section_list", "section_list_derived", sectionListColumns, "section")
+}
+
+// recheckDerived compares a list key table with the view it is derived from
+// at site, row by row (keyed by id), and words each difference, naming the
+// record as noun.
+func (s *Store) recheckDerived(ctx context.Context, site, table, view, columns, noun string) ([]string, error) {
+	rows, _ := s.pool.Query(ctx, `
+		WITH want AS (SELECT `+columns+` FROM `+view+` WHERE site = $1),
+		     have AS (SELECT `+columns+` FROM `+table+` WHERE site = $1)
+		SELECT format('`+noun+` %s: %s', coalesce(w.id, h.id), CASE WHEN h.id IS NULL THEN 'not in `+table+`'
+		              WHEN w.id IS NULL THEN 'in `+table+`, not logged' ELSE 'differs: ' || to_jsonb(h)::text END)
+		FROM want w FULL JOIN have h ON h.id = w.id
+		WHERE w IS DISTINCT FROM h
+		ORDER BY 1`, site)
+	diffs, err := pgx.CollectRows(rows, pgx.RowTo[string])
+	if err != nil {
+		return nil, fmt.Errorf("db: recheck %s: %w", table, err)
+	}
+	return diffs, nil
+}
