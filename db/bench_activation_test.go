@@ -60,7 +60,11 @@ func BenchmarkActivateCalibration(b *testing.B) {
 	b.Logf("calibration over %d coupons stored in %.1f s", cal.SampleCount, time.Since(t0).Seconds())
 	if os.Getenv("ETCHLOG_BENCH_EXPLAIN") != "" { // the plans of the activation's two streamed queries
 		for name, q := range db.ActivationQueriesForTest {
-			rows, _ := fb.conn.Query(ctx, "EXPLAIN (ANALYZE, BUFFERS) "+q, site, "GMAW", "fillet")
+			args := []any{site, "GMAW", "fillet"}
+			if name == "drift" {
+				args = append(args, cal.ID)
+			}
+			rows, _ := fb.conn.Query(ctx, "EXPLAIN (ANALYZE, BUFFERS) "+q, args...)
 			plan, err := pgx.CollectRows(rows, pgx.RowTo[string])
 			if err != nil {
 				b.Fatal(err)

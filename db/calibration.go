@@ -183,7 +183,10 @@ func (s *Store) CreateCalibration(ctx context.Context, a Actor, spec Calibration
 		if spec.ArcLengthMM != nil {
 			arc = *spec.ArcLengthMM
 		}
-		run, err := runSelection(ctx, tx, a.Site, sel.filter(), spec.Model, arc, InlineSampleLimit, true)
+		// The coupons fitted are kept too (calibration_fitted), so that the
+		// group's drift chart leaves them out without deriving them again.
+		sink := &fittedSink{site: a.Site, calID: c.ID}
+		run, err := runSelection(ctx, tx, a.Site, sel.filter(), spec.Model, arc, InlineSampleLimit, true, sink)
 		if errors.Is(err, predict.ErrTooFewSamples) { // say which groups do have coupons
 			groups, gerr := existingGroups(ctx, tx, a.Site, spec.Group())
 			if gerr != nil {
@@ -196,6 +199,9 @@ func (s *Store) CreateCalibration(ctx context.Context, a Actor, spec Calibration
 		}
 		c.Fit, c.SampleCount, c.SampleDigest = run.Fit, run.Count, hex.EncodeToString(run.Digest)
 		if err := s.insertCalibration(ctx, tx, c, run.Digest); err != nil {
+			return err
+		}
+		if err := sink.done(ctx, tx); err != nil {
 			return err
 		}
 		c.Samples, c.CouponIDs = run.Samples, run.IDs

@@ -23,7 +23,7 @@ import (
 //     every current coupon of the group with its sections, the new flags are
 //     evaluated in Go and copied into a temporary table, the coupons' stored
 //     calibrated flags are noted, and the drift chart's points are read and
-//     judged (on a connection of its own, at the same time);
+//     judged (the coupons the calibration was not fitted to);
 //  2. catch up, still without those locks: the coupons logged since the
 //     mark (leaves pending or past the mark's index, not pending at the
 //     mark) are evaluated again, the mark moved first, in a few rounds;
@@ -31,7 +31,7 @@ import (
 //     (flag_lock.go), which wait only for the coupon writes in flight: the
 //     coupons logged since the last mark are evaluated again, then the old
 //     flags are deleted and the new ones inserted with one statement each,
-//     and the chart is redrawn from its points.
+//     and the chart's points and drift flags are stored.
 //
 // So the flags committed with the activation are those of the calibration
 // it makes active, for every coupon of the group as of its commit, while a
@@ -93,14 +93,8 @@ const memberSQL = `
 
 var (
 	memberAll = fmt.Sprintf(memberSQL, "", "AND coupon_id IN (SELECT id FROM coupons WHERE site = $1 AND joint_type = $3)")
-	memberOf  = fmt.Sprintf(memberSQL, "AND id = ANY($4)", "AND coupon_id = ANY($4)")
+	memberOf  = fmt.Sprintf(memberSQL, "AND id IN (SELECT unnest($4::uuid[]))", "AND coupon_id IN (SELECT unnest($4::uuid[]))")
 )
-
-func init() {
-	if driftCouponsOf == driftCoupons {
-		panic("db: driftCouponsOf does not restrict driftCoupons")
-	}
-}
 
 // member is one row of memberSQL.
 type member struct {
@@ -233,7 +227,7 @@ func copyIDs(ctx context.Context, tx pgx.Tx, site string, ids []uuid.UUID) error
 	}
 	_, err = tx.Exec(ctx, `INSERT INTO activation_old (subject_id, variable, kind)
 		SELECT subject_id, variable, kind FROM flags
-		WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = ANY($2) AND `+calibratedFlags, site, ids)
+		WHERE site = $1 AND subject_kind = 'coupon' AND subject_id IN (SELECT unnest($2::uuid[])) AND `+calibratedFlags, site, ids)
 	return err
 }
 
@@ -259,13 +253,16 @@ func (r *groupRecompute) compute(ctx context.Context, tx pgx.Tx) error {
 			return err
 		}
 	}
-	// The chart's calibration (the coupons it was fitted to) and candidates
-	// are read in this transaction too, after the mark, so that what it
-	// misses is reconciled like the members. Not on a connection of its own:
-	// this transaction holds its tables' locks while it waits, so a lock
-	// request queued between the two (a TRUNCATE or ALTER TABLE of one of
-	// them) would leave both waiting for ever, where PostgreSQL's deadlock
-	// check cannot see it.
+	// The chart's calibration and points are read in this transaction too,
+	// after the mark, so that what it misses is reconciled like the members.
+	// Not on a connection of its own: this transaction holds its tables'
+	// locks while it waits, so a lock request queued between the two (a
+	// TRUNCATE or ALTER TABLE of one of them) would leave both waiting for
+	// ever, where PostgreSQL's deadlock check cannot see it. The coupons the
+	// calibration was fitted to are left out by the query (calibration_fitted,
+	// stored when the calibration was created, or derived here once for an
+	// older one), so only the coupons on the chart are read with their
+	// procedures and sections.
 	if r.calID == uuid.Nil {
 		return nil
 	}
@@ -273,7 +270,10 @@ func (r *groupRecompute) compute(ctx context.Context, tx pgx.Tx) error {
 	if err != nil {
 		return err
 	}
-	pts, err := dc.readDriftPoints(ctx, tx, r.g, driftCoupons, r.site, r.g.Process, r.g.JointType)
+	if err := ensureFitted(ctx, tx, r.site, r.calID); err != nil {
+		return err
+	}
+	pts, err := dc.readDriftPoints(ctx, tx, r.g, driftCoupons, r.site)
 	if err != nil {
 		return err
 	}
@@ -297,10 +297,12 @@ func (r *groupRecompute) readMark(ctx context.Context, tx pgx.Tx) error {
 }
 
 // catchUpRounds and catchUpEnough bound catchUp: at most that many rounds,
-// ending early once a round finds fewer coupons written than that.
+// ending early once a round finds fewer coupons written than that. A round
+// that finds few is quick (a read of the log past the mark and those
+// coupons), and every coupon it takes is one the locked step does not.
 const (
-	catchUpRounds = 4
-	catchUpEnough = 32
+	catchUpRounds = 8
+	catchUpEnough = 8
 )
 
 // catchUp evaluates again, still without the flag locks, the coupons
@@ -433,7 +435,7 @@ func (r *groupRecompute) evaluateAll(ctx context.Context, tx pgx.Tx) error {
 	}
 	if r.drift != nil {
 		var err error
-		r.points, err = r.drift.readDriftPoints(ctx, tx, r.g, driftCoupons, r.site, r.g.Process, r.g.JointType)
+		r.points, err = r.drift.readDriftPoints(ctx, tx, r.g, driftCoupons, r.site)
 		return err
 	}
 	return nil
@@ -444,8 +446,9 @@ func (r *groupRecompute) evaluateAll(ctx context.Context, tx pgx.Tx) error {
 // the members, whose flags the swap rewrites.
 func (r *groupRecompute) evaluateChanged(ctx context.Context, tx pgx.Tx, changed []uuid.UUID) error {
 	if r.family == CalibrationJacksonFixed.Family() {
-		for _, q := range []string{`DELETE FROM activation_flags WHERE subject_id = ANY($1)`, `DELETE FROM activation_members WHERE id = ANY($1)`,
-			`DELETE FROM activation_old WHERE subject_id = ANY($1)`} {
+		for _, q := range []string{`DELETE FROM activation_flags WHERE subject_id IN (SELECT unnest($1::uuid[]))`,
+			`DELETE FROM activation_members WHERE id IN (SELECT unnest($1::uuid[]))`,
+			`DELETE FROM activation_old WHERE subject_id IN (SELECT unnest($1::uuid[]))`} {
 			if _, err := tx.Exec(ctx, q, changed); err != nil {
 				return err
 			}
@@ -455,7 +458,7 @@ func (r *groupRecompute) evaluateChanged(ctx context.Context, tx pgx.Tx, changed
 		}
 	}
 	if r.drift != nil {
-		fresh, err := r.drift.readDriftPoints(ctx, tx, r.g, driftCouponsOf, r.site, r.g.Process, r.g.JointType, changed)
+		fresh, err := r.drift.readDriftPoints(ctx, tx, r.g, driftCouponsOf, r.site, changed)
 		if err != nil {
 			return err
 		}
@@ -488,8 +491,9 @@ func mergePoints(pts []driftPoint, changed []uuid.UUID, fresh []driftPoint) []dr
 	return append(out, fresh[j:]...)
 }
 
-// redraw rewrites the drift flags of the group's chart of this family
-// under the chart's lock (taken after the flag locks, as every write does).
+// redraw rewrites the drift flags and stored points of the group's chart
+// of this family under the chart's lock (taken after the flag locks, as
+// every write does).
 func (r *groupRecompute) redraw(ctx context.Context, tx pgx.Tx) error {
 	key := driftKey(r.family, r.g)
 	if _, err := tx.Exec(ctx, `SELECT pg_advisory_xact_lock(hashtextextended('etchlog-drift:' || $1 || ':' || $2, 0))`, r.site, key); err != nil {
@@ -499,7 +503,10 @@ func (r *groupRecompute) redraw(ctx context.Context, tx pgx.Tx) error {
 		return fmt.Errorf("clear drift flags: %w", err)
 	}
 	if r.drift == nil {
-		return nil
+		return clearChart(ctx, tx, r.site, key)
+	}
+	if err := storeChart(ctx, tx, r.site, key, r.drift.id, r.points); err != nil {
+		return err
 	}
 	rep := r.drift.report(r.g, r.family, r.points)
 	var rows [][]any

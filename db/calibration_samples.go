@@ -45,6 +45,13 @@ type groupCoupon struct {
 	PenetrationsMM       []float64   `db:"penetrations_mm"`
 }
 
+// targets are c's fields in siteCoupons' column order, to scan a row into.
+func (c *groupCoupon) targets() []any {
+	return []any{&c.ID, &c.Revision, &c.ProcedureRevision, &c.RecordRevision, &c.Process, &c.JointType, &c.ShieldingGas, &c.CurrentA, &c.VoltageV,
+		&c.TravelSpeedMMPerS, &c.WireFeedSpeedMPerMin, &c.CTWDMM, &c.WireDiameterMM, &c.PenetrationsMM,
+		&c.SectionIDs, &c.SectionRevisions}
+}
+
 // siteCoupons is the current, non-voided coupons of a site (as of $5 when
 // given: revisions created at or before it) with the revisions read, their
 // process (the coupon's procedure's, else its qualification record's), their
@@ -90,15 +97,53 @@ func forGroupCoupons(ctx context.Context, q querier, site string, f SampleFilter
 	g := f.Group.canonical()
 	rows, _ := q.Query(ctx, siteCoupons, site, f.WeldedFrom, f.WeldedTo, f.ProcedureID, f.AsOf)
 	var c groupCoupon
-	_, err := pgx.ForEachRow(rows, []any{&c.ID, &c.Revision, &c.ProcedureRevision, &c.RecordRevision, &c.Process, &c.JointType, &c.ShieldingGas, &c.CurrentA, &c.VoltageV,
-		&c.TravelSpeedMMPerS, &c.WireFeedSpeedMPerMin, &c.CTWDMM, &c.WireDiameterMM, &c.PenetrationsMM,
-		&c.SectionIDs, &c.SectionRevisions}, func() error {
+	_, err := pgx.ForEachRow(rows, c.targets(), func() error {
 		if !g.has(c.Process, c.WireDiameterMM, c.ShieldingGas, c.JointType) {
 			return nil
 		}
 		return fn(&c)
 	})
 	if err != nil {
+		return fmt.Errorf("select coupons: %w", err)
+	}
+	return nil
+}
+
+// forGroupCouponsBatched is forGroupCoupons through a cursor of tx, read
+// fittedBatch rows at a time, calling flush after each batch (which may
+// write in tx between two reads: a plain stream holds the connection).
+// The cursor is planned for the whole result, as the plain query is.
+func forGroupCouponsBatched(ctx context.Context, tx pgx.Tx, site string, f SampleFilter, fn func(*groupCoupon) error, flush func() error) error {
+	g := f.Group.canonical()
+	if _, err := tx.Exec(ctx, `SET LOCAL cursor_tuple_fraction = 1`); err != nil {
+		return fmt.Errorf("select coupons: %w", err)
+	}
+	if _, err := tx.Exec(ctx, `DECLARE selection_rows NO SCROLL CURSOR FOR `+siteCoupons,
+		site, f.WeldedFrom, f.WeldedTo, f.ProcedureID, f.AsOf); err != nil {
+		return fmt.Errorf("select coupons: %w", err)
+	}
+	var c groupCoupon
+	for {
+		rows, _ := tx.Query(ctx, fmt.Sprintf(`FETCH %d FROM selection_rows`, fittedBatch))
+		n := 0
+		_, err := pgx.ForEachRow(rows, c.targets(), func() error {
+			n++
+			if !g.has(c.Process, c.WireDiameterMM, c.ShieldingGas, c.JointType) {
+				return nil
+			}
+			return fn(&c)
+		})
+		if err != nil {
+			return fmt.Errorf("select coupons: %w", err)
+		}
+		if err := flush(); err != nil {
+			return err
+		}
+		if n < fittedBatch {
+			break
+		}
+	}
+	if _, err := tx.Exec(ctx, `CLOSE selection_rows`); err != nil {
 		return fmt.Errorf("select coupons: %w", err)
 	}
 	return nil

@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
 
 	"etchlog/predict"
 )
@@ -107,14 +108,19 @@ type selectionRun struct {
 // runSelection streams the coupons filter f selects at site from q, shapes
 // each into a sample of model (arcLengthMM for Lesnewich), hashes it and,
 // with fit, adds it to predict's streaming fit. Memory holds at most keep
-// samples, whatever the group's size.
-func runSelection(ctx context.Context, q querier, site string, f SampleFilter, model CalibrationModel, arcLengthMM float64, keep int, fit bool) (selectionRun, error) {
+// samples, whatever the group's size. With a sink (q must then be a
+// transaction) every sample's coupon is also written to calibration_fitted,
+// a batch at a time.
+func runSelection(ctx context.Context, q querier, site string, f SampleFilter, model CalibrationModel, arcLengthMM float64, keep int, fit bool, sink *fittedSink) (selectionRun, error) {
 	run := selectionRun{Samples: &CalibrationSamples{}, IDs: []uuid.UUID{}}
 	dg := newSampleDigest()
 	ps, ms := predict.NewPenetrationStream(), predict.NewMeltingStream()
 	kept := func(c *groupCoupon) bool {
 		run.Count++
 		dg.add(c)
+		if sink != nil {
+			sink.add(c.ID)
+		}
 		if run.Count > keep {
 			run.Samples, run.IDs = nil, nil
 			return false
@@ -122,7 +128,7 @@ func runSelection(ctx context.Context, q querier, site string, f SampleFilter, m
 		run.IDs = append(run.IDs, c.ID)
 		return true
 	}
-	err := forGroupCoupons(ctx, q, site, f, func(c *groupCoupon) error {
+	each := func(c *groupCoupon) error {
 		if model == CalibrationLesnewich {
 			smp, ok, err := meltingSampleOf(c, arcLengthMM)
 			if !ok || err != nil {
@@ -147,7 +153,17 @@ func runSelection(ctx context.Context, q querier, site string, f SampleFilter, m
 			return ps.Add(smp)
 		}
 		return nil
-	})
+	}
+	var err error
+	if sink != nil {
+		tx, ok := q.(pgx.Tx)
+		if !ok {
+			return run, errors.New("selection: the fitted coupons are written in a transaction")
+		}
+		err = forGroupCouponsBatched(ctx, tx, site, f, each, func() error { return sink.flush(ctx, tx) })
+	} else {
+		err = forGroupCoupons(ctx, q, site, f, each)
+	}
 	if err == nil && fit {
 		if model == CalibrationLesnewich {
 			var m predict.MeltingFit
@@ -193,7 +209,7 @@ func (s *Store) rederive(ctx context.Context, c *Calibration, verify bool) error
 	if sel.ArcLengthMM != nil {
 		arc = *sel.ArcLengthMM
 	}
-	run, err := runSelection(ctx, s.long, c.Site, sel.filter(), sel.Model, arc, InlineSampleLimit, false)
+	run, err := runSelection(ctx, s.long, c.Site, sel.filter(), sel.Model, arc, InlineSampleLimit, false, nil)
 	var fe *FieldError
 	if errors.As(err, &fe) { // a stored coupon the rules now refuse: the re-derivation differs
 		c.SampleCheck = &SampleCheck{Finding: "differs", Note: "the selection could not be re-derived: " + fe.Reason}

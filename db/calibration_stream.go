@@ -12,7 +12,7 @@ import (
 // arcLengthMM is the Lesnewich model's arc length (ignored by the Jackson
 // models). The refusals are CreateCalibration's.
 func (s *Store) FitGroup(ctx context.Context, site string, f SampleFilter, model CalibrationModel, arcLengthMM float64) (CalibrationFit, error) {
-	run, err := runSelection(ctx, s.long, site, f, model, arcLengthMM, 0, true)
+	run, err := runSelection(ctx, s.long, site, f, model, arcLengthMM, 0, true, nil)
 	if err != nil {
 		return CalibrationFit{}, fmt.Errorf("db: fit group: %w", err)
 	}

@@ -169,7 +169,15 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 			return err
 		}
 	}
-	return p.writeFlags(ctx, tx, now)
+	if err := p.writeFlags(ctx, tx, now); err != nil {
+		return err
+	}
+	// The coupons join their groups' drift charts (drift.go), like a single create.
+	couponIDs := make([]uuid.UUID, len(p.create))
+	for i, pc := range p.create {
+		couponIDs[i] = pc.id
+	}
+	return importDrift(ctx, tx, now, a.Site, couponIDs)
 }
 
 // errMarkTaken is a planned mark claimed by another write during the import.

@@ -6,8 +6,6 @@ import (
 	"fmt"
 	"math"
 	"slices"
-	"strings"
-	"sync"
 	"time"
 
 	"github.com/google/uuid"
@@ -77,13 +75,43 @@ type driftRow struct {
 
 // driftCoupons is the current, non-voided coupons of a process and joint
 // type with their effective wire, gas and sections, in welding order (ties
-// by id, which follows creation).
-const driftCoupons = `
-	WITH cur AS (
-		SELECT DISTINCT ON (id) id, voided, coupon_mark, procedure_id, qualification_record_id, welded_on, welder_id,
+// by id, which follows creation), leaving out the coupons calibration $4
+// was fitted to as far as its set is stored in calibration_fitted (none
+// for uuid.Nil). Its coupons are each coupon's latest revision of joint
+// type $3 (driftCur).
+var driftCoupons = fmt.Sprintf(driftSQL, `
+		SELECT DISTINCT ON (id) `+driftCurColumns+`
+		FROM coupons c WHERE site = $1 AND joint_type = $3
+		  AND `+notFitted+`
+		ORDER BY id, revision DESC`)
+
+// driftCouponsOf is driftCoupons restricted to the coupons $5 (a write's
+// coupons, or those an activation reads again because they were written
+// while it computed): the same rows, each coupon's revision found by its
+// key, so that the cost follows the coupons asked for, whatever the plan.
+var driftCouponsOf = fmt.Sprintf(driftSQL, `
+		SELECT c.* FROM (SELECT DISTINCT unnest($5::uuid[]) AS id) u
+		CROSS JOIN LATERAL (SELECT `+driftCurColumns+` FROM coupons c
+			WHERE c.site = $1 AND c.id = u.id AND c.joint_type = $3 ORDER BY c.revision DESC LIMIT 1) c
+		WHERE `+notFitted)
+
+// notFitted holds for a coupon revision c whose coupon calibration $4 was
+// not fitted to, as far as its set is stored: a lookup by the whole key per
+// row, written as a scalar subquery so that PostgreSQL cannot turn it into
+// an anti-join. As one, planned on statistics taken before a new
+// calibration's set was written, it scanned the set again for every coupon
+// (12 ms a coupon at 100,000 fitted coupons).
+const notFitted = `(SELECT true FROM calibration_fitted f
+			WHERE f.site = $1 AND f.calibration_id = $4 AND f.coupon_id = c.id LIMIT 1) IS NULL`
+
+// driftCurColumns are the coupon columns a chart reads.
+const driftCurColumns = `id, voided, coupon_mark, procedure_id, qualification_record_id, welded_on, welder_id,
 		       power_source_id, filler_lot, joint_type, current_a, voltage_v, travel_speed_mm_s,
-		       wire_feed_speed_m_min, ctwd_mm, wire_diameter_mm, shielding_gas
-		FROM coupons WHERE site = $1 AND joint_type = $3 ORDER BY id, revision DESC
+		       wire_feed_speed_m_min, ctwd_mm, wire_diameter_mm, shielding_gas`
+
+// driftSQL is a chart's query over the coupons (revisions) %s gives.
+const driftSQL = `
+	WITH cur AS (%s
 	)
 	SELECT cur.id, cur.coupon_mark, cur.procedure_id, cur.welded_on, cur.welder_id, cur.power_source_id, cur.filler_lot,
 	       coalesce(p.process, r.process, '') AS process, cur.joint_type,
@@ -103,99 +131,27 @@ const driftCoupons = `
 	WHERE NOT cur.voided AND coalesce(p.process, r.process, '') = $2
 	ORDER BY cur.welded_on, cur.id`
 
-// driftCouponsOf is driftCoupons restricted to the coupons $4 (the rows
-// an activation reads again for the coupons written while it computed).
-var driftCouponsOf = strings.Replace(driftCoupons, "WHERE site = $1 AND joint_type = $3 ORDER BY id, revision DESC",
-	"WHERE site = $1 AND joint_type = $3 AND id = ANY($4) ORDER BY id, revision DESC", 1)
-
 // driftCal is what a drift chart reads of its calibration: the model, the
-// fit, the arc length and the coupons it was fitted to (not charted).
+// fit, the arc length and, only where the coupons it was fitted to are not
+// stored in calibration_fitted, those coupons (not charted).
 type driftCal struct {
 	id     uuid.UUID
 	model  CalibrationModel
 	fit    CalibrationFit
 	arc    *float64
-	fitted map[uuid.UUID]bool
+	fitted map[uuid.UUID]bool // nil: the set is stored (driftCoupons leaves it out)
 }
 
-// driftCalibration reads calibration calID for a drift chart.
+// driftCalibration reads calibration calID for a drift chart; the coupons
+// it was fitted to are left to calibration_fitted (see ensureFitted).
 func driftCalibration(ctx context.Context, q querier, site string, calID uuid.UUID) (driftCal, error) {
 	dc := driftCal{id: calID}
-	var ids []uuid.UUID
-	var sel *CalibrationSelection
-	err := q.QueryRow(ctx, `SELECT model, fit, arc_length_mm, coupon_ids, selection FROM calibrations WHERE site = $1 AND id = $2`,
-		site, calID).Scan(&dc.model, &dc.fit, &dc.arc, &ids, &sel)
+	err := q.QueryRow(ctx, `SELECT model, fit, arc_length_mm FROM calibrations WHERE site = $1 AND id = $2`,
+		site, calID).Scan(&dc.model, &dc.fit, &dc.arc)
 	if err != nil {
 		return dc, fmt.Errorf("drift: calibration %s: %w", calID, err)
 	}
-	if sel != nil { // stored by its selection: the coupons it gave as of the fit
-		if dc.fitted = fittedSets.get(site, calID); dc.fitted != nil {
-			return dc, nil
-		}
-		if ids, err = selectedIDs(ctx, q, site, *sel); err != nil {
-			return dc, fmt.Errorf("drift: calibration %s: %w", calID, err)
-		}
-	}
-	dc.fitted = make(map[uuid.UUID]bool, len(ids))
-	for _, id := range ids {
-		dc.fitted[id] = true
-	}
-	if sel != nil {
-		fittedSets.put(site, calID, dc.fitted)
-	}
 	return dc, nil
-}
-
-// fittedSets keeps, per calibration stored by its selection, the set of
-// coupons the selection gave as of its fit, so that a write redrawing a
-// drift chart does not derive the selection again over the whole group.
-// The set depends only on the selection and the records as of the
-// calibration's time, which no later write changes, so an entry never goes
-// stale; the cache holds the most recently used few and is shared by every
-// Store of the process (calibration ids are unique across sites and
-// databases). A derivation is a read inside the caller's transaction of
-// data committed before it, so caching it whether or not that transaction
-// commits is safe.
-var fittedSets = &fittedCache{max: 8}
-
-type fittedCache struct {
-	mu      sync.Mutex
-	max     int
-	entries []fittedEntry // most recently used last
-}
-
-type fittedEntry struct {
-	site  string
-	calID uuid.UUID
-	ids   map[uuid.UUID]bool
-}
-
-// get returns the cached set (nil when absent); callers only read it.
-func (c *fittedCache) get(site string, calID uuid.UUID) map[uuid.UUID]bool {
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	for i, e := range c.entries {
-		if e.site == site && e.calID == calID {
-			c.entries = append(append(c.entries[:i:i], c.entries[i+1:]...), e)
-			return e.ids
-		}
-	}
-	return nil
-}
-
-// put caches a set, dropping the least recently used entry when full.
-func (c *fittedCache) put(site string, calID uuid.UUID, ids map[uuid.UUID]bool) {
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	for _, e := range c.entries {
-		if e.site == site && e.calID == calID {
-			return
-		}
-	}
-	if len(c.entries) >= c.max {
-		c.entries = slices.Delete(c.entries, 0, 1)
-	}
-	c.entries = append(c.entries, fittedEntry{site: site, calID: calID, ids: ids})
 }
 
 // driftPoint is one row of driftCoupons with its residual and SD against
@@ -217,19 +173,39 @@ func (dc driftCal) point(c driftRow, g CalibrationGroup) driftPoint {
 	return p
 }
 
-// readDriftPoints runs query (driftCoupons or driftCouponsOf, with args)
-// and judges each row.
-func (dc driftCal) readDriftPoints(ctx context.Context, q querier, g CalibrationGroup, query string, args ...any) ([]driftPoint, error) {
-	rows, _ := q.Query(ctx, query, args...)
-	cs, err := pgx.CollectRows(rows, pgx.RowToStructByName[driftRow])
+// readDriftPoints runs query (driftCoupons or driftCouponsOf: $1 site, $2
+// process, $3 joint type, $4 the calibration whose stored fitted set is left
+// out, then args) and judges each row; it returns the charted points, in
+// the query's order.
+func (dc driftCal) readDriftPoints(ctx context.Context, q querier, g CalibrationGroup, query, site string, args ...any) ([]driftPoint, error) {
+	rows, err := q.Query(ctx, query, append([]any{site, g.Process, g.JointType, dc.excluded()}, args...)...)
 	if err != nil {
 		return nil, fmt.Errorf("drift: coupons: %w", err)
 	}
-	pts := make([]driftPoint, len(cs))
-	for i, c := range cs {
-		pts[i] = dc.point(c, g)
+	defer rows.Close()
+	var pts []driftPoint
+	for rows.Next() {
+		c, err := pgx.RowToStructByName[driftRow](rows)
+		if err != nil {
+			return nil, fmt.Errorf("drift: coupons: %w", err)
+		}
+		if p := dc.point(c, g); p.ok {
+			pts = append(pts, p)
+		}
+	}
+	if err := rows.Err(); err != nil {
+		return nil, fmt.Errorf("drift: coupons: %w", err)
 	}
 	return pts, nil
+}
+
+// excluded is the calibration whose stored fitted set driftCoupons leaves
+// out: this one, unless its set is held in memory instead.
+func (dc driftCal) excluded() uuid.UUID {
+	if dc.fitted != nil {
+		return uuid.Nil
+	}
+	return dc.id
 }
 
 // report charts the points (in welding order) of group g for one family.
@@ -254,20 +230,6 @@ func (dc driftCal) report(g CalibrationGroup, family string, pts []driftPoint) D
 	}
 	rep.Series = predict.DriftCharts(obs)
 	return rep
-}
-
-// driftOf charts group g for one family against calibration cal (in one
-// pass over the group's coupons read by one query).
-func driftOf(ctx context.Context, q querier, site string, g CalibrationGroup, family string, calID uuid.UUID) (DriftReport, error) {
-	dc, err := driftCalibration(ctx, q, site, calID)
-	if err != nil {
-		return DriftReport{Group: g, Family: family, CalibrationID: calID}, err
-	}
-	pts, err := dc.readDriftPoints(ctx, q, g, driftCoupons, site, g.Process, g.JointType)
-	if err != nil {
-		return DriftReport{Group: g, Family: family, CalibrationID: calID, Model: dc.model}, err
-	}
-	return dc.report(g, family, pts), nil
 }
 
 // driftResidual is a coupon's residual against the fit; false when the
@@ -296,7 +258,9 @@ func driftResidual(c driftRow, fit CalibrationFit, arc *float64) (res, sd float6
 
 // Drift returns the drift charts of group g for a model family
 // ("penetration" or "melting") against the calibration in use;
-// ErrNotFound when none is in use.
+// ErrNotFound when none is in use. It reads the chart's stored points; a
+// chart not stored yet is drawn from the records (and not stored: a read
+// writes nothing).
 func (s *Store) Drift(ctx context.Context, site string, g CalibrationGroup, family string) (DriftReport, error) {
 	g = g.canonical()
 	id, err := activeOf(ctx, s.pool, site, family, g)
@@ -307,11 +271,20 @@ func (s *Store) Drift(ctx context.Context, site string, g CalibrationGroup, fami
 		return DriftReport{Group: g, Family: family}, fmt.Errorf("db: drift: no %s calibration in use for %s %g mm %q %s: %w",
 			family, g.Process, g.WireDiameterMM, g.ShieldingGas, g.JointType, ErrNotFound)
 	}
-	rep, err := driftOf(ctx, s.pool, site, g, family, id)
+	tx, err := s.pool.BeginTx(ctx, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly})
 	if err != nil {
-		return rep, fmt.Errorf("db: %w", err)
+		return DriftReport{}, fmt.Errorf("db: drift: %w", err)
 	}
-	return rep, nil
+	defer tx.Rollback(ctx) //nolint:errcheck // read only
+	dc, err := driftCalibration(ctx, tx, site, id)
+	if err != nil {
+		return DriftReport{Group: g, Family: family, CalibrationID: id}, fmt.Errorf("db: %w", err)
+	}
+	pts, err := dc.readChart(ctx, tx, site, driftKey(family, g), g)
+	if err != nil {
+		return DriftReport{Group: g, Family: family, CalibrationID: id, Model: dc.model}, fmt.Errorf("db: %w", err)
+	}
+	return dc.report(g, family, pts), nil
 }
 
 // driftKey names a chart in the flags table: family and canonical group.
@@ -366,11 +339,14 @@ func driftVariable(family, field string) string {
 // families are the model families a group may have a calibration of.
 var families = []string{"penetration", "melting"}
 
-// recomputeDrift rewrites the drift flags of group g's charts, under the
-// chart's lock (taken last in every write, after the flag locks, so it
+// recomputeDrift rewrites the drift flags of the charts of groups, under
+// each chart's lock (taken last in every write, after the flag locks, so it
 // cannot close a cycle): the chart's reader sees every coupon committed
-// before it.
-func recomputeDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, groups []CalibrationGroup) error {
+// before it. With coupons only their points are judged again, the others
+// read as stored (drift_points); without (nil), or for a chart whose stored
+// points are not against the calibration in use, the chart is drawn again
+// from the records and stored.
+func recomputeDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, groups []CalibrationGroup, coupons []uuid.UUID) error {
 	keys := map[string]CalibrationGroup{}
 	for _, g := range groups {
 		for _, f := range families {
@@ -382,33 +358,40 @@ func recomputeDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, 
 		sorted = append(sorted, k)
 	}
 	slices.Sort(sorted)
-	if _, err := tx.Exec(ctx, `SELECT pg_advisory_xact_lock(hashtextextended('etchlog-drift:' || $1 || ':' || k, 0))
+	// The lock and the deletion leave with the next statement that needs an
+	// answer (a pipeTx), which the server runs after them.
+	if err := queueExec(ctx, tx, `SELECT pg_advisory_xact_lock(hashtextextended('etchlog-drift:' || $1 || ':' || k, 0))
 		FROM unnest($2::text[]) WITH ORDINALITY AS u(k, n) ORDER BY n`, site, sorted); err != nil {
 		return fmt.Errorf("drift lock: %w", err)
 	}
-	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND kind = 'drift' AND drift_group = ANY($2)`, site, sorted); err != nil {
+	if err := queueExec(ctx, tx, `DELETE FROM flags WHERE site = $1 AND kind = 'drift' AND drift_group = ANY($2)`, site, sorted); err != nil {
 		return fmt.Errorf("clear drift flags: %w", err)
 	}
 	var rows [][]any
 	for _, k := range sorted {
 		g, family := keys[k], k[:len(driftFamily(k))]
-		id, err := activeOf(ctx, tx, site, family, g)
+		dc, stored, err := chartState(ctx, tx, site, family, g, k)
 		if err != nil {
 			return err
 		}
-		if id == uuid.Nil {
+		if dc.id == uuid.Nil {
+			if coupons == nil { // drawn from the records: no chart without a calibration
+				if err := clearChart(ctx, tx, site, k); err != nil {
+					return err
+				}
+			}
 			continue
 		}
-		rep, err := driftOf(ctx, tx, site, g, family, id)
+		pts, err := dc.updateChart(ctx, tx, site, k, g, coupons, stored)
 		if err != nil {
 			return err
 		}
-		for _, f := range driftFlags(rep, now) {
+		for _, f := range driftFlags(dc.report(g, family, pts), now) {
 			rows = append(rows, driftFlagRow(site, f, k))
 		}
 	}
 	if len(rows) == 0 {
-		return nil
+		return flushed(ctx, tx)
 	}
 	_, err := tx.CopyFrom(ctx, pgx.Identifier{"flags"}, append(slices.Clone(flagColumns), "drift_group"), pgx.CopyFromRows(rows))
 	if err != nil {
@@ -435,9 +418,10 @@ func driftFamily(key string) string {
 	return key
 }
 
-// couponDrift rewrites the drift flags of every group the coupon is or was
-// in (a correction may move it from one group to another).
-func couponDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, id uuid.UUID) error {
+// couponDrift judges the coupons ids again on the chart of every group
+// they are or were in (a correction may move one from one group to
+// another) and rewrites those charts' drift flags.
+func couponDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, ids ...uuid.UUID) error {
 	rows, _ := tx.Query(ctx, `SELECT DISTINCT coalesce(p.process, r.process, '') AS process, c.joint_type,
 			coalesce(nullif(c.shielding_gas, ''), p.shielding_gas, r.shielding_gas, '') AS shielding_gas,
 			coalesce(c.wire_diameter_mm, p.wire_diameter_mm, r.wire_diameter_mm, 0) AS wire_diameter_mm
@@ -446,17 +430,31 @@ func couponDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, id 
 		                   ORDER BY revision DESC LIMIT 1) p ON true
 		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas FROM qualification_records r WHERE r.site = $1 AND r.id = c.qualification_record_id
 		                   ORDER BY revision DESC LIMIT 1) r ON true
-		WHERE c.site = $1 AND c.id = $2`, site, id)
+		WHERE c.site = $1 AND c.id IN (SELECT unnest($2::uuid[]))`, site, ids)
 	groups, err := pgx.CollectRows(rows, pgx.RowToStructByName[CalibrationGroup])
 	if err != nil {
-		return fmt.Errorf("groups of coupon %s: %w", id, err)
+		return fmt.Errorf("groups of coupons: %w", err)
 	}
-	return recomputeDrift(ctx, tx, now, site, groups)
+	return recomputeDrift(ctx, tx, now, site, groups, ids)
 }
 
-// siteDrift rewrites the drift flags of every group with a calibration in
-// use at the site (after a change that may move many coupons, such as a
-// procedure correction, and in RecheckFlags).
+// importDrift is couponDrift for the coupons an import part wrote, unless
+// no calibration was ever chosen at the site (then no chart can hold them).
+func importDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, ids []uuid.UUID) error {
+	var chosen bool
+	if err := tx.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM calibration_activations WHERE site = $1)`, site).Scan(&chosen); err != nil {
+		return fmt.Errorf("calibrations chosen: %w", err)
+	}
+	if !chosen || len(ids) == 0 {
+		return nil
+	}
+	return couponDrift(ctx, tx, now, site, ids...)
+}
+
+// siteDrift draws every chart of a group with a calibration in use at the
+// site again from the records, and rewrites their flags (after a change
+// that may move many coupons, such as a procedure correction, and in
+// RecheckFlags).
 func siteDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string) error {
 	rows, _ := tx.Query(ctx, `SELECT DISTINCT c.process, c.wire_diameter_mm, c.shielding_gas, c.joint_type
 		FROM calibrations c WHERE c.site = $1 AND c.id IN (
@@ -468,7 +466,7 @@ func siteDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string) error
 	if _, err := tx.Exec(ctx, `DELETE FROM flags WHERE site = $1 AND kind = 'drift'`, site); err != nil {
 		return fmt.Errorf("clear drift flags: %w", err)
 	}
-	return recomputeDrift(ctx, tx, now, site, groups)
+	return recomputeDrift(ctx, tx, now, site, groups, nil)
 }
 
 // sentence capitalises the first letter of s.

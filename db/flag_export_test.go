@@ -34,16 +34,9 @@ func SetActivationHookForTest(site, step string, f func()) {
 
 // ActivationQueriesForTest are the queries an activation streams: the
 // group's members ($1 site, $2 process, $3 joint type) and the drift
-// chart's candidates (the same parameters).
+// chart's candidates (the same parameters and $4, the calibration whose
+// fitted coupons are left out).
 var ActivationQueriesForTest = map[string]string{"members": memberAll, "drift": driftCoupons}
-
-// ForgetFittedSetsForTest empties the process's cache of calibrations'
-// fitted sets, so the next drift chart derives its selection again.
-func ForgetFittedSetsForTest() {
-	fittedSets.mu.Lock()
-	defer fittedSets.mu.Unlock()
-	fittedSets.entries = nil
-}
 
 // SetExportHookForTest makes every export call f(site) between its records
 // and its leaves (nil: none).
