@@ -35,6 +35,7 @@ type importColumns struct {
 	cols     []importColumn
 	mark     int               // index of coupon_mark, -1 when absent
 	spelling map[string]string // stored field → the header's spelling of it
+	fast     [2]*fastReader    // the direct reading of the coupon's and the section's columns
 }
 
 // newImportColumns reads the header: every column must name a field of a
@@ -83,6 +84,7 @@ func newImportColumns(header []string) (*importColumns, error) {
 	if im.mark < 0 && len(v.list) == 0 {
 		v.missing("coupon_mark", "is a required column: rows are matched to coupons by their mark")
 	}
+	im.fast = [2]*fastReader{newFastReader(im, couponDataType, false), newFastReader(im, sectionDataType, true)}
 	return im, v.err()
 }
 
@@ -196,6 +198,10 @@ func (b *importBatch) add(row int, rec []string) {
 // coupon reads the coupon columns of a row; ok is false when any is refused.
 func (b *importBatch) coupon(row int, rec []string) (db.CouponData, bool) {
 	var d db.CouponData
+	if b.cols.fast[0].read(b.s, rec, &d) {
+		return d, true
+	}
+	d = db.CouponData{}
 	return d, b.read(row, rec, false, &d)
 }
 
@@ -211,6 +217,10 @@ func (b *importBatch) section(row int, rec []string) (d db.MeasurementData, give
 	if !given {
 		return d, false, true
 	}
+	if b.cols.fast[1].read(b.s, rec, &d) {
+		return d, true, true
+	}
+	d = db.MeasurementData{}
 	return d, true, b.read(row, rec, true, &d)
 }
 

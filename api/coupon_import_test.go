@@ -316,6 +316,100 @@ func TestImportRefusalsInTheFilesUnits(t *testing.T) {
 	}
 }
 
+// TestImportRefusesAsTheAPI: a refused value in an import file is named by
+// the same field with the same reason as in the answer of POST /v1/coupons
+// (or of a section's POST) carrying the same value in the same spelling:
+// the import keeps no rules or words of its own. The bounds are the
+// registry's (predict/quantity_table.go), themselves from the domain primer's
+// plausible table. A word outside its list and a malformed day are refused
+// by the JSON API before its validator, by the request check against the
+// OpenAPI document and in the document's words; a file has no such
+// document, so the import names the same field in the validator's words
+// (doc: only the field is compared).
+func TestImportRefusesAsTheAPI(t *testing.T) {
+	t.Parallel()
+	e := newEnv(t)
+	proc := e.procedure()
+	coupon := e.coupon()
+	for _, c := range []struct {
+		field   string
+		json    any    // the value in a JSON body
+		cell    string // the same value in a file
+		section bool
+		doc     int // the JSON API's status when the document check refuses it (0: its validator does)
+	}{
+		{"current_a", 1850.0, "1850", false, 0},               // above 1000 A
+		{"voltage_v", 4.5, "4.5", false, 0},                   // below 5 V
+		{"thickness_in", 12.0, "12", false, 0},                // above 300 mm, worded in inches
+		{"preheat_f", 700.0, "700", false, 0},                 // above 350 °C, worded in °F
+		{"joint_type", "tee", "tee", false, 422},              // not an allowed word
+		{"polarity", "dcep", "dcep", false, 422},              // words are case-sensitive
+		{"welder_id", "   ", "   ", false, 0},                 // a blank identifier
+		{"welded_on", "2026-13-01", "2026-13-01", false, 400}, // no 13th month
+		{"welded_on", "1899-12-31", "1899-12-31", false, 0},   // before the plausible first day
+		{"penetration_mm", 51.0, "51", true, 0},               // above 50 mm
+		{"penetration_in", 2.5, "2.5", true, 0},               // above 50 mm, worded in inches
+		{"acceptance", "maybe", "maybe", true, 422},
+		{"bead_width_mm", 0.0, "0", true, 0},       // not above 0
+		{"inspector", "QC\x01", "QC\x01", true, 0}, // a control character
+	} {
+		var body map[string]any
+		path := "/v1/coupons"
+		mark := uniq("REF")
+		if c.section {
+			body, path = measurementBody("A"), "/v1/coupons/"+coupon+"/measurements"
+		} else {
+			body = couponBody(proc, "", mark)
+		}
+		body[c.field] = c.json
+		if q := stored(c.field); q != c.field {
+			delete(body, q)
+		}
+		status := http.StatusUnprocessableEntity
+		if c.doc != 0 {
+			status = c.doc
+		}
+		p := wantProblem(t, c.field, e.do(http.MethodPost, path, "technician", body), status, c.field)
+		var api []db.RowIssue
+		for _, is := range p.Errors {
+			api = append(api, db.RowIssue{Row: 2, Column: is.Field, Reason: is.Reason})
+		}
+		header := slices.Clone(importHeader)
+		if !slices.Contains(header, c.field) {
+			header = append(header, c.field)
+		}
+		section := ""
+		if c.section {
+			section = "A"
+		}
+		row := importRow(proc, mark, section)
+		row[stored(c.field)], row[c.field] = "", c.cell
+		rep := e.importAs(t, "dry-run", importFile(t, header, []map[string]string{row}))
+		if c.doc != 0 {
+			for i := range api {
+				api[i].Reason = ""
+			}
+			for i := range rep.Errors {
+				rep.Errors[i].Reason = ""
+			}
+		}
+		if !slices.Equal(rep.Errors, api) {
+			t.Errorf("%s = %q: import names\n%sthe API names\n%s", c.field, c.cell, issuesText(rep.Errors), issuesText(api))
+		}
+	}
+}
+
+// stored is the stored spelling of a field name.
+func stored(field string) string {
+	for _, in := range []string{"_in", "_f"} {
+		if strings.HasSuffix(field, in) {
+			base := strings.TrimSuffix(field, in)
+			return base + map[string]string{"_in": "_mm", "_f": "_c"}[in]
+		}
+	}
+	return field
+}
+
 // TestImportFileShape: a header the import cannot read is the request's
 // shape (400), naming the column; so is a body that is not text/csv.
 func TestImportFileShape(t *testing.T) {

@@ -32,11 +32,12 @@ type copyRows struct {
 var pgEpochMicro = pgEpoch.UnixMicro()
 
 // encodeCopyRows lays rows out for COPY ... FROM STDIN BINARY into table's
-// cols; oids[i] is the type of column i (text, uuid, timestamptz, float8,
-// int2, int4, int8, bytea),
+// cols; oids[i] is the type of column i (text, boolean, uuid, date,
+// timestamptz, float8, int2, int4, int8, bytea),
 // checked against each value's Go type (integers also against its range;
-// bytea takes []byte). A time is sent at microseconds,
-// truncated, as pgx sends it; a nil *float64 is NULL.
+// bytea takes []byte, date a Date). A time is sent at microseconds,
+// truncated, as pgx sends it; a nil pointer (*float64, *string,
+// *uuid.UUID) is NULL.
 func encodeCopyRows(table string, cols []string, oids []uint32, rows [][]any) (*copyRows, error) {
 	var b bytes.Buffer
 	b.Grow(len(rows) * len(cols) * 16)
@@ -77,6 +78,18 @@ func appendCopyValue(b *bytes.Buffer, oid uint32, v any) error {
 			return nil
 		}
 		v = *x
+	case *string:
+		if x == nil {
+			b.Write([]byte{0xff, 0xff, 0xff, 0xff})
+			return nil
+		}
+		v = *x
+	case *uuid.UUID:
+		if x == nil {
+			b.Write([]byte{0xff, 0xff, 0xff, 0xff})
+			return nil
+		}
+		v = *x
 	}
 	switch x := v.(type) {
 	case string:
@@ -94,6 +107,28 @@ func appendCopyValue(b *bytes.Buffer, oid uint32, v any) error {
 	case [16]byte:
 		if oid == pgtype.UUIDOID {
 			field(x[:])
+			return nil
+		}
+	case bool:
+		if oid == pgtype.BoolOID {
+			if x {
+				field([]byte{1})
+			} else {
+				field([]byte{0})
+			}
+			return nil
+		}
+	case Date:
+		if oid == pgtype.DateOID {
+			// Days from 2000-01-01 to the day's midnight UTC, as pgx sends a date.
+			y, m, d := x.Date()
+			days := (time.Date(y, m, d, 0, 0, 0, 0, time.UTC).Unix() - pgEpoch.Unix()) / 86400
+			if days < math.MinInt32+1 || days > math.MaxInt32-1 { // the ends mean infinity
+				return fmt.Errorf("the day %s is out of range", x)
+			}
+			var p [4]byte
+			binary.BigEndian.PutUint32(p[:], uint32(int32(days)))
+			field(p[:])
 			return nil
 		}
 	case []byte:

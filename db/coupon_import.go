@@ -3,6 +3,7 @@ package db
 import (
 	"cmp"
 	"context"
+	"errors"
 	"fmt"
 	"reflect"
 	"slices"
@@ -90,6 +91,7 @@ func (s *Store) ImportCoupons(ctx context.Context, a Actor, cs []ImportCoupon, c
 		return p.result, nil
 	}
 	var res ImportResult
+	var plan *importPlan
 	err := s.tx(ctx, func(tx pgx.Tx) error {
 		// Flags are judged under the procedures' current ranges: hold their
 		// shared flag locks before reading anything.
@@ -100,9 +102,12 @@ func (s *Store) ImportCoupons(ctx context.Context, a Actor, cs []ImportCoupon, c
 		if err != nil {
 			return err
 		}
-		res = p.result
+		res, plan = p.result, p
 		return s.writeImport(ctx, tx, a, p)
 	})
+	if errors.Is(err, errMarkTaken) {
+		err = s.takenMark(ctx, a.Site, plan)
+	}
 	if err != nil {
 		return ImportResult{}, fmt.Errorf("db: import coupons: %w", err)
 	}

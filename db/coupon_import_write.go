@@ -4,170 +4,199 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"slices"
 	"strings"
 	"time"
 
 	"github.com/google/uuid"
+	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgtype"
 
 	"etchlog/predict"
 )
 
+// importRows is what an import copies in besides its marks: the planned
+// coupons' rows and their sections' laid out in the binary COPY format, and
+// the rows' values, from which each leaf is encoded (leaf_values.go), so
+// nothing is read back. Laying it out needs no transaction.
+type importRows struct {
+	coupons, sections       *copyRows
+	couponRows, sectionRows [][]any // as copied
+	couponLeaf, sectionLeaf *rowLeaves
+	err                     error
+}
+
+// importLeaves is the pending entries of an import's rows: one for the
+// coupons, one for the sections (nil: none).
+type importLeaves struct {
+	coupons, sections *ManyLeaves
+	err               error
+}
+
+// markColumns are current_marks' columns as an import copies them.
+var markColumns = []string{"site", "kind", "mark", "record_id"}
+
+// markTypes are the types of markColumns (migration 000008).
+var markTypes = []uint32{pgtype.TextOID, pgtype.TextOID, pgtype.TextOID, pgtype.UUIDOID}
+
+// revisionColumns are metaColumns, then t's fields: the columns a revision
+// row is written in.
+func revisionColumns(t table) []string { return append(strings.Split(metaColumns, ", "), t.fields...) }
+
+// importMarks lays out the planned coupons' marks for current_marks.
+func importMarks(p *importPlan) (*copyRows, error) {
+	marks := make([][]any, len(p.create))
+	for i, pc := range p.create {
+		marks[i] = []any{p.site, couponMark.kind, pc.in.Data.CouponMark, pc.id}
+	}
+	return encodeCopyRows("current_marks", markColumns, markTypes, marks)
+}
+
+// prepareImport lays out the planned coupons and their sections.
+func (s *Store) prepareImport(ctx context.Context, a Actor, p *importPlan, now time.Time) *importRows {
+	r := &importRows{couponRows: make([][]any, len(p.create))}
+	ck, err := leafKind(coupons.entity, 0)
+	if err != nil {
+		return &importRows{err: err}
+	}
+	mk, err := leafKind(measurements.entity, 0)
+	if err != nil {
+		return &importRows{err: err}
+	}
+	couponCols, sectionCols := revisionColumns(coupons), revisionColumns(measurements)
+	if r.couponLeaf, err = newRowLeaves(ctx, s.pool, ck, coupons.name, couponCols); err != nil {
+		return &importRows{err: err}
+	}
+	if r.sectionLeaf, err = newRowLeaves(ctx, s.pool, mk, measurements.name, sectionCols); err != nil {
+		return &importRows{err: err}
+	}
+	for i, pc := range p.create {
+		r.couponRows[i] = append([]any{a.Site, pc.id, 1, now, a.Name, "", false}, recordValues(pc.in.Data)...)
+		for k, sec := range pc.in.Sections {
+			d := sec.Data
+			d.CouponID = pc.id
+			r.sectionRows = append(r.sectionRows, append([]any{a.Site, pc.sections[k], 1, now, a.Name, "", false}, recordValues(d)...))
+		}
+	}
+	if r.coupons, err = encodeCopyRows(coupons.name, couponCols, r.couponLeaf.oids, r.couponRows); err != nil {
+		return &importRows{err: err}
+	}
+	if r.sections, err = encodeCopyRows(measurements.name, sectionCols, r.sectionLeaf.oids, r.sectionRows); err != nil {
+		return &importRows{err: err}
+	}
+	return r
+}
+
+// leaves encodes every row's leaf from its copied values and prepares the
+// pending entries naming them, in row order.
+func (r *importRows) leaves(s *Store, e LeafEntry) importLeaves {
+	var out importLeaves
+	entry := func(rl *rowLeaves, rows [][]any) (*ManyLeaves, error) {
+		if len(rows) == 0 {
+			return nil, nil
+		}
+		ids, hashes := make([]uuid.UUID, len(rows)), make([][]byte, len(rows))
+		for i, row := range rows {
+			f, err := rl.fact(row)
+			if err != nil {
+				return nil, err
+			}
+			ids[i], hashes[i] = row[1].(uuid.UUID), f.LeafHash()
+		}
+		return s.newManyLeaves(rl.kind, e, 1, ids, hashes)
+	}
+	if out.coupons, out.err = entry(r.couponLeaf, r.couponRows); out.err != nil {
+		return out
+	}
+	out.sections, out.err = entry(r.sectionLeaf, r.sectionRows)
+	return out
+}
+
 // writeImport writes the planned coupons inside tx: claims their marks,
-// copies the coupon and section rows, logs a leaf per row as stored (one
-// pending entry for the coupons, one for the sections) and writes their
-// flags.
+// copies the coupon and section rows, logs a leaf per row (one pending
+// entry for the coupons, one for the sections) and writes their flags.
+// While the database takes the marks the rows are laid out, and while it
+// copies the rows their leaves are encoded.
 func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPlan) error {
 	if len(p.create) == 0 {
 		return nil
 	}
 	now := s.now()
-	if err := p.claimMarks(ctx, tx); err != nil {
+	marks, err := importMarks(p)
+	if err != nil {
 		return err
 	}
-	couponIDs := make([]uuid.UUID, len(p.create))
-	couponRows := make([][]any, len(p.create))
-	var sectionIDs []uuid.UUID
-	var sectionRows [][]any
-	for i, pc := range p.create {
-		couponIDs[i] = pc.id
-		couponRows[i] = copyValues(append([]any{a.Site, pc.id, 1, now, a.Name, "", false}, recordValues(pc.in.Data)...))
-		for k, sec := range pc.in.Sections {
-			d := sec.Data
-			d.CouponID = pc.id
-			sectionIDs = append(sectionIDs, pc.sections[k])
-			sectionRows = append(sectionRows, copyValues(append([]any{a.Site, pc.sections[k], 1, now, a.Name, "", false}, recordValues(d)...)))
+	prepared, leaves := make(chan *importRows, 1), make(chan importLeaves, 1)
+	go func() {
+		r := s.prepareImport(ctx, a, p, now)
+		prepared <- r
+		if r.err == nil {
+			leaves <- r.leaves(s, LeafEntry{Site: a.Site, Actor: a.Name, Action: actionCreate, At: now})
+		}
+	}()
+	// The marks' primary key refuses a mark another write claimed since
+	// the plan read the marks: the whole import is rolled back (ImportCoupons
+	// names the mark), and importing again finds that coupon.
+	if err := copyIn(ctx, tx, marks); err != nil {
+		var pg *pgconn.PgError
+		if errors.As(err, &pg) && pg.Code == pgerrcode.UniqueViolation && pg.TableName == "current_marks" {
+			return errMarkTaken
+		}
+		return fmt.Errorf("claim marks: %w", mapError(err))
+	}
+	r := <-prepared
+	if r.err != nil {
+		return r.err
+	}
+	for _, c := range []*copyRows{r.coupons, r.sections} {
+		if c.n == 0 {
+			continue
+		}
+		if err := copyIn(ctx, tx, c); err != nil {
+			return fmt.Errorf("copy %s: %w", c.table, mapError(err))
 		}
 	}
-	if err := copyRevisions(ctx, tx, coupons, couponRows); err != nil {
-		return err
+	l := <-leaves
+	if l.err != nil {
+		return l.err
 	}
-	if err := copyRevisions(ctx, tx, measurements, sectionRows); err != nil {
-		return err
-	}
-	entry := LeafEntry{Site: a.Site, Actor: a.Name, Action: actionCreate, At: now}
-	if err := s.logStored(ctx, tx, coupons, couponIDs, entry); err != nil {
-		return err
-	}
-	if err := s.logStored(ctx, tx, measurements, sectionIDs, entry); err != nil {
-		return err
+	for _, m := range []*ManyLeaves{l.coupons, l.sections} {
+		if m == nil {
+			continue
+		}
+		if err := appendMany(ctx, tx, m); err != nil {
+			return err
+		}
 	}
 	if err := p.writeFlags(ctx, tx, now); err != nil {
 		return err
 	}
 	// The coupons join their groups' drift charts (drift.go), like a single create.
+	couponIDs := make([]uuid.UUID, len(p.create))
+	for i, pc := range p.create {
+		couponIDs[i] = pc.id
+	}
 	return importDrift(ctx, tx, now, a.Site, couponIDs)
 }
 
-// claimMarks claims every planned coupon's mark in current_marks. A mark
-// another write claimed since the plan read the marks is a conflict: the
-// whole import is rolled back, and importing again finds that coupon.
-func (p *importPlan) claimMarks(ctx context.Context, tx pgx.Tx) error {
+// errMarkTaken is a planned mark claimed by another write during the import.
+var errMarkTaken = errors.New("a mark was claimed during the import")
+
+// takenMark names one of the planned marks that another record holds now,
+// after errMarkTaken: the conflict to report.
+func (s *Store) takenMark(ctx context.Context, site string, p *importPlan) error {
 	marks := make([]string, len(p.create))
-	ids := make([]uuid.UUID, len(p.create))
 	for i, pc := range p.create {
-		marks[i], ids[i] = pc.in.Data.CouponMark, pc.id
+		marks[i] = pc.in.Data.CouponMark
 	}
-	rows, _ := tx.Query(ctx, `INSERT INTO current_marks (site, kind, mark, record_id)
-		SELECT $1, $2, m, id FROM unnest($3::text[], $4::uuid[]) AS u(m, id)
-		ON CONFLICT DO NOTHING RETURNING mark`, p.site, couponMark.kind, marks, ids)
-	claimed, err := pgx.CollectRows(rows, pgx.RowTo[string])
+	var m string
+	err := s.pool.QueryRow(ctx, `SELECT mark FROM current_marks WHERE site = $1 AND kind = $2 AND mark = ANY($3) ORDER BY mark LIMIT 1`,
+		pgx.QueryExecModeExec, site, couponMark.kind, marks).Scan(&m)
 	if err != nil {
-		return fmt.Errorf("claim marks: %w", mapError(err))
+		return fmt.Errorf("%w: another write took a mark of the file during the import; import the file again", ErrConflict)
 	}
-	if len(claimed) == len(marks) {
-		return nil
-	}
-	slices.Sort(claimed)
-	for _, m := range marks {
-		if _, ok := slices.BinarySearch(claimed, m); !ok {
-			return fmt.Errorf("%w: another write took the mark %q during the import; import the file again", ErrConflict, m)
-		}
-	}
-	return nil
-}
-
-// copyValues gives a row's record ids to COPY as 16 bytes each (pgx would
-// otherwise write each uuid.UUID through its text form).
-func copyValues(row []any) []any {
-	for i, v := range row {
-		switch id := v.(type) {
-		case uuid.UUID:
-			row[i] = pgtype.UUID{Bytes: id, Valid: true}
-		case *uuid.UUID:
-			if id == nil {
-				row[i] = pgtype.UUID{}
-			} else {
-				row[i] = pgtype.UUID{Bytes: *id, Valid: true}
-			}
-		}
-	}
-	return row
-}
-
-// copyRevisions copies revision rows (metaColumns, then t's fields) into t.
-func copyRevisions(ctx context.Context, tx pgx.Tx, t table, rows [][]any) error {
-	if len(rows) == 0 {
-		return nil
-	}
-	cols := append(strings.Split(metaColumns, ", "), t.fields...)
-	if _, err := tx.CopyFrom(ctx, pgx.Identifier{t.name}, cols, pgx.CopyFromRows(rows)); err != nil {
-		return fmt.Errorf("copy %s: %w", t.name, mapError(err))
-	}
-	return nil
-}
-
-// logStored logs revision 1 of each record in ids of table t with one
-// pending entry of many leaves (log_many.go), each leaf encoded from its row
-// as stored, in id order; the sequencer gives every row its own leaf.
-func (s *Store) logStored(ctx context.Context, tx pgx.Tx, t table, ids []uuid.UUID, e LeafEntry) error {
-	if len(ids) == 0 {
-		return nil
-	}
-	k, err := leafKind(t.entity, 0)
-	if err != nil {
-		return err
-	}
-	e.Kind = k.Kind
-	// One seek per id (the LATERAL ... LIMIT 1 keeps it a seek whatever the
-	// statistics say of a site that grew a moment ago): a scan of the site's
-	// rows would slow every part as the site grows.
-	cols := make([]string, len(k.Columns))
-	for i, c := range k.Columns {
-		cols[i] = "r." + c
-	}
-	rows, _ := tx.Query(ctx, "SELECT "+strings.Join(cols, ", ")+" FROM unnest($2::uuid[]) AS u(id) CROSS JOIN LATERAL (SELECT * FROM "+k.Table+
-		" t WHERE t.site = $1 AND t.id = u.id AND t.revision = 1 LIMIT 1) r ORDER BY r.id", e.Site, ids)
-	stored := make([]uuid.UUID, 0, len(ids))
-	hashes := make([][]byte, 0, len(ids))
-	idCol := slices.Index(k.Columns, "id")
-	for rows.Next() {
-		f, err := factOf(k, rows)
-		if err != nil {
-			rows.Close()
-			return err
-		}
-		id, err := uuid.Parse(f.Fields[idCol].Value)
-		if err != nil {
-			rows.Close()
-			return fmt.Errorf("db: %s row id: %w", k.Kind, err)
-		}
-		stored, hashes = append(stored, id), append(hashes, f.LeafHash())
-	}
-	rows.Close()
-	if err := rows.Err(); err != nil {
-		return fmt.Errorf("db: log %s: %w", k.Kind, mapError(err))
-	}
-	if len(stored) != len(ids) {
-		return fmt.Errorf("db: log %s: %d of %d rows read back", k.Kind, len(stored), len(ids))
-	}
-	m, err := s.newManyLeaves(k, e, 1, stored, hashes)
-	if err != nil {
-		return err
-	}
-	return appendMany(ctx, tx, m)
+	return fmt.Errorf("%w: another write took the mark %q during the import; import the file again", ErrConflict, m)
 }
 
 // writeFlags evaluates every new coupon of a procedure against that

@@ -3,6 +3,7 @@ package db
 import (
 	"context"
 	"fmt"
+	"slices"
 	"strings"
 	"sync"
 	"time"
@@ -130,4 +131,72 @@ func storedForm(oid uint32, v any) (any, error) {
 		}
 	}
 	return nil, fmt.Errorf("a %T is not stored exactly as sent in a column of type %d; log it from the stored row", v, oid)
+}
+
+// A write of many rows (a chunk of production records, the coupons and
+// sections of an import) copies them in the binary COPY format and encodes
+// each row's leaf with valueFact from the values copied: rowLeaves holds,
+// for one table and the columns written, the leaf's column descriptions and
+// every written column's type (what encodeCopyRows sends it as).
+// Verification encodes the same facts again from the stored rows
+// (TestChunkLeavesOnePerRecord, TestImportLeavesVerify, the tampering
+// fixture's production batch).
+
+// rowLeaves encodes rows laid out in a write's column order as facts of
+// one leaf kind.
+type rowLeaves struct {
+	kind LeafKind
+	fds  []pgconn.FieldDescription // the leaf's columns, in the leaf's order
+	at   []int                     // where the leaf's i-th column is in a row
+	oids []uint32                  // the type of each written column, in row order
+}
+
+// rowShapes caches rowLeaves by kind, table and written columns.
+var rowShapes sync.Map // string → *rowLeaves
+
+// newRowLeaves describes kind k's leaves of rows written into table's cols
+// (every leaf column must be written), with the column types the database
+// gives them; q is asked once per process and shape.
+func newRowLeaves(ctx context.Context, q querier, k LeafKind, table string, cols []string) (*rowLeaves, error) {
+	key := fmt.Sprintf("%s/%d\x00%s\x00%s", k.Kind, k.Version, table, strings.Join(cols, ","))
+	if v, ok := rowShapes.Load(key); ok {
+		return v.(*rowLeaves), nil
+	}
+	r := &rowLeaves{kind: k, at: make([]int, len(k.Columns)), oids: make([]uint32, len(cols))}
+	for i, c := range k.Columns {
+		if r.at[i] = slices.Index(cols, c); r.at[i] < 0 {
+			return nil, fmt.Errorf("db: %s leaf column %s is not written", k.Kind, c)
+		}
+	}
+	rows, err := q.Query(ctx, "SELECT "+strings.Join(cols, ", ")+" FROM "+table+" LIMIT 0")
+	if err != nil {
+		return nil, err
+	}
+	all := slices.Clone(rows.FieldDescriptions())
+	rows.Close()
+	if err := rows.Err(); err != nil {
+		return nil, err
+	}
+	if len(all) != len(cols) {
+		return nil, fmt.Errorf("db: %s: %d column descriptions for %d columns", table, len(all), len(cols))
+	}
+	for i, fd := range all {
+		r.oids[i] = fd.DataTypeOID
+	}
+	r.fds = make([]pgconn.FieldDescription, len(r.at))
+	for i, j := range r.at {
+		r.fds[i] = all[j]
+	}
+	rowShapes.Store(key, r)
+	return r, nil
+}
+
+// fact encodes one row, its values in the written columns' order as
+// copied, as a fact of the kind (valueFact).
+func (r *rowLeaves) fact(row []any) (logfmt.Fact, error) {
+	vals := make([]any, len(r.fds))
+	for i, j := range r.at {
+		vals[i] = row[j]
+	}
+	return valueFact(r.kind, r.fds, vals)
 }

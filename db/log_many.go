@@ -86,13 +86,14 @@ func (s *Store) newManyLeaves(k LeafKind, e LeafEntry, rev int, ids []uuid.UUID,
 
 // appendMany adds the prepared entry m to log_pending inside the write
 // transaction tx, after its rows are stored: its leaves are committed with
-// the rows, or not at all.
+// the rows, or not at all. On a pipelined transaction the statement is
+// queued and leaves with the next one that waits for an answer, or with
+// COMMIT.
 func appendMany(ctx context.Context, tx pgx.Tx, m *ManyLeaves) error {
 	e := m.entry
-	_, err := tx.Exec(ctx, `INSERT INTO log_pending (`+pendingColumns+`, record_ids, leaf_hashes)
+	return queueExec(ctx, tx, `INSERT INTO log_pending (`+pendingColumns+`, record_ids, leaf_hashes)
 		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13)`,
 		e.Site, m.kind.Kind, m.kind.Version, e.ID, m.revision, m.digest, m.tag, e.Actor, e.Action, e.Reason, e.At, m.ids, m.hashes)
-	return mapError(err)
 }
 
 // manyRefusal says why the sequencer cannot take a pending entry of many

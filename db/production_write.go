@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"slices"
 	"time"
 
 	"github.com/google/uuid"
@@ -52,11 +51,7 @@ func (s *Store) PrepareProductionChunk(ctx context.Context, a Actor, recs []Prod
 	if err != nil {
 		return nil, err
 	}
-	at, err := leafOrder(k)
-	if err != nil {
-		return nil, err
-	}
-	fds, err := productionFields(ctx, s.pool, k)
+	lv, err := newRowLeaves(ctx, s.pool, k, "production_records", productionColumns)
 	if err != nil {
 		return nil, err
 	}
@@ -76,7 +71,7 @@ func (s *Store) PrepareProductionChunk(ctx context.Context, a Actor, recs []Prod
 		p.out[i] = ProductionRecord{Site: a.Site, ID: id, BatchID: p.batch, CreatedAt: p.now, CreatedBy: a.Name, ProductionRecordData: r, Flags: []Flag{}}
 		rows[i] = append([]any{a.Site, id, p.batch, p.now, a.Name}, recordValues(r)...)
 		welds[i] = []any{a.Site, r.ProcedureID, r.WeldID, id}
-		f, err := productionFact(k, fds, at, rows[i])
+		f, err := lv.fact(rows[i])
 		if err != nil {
 			return nil, err
 		}
@@ -87,15 +82,7 @@ func (s *Store) PrepareProductionChunk(ctx context.Context, a Actor, recs []Prod
 		}
 	}
 	// The rows leave as encoded here, typed as the table describes its columns.
-	oids := make([]uint32, len(productionColumns))
-	for i := range oids {
-		j := slices.Index(at, i)
-		if j < 0 {
-			return nil, fmt.Errorf("db: production record column %s is not in its leaf", productionColumns[i])
-		}
-		oids[i] = fds[j].DataTypeOID
-	}
-	if p.rows, err = encodeCopyRows("production_records", productionColumns, oids, rows); err != nil {
+	if p.rows, err = encodeCopyRows("production_records", productionColumns, lv.oids, rows); err != nil {
 		return nil, err
 	}
 	if p.welds, err = encodeCopyRows("production_welds", weldColumns, weldTypes, welds); err != nil {
