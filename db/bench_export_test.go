@@ -7,7 +7,6 @@ import (
 	"runtime"
 	"runtime/metrics"
 	"testing"
-	"time"
 
 	"etchlog/db"
 )
@@ -88,18 +87,8 @@ func BenchmarkExport(b *testing.B) {
 	// The two again, one after the other b.N times: a change of the
 	// machine's load falls on both.
 	b.Run("Alternating", func(b *testing.B) {
-		var ts, tr time.Duration
-		for i := 0; i < b.N; i++ {
-			t0 := time.Now()
-			if err := store(); err != nil {
-				b.Fatal(err)
-			}
-			t1 := time.Now()
-			if err := raw(); err != nil {
-				b.Fatal(err)
-			}
-			ts, tr = ts+t1.Sub(t0), tr+time.Since(t1)
-		}
+		calls, rawCalls := alternate(b, store, raw)
+		ts, tr := sum(calls), sum(rawCalls)
 		b.ReportMetric(ts.Seconds()/float64(b.N), "store-s/op")
 		b.ReportMetric(tr.Seconds()/float64(b.N), "raw-s/op")
 		b.ReportMetric(tr.Seconds()/ts.Seconds(), "x-of-raw")

@@ -48,7 +48,7 @@ func benchGroupSize(b *testing.B) int {
 // invented power law with scatter.
 func seedFitGroup(b *testing.B, n int) fitBench {
 	ctx := context.Background()
-	dbURL, _, _ := dbtest.Fresh(b)
+	dbURL, conn := dbtest.FreshConn(b)
 	appURL, err := db.AppURL(dbURL)
 	if err != nil {
 		b.Fatal(err)
@@ -66,11 +66,6 @@ func seedFitGroup(b *testing.B, n int) fitBench {
 	if err != nil {
 		b.Fatal(err)
 	}
-	conn, err := pgx.Connect(ctx, dbURL)
-	if err != nil {
-		b.Fatal(err)
-	}
-	b.Cleanup(func() { conn.Close(ctx) })
 	// Seeding only: skip the per-row triggers (one section per coupon is
 	// true by construction), whose locks would overflow one COPY.
 	if _, err := conn.Exec(ctx, "SET session_replication_role = replica"); err != nil {

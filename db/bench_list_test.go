@@ -77,12 +77,7 @@ func BenchmarkCouponListFiltered(b *testing.B) {
 func benchSite(b testing.TB, n int) (string, *pgx.Conn, func(int) uuid.UUID) {
 	b.Helper()
 	ctx := context.Background()
-	dbURL, _, _ := dbtest.Fresh(b)
-	conn, err := pgx.Connect(ctx, dbURL)
-	if err != nil {
-		b.Fatal(err)
-	}
-	b.Cleanup(func() { conn.Close(ctx) })
+	dbURL, conn := dbtest.FreshConn(b)
 	const site = "bench"
 	proc := func(i int) uuid.UUID { return uuid.NewSHA1(uuid.Nil, []byte(fmt.Sprint("procedure", i%60))) }
 	day0 := time.Date(2019, 1, 1, 0, 0, 0, 0, time.UTC)

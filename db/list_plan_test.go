@@ -110,12 +110,7 @@ func seqScans(node map[string]any) []string {
 func TestListPlansUseIndexes(t *testing.T) {
 	ctx, cancel := context.WithTimeout(context.Background(), 4*time.Minute)
 	defer cancel()
-	dbURL, _, _ := dbtest.Fresh(t)
-	conn, err := pgx.Connect(ctx, dbURL)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer conn.Close(ctx)
+	dbURL, conn := dbtest.FreshConn(t)
 	start := time.Now()
 	seedPlans(ctx, t, conn)
 	t.Logf("seeded in %v", time.Since(start).Round(time.Millisecond))

@@ -30,12 +30,7 @@ import (
 func TestSequencerRewriteReadsByKey(t *testing.T) {
 	ctx, cancel := context.WithTimeout(context.Background(), 3*time.Minute)
 	defer cancel()
-	dbURL, _, _ := dbtest.Fresh(t)
-	conn, err := pgx.Connect(ctx, dbURL)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer conn.Close(ctx)
+	_, conn := dbtest.FreshConn(t)
 	const site, other, coupons = "grown", "settled", 3000
 	// Statistics taken while only other, small sites had rows, and kept so
 	// (no autovacuum in this database's tables) while the site grows.

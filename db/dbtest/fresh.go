@@ -50,3 +50,16 @@ func Fresh(tb testing.TB) (dbURL, name string, admin *pgx.Conn) {
 	}
 	return u.String(), name, admin
 }
+
+// FreshConn is Fresh with a superuser connection to the new database,
+// closed when the test ends, for tests that seed or inspect it directly.
+func FreshConn(tb testing.TB) (dbURL string, conn *pgx.Conn) {
+	tb.Helper()
+	dbURL, _, _ = Fresh(tb)
+	conn, err := pgx.Connect(context.Background(), dbURL)
+	if err != nil {
+		tb.Fatalf("dbtest: connect to %s: %v", dbURL, err)
+	}
+	tb.Cleanup(func() { conn.Close(context.Background()) })
+	return dbURL, conn
+}
