@@ -40,16 +40,29 @@ func leafFields(ctx context.Context, q querier, k LeafKind, table string) ([]pgc
 	if fds, ok := leafShapes.Load(key); ok {
 		return fds.([]pgconn.FieldDescription), nil
 	}
-	rows, err := q.Query(ctx, "SELECT "+strings.Join(k.Columns, ", ")+" FROM "+table+" LIMIT 0")
+	fds, err := describeColumns(ctx, q, table, k.Columns)
 	if err != nil {
 		return nil, err
 	}
-	fds := append([]pgconn.FieldDescription(nil), rows.FieldDescriptions()...)
+	leafShapes.Store(key, fds)
+	return fds, nil
+}
+
+// describeColumns asks the database for the descriptions of table's columns
+// cols, in their order, without reading a row.
+func describeColumns(ctx context.Context, q querier, table string, cols []string) ([]pgconn.FieldDescription, error) {
+	rows, err := q.Query(ctx, "SELECT "+strings.Join(cols, ", ")+" FROM "+table+" LIMIT 0")
+	if err != nil {
+		return nil, err
+	}
+	fds := slices.Clone(rows.FieldDescriptions())
 	rows.Close()
 	if err := rows.Err(); err != nil {
 		return nil, err
 	}
-	leafShapes.Store(key, fds)
+	if len(fds) != len(cols) {
+		return nil, fmt.Errorf("db: %s: %d column descriptions for %d columns", table, len(fds), len(cols))
+	}
 	return fds, nil
 }
 
@@ -168,17 +181,9 @@ func newRowLeaves(ctx context.Context, q querier, k LeafKind, table string, cols
 			return nil, fmt.Errorf("db: %s leaf column %s is not written", k.Kind, c)
 		}
 	}
-	rows, err := q.Query(ctx, "SELECT "+strings.Join(cols, ", ")+" FROM "+table+" LIMIT 0")
+	all, err := describeColumns(ctx, q, table, cols)
 	if err != nil {
 		return nil, err
-	}
-	all := slices.Clone(rows.FieldDescriptions())
-	rows.Close()
-	if err := rows.Err(); err != nil {
-		return nil, err
-	}
-	if len(all) != len(cols) {
-		return nil, fmt.Errorf("db: %s: %d column descriptions for %d columns", table, len(all), len(cols))
 	}
 	for i, fd := range all {
 		r.oids[i] = fd.DataTypeOID
