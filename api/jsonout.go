@@ -9,6 +9,8 @@ import (
 	"strconv"
 
 	"github.com/labstack/echo/v4"
+
+	"etchlog/db/logfmt"
 )
 
 // Numbers leave the server rounded to answerDigits significant digits, so a
@@ -234,23 +236,7 @@ func writeNumber(out *bytes.Buffer, lit string, f float64, isFloat bool) {
 		return
 	}
 	var buf [32]byte
-	out.Write(appendFloat(buf[:0], r))
-}
-
-// appendFloat appends f as encoding/json writes a float64: the shortest
-// decimal that reads back as f, plain between 1e-6 and 1e21, else with an
-// exponent of at least one digit.
-func appendFloat(b []byte, f float64) []byte {
-	format := byte('f')
-	if abs := math.Abs(f); abs != 0 && (abs < 1e-6 || abs >= 1e21) {
-		format = 'e'
-	}
-	b = strconv.AppendFloat(b, f, format, -1, 64)
-	if n := len(b); format == 'e' && n >= 4 && b[n-4] == 'e' && b[n-3] == '-' && b[n-2] == '0' {
-		b[n-2] = b[n-1] // e-07 -> e-7
-		b = b[:n-1]
-	}
-	return b
+	out.Write(logfmt.AppendJSONFloat(buf[:0], r))
 }
 
 // roundNumbers is rewriteAnswer without unit conversion, in one pass over

@@ -5,6 +5,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"etchlog/db/logfmt"
 )
 
 // TestRewriteAnswer checks the JSON boundary: numbers rounded to 12
@@ -126,8 +128,8 @@ func TestAppendFloatMatchesEncodingJSON(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if got := appendFloat(nil, v); string(got) != string(want) {
-			t.Fatalf("appendFloat(%v) = %s, encoding/json writes %s", v, got, want)
+		if got := logfmt.AppendJSONFloat(nil, v); string(got) != string(want) {
+			t.Fatalf("AppendJSONFloat(%v) = %s, encoding/json writes %s", v, got, want)
 		}
 	}
 }

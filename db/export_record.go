@@ -265,7 +265,7 @@ func (e *recordEncoder) append(b []byte, raw [][]byte) ([]byte, bool) {
 				x := math.Float64frombits(binary.BigEndian.Uint64(v))
 				if ok = !math.IsNaN(x) && !math.IsInf(x, 0); ok {
 					empty = x == 0
-					b = appendJSONFloat(b, x)
+					b = logfmt.AppendJSONFloat(b, x)
 				}
 			}
 		case ftUUID:
@@ -311,27 +311,6 @@ func (e *recordEncoder) append(b []byte, raw [][]byte) ([]byte, bool) {
 		first = false
 	}
 	return append(b, '}'), true
-}
-
-// appendJSONFloat appends a finite float64 as encoding/json writes it: the
-// shortest decimal that reads back the same, in exponent form below 1e-6
-// and from 1e21, with a one-digit negative exponent kept one digit.
-func appendJSONFloat(b []byte, f float64) []byte {
-	abs := math.Abs(f)
-	format := byte('f')
-	if abs != 0 && (abs < 1e-6 || abs >= 1e21) {
-		format = 'e'
-	}
-	b = strconv.AppendFloat(b, f, format, -1, 64)
-	if format == 'e' {
-		// clean up e-09 to e-9
-		n := len(b)
-		if n >= 4 && b[n-4] == 'e' && b[n-3] == '-' && b[n-2] == '0' {
-			b[n-2] = b[n-1]
-			b = b[:n-1]
-		}
-	}
-	return b
 }
 
 // exportTableCopy emits every revision of one table's records at the site

@@ -8,6 +8,8 @@ import (
 
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
+
+	"etchlog/db/logfmt"
 )
 
 // OpenTraced is Open with tr watching every statement of the service pool,
@@ -75,7 +77,7 @@ func RecordJSONBothWays(ctx context.Context, s *Store, site string) (fast, slow 
 }
 
 // AppendJSONFloat is the export's float64 writer, for its test.
-var AppendJSONFloat = appendJSONFloat
+var AppendJSONFloat = logfmt.AppendJSONFloat
 
 // CouponListDelete is the statement that removes the coupon_list rows the
 // sequencer then writes again, for the plan test.

@@ -2,6 +2,7 @@ package logfmt
 
 import (
 	"encoding/base64"
+	"math"
 	"strconv"
 	"unicode/utf8"
 )
@@ -120,4 +121,20 @@ func AppendJSONString(b []byte, s string) []byte {
 	}
 	b = append(b, s[start:]...)
 	return append(b, '"')
+}
+
+// AppendJSONFloat appends a finite float64 as encoding/json writes it: the
+// shortest decimal that reads back the same, plain between 1e-6 and 1e21,
+// else with an exponent of at least one digit (e-07 written e-7).
+func AppendJSONFloat(b []byte, f float64) []byte {
+	format := byte('f')
+	if abs := math.Abs(f); abs != 0 && (abs < 1e-6 || abs >= 1e21) {
+		format = 'e'
+	}
+	b = strconv.AppendFloat(b, f, format, -1, 64)
+	if n := len(b); format == 'e' && n >= 4 && b[n-4] == 'e' && b[n-3] == '-' && b[n-2] == '0' {
+		b[n-2] = b[n-1]
+		b = b[:n-1]
+	}
+	return b
 }
