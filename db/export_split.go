@@ -70,6 +70,8 @@ func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string
 	if _, err := tx2.Exec(ctx, "SET LOCAL lock_timeout = "+quoteLiteral(fmt.Sprintf("%dms", splitWait.Milliseconds()))); err != nil {
 		return 0, nil, true, err
 	}
+	pc := newPortalConn(tx2)
+	defer pc.settle(ctx) //nolint:errcheck // a part asked ahead is read before the rollback; on an error the connection is closed
 	windows := map[string]*rowWindow{}
 	var all []*rowWindow
 	for _, kv := range kinds {
@@ -77,7 +79,7 @@ func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string
 		if err != nil {
 			continue // unknown: its leaves say so
 		}
-		w, err := newRowWindow(ctx, tx2, k, site, fmt.Sprintf("etchlog_rows_%s_%d", identifier(kv.Kind), kv.Version), true)
+		w, err := newRowWindow(ctx, tx2, k, site, fmt.Sprintf("etchlog_rows_%s_%d", identifier(kv.Kind), kv.Version), pc)
 		if pgErrCode(err) == pgerrcode.LockNotAvailable {
 			return 0, nil, false, nil // a lock request is queued: read on one connection
 		}

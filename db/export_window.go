@@ -58,6 +58,7 @@ type rowWindow struct {
 	fds    []pgconn.FieldDescription
 	fw     *factWriter       // writes the rows' fields (set with fds)
 	queue  []queuedRow       // rows read, in storage order, from head on
+	arena  []byte            // where the queue's last rows are packed
 	head   int               // the queue's first row not yet claimed
 	ahead  map[rowKey][]byte // rows passed over before their leaf came
 	byKey  map[rowKey]bool   // rows read by key, not yet passed
@@ -70,9 +71,9 @@ type rowWindow struct {
 func (w *rowWindow) held() int { return len(w.ahead) + len(w.queue) - w.head }
 
 // newRowWindow opens the storage-order read of k's table at the site: a
-// cursor named name on the export's one connection, or, when ownConn is
-// set, a portal of that name (tx's connection then serves this export alone).
-func newRowWindow(ctx context.Context, tx pgx.Tx, k LeafKind, site, name string, ownConn bool) (*rowWindow, error) {
+// cursor named name on the export's one connection, or, when pc is set, a
+// portal of that name on pc, whose next part is asked for ahead.
+func newRowWindow(ctx context.Context, tx pgx.Tx, k LeafKind, site, name string, pc *portalConn) (*rowWindow, error) {
 	cols := make([]string, len(k.Columns))
 	for j, c := range k.Columns {
 		cols[j] = "r." + c
@@ -83,8 +84,8 @@ func newRowWindow(ctx context.Context, tx pgx.Tx, k LeafKind, site, name string,
 		lookup: "SELECT " + strings.Join(cols, ", ") + " FROM " + k.Table + " r WHERE r.site = $1 AND r.id = $2 AND " +
 			k.revisionExpr("r") + " = $3"}
 	var err error
-	if ownConn {
-		w.p, err = openPortal(ctx, tx, name, q)
+	if pc != nil {
+		w.p, err = pc.open(ctx, name, q, func(raw [][]byte) error { return w.take(w.p.fds, raw, true, nil) })
 	} else {
 		_, err = tx.Exec(ctx, "DECLARE "+name+" NO SCROLL CURSOR FOR "+q)
 	}
@@ -98,41 +99,12 @@ func newRowWindow(ctx context.Context, tx pgx.Tx, k LeafKind, site, name string,
 // keep is false, only their keys into seen (rows read by key are dropped
 // either way).
 func (w *rowWindow) read(ctx context.Context, tx pgx.Tx, keep bool, seen func(rowKey)) error {
-	if keep && w.head == len(w.queue) {
+	if w.head == len(w.queue) {
 		clear(w.queue)
 		w.queue, w.head = w.queue[:0], 0
 	}
-	var arena []byte
-	take := func(fds []pgconn.FieldDescription, raw [][]byte) error {
-		if w.fds == nil {
-			w.setFields(fds[2:])
-		}
-		if len(raw[0]) != 16 || len(raw[1]) != 4 {
-			return fmt.Errorf("%s row: unexpected key encoding", w.k.Table)
-		}
-		key := rowKey{[16]byte(raw[0]), int32(binary.BigEndian.Uint32(raw[1]))}
-		if w.byKey[key] {
-			delete(w.byKey, key)
-			return nil
-		}
-		if !keep {
-			seen(key)
-			return nil
-		}
-		need := 4 * (len(raw) - 2)
-		for _, v := range raw[2:] {
-			need += len(v)
-		}
-		if cap(arena)-len(arena) < need {
-			arena = make([]byte, 0, max(arenaSize, need))
-		}
-		start := len(arena)
-		arena = packRow(arena, raw[2:])
-		w.queue = append(w.queue, queuedRow{key, arena[start:len(arena):len(arena)]})
-		return nil
-	}
 	if w.p != nil {
-		got, err := w.p.fetch(ctx, rowFetch, func(raw [][]byte) error { return take(w.p.fds, raw) })
+		got, err := w.p.fetch(ctx, rowFetch, func(raw [][]byte) error { return w.take(w.p.fds, raw, keep, seen) }, keep)
 		w.ended = got == 0
 		return err
 	}
@@ -144,12 +116,52 @@ func (w *rowWindow) read(ctx context.Context, tx pgx.Tx, keep bool, seen func(ro
 	got := 0
 	for rows.Next() {
 		got++
-		if err := take(rows.FieldDescriptions(), rows.RawValues()); err != nil {
+		if err := w.take(rows.FieldDescriptions(), rows.RawValues(), keep, seen); err != nil {
 			return err
 		}
 	}
 	w.ended = got == 0
 	return rows.Err()
+}
+
+// take takes one row of the storage-order read: queued, or, when keep is
+// false, its key given to seen; a row read by key is dropped.
+func (w *rowWindow) take(fds []pgconn.FieldDescription, raw [][]byte, keep bool, seen func(rowKey)) error {
+	if w.fds == nil {
+		w.setFields(fds[2:])
+	}
+	if len(raw[0]) != 16 || len(raw[1]) != 4 {
+		return fmt.Errorf("%s row: unexpected key encoding", w.k.Table)
+	}
+	key := rowKey{[16]byte(raw[0]), int32(binary.BigEndian.Uint32(raw[1]))}
+	if w.byKey[key] {
+		delete(w.byKey, key)
+		return nil
+	}
+	if !keep {
+		seen(key)
+		return nil
+	}
+	need := 4 * (len(raw) - 2)
+	for _, v := range raw[2:] {
+		need += len(v)
+	}
+	if cap(w.arena)-len(w.arena) < need {
+		w.arena = make([]byte, 0, max(arenaSize, need)) // the queued rows keep the last one
+	}
+	start := len(w.arena)
+	w.arena = packRow(w.arena, raw[2:])
+	w.queue = append(w.queue, queuedRow{key, w.arena[start:len(w.arena):len(w.arena)]})
+	return nil
+}
+
+// settle makes the window's connection free for another statement (see
+// portalConn.settle).
+func (w *rowWindow) settle(ctx context.Context) error {
+	if w.p == nil {
+		return nil
+	}
+	return w.p.c.settle(ctx)
 }
 
 // setFields notes the columns of the rows read.
@@ -198,6 +210,9 @@ func (w *rowWindow) row(ctx context.Context, tx pgx.Tx, id [16]byte, rev int) ([
 		}
 	}
 	w.over = w.over || !w.ended
+	if err := w.settle(ctx); err != nil {
+		return nil, err
+	}
 	rows, err := tx.Query(ctx, w.lookup, w.site, id, rev)
 	if err != nil {
 		return nil, err
@@ -234,6 +249,9 @@ func unclaimedRows(ctx context.Context, tx pgx.Tx, windows []*rowWindow) (map[st
 	for _, w := range windows {
 		if w == nil || w.over {
 			continue
+		}
+		if err := w.settle(ctx); err != nil { // a part asked ahead joins the queue
+			return nil, err
 		}
 		u := &unclaimed{k: w.k}
 		add := func(key rowKey) {
