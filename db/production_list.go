@@ -13,46 +13,56 @@ import (
 
 // The production records list pages in log order through production_list
 // (migration 000043): one row per logged live production record with its log
-// index and the columns the list filters on, each filter with an index
-// (site, <column>, leaf_index). A leaf does not hold recorded_at, the key of
-// the month partitions, so the sequencer cannot read a record's columns
-// cheaply; the write that stores the records also stores their columns in
-// production_list_pending, one row per pending log entry
+// index (every column, as coupon_list), each filter with an index (site,
+// <column>, leaf_index). A leaf does not hold recorded_at, the key of the
+// month partitions, so the sequencer cannot read a record cheaply; the
+// write that stores the records also stores their columns in
+// production_list_pending, one row of arrays per pending log entry
 // (queueProductionPending), and the sequencer, in the transaction that
 // gives the entry's records their leaves, moves them into production_list
 // with their log indexes (queueProductionList). The list thus agrees with
 // the log a reader sees, and a client following the cursor sees every
 // record exactly once, as with the other lists.
 
-// productionListColumns are production_list's columns, named.
-const productionListColumns = "site, id, leaf_index, recorded_at, recorded_day, recorded_month, procedure_id, welder_id, weld_id"
+// productionListColumns are production_list's columns, named: the
+// record's, then its log index, UTC day and month.
+var productionListColumns = strings.Join(productionColumns, ", ") + ", leaf_index, recorded_day, recorded_month"
 
 // queueProductionPending stores, in the transaction that writes recs and
-// their pending log entry (named entry), the columns the list's key needs,
-// in the entry's order; on a pipelined write it leaves with the next
-// statement.
-func queueProductionPending(ctx context.Context, tx pgx.Tx, site string, entry uuid.UUID, recs []ProductionRecord) error {
-	ids, at, procs := make([]uuid.UUID, len(recs)), make([]time.Time, len(recs)), make([]uuid.UUID, len(recs))
-	welders, welds := make([]string, len(recs)), make([]string, len(recs))
+// their pending log entry (named entry), the records' columns for the
+// list's key, as one row of arrays in the entry's order; on a pipelined
+// write it leaves with the next statement. Every record of a write shares
+// its batch, creation time and author.
+func queueProductionPending(ctx context.Context, tx pgx.Tx, entry uuid.UUID, recs []ProductionRecord) error {
+	n := len(recs)
+	ids, procs, at := make([]uuid.UUID, n), make([]uuid.UUID, n), make([]time.Time, n)
+	welds, welders := make([]string, n), make([]string, n)
+	current, voltage, travel, feed, ctwd := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n), make([]*float64, n)
 	for i := range recs {
 		r := &recs[i]
-		ids[i], at[i], procs[i], welders[i], welds[i] = r.ID, r.RecordedAt, r.ProcedureID, r.WelderID, r.WeldID
+		ids[i], procs[i], at[i], welds[i], welders[i] = r.ID, r.ProcedureID, r.RecordedAt, r.WeldID, r.WelderID
+		current[i], voltage[i], travel[i], feed[i], ctwd[i] = r.CurrentA, r.VoltageV, r.TravelSpeedMMPerS, r.WireFeedSpeedMPerMin, r.CTWDMM
 	}
-	return queueExec(ctx, tx, `INSERT INTO production_list_pending (site, entry_id, ids, recorded_at, procedure_ids, welder_ids, weld_ids)
-		VALUES ($1, $2, $3, $4, $5, $6, $7)`, site, entry, ids, at, procs, welders, welds)
+	r := &recs[0]
+	return queueExec(ctx, tx, `INSERT INTO production_list_pending (site, entry_id, batch_id, created_at, created_by,
+		ids, procedure_ids, weld_ids, welder_ids, recorded_ats, currents_a, voltages_v, travel_speeds_mm_s, wire_feed_speeds_m_min, ctwds_mm)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13, $14, $15)`,
+		r.Site, entry, r.BatchID, r.CreatedAt, r.CreatedBy, ids, procs, welds, welders, at, current, voltage, travel, feed, ctwd)
 }
 
-// ProductionListRefresh moves the rows of the pending entries $2 at site $1
-// into production_list, with the log indexes $4 of their records $3 (a
-// record without an index, of an entry the sequencer refused, is dropped).
-const ProductionListRefresh = `WITH d AS (DELETE FROM production_list_pending WHERE site = $1 AND entry_id = ANY($2)
-		RETURNING ids, recorded_at, procedure_ids, welder_ids, weld_ids)
+// ProductionListRefresh moves the records of the pending entries $2 at
+// site $1 into production_list, with the log indexes $4 of their records
+// $3 (a record without an index, of an entry the sequencer refused, is
+// dropped).
+var ProductionListRefresh = `WITH w AS (DELETE FROM production_list_pending WHERE site = $1 AND entry_id = ANY($2) RETURNING *)
 	INSERT INTO production_list (` + productionListColumns + `)
-	SELECT $1, r.id, l.leaf_index, r.recorded_at, (r.recorded_at AT TIME ZONE 'UTC')::date,
-		date_trunc('month', r.recorded_at AT TIME ZONE 'UTC')::date, r.procedure_id, r.welder_id, r.weld_id
-	FROM d CROSS JOIN LATERAL unnest(d.ids, d.recorded_at, d.procedure_ids, d.welder_ids, d.weld_ids)
-		AS r(id, recorded_at, procedure_id, welder_id, weld_id)
-	JOIN unnest($3::uuid[], $4::bigint[]) AS l(id, leaf_index) ON l.id = r.id`
+	SELECT ` + strings.Join(productionColumns, ", ") + `, l.leaf_index, (recorded_at AT TIME ZONE 'UTC')::date,
+		date_trunc('month', recorded_at AT TIME ZONE 'UTC')::date
+	FROM (SELECT w.site, w.batch_id, w.created_at, w.created_by, r.* FROM w
+		CROSS JOIN LATERAL unnest(w.ids, w.procedure_ids, w.weld_ids, w.welder_ids, w.recorded_ats, w.currents_a, w.voltages_v,
+			w.travel_speeds_mm_s, w.wire_feed_speeds_m_min, w.ctwds_mm)
+		AS r(id, procedure_id, weld_id, welder_id, recorded_at, current_a, voltage_v, travel_speed_mm_s, wire_feed_speed_m_min, ctwd_mm)) r
+	JOIN unnest($3::uuid[], $4::bigint[]) AS l(id, leaf_index) USING (id)`
 
 // queueProductionList adds to the sequencer's batch of writes the move of
 // the production_list rows of the production entries among pend, whose
@@ -79,8 +89,7 @@ func queueProductionList(b *pgx.Batch, site string, pend []pendingLeaf, out *lea
 // listProduction returns one page of the production records matching pf in
 // log order from index from: the page's keys walked in log order through
 // the filter's index of production_list (the page size written into the
-// statement), then each record read by its key, recorded_at included (one
-// month's partition). A time range without an equality filter walks each
+// statement), then each row read by its key from the same table. A time range without an equality filter walks each
 // day of its partial months and each whole month between, up to a page
 // each, and merges the heads: at most (days + months) × limit index
 // entries, none outside the range. flagged_only checks each entry walked
@@ -138,13 +147,9 @@ func (s *Store) listProduction(ctx context.Context, site string, pf ProductionRe
 		keys = `SELECT b.id, b.recorded_at, b.leaf_index FROM (` + strings.Join(walks, "\n\t\tUNION ALL ") + `) b
 			ORDER BY b.leaf_index` + lim
 	}
-	// Each record is read by its key, a lookup per key (LIMIT 1: the
-	// planner cannot make it a hash join over every month), which probes
-	// only the month of its recorded_at (pruned as it runs).
-	sql := `SELECT ` + prefixed("p.", strings.Join(productionColumns, ", ")) + `, k.leaf_index
+	sql := `SELECT ` + prefixed("c.", strings.Join(productionColumns, ", ")) + `, k.leaf_index
 		FROM (` + keys + `) k
-		CROSS JOIN LATERAL (SELECT ` + strings.Join(productionColumns, ", ") + ` FROM production_records p
-			WHERE p.site = $1 AND p.id = k.id AND p.recorded_at = k.recorded_at LIMIT 1) p
+		JOIN production_list c ON c.site = $1 AND c.id = k.id
 		ORDER BY k.leaf_index`
 	var items []ProductionRecord
 	var last int64
@@ -188,6 +193,6 @@ func (s *Store) RecheckProductionList(ctx context.Context, site string) ([]strin
 		return nil, err
 	}
 	pending, err := s.recheckDerived(ctx, site, "production_list_pending_rows", "production_list_pending_derived",
-		"site, entry_id, id, recorded_at, procedure_id, welder_id, weld_id", "pending production record")
+		strings.Join(productionColumns, ", ")+", entry_id", "pending production record")
 	return append(diffs, pending...), err
 }
