@@ -145,6 +145,9 @@ func TestDetachProductionMonth(t *testing.T) {
 	if len(procedureFlags(t, s, site, p.ID)) != 0 {
 		t.Errorf("the detached month's flag (D-2 at 230 A) is still listed")
 	}
+	if diffs, err := s.RecheckProductionList(ctx, site); err != nil || len(diffs) != 0 {
+		t.Errorf("RecheckProductionList after the detach = %v, %v; want no difference", diffs, err)
+	}
 	if v, err := s.VerifyLog(ctx, site, nil); err != nil || !v.OK {
 		t.Fatalf("VerifyLog after the detach = %+v, %v; want ok", v, err)
 	}
@@ -164,6 +167,13 @@ func TestDetachProductionMonth(t *testing.T) {
 	}
 	if v, err := s.VerifyLog(ctx, site, nil); err != nil || !v.OK {
 		t.Fatalf("VerifyLog after a late record = %+v, %v; want ok", v, err)
+	}
+	if page, err := s.ProductionRecords(ctx, site, db.ProductionRecordFilter{}, "", db.MaxPageSize); err != nil ||
+		len(page.Items) != 2 || page.Items[1].WeldID != "D-4" {
+		t.Errorf("listed after a late record: %+v (err %v), want D-3 and D-4", page.Items, err)
+	}
+	if diffs, err := s.RecheckProductionList(ctx, site); err != nil || len(diffs) != 0 {
+		t.Errorf("RecheckProductionList after a late record = %v, %v; want no difference", diffs, err)
 	}
 	// Dropping the detached month is a deletion: verify names each fact.
 	conn := superuser(t)

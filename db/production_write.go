@@ -174,6 +174,9 @@ func (s *Store) storeProductionOnce(ctx context.Context, p *PreparedChunk) error
 		if err := appendMany(ctx, tx, p.leaves); err != nil {
 			return err
 		}
+		if err := queueProductionPending(ctx, tx, p.batch, p.out); err != nil {
+			return err
+		}
 		for i := range p.out {
 			p.out[i].Flags = []Flag{}
 		}
