@@ -8,6 +8,7 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/google/uuid"
@@ -69,13 +70,31 @@ func recordColumns(data any) []string {
 // recordValues returns a record's field values in recordColumns order.
 func recordValues(data any) []any {
 	v := reflect.ValueOf(data)
-	vals := make([]any, 0, v.NumField())
-	for i := range v.NumField() {
-		if c := v.Type().Field(i).Tag.Get("db"); c != "" && c != "-" {
-			vals = append(vals, v.Field(i).Interface())
-		}
+	fields := columnFields(v.Type())
+	vals := make([]any, len(fields))
+	for i, f := range fields {
+		vals[i] = v.Field(f).Interface()
 	}
 	return vals
+}
+
+// columnFieldsOf keeps, per data type, the indexes of its fields that are
+// columns: a write of many records asks for the same type again and again.
+var columnFieldsOf sync.Map // reflect.Type → []int
+
+// columnFields lists the indexes of t's fields with a db column, in field order.
+func columnFields(t reflect.Type) []int {
+	if f, ok := columnFieldsOf.Load(t); ok {
+		return f.([]int)
+	}
+	var out []int
+	for i := range t.NumField() {
+		if c := t.Field(i).Tag.Get("db"); c != "" && c != "-" {
+			out = append(out, i)
+		}
+	}
+	columnFieldsOf.Store(t, out)
+	return out
 }
 
 func (t table) columns() string { return metaColumns + ", " + strings.Join(t.fields, ", ") }
