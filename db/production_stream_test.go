@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"strings"
 	"sync"
 	"testing"
@@ -194,6 +195,14 @@ func TestChunkLeavesOnePerRecord(t *testing.T) {
 	a, ctx := actor(site), context.Background()
 	p := rangesProcedure(t, s, a)
 	rows := []db.ProductionRecordData{productionRow(p.ID, "L-1", 200), productionRow(p.ID, "L-2", 210), productionRow(p.ID, "L-3", 220)}
+	// Leaves are encoded from the bytes copied: a NULL, an empty-looking
+	// text beyond ASCII, a time below the microsecond (stored truncated) and
+	// fractions at float64's last digit must encode as the stored row does.
+	rows[1].CTWDMM = nil
+	rows[1].WelderID = "Ø 07"
+	rows[2].RecordedAt = rows[2].RecordedAt.Add(1234567 * time.Nanosecond)
+	rows[2].VoltageV = 24.123456789012345
+	rows[2].CTWDMM = ptr(math.Nextafter(18, 19))
 	r, err := s.ProductionChunk(ctx, a, rows, lineOf)
 	if err != nil {
 		t.Fatal(err)
