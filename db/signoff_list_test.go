@@ -31,7 +31,8 @@ func TestSignOffListIsDerived(t *testing.T) {
 	var all []signed
 	for i := range 6 {
 		by := db.Actor{Site: site, Name: fmt.Sprintf("E%d", 1+i%2), Role: db.RoleEngineer}
-		kind, record := db.SignQualificationRecord, uuid.Nil
+		var kind string
+		var record uuid.UUID
 		if i%3 == 1 {
 			kind, record = db.SignProcedure, mustProcedure(t, s, site).ID
 		} else {
@@ -39,7 +40,7 @@ func TestSignOffListIsDerived(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			record = q.ID
+			kind, record = db.SignQualificationRecord, q.ID
 		}
 		so, err := s.SignOffRecord(ctx, by, kind, record, db.SignOffRequest{Revision: 1, Statement: "Reviewed."})
 		if err != nil {
