@@ -6,7 +6,6 @@ import (
 	"slices"
 	"time"
 
-	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 	"github.com/transparency-dev/merkle/compact"
 
@@ -358,7 +357,7 @@ func readManyLists(ctx context.Context, tx pgx.Tx, site string, pend []pendingLe
 type leafRows struct {
 	kinds, actors, actions, reasons []string
 	versions, revisions             []int32
-	ids                             []uuid.UUID
+	ids                             [][16]byte // not uuid.UUID: pgx encodes those through their text (driver.Valuer), at a cost
 	hashes                          [][]byte
 	at                              []time.Time
 	seqs                            []int64
