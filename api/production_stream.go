@@ -320,8 +320,19 @@ func lineIssues(issues []FieldIssue, status, line int, inv *invalidError) ([]Fie
 }
 
 // streamRow binds and validates one row (a JSON object) as the batch
-// endpoint binds and validates each of its records.
+// endpoint binds and validates each of its records: directly when the row
+// reads plainly and passes (production_stream_fast.go), else by the JSON
+// path (streamRowJSON), which words every fault.
 func (s *Server) streamRow(obj []byte) (db.ProductionRecordData, error) {
+	var d db.ProductionRecordData
+	if productionRows().read(s, obj, &d) {
+		return d, nil
+	}
+	return s.streamRowJSON(obj)
+}
+
+// streamRowJSON binds and validates one row by the JSON body's path.
+func (s *Server) streamRowJSON(obj []byte) (db.ProductionRecordData, error) {
 	var d db.ProductionRecordData
 	if err := checkBody(obj); err != nil {
 		return d, err

@@ -9,7 +9,6 @@ import (
 	"fmt"
 	"io"
 	"reflect"
-	"regexp"
 	"strconv"
 	"unicode/utf8"
 
@@ -125,9 +124,6 @@ func newCSVSource(r io.Reader) (*csvSource, error) {
 	return s, nil
 }
 
-// jsonNumber is the JSON grammar of a number.
-var jsonNumber = regexp.MustCompile(`^-?(?:0|[1-9][0-9]*)(?:\.[0-9]+)?(?:[eE][-+]?[0-9]+)?$`)
-
 func (s *csvSource) next() (int, []byte, error) {
 	rec, err := s.r.Read()
 	s.lim.mark(s.r.InputOffset())
@@ -159,7 +155,7 @@ func (s *csvSource) next() (int, []byte, error) {
 		name, _ := json.Marshal(s.header[i])
 		b.Write(name)
 		b.WriteByte(':')
-		if !s.text[i] && jsonNumber.MatchString(cell) {
+		if !s.text[i] && isJSONNumber([]byte(cell)) {
 			b.WriteString(cell)
 			continue
 		}

@@ -39,25 +39,81 @@ var pgEpochMicro = pgEpoch.UnixMicro()
 // truncated, as pgx sends it; a nil pointer (*float64, *string,
 // *uuid.UUID) is NULL.
 func encodeCopyRows(table string, cols []string, oids []uint32, rows [][]any) (*copyRows, error) {
-	var b bytes.Buffer
-	b.Grow(len(rows) * len(cols) * 16)
-	b.WriteString("PGCOPY\n\xff\r\n\x00")
-	b.Write([]byte{0, 0, 0, 0, 0, 0, 0, 0}) // flags, header extension length
-	var w [8]byte
+	w := newCopyWriter(table, cols, oids, len(rows))
 	for _, row := range rows {
-		if len(row) != len(cols) {
-			return nil, fmt.Errorf("db: copy into %s: a row of %d values for %d columns", table, len(row), len(cols))
-		}
-		binary.BigEndian.PutUint16(w[:2], uint16(len(cols)))
-		b.Write(w[:2])
-		for i, v := range row {
-			if err := appendCopyValue(&b, oids[i], v); err != nil {
-				return nil, fmt.Errorf("db: copy into %s, column %s: %w", table, cols[i], err)
-			}
+		if err := w.add(row); err != nil {
+			return nil, err
 		}
 	}
-	b.Write([]byte{0xff, 0xff})
-	return &copyRows{table: table, cols: cols, data: b.Bytes(), n: len(rows)}, nil
+	return w.done(), nil
+}
+
+// copyWriter lays rows out one at a time (encodeCopyRows), and tells where
+// the fields of the row last added lie, so that a write can encode each
+// row's leaf from the very bytes it copies (rowLeaves.rawFact).
+type copyWriter struct {
+	b     bytes.Buffer
+	table string
+	cols  []string
+	oids  []uint32
+	n     int
+	ends  []int // where each field of the last row ends (-1: NULL)
+	start int   // where the last row's first field starts
+}
+
+// newCopyWriter starts the rows of table's cols (of types oids), about n of them.
+func newCopyWriter(table string, cols []string, oids []uint32, n int) *copyWriter {
+	w := &copyWriter{table: table, cols: cols, oids: oids, ends: make([]int, len(cols))}
+	w.b.Grow(n * len(cols) * 24)
+	w.b.WriteString("PGCOPY\n\xff\r\n\x00")
+	w.b.Write([]byte{0, 0, 0, 0, 0, 0, 0, 0}) // flags, header extension length
+	return w
+}
+
+// add lays out one row, a value per column.
+func (w *copyWriter) add(row []any) error {
+	if len(row) != len(w.cols) {
+		return fmt.Errorf("db: copy into %s: a row of %d values for %d columns", w.table, len(row), len(w.cols))
+	}
+	var c [2]byte
+	binary.BigEndian.PutUint16(c[:], uint16(len(w.cols)))
+	w.b.Write(c[:])
+	w.start = w.b.Len()
+	for i, v := range row {
+		before := w.b.Len()
+		if err := appendCopyValue(&w.b, w.oids[i], v); err != nil {
+			return fmt.Errorf("db: copy into %s, column %s: %w", w.table, w.cols[i], err)
+		}
+		w.ends[i] = w.b.Len()
+		if w.b.Len()-before == 4 && binary.BigEndian.Uint32(w.b.Bytes()[before:]) == 0xffffffff {
+			w.ends[i] = -1
+		}
+	}
+	w.n++
+	return nil
+}
+
+// fields answers the binary values of the row last added, in column order
+// (nil for NULL), as slices of the laid-out bytes: valid until the next add.
+func (w *copyWriter) fields(dst [][]byte) [][]byte {
+	dst = dst[:0]
+	data, at := w.b.Bytes(), w.start
+	for _, end := range w.ends {
+		if end < 0 {
+			dst = append(dst, nil)
+			at += 4
+			continue
+		}
+		dst = append(dst, data[at+4:end])
+		at = end
+	}
+	return dst
+}
+
+// done ends the rows.
+func (w *copyWriter) done() *copyRows {
+	w.b.Write([]byte{0xff, 0xff})
+	return &copyRows{table: w.table, cols: w.cols, data: w.b.Bytes(), n: w.n}
 }
 
 // appendCopyValue appends one field: its length, then its bytes.

@@ -2,6 +2,7 @@ package db
 
 import (
 	"context"
+	"errors"
 	"fmt"
 
 	"github.com/google/uuid"
@@ -49,26 +50,37 @@ type Coupon struct {
 
 var coupons = table{name: "coupons", entity: "coupon", fields: recordColumns(CouponData{})}
 
-// CreateCoupon stores revision 1 of a new coupon and its flags.
+// CreateCoupon stores revision 1 of a new coupon and its flags. When it
+// judged the coupon by inputs kept from an earlier create and the write
+// found them changed meanwhile (judged.go), it drops them and writes once
+// more, reading afresh.
 func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon, error) {
 	m, err := s.newRecord(a)
 	if err != nil {
 		return Coupon{}, err
 	}
-	out := Coupon{Meta: m, CouponData: c}
-	written, err := s.recordedNew(ctx, coupons, couponMark, m, c.CouponMark, recordValues(c), actionCreate)
+	var in *couponInputs
+	written, err := s.recordedNew(ctx, coupons, couponMark, m, c.CouponMark, recordValues(c), actionCreate,
+		func() *judgedCheck { return in.check })
 	if err != nil {
 		return Coupon{}, fmt.Errorf("db: create coupon: %w", err)
 	}
-	var in *couponInputs
-	if err := s.write(ctx, "create coupon",
-		readWrittenCoupon(ctx, m, c, &in),
-		written,
-		writtenCouponFlags(ctx, m, &in, &out),
-	); err != nil {
-		return Coupon{}, s.duplicateMark(ctx, a.Site, c.CouponMark, err)
+	for useKept := true; ; useKept = false {
+		out := Coupon{Meta: m, CouponData: c}
+		err := s.write(ctx, "create coupon",
+			readWrittenCoupon(ctx, &s.judged, useKept, m, c, &in),
+			written,
+			writtenCouponFlags(ctx, &s.judged, m, &in, &out),
+		)
+		if errors.Is(err, errJudgementChanged) && useKept {
+			s.judged.drop(judgedKey{m.Site, *c.ProcedureID, c.JointType})
+			continue // read afresh: nothing kept is used, so nothing is checked
+		}
+		if err != nil {
+			return Coupon{}, s.duplicateMark(ctx, a.Site, c.CouponMark, err)
+		}
+		return out, nil
 	}
-	return out, nil
 }
 
 // CorrectCoupon stores the next revision of a coupon and rewrites its flags.
@@ -78,10 +90,10 @@ func (s *Store) CorrectCoupon(ctx context.Context, a Actor, id uuid.UUID, ch Cha
 	var in *couponInputs
 	if err := s.write(ctx, "correct coupon "+id.String(),
 		coupons.baseIs(ctx, a.Site, id, ch),
-		readWrittenCoupon(ctx, m, c, &in),
+		readWrittenCoupon(ctx, &s.judged, false, m, c, &in),
 		claimMark(ctx, couponMark, m, c.CouponMark),
 		s.recorded(ctx, coupons, m, recordValues(c), actionCorrect),
-		writtenCouponFlags(ctx, m, &in, &out),
+		writtenCouponFlags(ctx, &s.judged, m, &in, &out),
 	); err != nil {
 		return Coupon{}, err
 	}

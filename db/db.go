@@ -79,6 +79,8 @@ type Store struct {
 	// months are the production months (UTC, first day) known to have a
 	// partition, so a write asks the database only about a month it has not seen.
 	months sync.Map
+	// judged keeps what new coupons of a procedure are judged by (judged.go).
+	judged judgedCache
 }
 
 // LongReadConns is how many connections long reads (export, audit verify)

@@ -45,7 +45,9 @@ type couponInputs struct {
 	sections    []predict.Section
 	record      *QualificationRecord
 	activations []groupActivation
-	calibrated  bool // some calibration of the procedure's process was activated or deactivated at the site (read for a written revision)
+	calibrated  bool         // some calibration of the procedure's process was activated or deactivated at the site (read for a written revision)
+	changes     *int64       // a new coupon's: the procedure's count of judgement changes, read before the rest (judged.go)
+	check       *judgedCheck // the count the write compares, when the inputs were kept from an earlier create
 }
 
 // optionalRow reads at most one row into a T (nil when there is none).
@@ -91,15 +93,25 @@ func recomputeCoupon(ctx context.Context, tx pgx.Tx, now time.Time, site string,
 // m about to be written with values c and reads what its flags and its
 // inherited fields derive from into *in (queueCouponInputs), before the
 // revision's own statements: a procedure or qualification record that is
-// not there, or is voided, refuses the write.
-func readWrittenCoupon(ctx context.Context, m Meta, c CouponData, in **couponInputs) step {
+// not there, or is voided, refuses the write. A new coupon whose
+// procedure's inputs kept holds for its joint type takes them from there
+// instead (queueKeptInputs), for the write to check, when useKept is set.
+// Either way what it reads afresh for a new coupon is kept.
+func readWrittenCoupon(ctx context.Context, kept *judgedCache, useKept bool, m Meta, c CouponData, in **couponInputs) step {
 	return func(tx pgx.Tx) error {
 		if c.ProcedureID == nil && c.QualificationRecordID == nil {
 			return &FieldError{Field: "procedure_id", Reason: "a coupon belongs to a procedure or a qualification record; give at least one"}
 		}
 		c.WeldedOn = DateOf(c.WeldedOn.Time) // as the date column keeps it
+		written := &Coupon{Meta: m, CouponData: c}
 		var err error
-		*in, err = queueCouponInputs(ctx, tx, m.Site, m.ID, &Coupon{Meta: m, CouponData: c})
+		if useKept && m.Revision == 1 && c.ProcedureID != nil {
+			if j := kept.get(judgedKey{m.Site, *c.ProcedureID, c.JointType}); j != nil {
+				*in, err = queueKeptInputs(ctx, tx, written, j)
+				return err
+			}
+		}
+		*in, err = queueCouponInputs(ctx, tx, m.Site, m.ID, written)
 		return err
 	}
 }
@@ -112,11 +124,12 @@ func readWrittenCoupon(ctx context.Context, m Meta, c CouponData, in **couponInp
 // values are taken as written instead of read back; a new coupon has no
 // flags to clear and no sections yet (a section must name a coupon that is
 // there, and this one is not until the write commits).
-func writtenCouponFlags(ctx context.Context, m Meta, in **couponInputs, out *Coupon) step {
+func writtenCouponFlags(ctx context.Context, kept *judgedCache, m Meta, in **couponInputs, out *Coupon) step {
 	return func(tx pgx.Tx) error {
 		if err := flushed(ctx, tx); err != nil {
 			return err
 		}
+		kept.keep(*in)
 		out.inherit((*in).defaults())
 		if _, err := (*in).flags(ctx, tx, m.CreatedAt, m.Site, m.ID); err != nil {
 			return err
@@ -186,8 +199,11 @@ func queueCouponInputs(ctx context.Context, tx pgx.Tx, site string, id uuid.UUID
 	if written != nil {
 		calibrated = `EXISTS (SELECT 1 FROM calibration_activations WHERE site = $1 AND process = ` + latestProcess + `)`
 	}
-	queued := []error{
-		queueExec(ctx, tx, lock, lockArgs...),
+	queued := []error{queueExec(ctx, tx, lock, lockArgs...)}
+	if written != nil && written.Revision == 1 && written.ProcedureID != nil { // a new coupon's inputs may be kept: count first
+		queued = append(queued, queueRows(ctx, tx, readChanges(&in.changes), judgementChangesSQL, site, written.ProcedureID))
+	}
+	queued = append(queued,
 		queueRows(ctx, tx, readProcedure, `SELECT `+procedures.columns()+` FROM procedures
 			WHERE site = $1 AND id = `+procID+` ORDER BY revision DESC LIMIT 1`, args[:2]...),
 		queueRows(ctx, tx, readRangesWithStale(&in.ranges), rangesWithStaleSQL(procID), args[:2]...),
@@ -199,8 +215,7 @@ func queueCouponInputs(ctx context.Context, tx pgx.Tx, site string, id uuid.UUID
 					FROM calibration_activations
 					WHERE site = $1 AND family = $`+fmt.Sprint(len(args)+1)+` AND joint_type = `+joint+` AND process = `+latestProcess+`
 					ORDER BY wire_diameter_mm, shielding_gas, activated_at DESC, id DESC) a
-				JOIN calibrations c ON c.site = $1 AND c.id = a.calibration_id) g ON true`, append(args, CalibrationJacksonFixed.Family())...),
-	}
+				JOIN calibrations c ON c.site = $1 AND c.id = a.calibration_id) g ON true`, append(args, CalibrationJacksonFixed.Family())...))
 	if written == nil || written.Revision > 1 {
 		queued = append(queued,
 			queueExec(ctx, tx, `DELETE FROM flags WHERE site = $1 AND subject_kind = 'coupon' AND subject_id = $2 AND kind <> 'drift'`, site, id),
@@ -214,10 +229,7 @@ func queueCouponInputs(ctx context.Context, tx pgx.Tx, site string, id uuid.UUID
 	} else {
 		in.coupon = written
 		if rid := written.QualificationRecordID; rid != nil {
-			queued = append(queued, queueRows(ctx, tx,
-				linked(&in.record, qualificationRecords, "qualification_record_id", *rid, func(r *QualificationRecord) bool { return r.Voided }),
-				`SELECT `+qualificationRecords.columns()+` FROM qualification_records
-				WHERE site = $1 AND id = $2 ORDER BY revision DESC LIMIT 1`, site, *rid))
+			queued = append(queued, queueRecordLink(ctx, tx, in, site, *rid))
 		}
 	}
 	return in, firstError(queued...)

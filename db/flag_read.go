@@ -85,9 +85,10 @@ func (s *Store) Flags(ctx context.Context, site string, ff FlagFilter, cursor st
 	if len(f.conds) > 0 {
 		where += " AND " + strings.Join(f.conds, " AND ")
 	}
-	f.args = append(f.args, limit+1)
+	// The page size is written into the statement (pageLimit): bound, the
+	// generic plan of the prepared statement does not know a page is small.
 	rows, _ := s.pool.Query(ctx, `SELECT `+strings.Join(flagColumns[1:], ", ")+` FROM flags WHERE `+where+
-		fmt.Sprintf(" ORDER BY subject_id, variable, kind LIMIT $%d", len(f.args)), f.args...)
+		" ORDER BY subject_id, variable, kind"+pageLimit(limit+1), f.args...)
 	items, err := pgx.CollectRows(rows, pgx.RowToStructByName[Flag])
 	if err != nil {
 		return Page[Flag]{}, fmt.Errorf("db: list flags: %w", mapError(err))

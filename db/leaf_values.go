@@ -160,6 +160,7 @@ func storedForm(oid uint32, v any) (any, error) {
 type rowLeaves struct {
 	kind LeafKind
 	fds  []pgconn.FieldDescription // the leaf's columns, in the leaf's order
+	bin  []pgconn.FieldDescription // fds, as their binary values describe them (rawFact)
 	at   []int                     // where the leaf's i-th column is in a row
 	oids []uint32                  // the type of each written column, in row order
 }
@@ -192,6 +193,10 @@ func newRowLeaves(ctx context.Context, q querier, k LeafKind, table string, cols
 	for i, j := range r.at {
 		r.fds[i] = all[j]
 	}
+	r.bin = slices.Clone(r.fds)
+	for i := range r.bin {
+		r.bin[i].Format = pgtype.BinaryFormatCode
+	}
 	rowShapes.Store(key, r)
 	return r, nil
 }
@@ -204,4 +209,20 @@ func (r *rowLeaves) fact(row []any) (logfmt.Fact, error) {
 		vals[i] = row[j]
 	}
 	return valueFact(r.kind, r.fds, vals)
+}
+
+// rawFact encodes one row from the binary values a copyWriter laid out for
+// it (copyWriter.fields, in the written columns' order) as a fact of the
+// kind, with factFromRaw, the encoding the export reads stored rows with:
+// the leaf commits to the very bytes the COPY sends. tm decodes a type
+// factFromRaw has no direct text for.
+func (r *rowLeaves) rawFact(fields [][]byte, tm *pgtype.Map) (logfmt.Fact, error) {
+	if len(fields) != len(r.oids) {
+		return logfmt.Fact{}, fmt.Errorf("db: %s: %d values for %d columns", r.kind.Kind, len(fields), len(r.oids))
+	}
+	raw := make([][]byte, len(r.at))
+	for i, j := range r.at {
+		raw[i] = fields[j]
+	}
+	return factFromRaw(r.kind, r.bin, raw, tm)
 }

@@ -23,7 +23,7 @@ import (
 var recordTables = map[string]bool{
 	"procedures": true, "qualification_records": true, "coupons": true, "measurements": true,
 	"production_records": true, "flags": true, "log_leaves": true, "sign_offs": true, "coupon_list": true,
-	"section_list": true,
+	"section_list": true, "production_list": true,
 }
 
 // tracedStore opens the service's store on the database at dbURL (through
@@ -177,13 +177,28 @@ func TestListPlansUseIndexes(t *testing.T) {
 		add("measurements/"+name, func() error { _, err := s.Measurements(ctx, planSite, f, "", 50); return err })
 		add("measurements/deep/"+name, func() error { _, err := s.Measurements(ctx, planSite, f, deepSections, 50); return err })
 	}
+	// The production records' times: at a day's midnight and inside one, a
+	// week, a quarter and open ranges (days and months walked).
+	noon, week, quarterAt := at.Add(12*time.Hour+7*time.Minute), at.AddDate(0, 0, 7), at.AddDate(0, 3, 0)
+	deepProduction := db.SeqCursor("production_records", planProcedures+planPQRs+4*planCoupons*9/10)
 	for name, f := range map[string]db.ProductionRecordFilter{
 		"none": {}, "procedure_id": {ProcedureID: &proc}, "weld_id": {WeldID: "J-777"}, "welder_id": {WelderID: "W17"},
 		"recorded_from+to": {RecordedFrom: &at, RecordedTo: &until}, "flagged_only": {FlaggedOnly: true},
-		"procedure_id+welder_id": {ProcedureID: &proc, WelderID: "W17"},
+		"procedure_id+welder_id":              {ProcedureID: &proc, WelderID: "W17"},
+		"recorded_from+to(week, inside days)": {RecordedFrom: &noon, RecordedTo: &week},
+		"recorded_from+to(quarter)":           {RecordedFrom: &noon, RecordedTo: &quarterAt},
+		"recorded_from":                       {RecordedFrom: &noon}, "recorded_to": {RecordedTo: &noon},
+		"procedure_id+recorded_from+to":          {ProcedureID: &proc, RecordedFrom: &at, RecordedTo: &quarterAt},
+		"welder_id+flagged_only":                 {WelderID: "W17", FlaggedOnly: true},
+		"recorded_from+to(quarter)+flagged_only": {RecordedFrom: &noon, RecordedTo: &quarterAt, FlaggedOnly: true},
+		"weld_id+procedure_id":                   {WeldID: "J-777", ProcedureID: &proc},
 	} {
 		add("production_records/"+name, func() error {
 			_, err := s.ProductionRecords(ctx, planSite, f, "", 50)
+			return err
+		})
+		add("production_records/deep/"+name, func() error {
+			_, err := s.ProductionRecords(ctx, planSite, f, deepProduction, 50)
 			return err
 		})
 	}
@@ -275,7 +290,7 @@ func explainList(ctx context.Context, s *db.Store, sql string, args []any, gener
 }
 
 // TestListPlansUseIndexes also covers the sequencer's rewrites of
-// coupon_list and section_list rows: they run for every batch, so they must
+// coupon_list, section_list and production_list rows: they run for every batch, so they must
 // reach a batch's coupons and sections by key, never order every leaf of a
 // kind at the site.
 func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
@@ -296,6 +311,14 @@ func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
 	root, _ = plan[0]["Plan"].(map[string]any)
 	if scans := seqScans(root); len(scans) > 0 {
 		t.Errorf("section_list refresh: sequential scan of %v: %s", scans, planText(root))
+	}
+	entries, records := []uuid.UUID{seededID("batch", 1), seededID("batch", 2)}, []uuid.UUID{seededID("r", 3), seededID("r", 4)}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.ProductionListRefresh, planSite, entries, records, []int64{7, 8}).Scan(&plan); err != nil {
+		t.Fatalf("explain production_list refresh: %v", err)
+	}
+	root, _ = plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("production_list refresh: sequential scan of %v: %s", scans, planText(root))
 	}
 }
 

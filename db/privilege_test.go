@@ -93,16 +93,17 @@ func TestServiceGrants(t *testing.T) {
 	if err := rows.Err(); err != nil {
 		t.Fatal(err)
 	}
-	derived := map[string]bool{"flags": true, "current_marks": true, "coupon_list": true, "section_list": true, "drift_points": true, "drift_charts": true}
+	derived := map[string]bool{"flags": true, "current_marks": true, "coupon_list": true, "section_list": true, "production_list": true, "drift_points": true, "drift_charts": true}
 	// Detachments of production months are written by an administrator
 	// (etchlog_detach_production_month, as the owner).
 	readOnly := map[string]bool{"api_users": true, "schema_migrations": true, "production_detachments": true}
 	// Bookkeeping that is no record and not exported: a retry's remembered
 	// answer is filled in after the write and forgotten after 24 hours.
 	bookkeeping := map[string]bool{"idempotency_keys": true}
-	// The log sequencer's queue: committed pending leaves are deleted once
-	// they are in the tree.
-	queue := map[string]bool{"log_pending": true}
+	// The log sequencer's queues: committed pending leaves are deleted once
+	// they are in the tree, and the production records' list columns once
+	// they are in production_list.
+	queue := map[string]bool{"log_pending": true, "production_list_pending": true}
 	for table, privs := range got {
 		want := "INSERT,SELECT"
 		switch {

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"strings"
 	"sync"
 	"testing"
@@ -144,6 +145,9 @@ func TestDetachProductionMonth(t *testing.T) {
 	if len(procedureFlags(t, s, site, p.ID)) != 0 {
 		t.Errorf("the detached month's flag (D-2 at 230 A) is still listed")
 	}
+	if diffs, err := s.RecheckProductionList(ctx, site); err != nil || len(diffs) != 0 {
+		t.Errorf("RecheckProductionList after the detach = %v, %v; want no difference", diffs, err)
+	}
 	if v, err := s.VerifyLog(ctx, site, nil); err != nil || !v.OK {
 		t.Fatalf("VerifyLog after the detach = %+v, %v; want ok", v, err)
 	}
@@ -163,6 +167,13 @@ func TestDetachProductionMonth(t *testing.T) {
 	}
 	if v, err := s.VerifyLog(ctx, site, nil); err != nil || !v.OK {
 		t.Fatalf("VerifyLog after a late record = %+v, %v; want ok", v, err)
+	}
+	if page, err := s.ProductionRecords(ctx, site, db.ProductionRecordFilter{}, "", db.MaxPageSize); err != nil ||
+		len(page.Items) != 2 || page.Items[1].WeldID != "D-4" {
+		t.Errorf("listed after a late record: %+v (err %v), want D-3 and D-4", page.Items, err)
+	}
+	if diffs, err := s.RecheckProductionList(ctx, site); err != nil || len(diffs) != 0 {
+		t.Errorf("RecheckProductionList after a late record = %v, %v; want no difference", diffs, err)
 	}
 	// Dropping the detached month is a deletion: verify names each fact.
 	conn := superuser(t)
@@ -184,6 +195,14 @@ func TestChunkLeavesOnePerRecord(t *testing.T) {
 	a, ctx := actor(site), context.Background()
 	p := rangesProcedure(t, s, a)
 	rows := []db.ProductionRecordData{productionRow(p.ID, "L-1", 200), productionRow(p.ID, "L-2", 210), productionRow(p.ID, "L-3", 220)}
+	// Leaves are encoded from the bytes copied: a NULL, an empty-looking
+	// text beyond ASCII, a time below the microsecond (stored truncated) and
+	// fractions at float64's last digit must encode as the stored row does.
+	rows[1].CTWDMM = nil
+	rows[1].WelderID = "Ø 07"
+	rows[2].RecordedAt = rows[2].RecordedAt.Add(1234567 * time.Nanosecond)
+	rows[2].VoltageV = 24.123456789012345
+	rows[2].CTWDMM = ptr(math.Nextafter(18, 19))
 	r, err := s.ProductionChunk(ctx, a, rows, lineOf)
 	if err != nil {
 		t.Fatal(err)

@@ -8,6 +8,7 @@ import (
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgtype"
 )
 
 // PreparedChunk is a chunk of production records ready to store: ids
@@ -57,11 +58,17 @@ func (s *Store) PrepareProductionChunk(ctx context.Context, a Actor, recs []Prod
 	}
 	p := &PreparedChunk{actor: a, recs: recs, row: row, now: s.now(), firstRow: map[uuid.UUID]int{},
 		out: make([]ProductionRecord, len(recs))}
-	rows, welds := make([][]any, len(recs)), make([][]any, len(recs))
 	ids, hashes := make([]uuid.UUID, len(recs)), make([][]byte, len(recs))
 	if p.batch, err = uuid.NewV7(); err != nil {
 		return nil, err
 	}
+	// The rows leave as laid out here, typed as the table describes its
+	// columns, and each leaf is encoded from the bytes laid out for its row.
+	rows := newCopyWriter("production_records", productionColumns, lv.oids, len(recs))
+	welds := newCopyWriter("production_welds", weldColumns, weldTypes, len(recs))
+	vals, weld := make([]any, 0, len(productionColumns)), make([]any, len(weldColumns))
+	var fields [][]byte
+	tm := pgtype.NewMap()
 	for i, r := range recs {
 		id, err := uuid.NewV7()
 		if err != nil {
@@ -69,10 +76,17 @@ func (s *Store) PrepareProductionChunk(ctx context.Context, a Actor, recs []Prod
 		}
 		r.RecordedAt = r.RecordedAt.UTC().Truncate(time.Microsecond)
 		p.out[i] = ProductionRecord{Site: a.Site, ID: id, BatchID: p.batch, CreatedAt: p.now, CreatedBy: a.Name, ProductionRecordData: r, Flags: []Flag{}}
-		rows[i] = append([]any{a.Site, id, p.batch, p.now, a.Name}, recordValues(r)...)
-		welds[i] = []any{a.Site, r.ProcedureID, r.WeldID, id}
-		f, err := lv.fact(rows[i])
+		vals = append(append(vals[:0], a.Site, id, p.batch, p.now, a.Name), recordValues(r)...)
+		if err := rows.add(vals); err != nil {
+			return nil, err
+		}
+		fields = rows.fields(fields)
+		f, err := lv.rawFact(fields, tm)
 		if err != nil {
+			return nil, err
+		}
+		weld[0], weld[1], weld[2], weld[3] = a.Site, r.ProcedureID, r.WeldID, id
+		if err := welds.add(weld); err != nil {
 			return nil, err
 		}
 		ids[i], hashes[i] = id, f.LeafHash()
@@ -81,13 +95,7 @@ func (s *Store) PrepareProductionChunk(ctx context.Context, a Actor, recs []Prod
 			p.procs = append(p.procs, r.ProcedureID)
 		}
 	}
-	// The rows leave as encoded here, typed as the table describes its columns.
-	if p.rows, err = encodeCopyRows("production_records", productionColumns, lv.oids, rows); err != nil {
-		return nil, err
-	}
-	if p.welds, err = encodeCopyRows("production_welds", weldColumns, weldTypes, welds); err != nil {
-		return nil, err
-	}
+	p.rows, p.welds = rows.done(), welds.done()
 	// The entry is named by the batch: one batch, one entry.
 	e := LeafEntry{Site: a.Site, ID: p.batch, Actor: a.Name, Action: "create", At: p.now}
 	if p.leaves, err = s.newManyLeaves(k, e, 1, ids, hashes); err != nil {
@@ -164,6 +172,9 @@ func (s *Store) storeProductionOnce(ctx context.Context, p *PreparedChunk) error
 			return mapError(err)
 		}
 		if err := appendMany(ctx, tx, p.leaves); err != nil {
+			return err
+		}
+		if err := queueProductionPending(ctx, tx, p.batch, p.out); err != nil {
 			return err
 		}
 		for i := range p.out {

@@ -27,12 +27,16 @@ var otherMeanings = map[string]string{
 // copiedTables hold values copied from a row of another table whose CHECKs
 // already hold them.
 var copiedTables = map[string]string{
-	"calibration_activations": "the group key and model are copied from the activated calibration row",
-	"coupon_list":             "the current revision of each coupon, copied from coupons",
-	"coupon_list_derived":     "a view of coupons",
-	"production_records_all":  "a view of production_records and production_records_detached, whose CHECKs it shows",
-	"section_list":            "the current revision's acceptance of each section, copied from measurements",
-	"section_list_derived":    "a view of measurements",
+	"calibration_activations":         "the group key and model are copied from the activated calibration row",
+	"coupon_list":                     "the current revision of each coupon, copied from coupons",
+	"coupon_list_derived":             "a view of coupons",
+	"production_records_all":          "a view of production_records and production_records_detached, whose CHECKs it shows",
+	"production_list":                 "each logged live production record, copied from production_records",
+	"production_list_derived":         "a view of production_records",
+	"production_list_pending_rows":    "a view of production_list_pending, written with the records of production_records",
+	"production_list_pending_derived": "a view of production_records",
+	"section_list":                    "the current revision's acceptance of each section, copied from measurements",
+	"section_list_derived":            "a view of measurements",
 }
 
 var (

@@ -8,6 +8,7 @@ import (
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/google/uuid"
@@ -69,13 +70,31 @@ func recordColumns(data any) []string {
 // recordValues returns a record's field values in recordColumns order.
 func recordValues(data any) []any {
 	v := reflect.ValueOf(data)
-	vals := make([]any, 0, v.NumField())
-	for i := range v.NumField() {
-		if c := v.Type().Field(i).Tag.Get("db"); c != "" && c != "-" {
-			vals = append(vals, v.Field(i).Interface())
-		}
+	fields := columnFields(v.Type())
+	vals := make([]any, len(fields))
+	for i, f := range fields {
+		vals[i] = v.Field(f).Interface()
 	}
 	return vals
+}
+
+// columnFieldsOf keeps, per data type, the indexes of its fields that are
+// columns: a write of many records asks for the same type again and again.
+var columnFieldsOf sync.Map // reflect.Type → []int
+
+// columnFields lists the indexes of t's fields with a db column, in field order.
+func columnFields(t reflect.Type) []int {
+	if f, ok := columnFieldsOf.Load(t); ok {
+		return f.([]int)
+	}
+	var out []int
+	for i := range t.NumField() {
+		if c := t.Field(i).Tag.Get("db"); c != "" && c != "-" {
+			out = append(out, i)
+		}
+	}
+	columnFieldsOf.Store(t, out)
+	return out
 }
 
 func (t table) columns() string { return metaColumns + ", " + strings.Join(t.fields, ", ") }
@@ -120,7 +139,10 @@ func (s *Store) recorded(ctx context.Context, t table, m Meta, values []any, act
 // appends its pending leaf. The leaf is encoded here from the values sent
 // (valueFact: every column of the row is stored exactly as sent, else this
 // refuses), so nothing is read back and the leaf leaves with the row.
-func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, mark string, values []any, action string) (step, error) {
+// check, called when the step runs, may ask the statement to compare a
+// procedure's count of judgement changes too (judged.go): a count other
+// than the one given fails the write with errJudgementChanged.
+func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, mark string, values []any, action string, check func() *judgedCheck) (step, error) {
 	if m.Revision != 1 {
 		return nil, fmt.Errorf("db: %s %s: revision %d is not a new record", t.entity, m.ID, m.Revision)
 	}
@@ -167,10 +189,19 @@ func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, ma
 			ON CONFLICT DO NOTHING RETURNING record_id),
 		stored AS (INSERT INTO ` + t.name + ` (` + t.columns() + `) VALUES (` + ph(1, n) + `)),
 		logged AS (INSERT INTO log_pending (` + pendingColumns + `) VALUES (` + ph(n+3, len(pending)) + `))
-		SELECT record_id FROM claim`
+		`
 	args = append(append(args, k.kind, mark), pending...)
+	// Checked: the same, answering in one row the claim (NULL when the mark
+	// is held) and the procedure's count of judgement changes.
+	checkedQ := q + `SELECT (SELECT record_id FROM claim),
+			(SELECT count(*) FROM judgement_changes WHERE site = $1 AND procedure_id = $` + strconv.Itoa(len(args)+1) + `)`
+	q += `SELECT record_id FROM claim`
 	return func(tx pgx.Tx) error {
-		return queueRows(ctx, tx, k.claimed(ctx, tx, m, mark), q, args...)
+		chk := check()
+		if chk == nil {
+			return queueRows(ctx, tx, k.claimed(ctx, tx, m, mark), q, args...)
+		}
+		return queueRows(ctx, tx, k.claimedChecked(ctx, tx, m, mark, chk), checkedQ, append(args, chk.procedure)...)
 	}, nil
 }
 

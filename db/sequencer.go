@@ -323,6 +323,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, opt 
 	wb.Queue(`DELETE FROM log_pending WHERE site = $1 AND seq = ANY($2)`, site, seqs)
 	listed.queue(wb, site)
 	queueSectionList(wb, site, listed.sections)
+	queueProductionList(wb, site, pend, &out, size)
 	if len(out.ids) > 0 {
 		root, err := rng.GetRootHash(nil)
 		if err != nil {
