@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"reflect"
 
+	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgxpool"
 
@@ -86,3 +87,9 @@ var AppendJSONFloat = logfmt.AppendJSONFloat
 // CouponListDelete is the statement that removes the coupon_list rows the
 // sequencer then writes again, for the plan test.
 const CouponListDelete = couponListDelete
+
+// QueueProductionPending is the production list's write step, for the
+// benchmark that measures it alone (on a plain transaction it runs at once).
+func QueueProductionPending(ctx context.Context, tx pgx.Tx, entry uuid.UUID, recs []ProductionRecord) error {
+	return queueProductionPending(ctx, tx, entry, recs)
+}

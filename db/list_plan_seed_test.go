@@ -45,11 +45,12 @@ func seedPlans(ctx context.Context, tb testing.TB, conn *pgx.Conn) {
 			}
 		}
 	}
-	// The coupons, sections and production records lists' keys, as the sequencer would have
+	// The coupons, sections, production records and sign-offs lists' keys, as the sequencer would have
 	// written them (derived once the records have statistics).
 	for _, q := range []string{"ANALYZE", "INSERT INTO coupon_list SELECT * FROM coupon_list_derived", "ANALYZE coupon_list",
 		"INSERT INTO section_list SELECT * FROM section_list_derived", "ANALYZE section_list",
-		"INSERT INTO production_list SELECT * FROM production_list_derived", "ANALYZE production_list"} {
+		"INSERT INTO production_list SELECT * FROM production_list_derived", "ANALYZE production_list",
+		"INSERT INTO sign_off_list SELECT * FROM sign_off_list_derived", "ANALYZE sign_off_list"} {
 		if _, err := conn.Exec(ctx, q); err != nil {
 			tb.Fatal(err)
 		}
@@ -116,7 +117,8 @@ var seedStatements = []string{
 		UNION ALL SELECT 'procedure', g FROM generate_series(0, @procedures::int - 1) g) signed`,
 	// The log: procedures, then PQRs, then coupons with their sections and
 	// production records interleaved as they arrive (leaf indexes computed,
-	// not sorted: procedures, PQRs, then four slots per coupon number).
+	// not sorted: procedures, PQRs, then four slots per coupon number), then
+	// the sign-offs, the PQRs' first.
 	`INSERT INTO log_leaves (site, leaf_index, kind, version, record_id, revision, leaf_hash, actor, action, at, integrated_at, pending_seq)
 	SELECT @site, i, kind, 1, id, 1, sha256(id::text::bytea), 'seed', 'create', now(), now(), i + 1
 	FROM (
@@ -126,5 +128,8 @@ var seedStatements = []string{
 		UNION ALL SELECT 'measurement', md5(@site::text || 'm' || g)::uuid, @procedures::int + @pqrs::int + 4 * g + 1 FROM generate_series(0, @coupons::int - 1, 2) g
 		UNION ALL SELECT 'production_record', md5(@site::text || 'r' || g)::uuid, @procedures::int + @pqrs::int + 4 * (g * @coupons::int / @production::int) + 2 + g % 2
 		FROM generate_series(0, @production::int - 1) g
+		UNION ALL SELECT 'sign_off', s.id, @procedures::int + @pqrs::int + 4 * @coupons::int
+			+ row_number() OVER (ORDER BY s.record_kind DESC, s.record_id) - 1
+		FROM sign_offs s WHERE s.site = @site
 	) leaves`,
 }

@@ -23,7 +23,7 @@ import (
 var recordTables = map[string]bool{
 	"procedures": true, "qualification_records": true, "coupons": true, "measurements": true,
 	"production_records": true, "flags": true, "log_leaves": true, "sign_offs": true, "coupon_list": true,
-	"section_list": true, "production_list": true,
+	"section_list": true, "production_list": true, "sign_off_list": true,
 }
 
 // tracedStore opens the service's store on the database at dbURL (through
@@ -211,10 +211,13 @@ func TestListPlansUseIndexes(t *testing.T) {
 		add("flags/"+name, func() error { _, err := s.Flags(ctx, planSite, f, "", 50); return err })
 	}
 	signed := seededID("q", 42)
+	deepSignOffs := db.SeqCursor("sign-offs", planProcedures+planPQRs+4*planCoupons*9/10)
 	for name, f := range map[string]db.SignOffFilter{
 		"none": {}, "record_kind": {RecordKind: "procedure"}, "record_id": {RecordID: &signed}, "signed_by": {SignedBy: "E3"},
+		"record_kind+signed_by": {RecordKind: "qualification_record", SignedBy: "E3"},
 	} {
 		add("sign_offs/"+name, func() error { _, err := s.SignOffs(ctx, planSite, f, "", 50); return err })
+		add("sign_offs/deep/"+name, func() error { _, err := s.SignOffs(ctx, planSite, f, deepSignOffs, 50); return err })
 	}
 
 	explainRefresh(ctx, t, s)
@@ -290,7 +293,7 @@ func explainList(ctx context.Context, s *db.Store, sql string, args []any, gener
 }
 
 // TestListPlansUseIndexes also covers the sequencer's rewrites of
-// coupon_list, section_list and production_list rows: they run for every batch, so they must
+// coupon_list, section_list, production_list and sign_off_list rows: they run for every batch, so they must
 // reach a batch's coupons and sections by key, never order every leaf of a
 // kind at the site.
 func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
@@ -319,6 +322,14 @@ func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
 	root, _ = plan[0]["Plan"].(map[string]any)
 	if scans := seqScans(root); len(scans) > 0 {
 		t.Errorf("production_list refresh: sequential scan of %v: %s", scans, planText(root))
+	}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.SignOffListRefresh, planSite,
+		[]uuid.UUID{seededID("sq", 3), seededID("sp", 4)}, []int64{7, 8}).Scan(&plan); err != nil {
+		t.Fatalf("explain sign_off_list refresh: %v", err)
+	}
+	root, _ = plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("sign_off_list refresh: sequential scan of %v: %s", scans, planText(root))
 	}
 }
 

@@ -80,6 +80,40 @@ func TestSectionPagerSeesEveryRowOnce(t *testing.T) {
 	})
 }
 
+// TestProductionPagerSeesEveryRowOnce follows the production records list
+// filtered to one welder while 16 writers add 2,400 records, every fourth
+// by that welder, each a batch of its own: the follower must see every
+// committed record of the welder exactly once and no other (the list's key,
+// production_list, is written in the transaction that gives a leaf its
+// index, from the columns the write left for it).
+func TestProductionPagerSeesEveryRowOnce(t *testing.T) {
+	t.Parallel()
+	if testing.Short() {
+		t.Skip("2,400 writes")
+	}
+	s, site := dbtest.Store(t), dbtest.Site(t)
+	ctx := context.Background()
+	p := mustProcedure(t, s, site)
+	followEveryRowOnce(t, s, site, "production_record", func(w, i int) (uuid.UUID, bool, error) {
+		r := productionRow(p.ID, fmt.Sprintf("PPG-%02d-%03d", w, i), 200)
+		if i%4 != 0 {
+			r.WelderID = fmt.Sprintf("WP-%d", w)
+		}
+		recs, err := s.CreateProductionRecords(ctx, actor(site), []db.ProductionRecordData{r})
+		if err != nil {
+			return uuid.Nil, false, err
+		}
+		return recs[0].ID, r.WelderID == "W-11", nil
+	}, func(cursor string) ([]uuid.UUID, string, error) {
+		pg, err := s.ProductionRecords(ctx, site, db.ProductionRecordFilter{WelderID: "W-11"}, cursor, 50)
+		ids := make([]uuid.UUID, len(pg.Items))
+		for i, r := range pg.Items {
+			ids[i] = r.ID
+		}
+		return ids, pg.Next, err
+	})
+}
+
 // pagerWriters write pagerEach records each in the pager tests.
 const pagerWriters, pagerEach = 16, 150
 

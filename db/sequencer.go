@@ -324,6 +324,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, opt 
 	listed.queue(wb, site)
 	queueSectionList(wb, site, listed.sections)
 	queueProductionList(wb, site, pend, &out, size)
+	queueSignOffList(wb, site, &out, size)
 	if len(out.ids) > 0 {
 		root, err := rng.GetRootHash(nil)
 		if err != nil {

@@ -199,41 +199,6 @@ type SignOffFilter struct {
 	SignedBy   string
 }
 
-// SignOffs lists a site's sign-offs in log order after the cursor: like the
-// record lists it pages by the log index, which follows commit order, so a
-// client following the cursor sees each sign-off once, and every page (an
-// empty one too) returns a cursor to resume from.
-func (s *Store) SignOffs(ctx context.Context, site string, f SignOffFilter, cursor string, limit int) (Page[SignOff], error) {
-	if limit <= 0 || limit > MaxPageSize {
-		limit = MaxPageSize
-	}
-	from, err := logCursor("sign-offs", cursor)
-	if err != nil {
-		return Page[SignOff]{}, fmt.Errorf("db: list sign-offs: %w", err)
-	}
-	fl := newFilter()
-	fl.args[0], fl.args[1] = site, from
-	if f.RecordKind != "" {
-		fl.add("cur.record_kind = ?", f.RecordKind)
-	}
-	if f.RecordID != nil {
-		fl.addIndexed("cur.record_id = ?", *f.RecordID) // a record has few sign-offs
-	}
-	if f.SignedBy != "" {
-		fl.add("cur.signed_by = ?", f.SignedBy)
-	}
-	var items []SignOff
-	var last int64
-	err = s.readPage(ctx, site, logWalk("sign_off", "sign_offs", signOffColumns, fl, "true", limit), fl.args, func(rows pgx.Rows) (err error) {
-		items, last, err = collectIndexed[SignOff](rows)
-		return err
-	})
-	if err != nil {
-		return Page[SignOff]{}, fmt.Errorf("db: list sign-offs: %w", mapError(err))
-	}
-	return Page[SignOff]{Items: items, Next: nextLogCursor("sign-offs", from, last, len(items))}, nil
-}
-
 // prefixed qualifies each column of a comma-separated list with p.
 func prefixed(p, columns string) string {
 	cols := strings.Split(columns, ",")

@@ -1,0 +1,2 @@
+DROP TABLE IF EXISTS sign_off_list;
+DROP VIEW IF EXISTS sign_off_list_derived;
