@@ -94,7 +94,7 @@ const siteCoupons = `
 // composition): done here, not in SQL, because the gas is parsed. The rows
 // stream: memory does not grow with the group.
 func forGroupCoupons(ctx context.Context, q querier, site string, f SampleFilter, fn func(*groupCoupon) error) error {
-	g := f.Group.canonical()
+	g := newGroupMatch(f.Group)
 	rows, _ := q.Query(ctx, siteCoupons, site, f.WeldedFrom, f.WeldedTo, f.ProcedureID, f.AsOf)
 	var c groupCoupon
 	_, err := pgx.ForEachRow(rows, c.targets(), func() error {
@@ -114,7 +114,7 @@ func forGroupCoupons(ctx context.Context, q querier, site string, f SampleFilter
 // write in tx between two reads: a plain stream holds the connection).
 // The cursor is planned for the whole result, as the plain query is.
 func forGroupCouponsBatched(ctx context.Context, tx pgx.Tx, site string, f SampleFilter, fn func(*groupCoupon) error, flush func() error) error {
-	g := f.Group.canonical()
+	g := newGroupMatch(f.Group)
 	if _, err := tx.Exec(ctx, `SET LOCAL cursor_tuple_fraction = 1`); err != nil {
 		return fmt.Errorf("select coupons: %w", err)
 	}
