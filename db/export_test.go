@@ -40,6 +40,10 @@ var CouponListRefresh = couponListRefresh
 // rows with, for the plan test.
 const SectionListRefresh = sectionListRefresh
 
+// QualificationListRefresh is the statement the sequencer rewrites
+// qualification_list rows with, for the plan test.
+const QualificationListRefresh = qualificationListRefresh
+
 // RecordJSONBothWays reads the coupons of a site (up to the first the
 // driver cannot scan) and returns each row's
 // record as the export's record encoder writes it (nil where it declines

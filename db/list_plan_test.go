@@ -24,6 +24,7 @@ var recordTables = map[string]bool{
 	"procedures": true, "qualification_records": true, "coupons": true, "measurements": true,
 	"production_records": true, "flags": true, "log_leaves": true, "sign_offs": true, "coupon_list": true,
 	"section_list": true, "production_list": true, "sign_off_list": true,
+	"qualification_list": true,
 }
 
 // tracedStore opens the service's store on the database at dbURL (through
@@ -159,12 +160,23 @@ func TestListPlansUseIndexes(t *testing.T) {
 	for name, f := range map[string]db.ProcedureFilter{"none": {}, "process": {Process: "FCAW"}, "status": {Status: "qualified"}} {
 		add("procedures/"+name, func() error { _, err := s.Procedures(ctx, planSite, f, "", 50); return err })
 	}
+	deepPQRs := db.SeqCursor("qualification_records", planProcedures+planPQRs*9/10)
 	for name, f := range map[string]db.QualificationRecordFilter{
 		"none": {}, "process": {Process: "FCAW"}, "welder_id": {WelderID: "W17"}, "outcome": {Outcome: "fail"},
-		"welded_from+to": {WeldedFrom: &from, WeldedTo: &to},
+		"include_voided": {IncludeVoided: true}, "process+outcome": {Process: "FCAW", Outcome: "fail"},
+		"welded_from+to": {WeldedFrom: &from, WeldedTo: &to}, "welded_from+to(quarter)": {WeldedFrom: &from, WeldedTo: &quarter},
+		"welded_from": {WeldedFrom: &from}, "welded_to": {WeldedTo: &from},
+		"welder_id+welded_from+to":      {WelderID: "W17", WeldedFrom: &from, WeldedTo: &quarter},
+		"process+welded_from+to":        {Process: "FCAW", WeldedFrom: &from, WeldedTo: &to},
+		"outcome+welded_from":           {Outcome: "fail", WeldedFrom: &from},
+		"welded_from+to+include_voided": {WeldedFrom: &from, WeldedTo: &to, IncludeVoided: true},
 	} {
 		add("qualification_records/"+name, func() error {
 			_, err := s.QualificationRecords(ctx, planSite, f, "", 50)
+			return err
+		})
+		add("qualification_records/deep/"+name, func() error {
+			_, err := s.QualificationRecords(ctx, planSite, f, deepPQRs, 50)
 			return err
 		})
 	}
@@ -293,7 +305,7 @@ func explainList(ctx context.Context, s *db.Store, sql string, args []any, gener
 }
 
 // TestListPlansUseIndexes also covers the sequencer's rewrites of
-// coupon_list, section_list, production_list and sign_off_list rows: they run for every batch, so they must
+// coupon_list, section_list, production_list, sign_off_list and qualification_list rows: they run for every batch, so they must
 // reach a batch's coupons and sections by key, never order every leaf of a
 // kind at the site.
 func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
@@ -322,6 +334,14 @@ func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
 	root, _ = plan[0]["Plan"].(map[string]any)
 	if scans := seqScans(root); len(scans) > 0 {
 		t.Errorf("production_list refresh: sequential scan of %v: %s", scans, planText(root))
+	}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.QualificationListRefresh, planSite,
+		[]uuid.UUID{seededID("q", 3), seededID("q", 40)}).Scan(&plan); err != nil {
+		t.Fatalf("explain qualification_list refresh: %v", err)
+	}
+	root, _ = plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("qualification_list refresh: sequential scan of %v: %s", scans, planText(root))
 	}
 	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.SignOffListRefresh, planSite,
 		[]uuid.UUID{seededID("sq", 3), seededID("sp", 4)}, []int64{7, 8}).Scan(&plan); err != nil {

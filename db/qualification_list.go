@@ -1,0 +1,121 @@
+package db
+
+import (
+	"context"
+	"fmt"
+	"slices"
+	"strings"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// The PQRs list pages in log order through qualification_list (migration
+// 000045): one row per logged PQR with its latest logged revision, that
+// revision's log index and the columns the list filters on (process,
+// welder, outcome, welding day and month, void mark), each filter with an
+// index (site, <column>, leaf_index). The sequencer rewrites a PQR's row in
+// the transaction that gives one of its leaves its index
+// (queueQualificationList), so the table agrees with the log a reader sees
+// and a client following the cursor sees every PQR revision exactly once,
+// as with the sections list.
+
+// qualificationListColumns are qualification_list's columns, named.
+const qualificationListColumns = "site, id, revision, leaf_index, voided, process, welder_id, outcome, welded_on, welded_month"
+
+// qualificationListRefresh writes the qualification_list rows of the PQRs
+// $2 at site $1. Ids as an array, so the condition reaches inside the
+// view's latest-leaf lookup and each PQR is read by key.
+const qualificationListRefresh = `INSERT INTO qualification_list (` + qualificationListColumns + `) SELECT ` +
+	qualificationListColumns + ` FROM qualification_list_derived WHERE site = $1 AND id = ANY($2)`
+
+// queueQualificationList adds to the sequencer's batch of writes the
+// rewrite of the qualification_list rows of the PQRs among the pass's
+// leaves (out); none, no statement.
+func queueQualificationList(b *pgx.Batch, site string, out *leafRows) {
+	var ids []uuid.UUID
+	for i, k := range out.kinds {
+		if k == qualificationRecords.entity {
+			ids = append(ids, out.ids[i])
+		}
+	}
+	if len(ids) == 0 {
+		return
+	}
+	b.Queue(`DELETE FROM qualification_list WHERE site = $1 AND id = ANY($2)`, site, ids)
+	b.Queue(qualificationListRefresh, site, ids)
+}
+
+// listQualificationRecords returns one page of current PQRs matching qf in
+// log order from index from: the page's keys walked in log order through
+// the filter's index of qualification_list (the page size written into the
+// statement), then each revision read by its key. A welding-day range
+// without a welder walks each day of the range (of its partial months when
+// it spans more than maxDayWalk days) and each whole month between, up to a
+// page each, and merges the heads: at most (days + months) × limit index
+// entries, none outside the range, whatever the page depth.
+func (s *Store) listQualificationRecords(ctx context.Context, site string, qf QualificationRecordFilter, from int64, limit int) ([]QualificationRecord, int64, error) {
+	f := newFilter()
+	f.args[0], f.args[1] = site, from
+	if !qf.IncludeVoided {
+		f.add("NOT k.voided")
+	}
+	if qf.Process != "" {
+		f.add("k.process = ?", qf.Process)
+	}
+	if qf.Outcome != "" {
+		f.add("k.outcome = ?", qf.Outcome)
+	}
+	if qf.WelderID != "" {
+		f.add("k.welder_id = ?", qf.WelderID)
+	}
+	if qf.WeldedFrom != nil {
+		f.add("k.welded_on >= ?", *qf.WeldedFrom)
+	}
+	if qf.WeldedTo != nil {
+		f.add("k.welded_on < ?", *qf.WeldedTo)
+	}
+	lim := pageLimit(limit)
+	walk := func(conds []string) string {
+		return `SELECT k.id, k.revision, k.leaf_index FROM qualification_list k
+			WHERE k.site = $1 AND k.leaf_index >= $2` + strings.Join(append([]string{""}, conds...), " AND ") + `
+			ORDER BY k.leaf_index` + lim
+	}
+	keys := walk(f.conds)
+	if qf.WelderID == "" && (qf.WeldedFrom != nil || qf.WeldedTo != nil) {
+		w := splitDays(qf.WeldedFrom, qf.WeldedTo)
+		arg := func(v any) string {
+			f.args = append(f.args, v)
+			return fmt.Sprintf("$%d", len(f.args))
+		}
+		walks := []string{`SELECT b.* FROM (SELECT day FROM generate_series(` + arg(w.head[0]) + `::date, ` + arg(w.head[1]) + `::date, interval '1 day') day
+				UNION ALL SELECT day FROM generate_series(` + arg(w.tail[0]) + `::date, ` + arg(w.tail[1]) + `::date, interval '1 day') day) d
+			CROSS JOIN LATERAL (` + walk(append(slices.Clone(f.conds), "k.welded_on = d.day::date")) + `) b`}
+		if w.months {
+			walks = append(walks, `SELECT b.* FROM (SELECT min(welded_month) AS lo, max(welded_month) AS hi FROM qualification_list WHERE site = $1) span
+			CROSS JOIN generate_series(greatest(span.lo, `+arg(w.monthFrom)+`::date), least(span.hi, `+arg(w.monthTo)+`::date), interval '1 month') m(month)
+			CROSS JOIN LATERAL (`+walk(append(slices.Clone(f.conds), "k.welded_month = m.month::date"))+`) b`)
+		}
+		keys = `SELECT b.id, b.revision, b.leaf_index FROM (` + strings.Join(walks, "\n\t\tUNION ALL ") + `) b
+			ORDER BY b.leaf_index` + lim
+	}
+	sql := `SELECT ` + prefixed("q.", qualificationRecords.columns()) + `, k.leaf_index
+		FROM (` + keys + `) k
+		JOIN qualification_records q ON q.site = $1 AND q.id = k.id AND q.revision = k.revision
+		ORDER BY k.leaf_index`
+	var items []QualificationRecord
+	var last int64
+	err := s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
+		items, last, err = collectIndexed[QualificationRecord](rows)
+		return err
+	})
+	return items, last, err
+}
+
+// RecheckQualificationList compares the site's qualification_list with
+// qualification_list_derived (the same rows computed from the PQRs and the
+// log) and returns each difference; none means the list key is derived
+// exactly.
+func (s *Store) RecheckQualificationList(ctx context.Context, site string) ([]string, error) {
+	return s.recheckDerived(ctx, site, "qualification_list", "qualification_list_derived", qualificationListColumns, "PQR")
+}
