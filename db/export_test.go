@@ -44,6 +44,10 @@ const SectionListRefresh = sectionListRefresh
 // qualification_list rows with, for the plan test.
 const QualificationListRefresh = qualificationListRefresh
 
+// ProcedureListRefresh is the statement the sequencer rewrites
+// procedure_list rows with, for the plan test.
+const ProcedureListRefresh = procedureListRefresh
+
 // RecordJSONBothWays reads the coupons of a site (up to the first the
 // driver cannot scan) and returns each row's
 // record as the export's record encoder writes it (nil where it declines

@@ -33,17 +33,26 @@ const qualificationListRefresh = `INSERT INTO qualification_list (` + qualificat
 // rewrite of the qualification_list rows of the PQRs among the pass's
 // leaves (out); none, no statement.
 func queueQualificationList(b *pgx.Batch, site string, out *leafRows) {
+	queueKeyRewrite(b, site, out, qualificationRecords.entity, "qualification_list", qualificationListRefresh)
+}
+
+// queueKeyRewrite adds to the sequencer's batch of writes the rewrite of
+// the rows of a list key table (one row per record, its latest logged
+// revision) for the records of kind entity among the pass's leaves (out):
+// their rows deleted, then written by refresh ($1 site, $2 ids); none, no
+// statement.
+func queueKeyRewrite(b *pgx.Batch, site string, out *leafRows, entity, table, refresh string) {
 	var ids []uuid.UUID
 	for i, k := range out.kinds {
-		if k == qualificationRecords.entity {
+		if k == entity {
 			ids = append(ids, out.ids[i])
 		}
 	}
 	if len(ids) == 0 {
 		return
 	}
-	b.Queue(`DELETE FROM qualification_list WHERE site = $1 AND id = ANY($2)`, site, ids)
-	b.Queue(qualificationListRefresh, site, ids)
+	b.Queue(`DELETE FROM `+table+` WHERE site = $1 AND id = ANY($2)`, site, ids)
+	b.Queue(refresh, site, ids)
 }
 
 // listQualificationRecords returns one page of current PQRs matching qf in

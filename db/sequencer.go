@@ -306,6 +306,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 	queueProductionList(wb, site, pend, &out, size)
 	queueSignOffList(wb, site, &out, size)
 	queueQualificationList(wb, site, &out)
+	queueProcedureList(wb, site, &out)
 	if len(out.ids) > 0 {
 		root, err := rng.GetRootHash(nil)
 		if err != nil {
