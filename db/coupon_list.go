@@ -8,7 +8,6 @@ import (
 	"strings"
 	"time"
 
-	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 )
 
@@ -25,7 +24,7 @@ import (
 // whose coupon_list rows the batch changes: coupons, and the coupons of
 // sections (their verdict).
 type listedLeaves struct {
-	coupons, sections []uuid.UUID
+	coupons, sections [][16]byte // ids as pgx encodes them without their text
 }
 
 func (l *listedLeaves) add(kind string, id [16]byte) {
@@ -56,8 +55,13 @@ const listedCoupons = `WITH ids AS (SELECT array_agg(DISTINCT id) AS ids FROM (S
 		UNION ALL SELECT m.coupon_id FROM unnest($3::uuid[]) s(id)
 			CROSS JOIN LATERAL (SELECT coupon_id FROM measurements WHERE site = $1 AND id = s.id OFFSET 0) m) c) `
 
-// couponListDelete removes their coupon_list rows.
-const couponListDelete = listedCoupons + `DELETE FROM coupon_list WHERE site = $1 AND id = ANY ((SELECT ids FROM ids)::uuid[])`
+// couponListDelete removes their coupon_list rows: each row found by its
+// key, one seek per id, then deleted by its address. With the ids as a
+// condition on the table, statistics taken while the site was small (as
+// during an import) had the planner scan every row of the site and filter.
+const couponListDelete = listedCoupons + `DELETE FROM coupon_list WHERE site = $1 AND ctid = ANY (ARRAY(
+	SELECT k.ctid FROM unnest((SELECT ids FROM ids)::uuid[]) u(id)
+	CROSS JOIN LATERAL (SELECT ctid FROM coupon_list WHERE site = $1 AND id = u.id OFFSET 0) k))`
 
 // couponListRefresh writes their coupon_list rows from coupon_list_derived.
 // Ids as an array (not a join), so the condition reaches inside the view's

@@ -38,7 +38,11 @@ var CouponListRefresh = couponListRefresh
 
 // SectionListRefresh is the statement the sequencer rewrites section_list
 // rows with, for the plan test.
-const SectionListRefresh = sectionListRefresh
+var SectionListRefresh = sectionListRefresh
+
+// SectionListDelete is the statement that removes the section_list rows the
+// sequencer then writes again, for the plan test.
+const SectionListDelete = sectionListDelete
 
 // QualificationListRefresh is the statement the sequencer rewrites
 // qualification_list rows with, for the plan test.

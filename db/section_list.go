@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"strings"
 
-	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 )
 
@@ -22,20 +21,29 @@ import (
 // sectionListColumns are section_list's columns, named.
 const sectionListColumns = "site, id, revision, leaf_index, coupon_id, acceptance, voided"
 
-// sectionListRefresh writes the section_list rows of sections $2 at site $1.
-// Ids as an array, so the condition reaches inside the view's latest-leaf
-// lookup and each section is read by key.
-const sectionListRefresh = `INSERT INTO section_list (` + sectionListColumns + `) SELECT ` + sectionListColumns +
-	` FROM section_list_derived WHERE site = $1 AND id = ANY($2)`
+// sectionListRefresh writes the section_list rows of sections $2 at site $1
+// (an id may repeat): each section read from section_list_derived by its
+// key, one seek per id. With the ids as a condition on the view, statistics
+// taken while the site was small (as during an import) had the planner read
+// every section of the site and filter.
+var sectionListRefresh = `INSERT INTO section_list (` + sectionListColumns + `) SELECT ` + prefixed("d.", sectionListColumns) + `
+	FROM (SELECT DISTINCT id FROM unnest($2::uuid[]) u(id)) u
+	CROSS JOIN LATERAL (SELECT ` + sectionListColumns + ` FROM section_list_derived WHERE site = $1 AND id = u.id OFFSET 0) d`
+
+// sectionListDelete removes the section_list rows of sections $2 at site
+// $1: each found by its key, then deleted by its address (as couponListDelete).
+const sectionListDelete = `DELETE FROM section_list WHERE site = $1 AND ctid = ANY (ARRAY(
+	SELECT k.ctid FROM unnest($2::uuid[]) u(id)
+	CROSS JOIN LATERAL (SELECT ctid FROM section_list WHERE site = $1 AND id = u.id OFFSET 0) k))`
 
 // queueSectionList adds to the sequencer's batch of writes the rewrite of
 // the section_list rows of the sections the batch logs (ids; a section may
 // appear more than once); none, no statement.
-func queueSectionList(b *pgx.Batch, site string, ids []uuid.UUID) {
+func queueSectionList(b *pgx.Batch, site string, ids [][16]byte) {
 	if len(ids) == 0 {
 		return
 	}
-	b.Queue(`DELETE FROM section_list WHERE site = $1 AND id = ANY($2)`, site, ids)
+	b.Queue(sectionListDelete, site, ids)
 	b.Queue(sectionListRefresh, site, ids)
 }
 

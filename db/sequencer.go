@@ -6,7 +6,6 @@ import (
 	"slices"
 	"time"
 
-	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 	"github.com/transparency-dev/merkle/compact"
 
@@ -17,14 +16,18 @@ import (
 type SequencerOptions struct {
 	Idle  time.Duration // longest wait between passes when no write is seen (default 20 ms)
 	Retry time.Duration // how often a follower tries to become the leader (default 1 s)
-	Batch int           // most leaves integrated per site and transaction (default 2000)
+	Batch int           // most leaves integrated per site and transaction (default 5000)
 	// Pace is the least time between the starts of two passes that writes
 	// of this process woke (default 40 ms): while writes keep coming, the
 	// leaves committed meanwhile are integrated together, in one
 	// transaction under one checkpoint, instead of a pass for each commit
 	// competing with the writers. A write after a quiet spell is taken at once.
 	Pace time.Duration
-	Logf func(format string, args ...any)
+	// While an import's parts keep coming (a new one within ImportSettle,
+	// default 500 ms), the site's pending parts are left for later, for at
+	// most ImportHold (default 1 minute; negative: never) (sequencer_hold.go).
+	ImportSettle, ImportHold time.Duration
+	Logf                     func(format string, args ...any)
 }
 
 func (o *SequencerOptions) defaults() {
@@ -35,10 +38,16 @@ func (o *SequencerOptions) defaults() {
 		o.Retry = time.Second
 	}
 	if o.Batch <= 0 {
-		o.Batch = 2000
+		o.Batch = 5000
 	}
 	if o.Pace <= 0 {
 		o.Pace = 40 * time.Millisecond
+	}
+	if o.ImportSettle <= 0 {
+		o.ImportSettle = 500 * time.Millisecond
+	}
+	if o.ImportHold == 0 {
+		o.ImportHold = time.Minute
 	}
 	if o.Logf == nil {
 		o.Logf = func(string, ...any) {}
@@ -92,9 +101,10 @@ func (s *Store) leadOnce(ctx context.Context, opt SequencerOptions) error {
 	tick := time.NewTicker(opt.Idle)
 	defer tick.Stop()
 	var kicked time.Time // when the last pass a write woke started
+	holds := importHolds{}
 	for {
 		for {
-			full, err := s.integratePass(ctx, conn, opt.Batch)
+			full, err := s.integratePass(ctx, conn, opt, holds)
 			if err != nil {
 				return err
 			}
@@ -128,7 +138,7 @@ func (s *Store) leadOnce(ctx context.Context, opt SequencerOptions) error {
 
 // integratePass integrates one batch for every site with pending leaves and
 // reports whether some site had more than a batch waiting.
-func (s *Store) integratePass(ctx context.Context, conn *pgx.Conn, batch int) (bool, error) {
+func (s *Store) integratePass(ctx context.Context, conn *pgx.Conn, opt SequencerOptions, holds importHolds) (bool, error) {
 	rows, _ := conn.Query(ctx, `SELECT DISTINCT site FROM log_pending`)
 	sites, err := pgx.CollectRows(rows, pgx.RowTo[string])
 	if err != nil {
@@ -136,7 +146,7 @@ func (s *Store) integratePass(ctx context.Context, conn *pgx.Conn, batch int) (b
 	}
 	full := false
 	for _, site := range sites {
-		more, err := s.integrate(ctx, conn, site, batch)
+		more, err := s.integrate(ctx, conn, site, opt, holds)
 		if err != nil {
 			return false, fmt.Errorf("site %q: %w", site, err)
 		}
@@ -185,10 +195,12 @@ const pendingHeads = `SELECT seq, kind, version, record_id, revision, leaf_hash,
 
 // integrate moves committed pending leaves of one site into its tree, in
 // one transaction with the new nodes and a signed checkpoint: pending rows
-// in sequence order while they bring no more than batch leaves, the first
-// always (a pending entry of many may name more). It reports whether more
-// were waiting when it read them.
-func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batch int) (bool, error) {
+// in sequence order while they bring no more than opt.Batch leaves, the
+// first always (a pending entry of many may name more), unless an import
+// in progress holds them (holds). It reports whether more were waiting
+// when it read them.
+func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, opt SequencerOptions, holds importHolds) (bool, error) {
+	batch := opt.Batch
 	key := s.logKey()
 	if key == nil {
 		return false, ErrNoLogKey
@@ -204,6 +216,8 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 		pend   []pendingLeaf
 		leaves int
 		more   bool
+		// the newest import part among the rows read (0: none)
+		newestPart int64
 	)
 	rb := &pgx.Batch{}
 	rb.Queue(latestCheckpoint, site).Query(func(rows pgx.Rows) error {
@@ -215,6 +229,9 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 		var p pendingLeaf
 		_, err := pgx.ForEachRow(rows, []any{&p.Seq, &p.Kind, &p.Version, &p.RecordID, &p.Revision, &p.LeafHash, &p.Tag,
 			&p.Actor, &p.Action, &p.Reason, &p.At, &p.Many, &p.Leaves}, func() error {
+			if importPart(p) {
+				newestPart = p.Seq
+			}
 			if more || (len(pend) > 0 && leaves+p.Leaves > batch) {
 				more = true // left for the next transaction
 				return nil
@@ -225,8 +242,11 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, batc
 		})
 		return err
 	})
-	if err := tx.SendBatch(ctx, rb).Close(); err != nil || len(pend) == 0 {
+	if err := tx.SendBatch(ctx, rb).Close(); err != nil {
 		return false, err
+	}
+	if holds.holding(site, len(pend) > 0 && importPart(pend[0]), newestPart, time.Now(), opt) || len(pend) == 0 {
+		return false, nil
 	}
 	if err := readManyLists(ctx, tx, site, pend); err != nil {
 		return false, err
@@ -362,7 +382,7 @@ func readManyLists(ctx context.Context, tx pgx.Tx, site string, pend []pendingLe
 type leafRows struct {
 	kinds, actors, actions, reasons []string
 	versions, revisions             []int32
-	ids                             []uuid.UUID
+	ids                             [][16]byte // not uuid.UUID: pgx encodes those through their text (driver.Valuer), at a cost
 	hashes                          [][]byte
 	at                              []time.Time
 	seqs                            []int64

@@ -17,7 +17,8 @@ import (
 )
 
 // TestSequencerRewriteReadsByKey runs the sequencer's rewrite of coupon_list
-// rows (the DELETE and the INSERT from coupon_list_derived) for a batch of
+// rows (the DELETE and the INSERT from coupon_list_derived) and of
+// section_list rows (likewise) for a batch of
 // a few coupons and their sections, on a site that grew after the tables
 // were last analyzed, as it does during an import: the statistics say the
 // site holds nearly nothing. The statements must read rows in proportion
@@ -34,7 +35,7 @@ func TestSequencerRewriteReadsByKey(t *testing.T) {
 	const site, other, coupons = "grown", "settled", 3000
 	// Statistics taken while only other, small sites had rows, and kept so
 	// (no autovacuum in this database's tables) while the site grows.
-	for _, table := range []string{"coupons", "measurements", "log_leaves", "coupon_list"} {
+	for _, table := range []string{"coupons", "measurements", "log_leaves", "coupon_list", "section_list"} {
 		if _, err := conn.Exec(ctx, "ALTER TABLE "+table+" SET (autovacuum_enabled = false)"); err != nil {
 			t.Fatal(err)
 		}
@@ -47,29 +48,44 @@ func TestSequencerRewriteReadsByKey(t *testing.T) {
 	}
 	seedGrown(ctx, t, conn, site, coupons)
 
-	// A batch: ten coupons, and the sections of ten others.
-	var ids, sections []uuid.UUID
-	for i := range 10 {
-		ids = append(ids, grownID(site, "c", 100+i))
-		for s := range 3 {
-			sections = append(sections, grownID(site, "m", 3*(2000+i)+s))
+	// A batch of a few coupons (ten, and the sections of ten others) and one
+	// of an import part's size (200 coupons, and the sections of 200 others).
+	for _, size := range []int{10, 200} {
+		var ids, sections []uuid.UUID
+		for i := range size {
+			ids = append(ids, grownID(site, "c", 100+i))
+			for s := range 3 {
+				sections = append(sections, grownID(site, "m", 3*(2000+i)+s))
+			}
 		}
-	}
-	batch := len(ids) + len(sections)
-	for _, st := range []struct{ name, before, sql string }{
-		{"delete", "", db.CouponListDelete},
-		{"insert", db.CouponListDelete, db.CouponListRefresh}, // the rows it writes, deleted first as in a pass
-	} {
-		for _, mode := range []string{"force_custom_plan", "force_generic_plan"} {
-			read, plan := rowsRead(ctx, t, conn, st.before, st.sql, mode, site, ids, sections)
+		batch := len(ids) + len(sections)
+		for _, st := range []struct {
+			name, before, sql string
+			sections          bool // the statement takes the sections alone
+			perID             int  // rows it may read per id of the batch
+		}{
+			// A deletion seeks each row once (with the sections' coupons
+			// found by key first).
+			{"coupon_list delete", "", db.CouponListDelete, false, 3},
 			// 30 rows per coupon or section of the batch covers its seeks (a
-			// coupon's verdict reads its three sections and their leaves);
-			// the site holds 3,000 coupons and 9,000 sections.
-			if read > 30*batch {
-				t.Errorf("coupon_list %s (%s): %d rows read for a batch of %d ids at a site of %d coupons:\n%s",
-					st.name, mode, read, batch, coupons, plan)
-			} else {
-				t.Logf("coupon_list %s (%s): %d rows read for a batch of %d ids", st.name, mode, read, batch)
+			// coupon's verdict reads its three sections and their leaves).
+			{"coupon_list insert", db.CouponListDelete, db.CouponListRefresh, false, 30}, // the rows it writes, deleted first as in a pass
+			{"section_list delete", "", db.SectionListDelete, true, 3},
+			{"section_list insert", db.SectionListDelete, db.SectionListRefresh, true, 30},
+		} {
+			for _, mode := range []string{"force_custom_plan", "force_generic_plan"} {
+				args := []any{site, ids, sections}
+				if st.sections {
+					args = []any{site, sections}
+				}
+				read, plan := rowsRead(ctx, t, conn, st.before, st.sql, mode, args...)
+				// The site holds 3,000 coupons and 9,000 sections.
+				if read > st.perID*batch {
+					t.Errorf("%s (%s): %d rows read for a batch of %d ids at a site of %d coupons:\n%s",
+						st.name, mode, read, batch, coupons, plan)
+				} else {
+					t.Logf("%s (%s): %d rows read for a batch of %d ids", st.name, mode, read, batch)
+				}
 			}
 		}
 	}
@@ -102,6 +118,7 @@ func seedGrown(ctx context.Context, t *testing.T, conn *pgx.Conn, site string, n
 			1, sha256(g::text::bytea), 'seed', 'create', now(), now(), g + 1
 		FROM generate_series(0, 4 * @n::int - 1) g`,
 		`INSERT INTO coupon_list SELECT * FROM coupon_list_derived WHERE site = @site`,
+		`INSERT INTO section_list SELECT * FROM section_list_derived WHERE site = @site`,
 		`RESET session_replication_role`,
 	} {
 		if _, err := conn.Exec(ctx, q, args); err != nil {
