@@ -46,11 +46,11 @@ const SectionListDelete = sectionListDelete
 
 // QualificationListRefresh is the statement the sequencer rewrites
 // qualification_list rows with, for the plan test.
-const QualificationListRefresh = qualificationListRefresh
+var QualificationListRefresh = qualificationListRefresh
 
 // ProcedureListRefresh is the statement the sequencer rewrites
 // procedure_list rows with, for the plan test.
-const ProcedureListRefresh = procedureListRefresh
+var ProcedureListRefresh = procedureListRefresh
 
 // RecordJSONBothWays reads the coupons of a site (up to the first the
 // driver cannot scan) and returns each row's

@@ -21,10 +21,8 @@ import (
 const procedureListColumns = "site, id, revision, leaf_index, voided, process, status"
 
 // procedureListRefresh writes the procedure_list rows of the procedures $2
-// at site $1. Ids as an array, so the condition reaches inside the view's
-// latest-leaf lookup and each procedure is read by key.
-const procedureListRefresh = `INSERT INTO procedure_list (` + procedureListColumns + `) SELECT ` +
-	procedureListColumns + ` FROM procedure_list_derived WHERE site = $1 AND id = ANY($2)`
+// at site $1 (an id may repeat), each read by its key (keyRefresh).
+var procedureListRefresh = keyRefresh("procedure_list", procedureListColumns)
 
 // queueProcedureList adds to the sequencer's batch of writes the rewrite of
 // the procedure_list rows of the procedures among the pass's leaves (out);

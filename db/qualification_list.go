@@ -24,10 +24,10 @@ import (
 const qualificationListColumns = "site, id, revision, leaf_index, voided, process, welder_id, outcome, welded_on, welded_month"
 
 // qualificationListRefresh writes the qualification_list rows of the PQRs
-// $2 at site $1. Ids as an array, so the condition reaches inside the
-// view's latest-leaf lookup and each PQR is read by key.
-const qualificationListRefresh = `INSERT INTO qualification_list (` + qualificationListColumns + `) SELECT ` +
-	qualificationListColumns + ` FROM qualification_list_derived WHERE site = $1 AND id = ANY($2)`
+// $2 at site $1 (an id may repeat): each PQR read from
+// qualification_list_derived by its key, one seek per id, whatever the
+// statistics say of the site (keyRefresh).
+var qualificationListRefresh = keyRefresh("qualification_list", qualificationListColumns)
 
 // queueQualificationList adds to the sequencer's batch of writes the
 // rewrite of the qualification_list rows of the PQRs among the pass's
@@ -39,8 +39,8 @@ func queueQualificationList(b *pgx.Batch, site string, out *leafRows) {
 // queueKeyRewrite adds to the sequencer's batch of writes the rewrite of
 // the rows of a list key table (one row per record, its latest logged
 // revision) for the records of kind entity among the pass's leaves (out):
-// their rows deleted, then written by refresh ($1 site, $2 ids); none, no
-// statement.
+// their rows deleted, each found by its key, then written by refresh ($1
+// site, $2 ids); none, no statement.
 func queueKeyRewrite(b *pgx.Batch, site string, out *leafRows, entity, table, refresh string) {
 	var ids []uuid.UUID
 	for i, k := range out.kinds {
@@ -51,8 +51,29 @@ func queueKeyRewrite(b *pgx.Batch, site string, out *leafRows, entity, table, re
 	if len(ids) == 0 {
 		return
 	}
-	b.Queue(`DELETE FROM `+table+` WHERE site = $1 AND id = ANY($2)`, site, ids)
+	b.Queue(keyDelete(table), site, ids)
 	b.Queue(refresh, site, ids)
+}
+
+// keyRefresh is the statement that writes the rows of list key table
+// (columns named) for the records $2 at site $1 from the view
+// <table>_derived: each record read by its key through a lateral subquery
+// the planner cannot flatten, so statistics taken while the site was small
+// cannot turn it into a read of every record of the site (as with
+// sectionListRefresh).
+func keyRefresh(table, columns string) string {
+	return `INSERT INTO ` + table + ` (` + columns + `) SELECT ` + prefixed("d.", columns) + `
+	FROM (SELECT DISTINCT id FROM unnest($2::uuid[]) u(id)) u
+	CROSS JOIN LATERAL (SELECT ` + columns + ` FROM ` + table + `_derived WHERE site = $1 AND id = u.id OFFSET 0) d`
+}
+
+// keyDelete is the statement that removes the rows of list key table for
+// the records $2 at site $1: each found by its key, then deleted by its
+// address (as sectionListDelete).
+func keyDelete(table string) string {
+	return `DELETE FROM ` + table + ` WHERE site = $1 AND ctid = ANY (ARRAY(
+	SELECT k.ctid FROM unnest($2::uuid[]) u(id)
+	CROSS JOIN LATERAL (SELECT ctid FROM ` + table + ` WHERE site = $1 AND id = u.id OFFSET 0) k))`
 }
 
 // listQualificationRecords returns one page of current PQRs matching qf in
