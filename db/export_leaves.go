@@ -95,7 +95,7 @@ func exportLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site strin
 		}
 		switch {
 		case st.known && versions == 1: // the table's rows are all this version's
-			if st.rows, err = newRowWindow(ctx, tx, st.k, site, st.name+"_rows"); err != nil {
+			if st.rows, err = newRowWindow(ctx, tx, st.k, site, st.name+"_rows", nil); err != nil {
 				return 0, nil, err
 			}
 			q += ", true FROM log_leaves lg"

@@ -17,7 +17,9 @@ import (
 // leaves as one streamed query (index order, every kind) on the export's
 // connection and the rows beside them on the second, in the same snapshot
 // (pg_export_snapshot), so the two reads run at the same time and the
-// leaves need no cursor. It waits for no connection: when none is free
+// leaves need no cursor; each kind's rows are read through a portal of
+// the second connection (see portal), and the rows read by key between
+// its parts. It waits for no connection: when none is free
 // within splitWait (another export may hold it), or a kind has leaves of
 // two versions (their rows are joined in a cursor), the export reads on its
 // one connection as before.
@@ -68,6 +70,8 @@ func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string
 	if _, err := tx2.Exec(ctx, "SET LOCAL lock_timeout = "+quoteLiteral(fmt.Sprintf("%dms", splitWait.Milliseconds()))); err != nil {
 		return 0, nil, true, err
 	}
+	pc := newPortalConn(tx2)
+	defer pc.settle(ctx) //nolint:errcheck // a part asked ahead is read before the rollback; on an error the connection is closed
 	windows := map[string]*rowWindow{}
 	var all []*rowWindow
 	for _, kv := range kinds {
@@ -75,7 +79,7 @@ func splitLeaves(ctx context.Context, pool *pgxpool.Pool, tx pgx.Tx, site string
 		if err != nil {
 			continue // unknown: its leaves say so
 		}
-		w, err := newRowWindow(ctx, tx2, k, site, fmt.Sprintf("etchlog_rows_%s_%d", identifier(kv.Kind), kv.Version))
+		w, err := newRowWindow(ctx, tx2, k, site, fmt.Sprintf("etchlog_rows_%s_%d", identifier(kv.Kind), kv.Version), pc)
 		if pgErrCode(err) == pgerrcode.LockNotAvailable {
 			return 0, nil, false, nil // a lock request is queued: read on one connection
 		}
