@@ -66,7 +66,7 @@ func seedOtherLists(ctx context.Context, tb testing.TB, conn *pgx.Conn, n int) (
 			tb.Fatal(err)
 		}
 	}
-	// The production records and sign-offs lists' keys, as the sequencer
+	// The production records, sign-offs, PQRs and procedures lists' keys, as the sequencer
 	// would have written them (derived once the records have statistics:
 	// before, the planner looked each production leaf up in every month).
 	if err := indexAfter(ctx, conn, "production_list", func() error {
@@ -75,10 +75,14 @@ func seedOtherLists(ctx context.Context, tb testing.TB, conn *pgx.Conn, n int) (
 	}); err != nil {
 		tb.Fatal(err)
 	}
-	if _, err := conn.Exec(ctx, "INSERT INTO sign_off_list SELECT * FROM sign_off_list_derived WHERE site = 'bench'"); err != nil {
-		tb.Fatal(err)
+	for _, q := range []string{"INSERT INTO sign_off_list SELECT * FROM sign_off_list_derived WHERE site = 'bench'",
+		"INSERT INTO qualification_list SELECT * FROM qualification_list_derived WHERE site = 'bench'",
+		"INSERT INTO procedure_list SELECT * FROM procedure_list_derived WHERE site = 'bench'"} {
+		if _, err := conn.Exec(ctx, q); err != nil {
+			tb.Fatal(err)
+		}
 	}
-	for _, t := range []string{"production_list", "sign_off_list"} {
+	for _, t := range []string{"production_list", "sign_off_list", "qualification_list", "procedure_list"} {
 		if _, err := conn.Exec(ctx, "VACUUM ANALYZE "+t); err != nil {
 			tb.Fatal(err)
 		}

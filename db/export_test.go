@@ -44,6 +44,14 @@ var SectionListRefresh = sectionListRefresh
 // sequencer then writes again, for the plan test.
 const SectionListDelete = sectionListDelete
 
+// QualificationListRefresh is the statement the sequencer rewrites
+// qualification_list rows with, for the plan test.
+var QualificationListRefresh = qualificationListRefresh
+
+// ProcedureListRefresh is the statement the sequencer rewrites
+// procedure_list rows with, for the plan test.
+var ProcedureListRefresh = procedureListRefresh
+
 // RecordJSONBothWays reads the coupons of a site (up to the first the
 // driver cannot scan) and returns each row's
 // record as the export's record encoder writes it (nil where it declines

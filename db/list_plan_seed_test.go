@@ -45,12 +45,14 @@ func seedPlans(ctx context.Context, tb testing.TB, conn *pgx.Conn) {
 			}
 		}
 	}
-	// The coupons, sections, production records and sign-offs lists' keys, as the sequencer would have
+	// The coupons, sections, production records, sign-offs, PQRs and procedures lists' keys, as the sequencer would have
 	// written them (derived once the records have statistics).
 	for _, q := range []string{"ANALYZE", "INSERT INTO coupon_list SELECT * FROM coupon_list_derived", "ANALYZE coupon_list",
 		"INSERT INTO section_list SELECT * FROM section_list_derived", "ANALYZE section_list",
 		"INSERT INTO production_list SELECT * FROM production_list_derived", "ANALYZE production_list",
-		"INSERT INTO sign_off_list SELECT * FROM sign_off_list_derived", "ANALYZE sign_off_list"} {
+		"INSERT INTO sign_off_list SELECT * FROM sign_off_list_derived", "ANALYZE sign_off_list",
+		"INSERT INTO qualification_list SELECT * FROM qualification_list_derived", "ANALYZE qualification_list",
+		"INSERT INTO procedure_list SELECT * FROM procedure_list_derived", "ANALYZE procedure_list"} {
 		if _, err := conn.Exec(ctx, q); err != nil {
 			tb.Fatal(err)
 		}

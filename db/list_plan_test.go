@@ -24,6 +24,7 @@ var recordTables = map[string]bool{
 	"procedures": true, "qualification_records": true, "coupons": true, "measurements": true,
 	"production_records": true, "flags": true, "log_leaves": true, "sign_offs": true, "coupon_list": true,
 	"section_list": true, "production_list": true, "sign_off_list": true,
+	"qualification_list": true, "procedure_list": true,
 }
 
 // tracedStore opens the service's store on the database at dbURL (through
@@ -156,15 +157,29 @@ func TestListPlansUseIndexes(t *testing.T) {
 		add("coupons/"+name, func() error { _, err := s.Coupons(ctx, planSite, f, "", 50); return err })
 		add("coupons/deep/"+name, func() error { _, err := s.Coupons(ctx, planSite, f, deep, 50); return err })
 	}
-	for name, f := range map[string]db.ProcedureFilter{"none": {}, "process": {Process: "FCAW"}, "status": {Status: "qualified"}} {
+	deepProcedures := db.SeqCursor("procedures", planProcedures*9/10)
+	for name, f := range map[string]db.ProcedureFilter{"none": {}, "process": {Process: "FCAW"}, "status": {Status: "qualified"},
+		"include_voided": {IncludeVoided: true}, "process+status": {Process: "FCAW", Status: "qualified"}} {
 		add("procedures/"+name, func() error { _, err := s.Procedures(ctx, planSite, f, "", 50); return err })
+		add("procedures/deep/"+name, func() error { _, err := s.Procedures(ctx, planSite, f, deepProcedures, 50); return err })
 	}
+	deepPQRs := db.SeqCursor("qualification_records", planProcedures+planPQRs*9/10)
 	for name, f := range map[string]db.QualificationRecordFilter{
 		"none": {}, "process": {Process: "FCAW"}, "welder_id": {WelderID: "W17"}, "outcome": {Outcome: "fail"},
-		"welded_from+to": {WeldedFrom: &from, WeldedTo: &to},
+		"include_voided": {IncludeVoided: true}, "process+outcome": {Process: "FCAW", Outcome: "fail"},
+		"welded_from+to": {WeldedFrom: &from, WeldedTo: &to}, "welded_from+to(quarter)": {WeldedFrom: &from, WeldedTo: &quarter},
+		"welded_from": {WeldedFrom: &from}, "welded_to": {WeldedTo: &from},
+		"welder_id+welded_from+to":      {WelderID: "W17", WeldedFrom: &from, WeldedTo: &quarter},
+		"process+welded_from+to":        {Process: "FCAW", WeldedFrom: &from, WeldedTo: &to},
+		"outcome+welded_from":           {Outcome: "fail", WeldedFrom: &from},
+		"welded_from+to+include_voided": {WeldedFrom: &from, WeldedTo: &to, IncludeVoided: true},
 	} {
 		add("qualification_records/"+name, func() error {
 			_, err := s.QualificationRecords(ctx, planSite, f, "", 50)
+			return err
+		})
+		add("qualification_records/deep/"+name, func() error {
+			_, err := s.QualificationRecords(ctx, planSite, f, deepPQRs, 50)
 			return err
 		})
 	}
@@ -293,7 +308,7 @@ func explainList(ctx context.Context, s *db.Store, sql string, args []any, gener
 }
 
 // TestListPlansUseIndexes also covers the sequencer's rewrites of
-// coupon_list, section_list, production_list and sign_off_list rows: they run for every batch, so they must
+// coupon_list, section_list, production_list, sign_off_list, qualification_list and procedure_list rows: they run for every batch, so they must
 // reach a batch's coupons and sections by key, never order every leaf of a
 // kind at the site.
 func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
@@ -323,6 +338,22 @@ func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
 	if scans := seqScans(root); len(scans) > 0 {
 		t.Errorf("production_list refresh: sequential scan of %v: %s", scans, planText(root))
 	}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.ProcedureListRefresh, planSite,
+		[]uuid.UUID{seededID("p", 3), seededID("p", 40)}).Scan(&plan); err != nil {
+		t.Fatalf("explain procedure_list refresh: %v", err)
+	}
+	root, _ = plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("procedure_list refresh: sequential scan of %v: %s", scans, planText(root))
+	}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.QualificationListRefresh, planSite,
+		[]uuid.UUID{seededID("q", 3), seededID("q", 40)}).Scan(&plan); err != nil {
+		t.Fatalf("explain qualification_list refresh: %v", err)
+	}
+	root, _ = plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("qualification_list refresh: sequential scan of %v: %s", scans, planText(root))
+	}
 	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.SignOffListRefresh, planSite,
 		[]uuid.UUID{seededID("sq", 3), seededID("sp", 4)}, []int64{7, 8}).Scan(&plan); err != nil {
 		t.Fatalf("explain sign_off_list refresh: %v", err)
@@ -335,8 +366,7 @@ func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
 
 // planGaps are the lists whose plan still reads a table whole, each with
 // why; they are logged, not failed, so the report shows them. None at
-// present: the procedures list's filters that keep most procedures walk the
-// log through a lookup the planner cannot flatten (listCurrent).
+// present.
 var planGaps = map[string]string{}
 
 // seededID is the id seedPlans gave the n-th row of a kind at planSite.

@@ -93,7 +93,7 @@ func TestServiceGrants(t *testing.T) {
 	if err := rows.Err(); err != nil {
 		t.Fatal(err)
 	}
-	derived := map[string]bool{"flags": true, "current_marks": true, "coupon_list": true, "section_list": true, "production_list": true, "sign_off_list": true, "drift_points": true, "drift_charts": true}
+	derived := map[string]bool{"flags": true, "current_marks": true, "coupon_list": true, "section_list": true, "production_list": true, "sign_off_list": true, "qualification_list": true, "procedure_list": true, "drift_points": true, "drift_charts": true}
 	// Detachments of production months are written by an administrator
 	// (etchlog_detach_production_month, as the owner).
 	readOnly := map[string]bool{"api_users": true, "schema_migrations": true, "production_detachments": true}

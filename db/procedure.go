@@ -140,18 +140,3 @@ type ProcedureFilter struct {
 	Status        string
 	IncludeVoided bool
 }
-
-// Procedures lists current procedures after the cursor.
-func (s *Store) Procedures(ctx context.Context, site string, pf ProcedureFilter, cursor string, limit int) (Page[Procedure], error) {
-	f := newFilter()
-	if !pf.IncludeVoided {
-		f.add("NOT voided")
-	}
-	if pf.Process != "" {
-		f.add("process = ?", pf.Process)
-	}
-	if pf.Status != "" {
-		f.add("status = ?", pf.Status)
-	}
-	return listCurrent[Procedure](ctx, s, procedures, site, f, cursor, limit)
-}

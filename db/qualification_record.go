@@ -2,6 +2,7 @@ package db
 
 import (
 	"context"
+	"fmt"
 
 	"github.com/google/uuid"
 )
@@ -120,26 +121,20 @@ type QualificationRecordFilter struct {
 	IncludeVoided bool
 }
 
-// QualificationRecords lists current PQRs after the cursor.
+// QualificationRecords lists current PQRs after the cursor, in log order
+// through the list's key (qualification_list.go).
 func (s *Store) QualificationRecords(ctx context.Context, site string, qf QualificationRecordFilter, cursor string, limit int) (Page[QualificationRecord], error) {
-	f := newFilter()
-	if !qf.IncludeVoided {
-		f.add("NOT voided")
+	if limit <= 0 || limit > MaxPageSize {
+		limit = MaxPageSize
 	}
-	if qf.Process != "" {
-		f.add("process = ?", qf.Process)
+	from, err := logCursor(qualificationRecords.name, cursor)
+	if err != nil {
+		return Page[QualificationRecord]{}, fmt.Errorf("db: list qualification_record: %w", err)
 	}
-	if qf.WelderID != "" {
-		f.addIndexed("welder_id = ?", qf.WelderID)
+	items, last, err := s.listQualificationRecords(ctx, site, qf, from, limit)
+	if err != nil {
+		return Page[QualificationRecord]{}, fmt.Errorf("db: list qualification_record: %w", mapError(err))
 	}
-	if qf.Outcome != "" {
-		f.add("outcome = ?", qf.Outcome)
-	}
-	if qf.WeldedFrom != nil {
-		f.addIndexed("welded_on >= ?", *qf.WeldedFrom)
-	}
-	if qf.WeldedTo != nil {
-		f.addIndexed("welded_on < ?", *qf.WeldedTo)
-	}
-	return listCurrent[QualificationRecord](ctx, s, qualificationRecords, site, f, cursor, limit)
+	return Page[QualificationRecord]{Items: items, Next: nextLogCursor(qualificationRecords.name, from, last, len(items))},
+		attachSignOffs(ctx, s.pool, site, items)
 }

@@ -124,10 +124,6 @@ func revisions[T any](ctx context.Context, s *Store, t table, site string, id uu
 type filter struct {
 	conds []string
 	args  []any
-	// indexed is set when a condition has an index of its own on the record
-	// table that keeps few records (a welder, a range of days): the planner
-	// may then start from it (see listCurrent).
-	indexed bool
 }
 
 // newFilter returns an empty filter with the site and cursor placeholders reserved.
@@ -140,80 +136,6 @@ func (f *filter) add(cond string, vals ...any) {
 		cond = strings.Replace(cond, "?", "$"+strconv.Itoa(len(f.args)), 1)
 	}
 	f.conds = append(f.conds, cond)
-}
-
-// addIndexed appends a condition served by an index of the record table
-// that keeps few records (see filter.indexed).
-func (f *filter) addIndexed(cond string, vals ...any) {
-	f.add(cond, vals...)
-	f.indexed = true
-}
-
-// listCurrent returns the current revisions matching f in log order after
-// the cursor. Only logged revisions are listed (the sequencer gives a
-// revision its log index shortly after it commits), and log indexes are
-// handed out in commit order, so a client following the cursor sees every
-// revision exactly once, even while others write; a correction appears again
-// at the end as the record's new current revision.
-func listCurrent[T any](ctx context.Context, s *Store, t table, site string, f filter, cursor string, limit int) (Page[T], error) {
-	if limit <= 0 || limit > MaxPageSize {
-		limit = MaxPageSize
-	}
-	from, err := logCursor(t.name, cursor)
-	if err != nil {
-		return Page[T]{}, fmt.Errorf("db: list %s: %w", t.entity, err)
-	}
-	if len(f.args) < 2 {
-		f = newFilter()
-	}
-	f.args[0], f.args[1] = site, from
-	// "cur" is a logged revision with no later logged one.
-	f.add("NOT EXISTS (SELECT 1 FROM log_leaves later WHERE later.site = lg.site AND later.record_id = lg.record_id" +
-		" AND later.kind = lg.kind AND later.revision > lg.revision)")
-	sql := logWalk(t.entity, t.name, t.columns(), f, "cur.revision = lg.revision", limit)
-	var items []T
-	var last int64
-	err = s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
-		items, last, err = collectIndexed[T](rows)
-		return err
-	})
-	if err != nil {
-		return Page[T]{}, fmt.Errorf("db: list %s: %w", t.entity, mapError(err))
-	}
-	return Page[T]{Items: items, Next: nextLogCursor(t.name, from, last, len(items))}, attachSignOffs(ctx, s.pool, site, items)
-}
-
-// logWalk is the statement of a page of the records of one leaf kind
-// (stored in table, columns named), in log order from the cursor ($2), with
-// f's conditions on the record ("cur"; the leaf is "lg"); match pairs a leaf
-// with its row besides the id. The kind and the page size are written into
-// the statement (pageLimit). The last column is the leaf's index.
-func logWalk(kind, table, columns string, f filter, match string, limit int) string {
-	cols := prefixed("cur.", columns)
-	where := "true"
-	if len(f.conds) > 0 {
-		where = strings.Join(f.conds, " AND ")
-	}
-	if f.indexed {
-		// A condition with an index that keeps few records: the planner
-		// may start from that index and sort the few it finds by log index.
-		return "SELECT " + cols + ", lg.leaf_index FROM log_leaves lg" +
-			" JOIN " + table + " cur ON cur.site = lg.site AND cur.id = lg.record_id AND " + match +
-			" WHERE lg.site = $1 AND lg.kind = '" + kind + "' AND lg.leaf_index >= $2" +
-			" AND " + where + " ORDER BY lg.leaf_index" + pageLimit(limit)
-	}
-	// Conditions that keep most records (none, void mark, process, status,
-	// outcome, kind of record signed, signer): walk the kind's leaves in
-	// log order and look each record up, until a page is full. The lookup
-	// is a subquery the planner cannot flatten (OFFSET 0), so it cannot
-	// trade the walk for hashing every record of the kind, which a prepared
-	// statement's generic plan did (a first page of PQRs by process measured
-	// 88 ms at 10,000 PQRs, of sign-offs 141 ms at 15,000).
-	return "SELECT " + cols + ", lg.leaf_index FROM log_leaves lg" +
-		" CROSS JOIN LATERAL (SELECT " + columns + " FROM " + table + " cur" +
-		" WHERE cur.site = lg.site AND cur.id = lg.record_id AND " + match + " AND " + where + " OFFSET 0) cur" +
-		" WHERE lg.site = $1 AND lg.kind = '" + kind + "' AND lg.leaf_index >= $2" +
-		" ORDER BY lg.leaf_index" + pageLimit(limit)
 }
 
 // pageLimit is a list statement's LIMIT, the page size written in: bound as

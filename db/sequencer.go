@@ -325,6 +325,8 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, opt 
 	queueSectionList(wb, site, listed.sections)
 	queueProductionList(wb, site, pend, &out, size)
 	queueSignOffList(wb, site, &out, size)
+	queueQualificationList(wb, site, &out)
+	queueProcedureList(wb, site, &out)
 	if len(out.ids) > 0 {
 		root, err := rng.GetRootHash(nil)
 		if err != nil {

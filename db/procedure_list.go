@@ -1,0 +1,82 @@
+package db
+
+import (
+	"context"
+	"fmt"
+	"strings"
+
+	"github.com/jackc/pgx/v5"
+)
+
+// The procedures list pages in log order through procedure_list (migration
+// 000046): one row per logged procedure with its latest logged revision,
+// that revision's log index and the columns the list filters on (process,
+// status, void mark), each filter with an index (site, <column>,
+// leaf_index). The sequencer rewrites a procedure's row in the transaction
+// that gives one of its leaves its index (queueProcedureList), so the table
+// agrees with the log a reader sees and a client following the cursor sees
+// every procedure revision exactly once, as with the PQRs list.
+
+// procedureListColumns are procedure_list's columns, named.
+const procedureListColumns = "site, id, revision, leaf_index, voided, process, status"
+
+// procedureListRefresh writes the procedure_list rows of the procedures $2
+// at site $1 (an id may repeat), each read by its key (keyRefresh).
+var procedureListRefresh = keyRefresh("procedure_list", procedureListColumns)
+
+// queueProcedureList adds to the sequencer's batch of writes the rewrite of
+// the procedure_list rows of the procedures among the pass's leaves (out);
+// none, no statement.
+func queueProcedureList(b *pgx.Batch, site string, out *leafRows) {
+	queueKeyRewrite(b, site, out, procedures.entity, "procedure_list", procedureListRefresh)
+}
+
+// Procedures lists current procedures after the cursor in log order: the
+// page's keys walked in log order through the filter's index of
+// procedure_list (the page size written into the statement), then each
+// revision read by its key.
+func (s *Store) Procedures(ctx context.Context, site string, pf ProcedureFilter, cursor string, limit int) (Page[Procedure], error) {
+	if limit <= 0 || limit > MaxPageSize {
+		limit = MaxPageSize
+	}
+	from, err := logCursor(procedures.name, cursor)
+	if err != nil {
+		return Page[Procedure]{}, fmt.Errorf("db: list procedure: %w", err)
+	}
+	f := newFilter()
+	f.args[0], f.args[1] = site, from
+	if !pf.IncludeVoided {
+		f.add("NOT k.voided")
+	}
+	if pf.Process != "" {
+		f.add("k.process = ?", pf.Process)
+	}
+	if pf.Status != "" {
+		f.add("k.status = ?", pf.Status)
+	}
+	sql := `SELECT ` + prefixed("p.", procedures.columns()) + `, k.leaf_index
+		FROM (SELECT k.id, k.revision, k.leaf_index FROM procedure_list k
+			WHERE k.site = $1 AND k.leaf_index >= $2` + strings.Join(append([]string{""}, f.conds...), " AND ") + `
+			ORDER BY k.leaf_index` + pageLimit(limit) + `) k
+		JOIN procedures p ON p.site = $1 AND p.id = k.id AND p.revision = k.revision
+		ORDER BY k.leaf_index`
+	var items []Procedure
+	var last int64
+	err = s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
+		items, last, err = collectIndexed[Procedure](rows)
+		return err
+	})
+	if err != nil {
+		return Page[Procedure]{}, fmt.Errorf("db: list procedure: %w", mapError(err))
+	}
+	return Page[Procedure]{Items: items, Next: nextLogCursor(procedures.name, from, last, len(items))},
+		attachSignOffs(ctx, s.pool, site, items)
+}
+
+// RecheckProcedureList compares the site's procedure_list with
+// procedure_list_derived (the same rows computed from the procedures and
+// the log) and returns each difference; none means the list key is derived
+// exactly.
+func (s *Store) RecheckProcedureList(ctx context.Context, site string) ([]string, error) {
+	return s.recheckDerived(ctx, site, "procedure_list", "procedure_list_derived", procedureListColumns, "procedure")
+}

@@ -1,0 +1,151 @@
+package db
+
+import (
+	"context"
+	"fmt"
+	"slices"
+	"strings"
+
+	"github.com/google/uuid"
+	"github.com/jackc/pgx/v5"
+)
+
+// The PQRs list pages in log order through qualification_list (migration
+// 000045): one row per logged PQR with its latest logged revision, that
+// revision's log index and the columns the list filters on (process,
+// welder, outcome, welding day and month, void mark), each filter with an
+// index (site, <column>, leaf_index). The sequencer rewrites a PQR's row in
+// the transaction that gives one of its leaves its index
+// (queueQualificationList), so the table agrees with the log a reader sees
+// and a client following the cursor sees every PQR revision exactly once,
+// as with the sections list.
+
+// qualificationListColumns are qualification_list's columns, named.
+const qualificationListColumns = "site, id, revision, leaf_index, voided, process, welder_id, outcome, welded_on, welded_month"
+
+// qualificationListRefresh writes the qualification_list rows of the PQRs
+// $2 at site $1 (an id may repeat): each PQR read from
+// qualification_list_derived by its key, one seek per id, whatever the
+// statistics say of the site (keyRefresh).
+var qualificationListRefresh = keyRefresh("qualification_list", qualificationListColumns)
+
+// queueQualificationList adds to the sequencer's batch of writes the
+// rewrite of the qualification_list rows of the PQRs among the pass's
+// leaves (out); none, no statement.
+func queueQualificationList(b *pgx.Batch, site string, out *leafRows) {
+	queueKeyRewrite(b, site, out, qualificationRecords.entity, "qualification_list", qualificationListRefresh)
+}
+
+// queueKeyRewrite adds to the sequencer's batch of writes the rewrite of
+// the rows of a list key table (one row per record, its latest logged
+// revision) for the records of kind entity among the pass's leaves (out):
+// their rows deleted, each found by its key, then written by refresh ($1
+// site, $2 ids); none, no statement.
+func queueKeyRewrite(b *pgx.Batch, site string, out *leafRows, entity, table, refresh string) {
+	var ids []uuid.UUID
+	for i, k := range out.kinds {
+		if k == entity {
+			ids = append(ids, out.ids[i])
+		}
+	}
+	if len(ids) == 0 {
+		return
+	}
+	b.Queue(keyDelete(table), site, ids)
+	b.Queue(refresh, site, ids)
+}
+
+// keyRefresh is the statement that writes the rows of list key table
+// (columns named) for the records $2 at site $1 from the view
+// <table>_derived: each record read by its key through a lateral subquery
+// the planner cannot flatten, so statistics taken while the site was small
+// cannot turn it into a read of every record of the site (as with
+// sectionListRefresh).
+func keyRefresh(table, columns string) string {
+	return `INSERT INTO ` + table + ` (` + columns + `) SELECT ` + prefixed("d.", columns) + `
+	FROM (SELECT DISTINCT id FROM unnest($2::uuid[]) u(id)) u
+	CROSS JOIN LATERAL (SELECT ` + columns + ` FROM ` + table + `_derived WHERE site = $1 AND id = u.id OFFSET 0) d`
+}
+
+// keyDelete is the statement that removes the rows of list key table for
+// the records $2 at site $1: each found by its key, then deleted by its
+// address (as sectionListDelete).
+func keyDelete(table string) string {
+	return `DELETE FROM ` + table + ` WHERE site = $1 AND ctid = ANY (ARRAY(
+	SELECT k.ctid FROM unnest($2::uuid[]) u(id)
+	CROSS JOIN LATERAL (SELECT ctid FROM ` + table + ` WHERE site = $1 AND id = u.id OFFSET 0) k))`
+}
+
+// listQualificationRecords returns one page of current PQRs matching qf in
+// log order from index from: the page's keys walked in log order through
+// the filter's index of qualification_list (the page size written into the
+// statement), then each revision read by its key. A welding-day range
+// without a welder walks each day of the range (of its partial months when
+// it spans more than maxDayWalk days) and each whole month between, up to a
+// page each, and merges the heads: at most (days + months) × limit index
+// entries, none outside the range, whatever the page depth.
+func (s *Store) listQualificationRecords(ctx context.Context, site string, qf QualificationRecordFilter, from int64, limit int) ([]QualificationRecord, int64, error) {
+	f := newFilter()
+	f.args[0], f.args[1] = site, from
+	if !qf.IncludeVoided {
+		f.add("NOT k.voided")
+	}
+	if qf.Process != "" {
+		f.add("k.process = ?", qf.Process)
+	}
+	if qf.Outcome != "" {
+		f.add("k.outcome = ?", qf.Outcome)
+	}
+	if qf.WelderID != "" {
+		f.add("k.welder_id = ?", qf.WelderID)
+	}
+	if qf.WeldedFrom != nil {
+		f.add("k.welded_on >= ?", *qf.WeldedFrom)
+	}
+	if qf.WeldedTo != nil {
+		f.add("k.welded_on < ?", *qf.WeldedTo)
+	}
+	lim := pageLimit(limit)
+	walk := func(conds []string) string {
+		return `SELECT k.id, k.revision, k.leaf_index FROM qualification_list k
+			WHERE k.site = $1 AND k.leaf_index >= $2` + strings.Join(append([]string{""}, conds...), " AND ") + `
+			ORDER BY k.leaf_index` + lim
+	}
+	keys := walk(f.conds)
+	if qf.WelderID == "" && (qf.WeldedFrom != nil || qf.WeldedTo != nil) {
+		w := splitDays(qf.WeldedFrom, qf.WeldedTo)
+		arg := func(v any) string {
+			f.args = append(f.args, v)
+			return fmt.Sprintf("$%d", len(f.args))
+		}
+		walks := []string{`SELECT b.* FROM (SELECT day FROM generate_series(` + arg(w.head[0]) + `::date, ` + arg(w.head[1]) + `::date, interval '1 day') day
+				UNION ALL SELECT day FROM generate_series(` + arg(w.tail[0]) + `::date, ` + arg(w.tail[1]) + `::date, interval '1 day') day) d
+			CROSS JOIN LATERAL (` + walk(append(slices.Clone(f.conds), "k.welded_on = d.day::date")) + `) b`}
+		if w.months {
+			walks = append(walks, `SELECT b.* FROM (SELECT min(welded_month) AS lo, max(welded_month) AS hi FROM qualification_list WHERE site = $1) span
+			CROSS JOIN generate_series(greatest(span.lo, `+arg(w.monthFrom)+`::date), least(span.hi, `+arg(w.monthTo)+`::date), interval '1 month') m(month)
+			CROSS JOIN LATERAL (`+walk(append(slices.Clone(f.conds), "k.welded_month = m.month::date"))+`) b`)
+		}
+		keys = `SELECT b.id, b.revision, b.leaf_index FROM (` + strings.Join(walks, "\n\t\tUNION ALL ") + `) b
+			ORDER BY b.leaf_index` + lim
+	}
+	sql := `SELECT ` + prefixed("q.", qualificationRecords.columns()) + `, k.leaf_index
+		FROM (` + keys + `) k
+		JOIN qualification_records q ON q.site = $1 AND q.id = k.id AND q.revision = k.revision
+		ORDER BY k.leaf_index`
+	var items []QualificationRecord
+	var last int64
+	err := s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
+		items, last, err = collectIndexed[QualificationRecord](rows)
+		return err
+	})
+	return items, last, err
+}
+
+// RecheckQualificationList compares the site's qualification_list with
+// qualification_list_derived (the same rows computed from the PQRs and the
+// log) and returns each difference; none means the list key is derived
+// exactly.
+func (s *Store) RecheckQualificationList(ctx context.Context, site string) ([]string, error) {
+	return s.recheckDerived(ctx, site, "qualification_list", "qualification_list_derived", qualificationListColumns, "PQR")
+}
