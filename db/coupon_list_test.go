@@ -126,7 +126,7 @@ func TestCouponListIsDerived(t *testing.T) {
 			func(c *listedCoupon) bool { return !c.day.Before(from.Time) && c.welder == "W-1" }},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			var want, got []string
+			var want []string
 			for _, c := range all {
 				keep := tc.keep == nil
 				if !keep {
@@ -139,20 +139,9 @@ func TestCouponListIsDerived(t *testing.T) {
 					want = append(want, c.mark)
 				}
 			}
-			cursor := ""
-			for range 20 {
-				pg, err := s.Coupons(ctx, site, tc.f, cursor, 2)
-				if err != nil {
-					t.Fatal(err)
-				}
-				for _, c := range pg.Items {
-					got = append(got, c.CouponMark)
-				}
-				if len(pg.Items) == 0 {
-					break
-				}
-				cursor = pg.Next
-			}
+			got := followPages(t, 20, func(cursor string) (db.Page[db.Coupon], error) {
+				return s.Coupons(ctx, site, tc.f, cursor, 2)
+			}, func(c db.Coupon) string { return c.CouponMark })
 			if !slices.Equal(got, want) {
 				t.Errorf("Coupons(%s) in pages of 2 = %v, want %v (log order)", tc.name, got, want)
 			}

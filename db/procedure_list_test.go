@@ -82,27 +82,16 @@ func TestProcedureListIsDerived(t *testing.T) {
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			f := tc.f
-			var want, got []string
+			var want []string
 			for _, p := range all {
 				if (p.voided && !f.IncludeVoided) || (f.Process != "" && p.process != f.Process) || (f.Status != "" && p.status != f.Status) {
 					continue
 				}
 				want = append(want, p.code)
 			}
-			cursor := ""
-			for range 20 {
-				pg, err := s.Procedures(ctx, site, f, cursor, 2)
-				if err != nil {
-					t.Fatal(err)
-				}
-				for _, p := range pg.Items {
-					got = append(got, p.Code)
-				}
-				if len(pg.Items) == 0 {
-					break
-				}
-				cursor = pg.Next
-			}
+			got := followPages(t, 20, func(cursor string) (db.Page[db.Procedure], error) {
+				return s.Procedures(ctx, site, f, cursor, 2)
+			}, func(p db.Procedure) string { return p.Code })
 			if !slices.Equal(got, want) {
 				t.Errorf("Procedures(%s) in pages of 2 = %v, want %v (log order)", tc.name, got, want)
 			}

@@ -93,7 +93,7 @@ func TestProductionListIsDerived(t *testing.T) {
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			f := tc.f
-			var want, got []string
+			var want []string
 			for _, r := range all {
 				if (f.ProcedureID == nil || r.ProcedureID == *f.ProcedureID) && (f.WelderID == "" || r.WelderID == f.WelderID) &&
 					(f.WeldID == "" || r.WeldID == f.WeldID) && (!f.FlaggedOnly || flagged(r)) &&
@@ -104,23 +104,14 @@ func TestProductionListIsDerived(t *testing.T) {
 			if len(want) == 0 || len(want) == len(all) && tc.name != "none" {
 				t.Fatalf("the filter keeps %d of %d records written: the case checks nothing", len(want), len(all))
 			}
-			cursor := ""
-			for range 30 {
-				pg, err := s.ProductionRecords(ctx, site, f, cursor, 3)
-				if err != nil {
-					t.Fatal(err)
+			got := followPages(t, 30, func(cursor string) (db.Page[db.ProductionRecord], error) {
+				return s.ProductionRecords(ctx, site, f, cursor, 3)
+			}, func(r db.ProductionRecord) string {
+				if f.FlaggedOnly && len(r.Flags) == 0 {
+					t.Errorf("%s listed as flagged without a flag", r.WeldID)
 				}
-				for _, r := range pg.Items {
-					got = append(got, r.WeldID)
-					if f.FlaggedOnly && len(r.Flags) == 0 {
-						t.Errorf("%s listed as flagged without a flag", r.WeldID)
-					}
-				}
-				if len(pg.Items) == 0 {
-					break
-				}
-				cursor = pg.Next
-			}
+				return r.WeldID
+			})
 			if !slices.Equal(got, want) {
 				t.Errorf("ProductionRecords(%s) in pages of 3 = %v, want %v (log order)", tc.name, got, want)
 			}

@@ -107,7 +107,7 @@ func TestQualificationListIsDerived(t *testing.T) {
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			f := tc.f
-			var want, got []string
+			var want []string
 			for _, q := range all {
 				if (q.voided && !f.IncludeVoided) || (f.Process != "" && q.process != f.Process) ||
 					(f.Outcome != "" && q.outcome != f.Outcome) || (f.WelderID != "" && q.welder != f.WelderID) ||
@@ -116,20 +116,9 @@ func TestQualificationListIsDerived(t *testing.T) {
 				}
 				want = append(want, q.number)
 			}
-			cursor := ""
-			for range 20 {
-				pg, err := s.QualificationRecords(ctx, site, f, cursor, 2)
-				if err != nil {
-					t.Fatal(err)
-				}
-				for _, q := range pg.Items {
-					got = append(got, q.RecordNumber)
-				}
-				if len(pg.Items) == 0 {
-					break
-				}
-				cursor = pg.Next
-			}
+			got := followPages(t, 20, func(cursor string) (db.Page[db.QualificationRecord], error) {
+				return s.QualificationRecords(ctx, site, f, cursor, 2)
+			}, func(q db.QualificationRecord) string { return q.RecordNumber })
 			if !slices.Equal(got, want) {
 				t.Errorf("QualificationRecords(%s) in pages of 2 = %v, want %v (log order)", tc.name, got, want)
 			}

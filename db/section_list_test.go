@@ -103,7 +103,7 @@ func TestSectionListIsDerived(t *testing.T) {
 			func(m *listedSection) bool { return m.coupon == c2 && m.acceptance == "reject" }},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			var want, got []string
+			var want []string
 			for _, m := range all {
 				keep := false
 				switch {
@@ -118,20 +118,9 @@ func TestSectionListIsDerived(t *testing.T) {
 					want = append(want, m.name)
 				}
 			}
-			cursor := ""
-			for range 20 {
-				pg, err := s.Measurements(ctx, site, tc.f, cursor, 2)
-				if err != nil {
-					t.Fatal(err)
-				}
-				for _, m := range pg.Items {
-					got = append(got, m.Section)
-				}
-				if len(pg.Items) == 0 {
-					break
-				}
-				cursor = pg.Next
-			}
+			got := followPages(t, 20, func(cursor string) (db.Page[db.Measurement], error) {
+				return s.Measurements(ctx, site, tc.f, cursor, 2)
+			}, func(m db.Measurement) string { return m.Section })
 			if !slices.Equal(got, want) {
 				t.Errorf("Measurements(%s) in pages of 2 = %v, want %v (log order)", tc.name, got, want)
 			}

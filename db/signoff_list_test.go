@@ -62,7 +62,7 @@ func TestSignOffListIsDerived(t *testing.T) {
 			func(x signed) bool { return x.kind == db.SignQualificationRecord && x.by == "E1" }},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
-			var want, got []uuid.UUID
+			var want []uuid.UUID
 			for _, x := range all {
 				if tc.keep(x) {
 					want = append(want, x.id)
@@ -71,20 +71,9 @@ func TestSignOffListIsDerived(t *testing.T) {
 			if len(want) == 0 || len(want) == len(all) && tc.name != "none" {
 				t.Fatalf("the filter keeps %d of %d sign-offs: the case checks nothing", len(want), len(all))
 			}
-			cursor := ""
-			for range 10 {
-				pg, err := s.SignOffs(ctx, site, tc.f, cursor, 2)
-				if err != nil {
-					t.Fatal(err)
-				}
-				for _, x := range pg.Items {
-					got = append(got, x.ID)
-				}
-				if len(pg.Items) == 0 {
-					break
-				}
-				cursor = pg.Next
-			}
+			got := followPages(t, 10, func(cursor string) (db.Page[db.SignOff], error) {
+				return s.SignOffs(ctx, site, tc.f, cursor, 2)
+			}, func(x db.SignOff) uuid.UUID { return x.ID })
 			if !slices.Equal(got, want) {
 				t.Errorf("SignOffs(%s) in pages of 2 = %v, want %v (log order)", tc.name, got, want)
 			}
