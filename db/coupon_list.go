@@ -236,7 +236,7 @@ type listedCoupon struct {
 // walks day by day; a longer one walks its whole months by month.
 const maxDayWalk = 31
 
-// dayWalk splits a welding-day range for the coupons list's walk: the days
+// dayWalk splits a day range for a list's walk by day and month: the days
 // of the partial months at its ends (head and tail, inclusive; nil: none)
 // and, when months is set, the whole months between (first days,
 // inclusive; nil: unbounded on that side).

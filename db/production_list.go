@@ -2,8 +2,6 @@ package db
 
 import (
 	"context"
-	"fmt"
-	"slices"
 	"strings"
 	"time"
 
@@ -132,20 +130,7 @@ func (s *Store) listProduction(ctx context.Context, site string, pf ProductionRe
 	keys := walk(f.conds)
 	if !equality && (pf.RecordedFrom != nil || pf.RecordedTo != nil) {
 		w := splitDays(dayFloor(pf.RecordedFrom), dayCeil(pf.RecordedTo))
-		arg := func(v any) string {
-			f.args = append(f.args, v)
-			return fmt.Sprintf("$%d", len(f.args))
-		}
-		walks := []string{`SELECT b.* FROM (SELECT day FROM generate_series(` + arg(w.head[0]) + `::date, ` + arg(w.head[1]) + `::date, interval '1 day') day
-				UNION ALL SELECT day FROM generate_series(` + arg(w.tail[0]) + `::date, ` + arg(w.tail[1]) + `::date, interval '1 day') day) d
-			CROSS JOIN LATERAL (` + walk(append(slices.Clone(f.conds), "k.recorded_day = d.day::date")) + `) b`}
-		if w.months {
-			walks = append(walks, `SELECT b.* FROM (SELECT min(recorded_month) AS lo, max(recorded_month) AS hi FROM production_list WHERE site = $1) span
-			CROSS JOIN generate_series(greatest(span.lo, `+arg(w.monthFrom)+`::date), least(span.hi, `+arg(w.monthTo)+`::date), interval '1 month') m(month)
-			CROSS JOIN LATERAL (`+walk(append(slices.Clone(f.conds), "k.recorded_month = m.month::date"))+`) b`)
-		}
-		keys = `SELECT b.id, b.recorded_at, b.leaf_index FROM (` + strings.Join(walks, "\n\t\tUNION ALL ") + `) b
-			ORDER BY b.leaf_index` + lim
+		keys = f.rangeKeys(w, "production_list", "recorded_day", "recorded_month", "b.id, b.recorded_at, b.leaf_index", lim, walk)
 	}
 	sql := `SELECT ` + prefixed("c.", strings.Join(productionColumns, ", ")) + `, k.leaf_index
 		FROM (` + keys + `) k

@@ -2,8 +2,6 @@ package db
 
 import (
 	"context"
-	"fmt"
-	"slices"
 	"strings"
 
 	"github.com/google/uuid"
@@ -114,20 +112,7 @@ func (s *Store) listQualificationRecords(ctx context.Context, site string, qf Qu
 	keys := walk(f.conds)
 	if qf.WelderID == "" && (qf.WeldedFrom != nil || qf.WeldedTo != nil) {
 		w := splitDays(qf.WeldedFrom, qf.WeldedTo)
-		arg := func(v any) string {
-			f.args = append(f.args, v)
-			return fmt.Sprintf("$%d", len(f.args))
-		}
-		walks := []string{`SELECT b.* FROM (SELECT day FROM generate_series(` + arg(w.head[0]) + `::date, ` + arg(w.head[1]) + `::date, interval '1 day') day
-				UNION ALL SELECT day FROM generate_series(` + arg(w.tail[0]) + `::date, ` + arg(w.tail[1]) + `::date, interval '1 day') day) d
-			CROSS JOIN LATERAL (` + walk(append(slices.Clone(f.conds), "k.welded_on = d.day::date")) + `) b`}
-		if w.months {
-			walks = append(walks, `SELECT b.* FROM (SELECT min(welded_month) AS lo, max(welded_month) AS hi FROM qualification_list WHERE site = $1) span
-			CROSS JOIN generate_series(greatest(span.lo, `+arg(w.monthFrom)+`::date), least(span.hi, `+arg(w.monthTo)+`::date), interval '1 month') m(month)
-			CROSS JOIN LATERAL (`+walk(append(slices.Clone(f.conds), "k.welded_month = m.month::date"))+`) b`)
-		}
-		keys = `SELECT b.id, b.revision, b.leaf_index FROM (` + strings.Join(walks, "\n\t\tUNION ALL ") + `) b
-			ORDER BY b.leaf_index` + lim
+		keys = f.rangeKeys(w, "qualification_list", "welded_on", "welded_month", "b.id, b.revision, b.leaf_index", lim, walk)
 	}
 	sql := `SELECT ` + prefixed("q.", qualificationRecords.columns()) + `, k.leaf_index
 		FROM (` + keys + `) k
