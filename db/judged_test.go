@@ -26,15 +26,7 @@ func TestKeptInputsFollowOtherProcesses(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()
 	sB, site := dbtest.Store(t), dbtest.Site(t)
-	tr := &tripCounter{}
-	sA, err := db.OpenTraced(ctx, dbtest.AppURL(t), tr)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer sA.Close()
-	if err := sA.SetLogKey(dbtest.PrivateKey); err != nil {
-		t.Fatal(err)
-	}
+	sA, tr := countedStore(t)
 	a := actor(site)
 	p := rangesProcedure(t, sB, a)
 	n := 0
@@ -140,15 +132,7 @@ func TestKeptInputsFollowActivation(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()
 	sB, site := dbtest.Store(t), dbtest.Site(t)
-	tr := &tripCounter{}
-	sA, err := db.OpenTraced(ctx, dbtest.AppURL(t), tr)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer sA.Close()
-	if err := sA.SetLogKey(dbtest.PrivateKey); err != nil {
-		t.Fatal(err)
-	}
+	sA, tr := countedStore(t)
 	p := mustProcedure(t, sB, site)
 	storeFitCoupons(t, sA, site, p.ID, 6)
 	fresh := func(i int) bool {

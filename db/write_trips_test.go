@@ -102,18 +102,11 @@ func oneLine(sql string) string {
 func TestCouponWriteRoundTrips(t *testing.T) {
 	ctx := context.Background()
 	dbtest.Store(t)
-	tr := &tripCounter{}
-	s, err := db.OpenTraced(ctx, dbtest.AppURL(t), tr)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer s.Close()
-	if err := s.SetLogKey(dbtest.PrivateKey); err != nil {
-		t.Fatal(err)
-	}
+	s, tr := countedStore(t)
 	site := dbtest.Site(t)
 	p := mustProcedure(t, s, site)
 	var c db.Coupon
+	var err error
 	for i := range 2 { // the first create warms the statement cache
 		tr.reset()
 		if c, err = s.CreateCoupon(ctx, actor(site), couponData(p.ID, fmt.Sprint("RT-", i))); err != nil {
@@ -137,4 +130,21 @@ func TestCouponWriteRoundTrips(t *testing.T) {
 	if createStmt > 4 || tr.stmt > 14 {
 		t.Errorf("a create sent %d statements (want at most 4), a correction %d (want at most 14)", createStmt, tr.stmt)
 	}
+}
+
+// countedStore opens a Store of its own on the test database (a second
+// process's pool, as far as the database can tell), with a tripCounter
+// watching each of its statements; it closes when the test ends.
+func countedStore(t *testing.T) (*db.Store, *tripCounter) {
+	t.Helper()
+	tr := &tripCounter{}
+	s, err := db.OpenTraced(context.Background(), dbtest.AppURL(t), tr)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(s.Close)
+	if err := s.SetLogKey(dbtest.PrivateKey); err != nil {
+		t.Fatal(err)
+	}
+	return s, tr
 }
