@@ -1,7 +1,10 @@
 package db_test
 
 import (
+	"context"
 	"testing"
+
+	"github.com/google/uuid"
 
 	"etchlog/db"
 )
@@ -28,4 +31,22 @@ func followPages[T, K any](t *testing.T, maxPages int, page func(cursor string) 
 		cursor = pg.Next
 	}
 	return got
+}
+
+// checkRecheck checks that recheck finds a list key table equal to its
+// derivation at site, then deletes the row of id from the table behind the
+// service's back (as the database's superuser) and checks that recheck
+// names exactly that one difference.
+func checkRecheck(t *testing.T, recheck func(context.Context, string) ([]string, error), site, table string, id uuid.UUID) {
+	t.Helper()
+	ctx := context.Background()
+	if diffs, err := recheck(ctx, site); err != nil || len(diffs) != 0 {
+		t.Errorf("recheck of %s = %v, %v; want no difference", table, diffs, err)
+	}
+	if _, err := superuser(t).Exec(ctx, `DELETE FROM `+table+` WHERE site = $1 AND id = $2`, site, id); err != nil {
+		t.Fatal(err)
+	}
+	if diffs, err := recheck(ctx, site); err != nil || len(diffs) != 1 {
+		t.Errorf("recheck of %s after deleting a row = %v, %v; want that row named", table, diffs, err)
+	}
 }

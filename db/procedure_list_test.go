@@ -98,15 +98,7 @@ func TestProcedureListIsDerived(t *testing.T) {
 		})
 	}
 
-	if diffs, err := s.RecheckProcedureList(ctx, site); err != nil || len(diffs) != 0 {
-		t.Errorf("RecheckProcedureList = %v, %v; want no difference", diffs, err)
-	}
-	if _, err := superuser(t).Exec(ctx, `DELETE FROM procedure_list WHERE site = $1 AND id = $2`, site, all[0].id); err != nil {
-		t.Fatal(err)
-	}
-	if diffs, err := s.RecheckProcedureList(ctx, site); err != nil || len(diffs) != 1 {
-		t.Errorf("RecheckProcedureList after deleting a row = %v, %v; want that procedure named", diffs, err)
-	}
+	checkRecheck(t, s.RecheckProcedureList, site, "procedure_list", all[0].id)
 }
 
 // TestProcedurePagerSeesEveryRowOnce follows the procedures list filtered

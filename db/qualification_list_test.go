@@ -125,15 +125,7 @@ func TestQualificationListIsDerived(t *testing.T) {
 		})
 	}
 
-	if diffs, err := s.RecheckQualificationList(ctx, site); err != nil || len(diffs) != 0 {
-		t.Errorf("RecheckQualificationList = %v, %v; want no difference", diffs, err)
-	}
-	if _, err := superuser(t).Exec(ctx, `DELETE FROM qualification_list WHERE site = $1 AND id = $2`, site, all[0].id); err != nil {
-		t.Fatal(err)
-	}
-	if diffs, err := s.RecheckQualificationList(ctx, site); err != nil || len(diffs) != 1 {
-		t.Errorf("RecheckQualificationList after deleting a row = %v, %v; want that PQR named", diffs, err)
-	}
+	checkRecheck(t, s.RecheckQualificationList, site, "qualification_list", all[0].id)
 }
 
 // TestQualificationPagerSeesEveryRowOnce follows the PQRs list filtered to

@@ -127,13 +127,5 @@ func TestSectionListIsDerived(t *testing.T) {
 		})
 	}
 
-	if diffs, err := s.RecheckSectionList(ctx, site); err != nil || len(diffs) != 0 {
-		t.Errorf("RecheckSectionList = %v, %v; want no difference", diffs, err)
-	}
-	if _, err := superuser(t).Exec(ctx, `DELETE FROM section_list WHERE site = $1 AND id = $2`, site, all[0].id); err != nil {
-		t.Fatal(err)
-	}
-	if diffs, err := s.RecheckSectionList(ctx, site); err != nil || len(diffs) != 1 {
-		t.Errorf("RecheckSectionList after deleting a row = %v, %v; want that section named", diffs, err)
-	}
+	checkRecheck(t, s.RecheckSectionList, site, "section_list", all[0].id)
 }
