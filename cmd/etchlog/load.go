@@ -32,6 +32,7 @@ func cmdLoad(ctx context.Context, args []string, getenv func(string) string, std
 	mixed := fs.Bool("mixed", false, "run the mixed scenario instead: every part at once for -duration")
 	duration := fs.Duration("duration", 30*time.Second, "mixed: how long each phase (etchlog, then raw) runs (at most 10m)")
 	auditorToken := fs.String("auditor-token", "demo-auditor-token-00", "mixed: the auditors' token")
+	monitorToken := fs.String("monitor-token", "demo-engineer-token-0", "mixed: the weld monitors' token (a technician or engineer other than -token's: the server admits each user's requests up to its -per-user limit, 8 by default)")
 	dbURL := fs.String("database-url", getenv("DATABASE_URL"), "mixed: the server's database, for the raw baseline; a login that may create a schema (env DATABASE_URL; empty: no baseline)")
 	var mc mixCounts
 	fs.IntVar(&mc.writers, "writers", 8, "mixed: technicians writing coupons")
@@ -62,7 +63,8 @@ func cmdLoad(ctx context.Context, args []string, getenv func(string) string, std
 			return fmt.Errorf("load: want 0 < duration <= 10m and 1 to 256 workers in all")
 		}
 		auditor := &client{base: *target, token: *auditorToken, http: &http.Client{Timeout: *duration + time.Minute}}
-		return loadMixed(ctx, cl, auditor, procID, *dbURL, *duration, mc, stdout)
+		monitor := &client{base: *target, token: *monitorToken, http: cl.http}
+		return loadMixed(ctx, mixClients{tech: cl, auditor: auditor, monitor: monitor}, procID, *dbURL, *duration, mc, stdout)
 	}
 	stamp := time.Now().UnixNano()
 	scenarios := []struct {

@@ -21,10 +21,15 @@ type mixCounts struct{ writers, pagers, exporters, producers int }
 // productionBatch is how many production records one monitor sends at once.
 const productionBatch = 500
 
-// mixParts builds the parts of a mixed run: the API side through cl (writes
-// and production records) and auditor (pages and exports), the raw side in
-// schema (tables shaped like etchlog's, made by rawSchema).
-func mixParts(cl, auditor *client, site, procID, schema string, m mixCounts) []mixedPart {
+// mixClients are a mixed run's users of the API, each with a token of its
+// own, since the server admits each user's requests only up to its
+// per-user limit: technicians write coupons, auditors page and export, weld
+// monitors send production records.
+type mixClients struct{ tech, auditor, monitor *client }
+
+// mixParts builds the parts of a mixed run: the API side through cls, the
+// raw side in schema (tables shaped like etchlog's, made by rawSchema).
+func mixParts(cls mixClients, site, procID, schema string, m mixCounts) []mixedPart {
 	stamp := time.Now().UnixNano()
 	cursors := make([]string, m.pagers)
 	keys := make([]uuid.UUID, m.pagers)
@@ -32,7 +37,7 @@ func mixParts(cl, auditor *client, site, procID, schema string, m mixCounts) []m
 	return []mixedPart{
 		{name: "technicians: POST /v1/coupons", unit: "coupons", workers: m.writers,
 			api: func(ctx context.Context, w, i int) (int, error) {
-				return 1, cl.do(ctx, "POST", "/v1/coupons", loadCoupon(procID, fmt.Sprintf("LOAD-%d-%d-%d", stamp, w, i)), 201)
+				return 1, cls.tech.do(ctx, "POST", "/v1/coupons", loadCoupon(procID, fmt.Sprintf("LOAD-%d-%d-%d", stamp, w, i)), 201)
 			},
 			raw: func(ctx context.Context, conn *pgx.Conn, w, i int) (int, error) {
 				_, err := conn.Exec(ctx, `INSERT INTO `+schema+`.coupons (site, id, revision, created_at, created_by,
@@ -52,7 +57,7 @@ func mixParts(cl, auditor *client, site, procID, schema string, m mixCounts) []m
 					Items      []json.RawMessage `json:"items"`
 					NextCursor string            `json:"next_cursor"`
 				}
-				if err := auditor.getJSON(ctx, path, &page); err != nil {
+				if err := cls.auditor.getJSON(ctx, path, &page); err != nil {
 					return 0, err
 				}
 				cursors[w] = page.NextCursor
@@ -77,7 +82,7 @@ func mixParts(cl, auditor *client, site, procID, schema string, m mixCounts) []m
 			}},
 		{name: "auditors: GET /v1/export", unit: "lines", workers: m.exporters,
 			api: func(ctx context.Context, _, _ int) (int, error) {
-				return auditor.countLines(ctx, "/v1/export")
+				return cls.auditor.countLines(ctx, "/v1/export")
 			},
 			raw: func(ctx context.Context, conn *pgx.Conn, _, _ int) (int, error) {
 				n := 0
@@ -99,7 +104,7 @@ func mixParts(cl, auditor *client, site, procID, schema string, m mixCounts) []m
 				for k := range recs {
 					recs[k] = loadProduction(procID, fmt.Sprintf("LOAD-%d-%d-%d-%d", stamp, w, i, k))
 				}
-				return productionBatch, cl.do(ctx, "POST", "/v1/production-records", map[string]any{"records": recs}, 201)
+				return productionBatch, cls.monitor.do(ctx, "POST", "/v1/production-records", map[string]any{"records": recs}, 201)
 			},
 			raw: func(ctx context.Context, conn *pgx.Conn, w, i int) (int, error) {
 				now := time.Now()

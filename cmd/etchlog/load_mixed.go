@@ -112,11 +112,11 @@ func printMixed(w io.Writer, parts []mixedPart, api, raw []partResult) {
 
 // loadMixed runs the mixed scenario: the API phase, then (with dbURL) the raw
 // phase on connections of its own, and prints both.
-func loadMixed(ctx context.Context, cl, auditor *client, procID, dbURL string, d time.Duration, m mixCounts, stdout io.Writer) error {
+func loadMixed(ctx context.Context, cls mixClients, procID, dbURL string, d time.Duration, m mixCounts, stdout io.Writer) error {
 	var proc struct {
 		Site string `json:"site"`
 	}
-	if err := cl.getJSON(ctx, "/v1/procedures/"+procID, &proc); err != nil {
+	if err := cls.tech.getJSON(ctx, "/v1/procedures/"+procID, &proc); err != nil {
 		return fmt.Errorf("load: %w", err)
 	}
 	schema := ""
@@ -141,7 +141,7 @@ func loadMixed(ctx context.Context, cl, auditor *client, procID, dbURL string, d
 			conns = append(conns, c)
 		}
 	}
-	parts := mixParts(cl, auditor, proc.Site, procID, schema, m)
+	parts := mixParts(cls, proc.Site, procID, schema, m)
 	kept := parts[:0]
 	for _, p := range parts {
 		if p.workers > 0 {
