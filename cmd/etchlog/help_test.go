@@ -28,7 +28,7 @@ func TestHelp(t *testing.T) {
 		{[]string{"migrate", "-h"}, "usage: etchlog migrate [up|down] [flags]", []string{"database-url", "destroy", "owner-database-url"}},
 		{[]string{"user", "-h"}, "usage: etchlog user add", nil},
 		{[]string{"user", "add", "-h"}, "usage: etchlog user add", []string{"database-url", "name", "owner-database-url", "role", "site"}},
-		{[]string{"load", "-h"}, "usage: etchlog load [flags]", []string{"auditor-token", "c", "database-url", "duration", "exporters", "max-time", "mixed", "n", "pagers", "producers", "token", "url", "writers"}},
+		{[]string{"load", "-h"}, "usage: etchlog load [flags]", []string{"auditor-token", "c", "database-url", "duration", "exporters", "max-time", "mixed", "monitor-token", "n", "pagers", "producers", "token", "url", "writers"}},
 		{[]string{"keygen", "-h"}, "usage: etchlog keygen [flags]", []string{"name", "out"}},
 		{[]string{"import", "-h"}, "usage: etchlog import coupons [flags] FILE.csv", nil},
 		{[]string{"import", "coupons", "-h"}, "usage: etchlog import coupons [flags] FILE.csv", []string{"commit", "part-size", "token", "url"}},

@@ -32,7 +32,7 @@ func cmdLoad(ctx context.Context, args []string, getenv func(string) string, std
 	mixed := fs.Bool("mixed", false, "run the mixed scenario instead: every part at once for -duration")
 	duration := fs.Duration("duration", 30*time.Second, "mixed: how long each phase (etchlog, then raw) runs (at most 10m)")
 	auditorToken := fs.String("auditor-token", "demo-auditor-token-00", "mixed: the auditors' token")
-	monitorToken := fs.String("monitor-token", "demo-engineer-token-0", "mixed: the weld monitors' token (a technician or engineer other than -token's: the server admits each user's requests up to its -per-user limit, 8 by default)")
+	monitorToken := fs.String("monitor-token", "demo-engineer-token-0", "mixed: the weld monitors' token (another user than -token's: the server admits up to -per-user requests a user at once, 8 by default)")
 	dbURL := fs.String("database-url", getenv("DATABASE_URL"), "mixed: the server's database, for the raw baseline; a login that may create a schema (env DATABASE_URL; empty: no baseline)")
 	var mc mixCounts
 	fs.IntVar(&mc.writers, "writers", 8, "mixed: technicians writing coupons")
