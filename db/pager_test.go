@@ -32,14 +32,9 @@ func TestPagerSeesEveryRowOnce(t *testing.T) {
 	followEveryRowOnce(t, s, site, "coupon", func(w, i int) (uuid.UUID, bool, error) {
 		c, err := s.CreateCoupon(ctx, actor(site), couponData(p.ID, fmt.Sprintf("C-PGR-%02d-%03d", w, i)))
 		return c.ID, true, err
-	}, func(cursor string) ([]uuid.UUID, string, error) {
-		pg, err := s.Coupons(ctx, site, db.CouponFilter{IncludeVoided: true}, cursor, 50)
-		ids := make([]uuid.UUID, len(pg.Items))
-		for i, c := range pg.Items {
-			ids[i] = c.ID
-		}
-		return ids, pg.Next, err
-	})
+	}, func(cursor string) (db.Page[db.Coupon], error) {
+		return s.Coupons(ctx, site, db.CouponFilter{IncludeVoided: true}, cursor, 50)
+	}, func(c db.Coupon) uuid.UUID { return c.ID })
 }
 
 // TestSectionPagerSeesEveryRowOnce follows the sections list filtered to
@@ -70,14 +65,9 @@ func TestSectionPagerSeesEveryRowOnce(t *testing.T) {
 		}
 		m, err := s.CreateMeasurement(ctx, actor(site), measurementData(couponOf[w], fmt.Sprintf("S%03d", i), acceptance))
 		return m.ID, acceptance == "reject", err
-	}, func(cursor string) ([]uuid.UUID, string, error) {
-		pg, err := s.Measurements(ctx, site, db.MeasurementFilter{Acceptance: "reject"}, cursor, 50)
-		ids := make([]uuid.UUID, len(pg.Items))
-		for i, m := range pg.Items {
-			ids[i] = m.ID
-		}
-		return ids, pg.Next, err
-	})
+	}, func(cursor string) (db.Page[db.Measurement], error) {
+		return s.Measurements(ctx, site, db.MeasurementFilter{Acceptance: "reject"}, cursor, 50)
+	}, func(m db.Measurement) uuid.UUID { return m.ID })
 }
 
 // TestProductionPagerSeesEveryRowOnce follows the production records list
@@ -104,14 +94,9 @@ func TestProductionPagerSeesEveryRowOnce(t *testing.T) {
 			return uuid.Nil, false, err
 		}
 		return recs[0].ID, r.WelderID == "W-11", nil
-	}, func(cursor string) ([]uuid.UUID, string, error) {
-		pg, err := s.ProductionRecords(ctx, site, db.ProductionRecordFilter{WelderID: "W-11"}, cursor, 50)
-		ids := make([]uuid.UUID, len(pg.Items))
-		for i, r := range pg.Items {
-			ids[i] = r.ID
-		}
-		return ids, pg.Next, err
-	})
+	}, func(cursor string) (db.Page[db.ProductionRecord], error) {
+		return s.ProductionRecords(ctx, site, db.ProductionRecordFilter{WelderID: "W-11"}, cursor, 50)
+	}, func(r db.ProductionRecord) uuid.UUID { return r.ID })
 }
 
 // pagerWriters write pagerEach records each in the pager tests.
@@ -120,11 +105,11 @@ const pagerWriters, pagerEach = 16, 150
 // followEveryRowOnce runs pagerWriters writers calling write(w, i) for i <
 // pagerEach (it returns the record's id and whether the followed list shows
 // it) while one follower pages the list with page from the start, and fails
-// unless the follower saw every listed record exactly once and nothing
+// unless the follower saw every listed record (by id) exactly once and nothing
 // else, with a cursor on every page. It logs the sequencer's commit-to-index
 // lag for kind and the write-to-list visibility.
-func followEveryRowOnce(t *testing.T, s *db.Store, site, kind string, write func(w, i int) (uuid.UUID, bool, error),
-	page func(cursor string) ([]uuid.UUID, string, error)) {
+func followEveryRowOnce[T any](t *testing.T, s *db.Store, site, kind string, write func(w, i int) (uuid.UUID, bool, error),
+	page func(cursor string) (db.Page[T], error), id func(T) uuid.UUID) {
 	t.Helper()
 	ctx := context.Background()
 	var mu sync.Mutex
@@ -167,9 +152,13 @@ func followEveryRowOnce(t *testing.T, s *db.Store, site, kind string, write func
 			default:
 			}
 		}
-		ids, next, err := page(cursor)
+		pg, err := page(cursor)
 		if err != nil {
 			t.Fatal(err)
+		}
+		ids, next := make([]uuid.UUID, len(pg.Items)), pg.Next
+		for i, it := range pg.Items {
+			ids[i] = id(it)
 		}
 		if next == "" {
 			t.Fatalf("page %d has no cursor", pages)

@@ -120,12 +120,7 @@ func TestProcedurePagerSeesEveryRowOnce(t *testing.T) {
 		}
 		r, err := s.CreateProcedure(ctx, actor(site), p.data())
 		return r.ID, p.process == "FCAW", err
-	}, func(cursor string) ([]uuid.UUID, string, error) {
-		pg, err := s.Procedures(ctx, site, db.ProcedureFilter{Process: "FCAW"}, cursor, 50)
-		ids := make([]uuid.UUID, len(pg.Items))
-		for i, p := range pg.Items {
-			ids[i] = p.ID
-		}
-		return ids, pg.Next, err
-	})
+	}, func(cursor string) (db.Page[db.Procedure], error) {
+		return s.Procedures(ctx, site, db.ProcedureFilter{Process: "FCAW"}, cursor, 50)
+	}, func(p db.Procedure) uuid.UUID { return p.ID })
 }

@@ -148,12 +148,7 @@ func TestQualificationPagerSeesEveryRowOnce(t *testing.T) {
 		}
 		r, err := s.CreateQualificationRecord(ctx, actor(site), pqrListData(q))
 		return r.ID, q.outcome == "fail", err
-	}, func(cursor string) ([]uuid.UUID, string, error) {
-		pg, err := s.QualificationRecords(ctx, site, db.QualificationRecordFilter{Outcome: "fail"}, cursor, 50)
-		ids := make([]uuid.UUID, len(pg.Items))
-		for i, q := range pg.Items {
-			ids[i] = q.ID
-		}
-		return ids, pg.Next, err
-	})
+	}, func(cursor string) (db.Page[db.QualificationRecord], error) {
+		return s.QualificationRecords(ctx, site, db.QualificationRecordFilter{Outcome: "fail"}, cursor, 50)
+	}, func(q db.QualificationRecord) uuid.UUID { return q.ID })
 }
