@@ -180,13 +180,7 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 				ORDER BY leaf_index LIMIT ` + lim + `) b
 			JOIN coupon_list c ON c.site = $1 AND c.id = b.id`
 	} else {
-		where := ""
-		if len(f.conds) > 0 {
-			where = " AND " + strings.Join(f.conds, " AND ")
-		}
-		keys = `SELECT ` + prefixed("k.", couponListColumns) + ` FROM coupon_list k
-			WHERE k.site = $1 AND k.leaf_index >= $2` + where + `
-			ORDER BY k.leaf_index LIMIT ` + lim
+		keys = keyWalk("coupon_list", prefixed("k.", couponListColumns), f.conds, pageLimit(limit))
 	}
 	// One statement reads the page, from coupon_list alone, with what each
 	// coupon inherits from its procedure (latest revision), else its

@@ -2,8 +2,6 @@ package db
 
 import (
 	"context"
-	"fmt"
-	"strings"
 
 	"github.com/jackc/pgx/v5"
 )
@@ -36,41 +34,28 @@ func queueProcedureList(b *pgx.Batch, site string, out *leafRows) {
 // procedure_list (the page size written into the statement), then each
 // revision read by its key.
 func (s *Store) Procedures(ctx context.Context, site string, pf ProcedureFilter, cursor string, limit int) (Page[Procedure], error) {
-	if limit <= 0 || limit > MaxPageSize {
-		limit = MaxPageSize
-	}
-	from, err := logCursor(procedures.name, cursor)
-	if err != nil {
-		return Page[Procedure]{}, fmt.Errorf("db: list procedure: %w", err)
-	}
-	f := newFilter()
-	f.args[0], f.args[1] = site, from
-	if !pf.IncludeVoided {
-		f.add("NOT k.voided")
-	}
-	if pf.Process != "" {
-		f.add("k.process = ?", pf.Process)
-	}
-	if pf.Status != "" {
-		f.add("k.status = ?", pf.Status)
-	}
-	sql := `SELECT ` + prefixed("p.", procedures.columns()) + `, k.leaf_index
-		FROM (SELECT k.id, k.revision, k.leaf_index FROM procedure_list k
-			WHERE k.site = $1 AND k.leaf_index >= $2` + strings.Join(append([]string{""}, f.conds...), " AND ") + `
-			ORDER BY k.leaf_index` + pageLimit(limit) + `) k
+	pg, err := logPage(procedures.name, procedures.entity, cursor, limit, func(from int64, limit int) ([]Procedure, int64, error) {
+		f := newFilter()
+		f.args[0], f.args[1] = site, from
+		if !pf.IncludeVoided {
+			f.add("NOT k.voided")
+		}
+		if pf.Process != "" {
+			f.add("k.process = ?", pf.Process)
+		}
+		if pf.Status != "" {
+			f.add("k.status = ?", pf.Status)
+		}
+		sql := `SELECT ` + prefixed("p.", procedures.columns()) + `, k.leaf_index
+		FROM (` + keyWalk("procedure_list", "k.id, k.revision, k.leaf_index", f.conds, pageLimit(limit)) + `) k
 		JOIN procedures p ON p.site = $1 AND p.id = k.id AND p.revision = k.revision
 		ORDER BY k.leaf_index`
-	var items []Procedure
-	var last int64
-	err = s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
-		items, last, err = collectIndexed[Procedure](rows)
-		return err
+		return readIndexed[Procedure](ctx, s, site, sql, f.args)
 	})
 	if err != nil {
-		return Page[Procedure]{}, fmt.Errorf("db: list procedure: %w", mapError(err))
+		return pg, err
 	}
-	return Page[Procedure]{Items: items, Next: nextLogCursor(procedures.name, from, last, len(items))},
-		attachSignOffs(ctx, s.pool, site, items)
+	return pg, attachSignOffs(ctx, s.pool, site, pg.Items)
 }
 
 // RecheckProcedureList compares the site's procedure_list with

@@ -66,8 +66,7 @@ var ProductionListRefresh = `WITH w AS (DELETE FROM production_list_pending WHER
 // the production_list rows of the production entries among pend, whose
 // leaves (out, from index size on) the pass writes; none, no statement.
 func queueProductionList(b *pgx.Batch, site string, pend []pendingLeaf, out *leafRows, size uint64) {
-	var entries, ids []uuid.UUID
-	var at []int64
+	var entries []uuid.UUID
 	for _, p := range pend {
 		if p.Kind == SubjectProductionRecord {
 			entries = append(entries, p.RecordID)
@@ -76,11 +75,7 @@ func queueProductionList(b *pgx.Batch, site string, pend []pendingLeaf, out *lea
 	if len(entries) == 0 {
 		return
 	}
-	for i, k := range out.kinds {
-		if k == SubjectProductionRecord {
-			ids, at = append(ids, out.ids[i]), append(at, int64(size)+int64(i))
-		}
-	}
+	ids, at := out.ofKind(SubjectProductionRecord, size)
 	b.Queue(ProductionListRefresh, site, entries, ids, at)
 }
 
@@ -123,9 +118,7 @@ func (s *Store) listProduction(ctx context.Context, site string, pf ProductionRe
 	}
 	lim := pageLimit(limit)
 	walk := func(conds []string) string {
-		return `SELECT k.id, k.recorded_at, k.leaf_index FROM production_list k
-			WHERE k.site = $1 AND k.leaf_index >= $2` + strings.Join(append([]string{""}, conds...), " AND ") + `
-			ORDER BY k.leaf_index` + lim
+		return keyWalk("production_list", "k.id, k.recorded_at, k.leaf_index", conds, lim)
 	}
 	keys := walk(f.conds)
 	if !equality && (pf.RecordedFrom != nil || pf.RecordedTo != nil) {
@@ -136,13 +129,7 @@ func (s *Store) listProduction(ctx context.Context, site string, pf ProductionRe
 		FROM (` + keys + `) k
 		JOIN production_list c ON c.site = $1 AND c.id = k.id
 		ORDER BY k.leaf_index`
-	var items []ProductionRecord
-	var last int64
-	err := s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
-		items, last, err = collectIndexed[ProductionRecord](rows)
-		return err
-	})
-	return items, last, err
+	return readIndexed[ProductionRecord](ctx, s, site, sql, f.args)
 }
 
 // dayFloor is the UTC day holding t (nil: unbounded).

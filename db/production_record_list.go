@@ -23,18 +23,12 @@ type ProductionRecordFilter struct {
 // cursor (so a follower sees each exactly once), each with its current flags
 // (listProduction reads the page through the list's key, production_list).
 func (s *Store) ProductionRecords(ctx context.Context, site string, pf ProductionRecordFilter, cursor string, limit int) (Page[ProductionRecord], error) {
-	if limit <= 0 || limit > MaxPageSize {
-		limit = MaxPageSize
-	}
-	from, err := logCursor("production_records", cursor)
+	p, err := logPage("production_records", "production records", cursor, limit, func(from int64, limit int) ([]ProductionRecord, int64, error) {
+		return s.listProduction(ctx, site, pf, from, limit)
+	})
 	if err != nil {
-		return Page[ProductionRecord]{}, fmt.Errorf("db: list production records: %w", err)
+		return p, err
 	}
-	items, last, err := s.listProduction(ctx, site, pf, from, limit)
-	if err != nil {
-		return Page[ProductionRecord]{}, fmt.Errorf("db: list production records: %w", mapError(err))
-	}
-	p := Page[ProductionRecord]{Items: items, Next: nextLogCursor("production_records", from, last, len(items))}
 	ids := make([]uuid.UUID, len(p.Items))
 	for i := range p.Items {
 		ids[i] = p.Items[i].ID

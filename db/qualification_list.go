@@ -2,9 +2,7 @@ package db
 
 import (
 	"context"
-	"strings"
 
-	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 )
 
@@ -32,46 +30,6 @@ var qualificationListRefresh = keyRefresh("qualification_list", qualificationLis
 // leaves (out); none, no statement.
 func queueQualificationList(b *pgx.Batch, site string, out *leafRows) {
 	queueKeyRewrite(b, site, out, qualificationRecords.entity, "qualification_list", qualificationListRefresh)
-}
-
-// queueKeyRewrite adds to the sequencer's batch of writes the rewrite of
-// the rows of a list key table (one row per record, its latest logged
-// revision) for the records of kind entity among the pass's leaves (out):
-// their rows deleted, each found by its key, then written by refresh ($1
-// site, $2 ids); none, no statement.
-func queueKeyRewrite(b *pgx.Batch, site string, out *leafRows, entity, table, refresh string) {
-	var ids []uuid.UUID
-	for i, k := range out.kinds {
-		if k == entity {
-			ids = append(ids, out.ids[i])
-		}
-	}
-	if len(ids) == 0 {
-		return
-	}
-	b.Queue(keyDelete(table), site, ids)
-	b.Queue(refresh, site, ids)
-}
-
-// keyRefresh is the statement that writes the rows of list key table
-// (columns named) for the records $2 at site $1 from the view
-// <table>_derived: each record read by its key through a lateral subquery
-// the planner cannot flatten, so statistics taken while the site was small
-// cannot turn it into a read of every record of the site (as with
-// sectionListRefresh).
-func keyRefresh(table, columns string) string {
-	return `INSERT INTO ` + table + ` (` + columns + `) SELECT ` + prefixed("d.", columns) + `
-	FROM (SELECT DISTINCT id FROM unnest($2::uuid[]) u(id)) u
-	CROSS JOIN LATERAL (SELECT ` + columns + ` FROM ` + table + `_derived WHERE site = $1 AND id = u.id OFFSET 0) d`
-}
-
-// keyDelete is the statement that removes the rows of list key table for
-// the records $2 at site $1: each found by its key, then deleted by its
-// address (as sectionListDelete).
-func keyDelete(table string) string {
-	return `DELETE FROM ` + table + ` WHERE site = $1 AND ctid = ANY (ARRAY(
-	SELECT k.ctid FROM unnest($2::uuid[]) u(id)
-	CROSS JOIN LATERAL (SELECT ctid FROM ` + table + ` WHERE site = $1 AND id = u.id OFFSET 0) k))`
 }
 
 // listQualificationRecords returns one page of current PQRs matching qf in
@@ -105,9 +63,7 @@ func (s *Store) listQualificationRecords(ctx context.Context, site string, qf Qu
 	}
 	lim := pageLimit(limit)
 	walk := func(conds []string) string {
-		return `SELECT k.id, k.revision, k.leaf_index FROM qualification_list k
-			WHERE k.site = $1 AND k.leaf_index >= $2` + strings.Join(append([]string{""}, conds...), " AND ") + `
-			ORDER BY k.leaf_index` + lim
+		return keyWalk("qualification_list", "k.id, k.revision, k.leaf_index", conds, lim)
 	}
 	keys := walk(f.conds)
 	if qf.WelderID == "" && (qf.WeldedFrom != nil || qf.WeldedTo != nil) {
@@ -118,13 +74,7 @@ func (s *Store) listQualificationRecords(ctx context.Context, site string, qf Qu
 		FROM (` + keys + `) k
 		JOIN qualification_records q ON q.site = $1 AND q.id = k.id AND q.revision = k.revision
 		ORDER BY k.leaf_index`
-	var items []QualificationRecord
-	var last int64
-	err := s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
-		items, last, err = collectIndexed[QualificationRecord](rows)
-		return err
-	})
-	return items, last, err
+	return readIndexed[QualificationRecord](ctx, s, site, sql, f.args)
 }
 
 // RecheckQualificationList compares the site's qualification_list with

@@ -2,7 +2,6 @@ package db
 
 import (
 	"context"
-	"fmt"
 
 	"github.com/google/uuid"
 )
@@ -124,17 +123,11 @@ type QualificationRecordFilter struct {
 // QualificationRecords lists current PQRs after the cursor, in log order
 // through the list's key (qualification_list.go).
 func (s *Store) QualificationRecords(ctx context.Context, site string, qf QualificationRecordFilter, cursor string, limit int) (Page[QualificationRecord], error) {
-	if limit <= 0 || limit > MaxPageSize {
-		limit = MaxPageSize
-	}
-	from, err := logCursor(qualificationRecords.name, cursor)
+	pg, err := logPage(qualificationRecords.name, qualificationRecords.entity, cursor, limit, func(from int64, limit int) ([]QualificationRecord, int64, error) {
+		return s.listQualificationRecords(ctx, site, qf, from, limit)
+	})
 	if err != nil {
-		return Page[QualificationRecord]{}, fmt.Errorf("db: list qualification_record: %w", err)
+		return pg, err
 	}
-	items, last, err := s.listQualificationRecords(ctx, site, qf, from, limit)
-	if err != nil {
-		return Page[QualificationRecord]{}, fmt.Errorf("db: list qualification_record: %w", mapError(err))
-	}
-	return Page[QualificationRecord]{Items: items, Next: nextLogCursor(qualificationRecords.name, from, last, len(items))},
-		attachSignOffs(ctx, s.pool, site, items)
+	return pg, attachSignOffs(ctx, s.pool, site, pg.Items)
 }

@@ -4,7 +4,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"slices"
 	"strconv"
 	"strings"
 
@@ -162,27 +161,4 @@ func (s *Store) readPage(ctx context.Context, site, sql string, args []any, read
 		err = read(rows)
 	}
 	return err
-}
-
-// rangeKeys is the keys of a page of a time range walked without an
-// equality filter: walk (one page of keys of table in log order under the
-// given conditions) for each day of the range's partial months through
-// dayCol and for each whole month between through monthCol, the heads
-// merged in log order. The range's bounds join f's arguments; keyCols are
-// the columns each walk returns, as b.<column>.
-func (f *filter) rangeKeys(w dayWalk, table, dayCol, monthCol, keyCols, lim string, walk func(conds []string) string) string {
-	arg := func(v any) string {
-		f.args = append(f.args, v)
-		return "$" + strconv.Itoa(len(f.args))
-	}
-	walks := []string{`SELECT b.* FROM (SELECT day FROM generate_series(` + arg(w.head[0]) + `::date, ` + arg(w.head[1]) + `::date, interval '1 day') day
-			UNION ALL SELECT day FROM generate_series(` + arg(w.tail[0]) + `::date, ` + arg(w.tail[1]) + `::date, interval '1 day') day) d
-		CROSS JOIN LATERAL (` + walk(append(slices.Clone(f.conds), "k."+dayCol+" = d.day::date")) + `) b`}
-	if w.months {
-		walks = append(walks, `SELECT b.* FROM (SELECT min(`+monthCol+`) AS lo, max(`+monthCol+`) AS hi FROM `+table+` WHERE site = $1) span
-		CROSS JOIN generate_series(greatest(span.lo, `+arg(w.monthFrom)+`::date), least(span.hi, `+arg(w.monthTo)+`::date), interval '1 month') m(month)
-		CROSS JOIN LATERAL (`+walk(append(slices.Clone(f.conds), "k."+monthCol+" = m.month::date"))+`) b`)
-	}
-	return `SELECT ` + keyCols + ` FROM (` + strings.Join(walks, "\n\t\tUNION ALL ") + `) b
-		ORDER BY b.leaf_index` + lim
 }

@@ -3,7 +3,6 @@ package db
 import (
 	"context"
 	"fmt"
-	"strings"
 
 	"github.com/jackc/pgx/v5"
 )
@@ -52,44 +51,24 @@ func queueSectionList(b *pgx.Batch, site string, ids [][16]byte) {
 // index of section_list (written into the statement with the page size, so
 // the generic plan knows a page is small), then each row read by key.
 func (s *Store) listSections(ctx context.Context, site string, mf MeasurementFilter, cursor string, limit int) (Page[Measurement], error) {
-	if limit <= 0 || limit > MaxPageSize {
-		limit = MaxPageSize
-	}
-	from, err := logCursor(measurements.name, cursor)
-	if err != nil {
-		return Page[Measurement]{}, fmt.Errorf("db: list measurement: %w", err)
-	}
-	f := newFilter()
-	f.args[0], f.args[1] = site, from
-	if !mf.IncludeVoided {
-		f.add("NOT k.voided")
-	}
-	if mf.CouponID != nil {
-		f.add("k.coupon_id = ?", *mf.CouponID)
-	}
-	if mf.Acceptance != "" {
-		f.add("k.acceptance = ?", mf.Acceptance)
-	}
-	where := ""
-	if len(f.conds) > 0 {
-		where = " AND " + strings.Join(f.conds, " AND ")
-	}
-	sql := `SELECT ` + prefixed("m.", measurements.columns()) + `, k.leaf_index
-		FROM (SELECT k.id, k.revision, k.leaf_index FROM section_list k
-			WHERE k.site = $1 AND k.leaf_index >= $2` + where + `
-			ORDER BY k.leaf_index` + pageLimit(limit) + `) k
+	return logPage(measurements.name, measurements.entity, cursor, limit, func(from int64, limit int) ([]Measurement, int64, error) {
+		f := newFilter()
+		f.args[0], f.args[1] = site, from
+		if !mf.IncludeVoided {
+			f.add("NOT k.voided")
+		}
+		if mf.CouponID != nil {
+			f.add("k.coupon_id = ?", *mf.CouponID)
+		}
+		if mf.Acceptance != "" {
+			f.add("k.acceptance = ?", mf.Acceptance)
+		}
+		sql := `SELECT ` + prefixed("m.", measurements.columns()) + `, k.leaf_index
+		FROM (` + keyWalk("section_list", "k.id, k.revision, k.leaf_index", f.conds, pageLimit(limit)) + `) k
 		JOIN measurements m ON m.site = $1 AND m.id = k.id AND m.revision = k.revision
 		ORDER BY k.leaf_index`
-	var items []Measurement
-	var last int64
-	err = s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) (err error) {
-		items, last, err = collectIndexed[Measurement](rows)
-		return err
+		return readIndexed[Measurement](ctx, s, site, sql, f.args)
 	})
-	if err != nil {
-		return Page[Measurement]{}, fmt.Errorf("db: list measurement: %w", mapError(err))
-	}
-	return Page[Measurement]{Items: items, Next: nextLogCursor(measurements.name, from, last, len(items))}, nil
 }
 
 // RecheckSectionList compares the site's section_list with

@@ -2,10 +2,7 @@ package db
 
 import (
 	"context"
-	"fmt"
-	"strings"
 
-	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 )
 
@@ -31,14 +28,7 @@ const SignOffListRefresh = `INSERT INTO sign_off_list (` + signOffListColumns + 
 // sign-offs among the pass's leaves (out, from index size on); none, no
 // statement.
 func queueSignOffList(b *pgx.Batch, site string, out *leafRows, size uint64) {
-	var ids []uuid.UUID
-	var at []int64
-	for i, k := range out.kinds {
-		if k == "sign_off" {
-			ids, at = append(ids, out.ids[i]), append(at, int64(size)+int64(i))
-		}
-	}
-	if len(ids) > 0 {
+	if ids, at := out.ofKind("sign_off", size); len(ids) > 0 {
 		b.Queue(SignOffListRefresh, site, ids, at)
 	}
 }
@@ -48,40 +38,24 @@ func queueSignOffList(b *pgx.Batch, site string, out *leafRows, size uint64) {
 // sign_off_list (the page size written into the statement), then each
 // sign-off read by its key.
 func (s *Store) SignOffs(ctx context.Context, site string, f SignOffFilter, cursor string, limit int) (Page[SignOff], error) {
-	if limit <= 0 || limit > MaxPageSize {
-		limit = MaxPageSize
-	}
-	from, err := logCursor("sign-offs", cursor)
-	if err != nil {
-		return Page[SignOff]{}, fmt.Errorf("db: list sign-offs: %w", err)
-	}
-	fl := newFilter()
-	fl.args[0], fl.args[1] = site, from
-	if f.RecordKind != "" {
-		fl.add("k.record_kind = ?", f.RecordKind)
-	}
-	if f.RecordID != nil {
-		fl.add("k.record_id = ?", *f.RecordID)
-	}
-	if f.SignedBy != "" {
-		fl.add("k.signed_by = ?", f.SignedBy)
-	}
-	sql := `SELECT ` + prefixed("s.", signOffColumns) + `, k.leaf_index
-		FROM (SELECT k.id, k.leaf_index FROM sign_off_list k
-			WHERE k.site = $1 AND k.leaf_index >= $2` + strings.Join(append([]string{""}, fl.conds...), " AND ") + `
-			ORDER BY k.leaf_index` + pageLimit(limit) + `) k
+	return logPage("sign-offs", "sign-offs", cursor, limit, func(from int64, limit int) ([]SignOff, int64, error) {
+		fl := newFilter()
+		fl.args[0], fl.args[1] = site, from
+		if f.RecordKind != "" {
+			fl.add("k.record_kind = ?", f.RecordKind)
+		}
+		if f.RecordID != nil {
+			fl.add("k.record_id = ?", *f.RecordID)
+		}
+		if f.SignedBy != "" {
+			fl.add("k.signed_by = ?", f.SignedBy)
+		}
+		sql := `SELECT ` + prefixed("s.", signOffColumns) + `, k.leaf_index
+		FROM (` + keyWalk("sign_off_list", "k.id, k.leaf_index", fl.conds, pageLimit(limit)) + `) k
 		JOIN sign_offs s ON s.site = $1 AND s.id = k.id
 		ORDER BY k.leaf_index`
-	var items []SignOff
-	var last int64
-	err = s.readPage(ctx, site, sql, fl.args, func(rows pgx.Rows) (err error) {
-		items, last, err = collectIndexed[SignOff](rows)
-		return err
+		return readIndexed[SignOff](ctx, s, site, sql, fl.args)
 	})
-	if err != nil {
-		return Page[SignOff]{}, fmt.Errorf("db: list sign-offs: %w", mapError(err))
-	}
-	return Page[SignOff]{Items: items, Next: nextLogCursor("sign-offs", from, last, len(items))}, nil
 }
 
 // RecheckSignOffList compares the site's sign_off_list with

@@ -1,0 +1,126 @@
+package db
+
+import (
+	"context"
+	"fmt"
+	"slices"
+	"strconv"
+	"strings"
+
+	"github.com/jackc/pgx/v5"
+)
+
+// A list key table (coupon_list, section_list, production_list,
+// sign_off_list, qualification_list, procedure_list) holds one row per
+// logged record with its log index and the columns its list filters on.
+// The sequencer writes it in the transaction that gives a leaf its index;
+// a page walks it in log order through the filter's index.
+
+// logPage reads one page of list in log order after cursor: limit clamped
+// to 1..MaxPageSize, read (the page's items from log index from, and the
+// last item's index) and the cursor to resume from. what names the list in
+// errors.
+func logPage[T any](list, what, cursor string, limit int, read func(from int64, limit int) ([]T, int64, error)) (Page[T], error) {
+	if limit <= 0 || limit > MaxPageSize {
+		limit = MaxPageSize
+	}
+	from, err := logCursor(list, cursor)
+	if err != nil {
+		return Page[T]{}, fmt.Errorf("db: list %s: %w", what, err)
+	}
+	items, last, err := read(from, limit)
+	if err != nil {
+		return Page[T]{}, fmt.Errorf("db: list %s: %w", what, mapError(err))
+	}
+	return Page[T]{Items: items, Next: nextLogCursor(list, from, last, len(items))}, nil
+}
+
+// readIndexed reads one page with readPage, each row's last column its log
+// index, and returns the items and the last one's index.
+func readIndexed[T any](ctx context.Context, s *Store, site, sql string, args []any) ([]T, int64, error) {
+	var items []T
+	var last int64
+	err := s.readPage(ctx, site, sql, args, func(rows pgx.Rows) (err error) {
+		items, last, err = collectIndexed[T](rows)
+		return err
+	})
+	return items, last, err
+}
+
+// keyWalk is the statement that walks list key table (as k) at site $1 in
+// log order from index $2, under conds, for one page (lim, pageLimit's),
+// returning cols.
+func keyWalk(table, cols string, conds []string, lim string) string {
+	return `SELECT ` + cols + ` FROM ` + table + ` k
+			WHERE k.site = $1 AND k.leaf_index >= $2` + strings.Join(append([]string{""}, conds...), " AND ") + `
+			ORDER BY k.leaf_index` + lim
+}
+
+// ofKind is the ids of the leaves of kind among l, and their log indexes
+// when l's first leaf takes index size.
+func (l *leafRows) ofKind(kind string, size uint64) (ids [][16]byte, at []int64) {
+	for i, k := range l.kinds {
+		if k == kind {
+			ids, at = append(ids, l.ids[i]), append(at, int64(size)+int64(i))
+		}
+	}
+	return ids, at
+}
+
+// queueKeyRewrite adds to the sequencer's batch of writes the rewrite of
+// the rows of a list key table (one row per record, its latest logged
+// revision) for the records of kind entity among the pass's leaves (out):
+// their rows deleted, each found by its key, then written by refresh ($1
+// site, $2 ids); none, no statement.
+func queueKeyRewrite(b *pgx.Batch, site string, out *leafRows, entity, table, refresh string) {
+	ids, _ := out.ofKind(entity, 0)
+	if len(ids) == 0 {
+		return
+	}
+	b.Queue(keyDelete(table), site, ids)
+	b.Queue(refresh, site, ids)
+}
+
+// keyRefresh is the statement that writes the rows of list key table
+// (columns named) for the records $2 at site $1 from the view
+// <table>_derived: each record read by its key through a lateral subquery
+// the planner cannot flatten, so statistics taken while the site was small
+// cannot turn it into a read of every record of the site (as with
+// sectionListRefresh).
+func keyRefresh(table, columns string) string {
+	return `INSERT INTO ` + table + ` (` + columns + `) SELECT ` + prefixed("d.", columns) + `
+	FROM (SELECT DISTINCT id FROM unnest($2::uuid[]) u(id)) u
+	CROSS JOIN LATERAL (SELECT ` + columns + ` FROM ` + table + `_derived WHERE site = $1 AND id = u.id OFFSET 0) d`
+}
+
+// keyDelete is the statement that removes the rows of list key table for
+// the records $2 at site $1: each found by its key, then deleted by its
+// address (as sectionListDelete).
+func keyDelete(table string) string {
+	return `DELETE FROM ` + table + ` WHERE site = $1 AND ctid = ANY (ARRAY(
+	SELECT k.ctid FROM unnest($2::uuid[]) u(id)
+	CROSS JOIN LATERAL (SELECT ctid FROM ` + table + ` WHERE site = $1 AND id = u.id OFFSET 0) k))`
+}
+
+// rangeKeys is the keys of a page of a time range walked without an
+// equality filter: walk (one page of keys of table in log order under the
+// given conditions) for each day of the range's partial months through
+// dayCol and for each whole month between through monthCol, the heads
+// merged in log order. The range's bounds join f's arguments; keyCols are
+// the columns each walk returns, as b.<column>.
+func (f *filter) rangeKeys(w dayWalk, table, dayCol, monthCol, keyCols, lim string, walk func(conds []string) string) string {
+	arg := func(v any) string {
+		f.args = append(f.args, v)
+		return "$" + strconv.Itoa(len(f.args))
+	}
+	walks := []string{`SELECT b.* FROM (SELECT day FROM generate_series(` + arg(w.head[0]) + `::date, ` + arg(w.head[1]) + `::date, interval '1 day') day
+			UNION ALL SELECT day FROM generate_series(` + arg(w.tail[0]) + `::date, ` + arg(w.tail[1]) + `::date, interval '1 day') day) d
+		CROSS JOIN LATERAL (` + walk(append(slices.Clone(f.conds), "k."+dayCol+" = d.day::date")) + `) b`}
+	if w.months {
+		walks = append(walks, `SELECT b.* FROM (SELECT min(`+monthCol+`) AS lo, max(`+monthCol+`) AS hi FROM `+table+` WHERE site = $1) span
+		CROSS JOIN generate_series(greatest(span.lo, `+arg(w.monthFrom)+`::date), least(span.hi, `+arg(w.monthTo)+`::date), interval '1 month') m(month)
+		CROSS JOIN LATERAL (`+walk(append(slices.Clone(f.conds), "k."+monthCol+" = m.month::date"))+`) b`)
+	}
+	return `SELECT ` + keyCols + ` FROM (` + strings.Join(walks, "\n\t\tUNION ALL ") + `) b
+		ORDER BY b.leaf_index` + lim
+}
