@@ -328,6 +328,18 @@ func TestClientClosedRequest(t *testing.T) {
 		t.Fatalf("the list answered %d while its table was locked", res.StatusCode)
 	}
 	cancel()
+	// Release the lock only once the abandoned list has stopped waiting for
+	// it (the server saw the client leave and cancelled its query): released
+	// sooner, the list could finish and answer 200 before the server noticed.
+	for waitUntil := time.Now().Add(5 * time.Second); time.Now().Before(waitUntil); time.Sleep(20 * time.Millisecond) {
+		var waiting int
+		if err := tx.QueryRow(ctx, `SELECT count(*) FROM pg_locks WHERE NOT granted AND relation IN ('coupons'::regclass, 'coupon_list'::regclass)`).Scan(&waiting); err != nil {
+			t.Fatal(err)
+		}
+		if waiting == 0 {
+			break
+		}
+	}
 	_ = tx.Rollback(ctx)
 	deadline := time.Now().Add(5 * time.Second)
 	for !strings.Contains(logs.String(), "client closed request") && time.Now().Before(deadline) {
