@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"io"
 	"net/http"
+	"slices"
 	"strconv"
 
 	"github.com/getkin/kin-openapi/openapi3filter"
@@ -85,7 +86,7 @@ func (s *Server) importCSV(c echo.Context, body []byte, firstRow int, commit boo
 	}
 	r := csv.NewReader(bytes.NewReader(bytes.TrimPrefix(body, []byte("\uFEFF"))))
 	r.FieldsPerRecord = -1
-	r.ReuseRecord = true
+	r.ReuseRecord = true // each row kept is cloned
 	header, err := r.Read()
 	if errors.Is(err, io.EOF) {
 		return rep, badRequest("body", "is empty: give a header row of column names, then the rows")
@@ -97,21 +98,30 @@ func (s *Server) importCSV(c echo.Context, body []byte, firstRow int, commit boo
 	if err != nil {
 		return rep, err
 	}
-	b := importBatch{s: s, cols: im}
+	// The rows are read beside the store's first round trip: the records
+	// their cells name are read (and on a commit their procedures' flag
+	// locks taken) while each row is checked.
+	var recs []csvRow
 	for row := firstRow; ; row++ {
 		rec, err := r.Read()
 		if errors.Is(err, io.EOF) {
 			break
 		}
-		rep.Rows++
-		if err != nil {
-			b.fault(row, "", "is not CSV: "+csvReason(err))
-			continue
-		}
-		b.add(row, rec)
+		recs = append(recs, csvRow{row, slices.Clone(rec), err})
 	}
+	rep.Rows = len(recs)
+	var b *importBatch
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		b = s.readRows(im, recs)
+	}()
+	res, err := s.store.ImportCouponsAhead(c.Request().Context(), actorOf(c), im.keys(recs), func() []db.ImportCoupon {
+		<-done
+		return b.coupons
+	}, commit)
+	<-done
 	rep.Coupons = len(b.coupons)
-	res, err := s.store.ImportCoupons(c.Request().Context(), actorOf(c), b.coupons, commit)
 	if err != nil {
 		return rep, err
 	}

@@ -1,6 +1,7 @@
 package api
 
 import (
+	"errors"
 	"reflect"
 	"slices"
 	"strings"
@@ -112,5 +113,49 @@ func TestImportFastReadMatches(t *testing.T) {
 		if taken == 0 || refused == 0 {
 			t.Errorf("header %s: %d rows taken directly, %d refused by read: want some of each", header[8], taken, refused)
 		}
+	}
+}
+
+// TestImportRowsInHalves: rows read in two halves cut where couponStart
+// says a coupon starts give the coupons and faults of one reading, for a
+// cut before every row of a file with repeated and empty marks, coupons
+// with and without sections, rows that are not CSV between a coupon's rows,
+// rows with too few cells, a coupon column that differs on a later row, and
+// a refused value.
+func TestImportRowsInHalves(t *testing.T) {
+	s := &Server{validate: newValidator()}
+	header := []string{"procedure_id", "coupon_mark", "welded_on", "joint_type", "thickness_mm", "current_a",
+		"voltage_v", "travel_speed_mm_s", "position", "section", "penetration_mm", "acceptance"}
+	im, err := newImportColumns(header)
+	if err != nil {
+		t.Fatal(err)
+	}
+	p := "0193a1b2-0000-7000-8000-000000000001"
+	row := func(mark, current, section string) []string {
+		return []string{p, mark, "2026-11-03", "fillet", "6.35", current, "21", "5.08", "2F", section, "1.2", "accept"}
+	}
+	notCSV := errors.New("bare quote")
+	recs := []csvRow{
+		{2, row("A-1", "170", "A"), nil}, {3, row("A-1", "170", "B"), nil}, {4, nil, notCSV}, {5, row("A-1", "170", "C"), nil},
+		{6, row("A-2", "170", ""), nil}, {7, row("", "170", "A"), nil}, {8, row("", "170", "B"), nil},
+		{9, row("A-3", "5000", "A"), nil}, {10, row("A-3", "171", "B"), nil}, {11, []string{p, "A-4"}, nil},
+		{12, row("A-4", "170", "A"), nil}, {13, row("A-1", "170", "D"), nil}, {14, nil, notCSV}, {15, row("A-5", "170", "A"), nil},
+		{16, row("A-5", "170", "A"), nil}, {17, row("A-6", "170", "A"), nil},
+	}
+	whole := s.readSome(im, recs)
+	cuts := 0
+	for i := range recs {
+		m := im.couponStart(recs, i)
+		if m <= 0 {
+			continue
+		}
+		cuts++
+		halves := s.readSome(im, recs[:m]).then(s.readSome(im, recs[m:]))
+		if !reflect.DeepEqual(halves.coupons, whole.coupons) || !reflect.DeepEqual(halves.faults, whole.faults) {
+			t.Errorf("cut before row %d: coupons %+v faults %+v; one reading: %+v %+v", recs[m].row, halves.coupons, halves.faults, whole.coupons, whole.faults)
+		}
+	}
+	if cuts < len(recs)/2 || len(whole.faults) < 4 {
+		t.Errorf("%d cuts, %d faults: the file should be cut in many places and have faults of each kind", cuts, len(whole.faults))
 	}
 }

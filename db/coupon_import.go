@@ -83,8 +83,17 @@ type importPlan struct {
 // is set, writes those that pass in one transaction; without commit it
 // writes nothing and reports what a commit would do.
 func (s *Store) ImportCoupons(ctx context.Context, a Actor, cs []ImportCoupon, commit bool) (ImportResult, error) {
+	return s.ImportCouponsAhead(ctx, a, keysOf(cs), func() []ImportCoupon { return cs }, commit)
+}
+
+// ImportCouponsAhead is ImportCoupons for a caller still reading the
+// coupons: the records keys names are read (and on a commit, their
+// procedures' flag locks taken) while it reads them, and coupons, called
+// once, waits for them. keys must name every mark, procedure and
+// qualification record the coupons give (naming more is allowed).
+func (s *Store) ImportCouponsAhead(ctx context.Context, a Actor, keys ImportKeys, coupons func() []ImportCoupon, commit bool) (ImportResult, error) {
 	if !commit {
-		p, err := planImport(ctx, s.pool, a.Site, cs)
+		p, err := planImport(ctx, s.pool, a.Site, keys, coupons)
 		if err != nil {
 			return ImportResult{}, fmt.Errorf("db: import coupons (dry run): %w", err)
 		}
@@ -94,16 +103,20 @@ func (s *Store) ImportCoupons(ctx context.Context, a Actor, cs []ImportCoupon, c
 	var plan *importPlan
 	err := s.tx(ctx, func(tx pgx.Tx) error {
 		// Flags are judged under the procedures' current ranges: hold their
-		// shared flag locks before reading anything.
-		if err := lockProcedures(ctx, tx, a.Site, linkIDs(cs, func(d CouponData) *uuid.UUID { return d.ProcedureID }), false); err != nil {
-			return err
+		// shared flag locks before reading anything. Every statement of the
+		// write is planned for its own arguments (the marks' read above all).
+		queued := firstError(queueExec(ctx, tx, `SET LOCAL plan_cache_mode = force_custom_plan`),
+			queueLockProcedures(ctx, tx, a.Site, keys.Procedures, false))
+		if queued != nil {
+			return queued
 		}
-		p, err := planImport(ctx, tx, a.Site, cs)
+		j := newImportJudgement(a.Site, keys.Procedures)
+		p, err := planImport(ctx, tx, a.Site, keys, coupons, j.reads())
 		if err != nil {
 			return err
 		}
 		res, plan = p.result, p
-		return s.writeImport(ctx, tx, a, p)
+		return s.writeImport(ctx, tx, a, p, j)
 	})
 	if errors.Is(err, errMarkTaken) {
 		err = s.takenMark(ctx, a.Site, plan)
@@ -117,11 +130,25 @@ func (s *Store) ImportCoupons(ctx context.Context, a Actor, cs []ImportCoupon, c
 // planImport checks every coupon: marks repeated in the file, marks already
 // stored (unchanged or different), repeated section labels, sections deeper
 // than the coupon is thick, and links to procedures and qualification
-// records. It reads the records with one query per kind.
-func planImport(ctx context.Context, q querier, site string, cs []ImportCoupon) (*importPlan, error) {
-	p := &importPlan{site: site, refused: make([]bool, len(cs))}
+// records. Its reads leave together (readTogether), with the caller's
+// reads more, before the coupons are asked for: the stored marks, the
+// procedures and the qualification records keys names; then, when marks
+// are stored, those coupons and their sections.
+func planImport(ctx context.Context, q querier, site string, keys ImportKeys, coupons func() []ImportCoupon, more ...[]planRead) (*importPlan, error) {
+	p := &importPlan{site: site, procs: map[uuid.UUID]Procedure{}, records: map[uuid.UUID]QualificationRecord{}}
+	holders := map[string]uuid.UUID{}
+	reads := append([][]planRead{p.markRead(keys.Marks, holders),
+		latestRead(procedures, site, keys.Procedures, p.procs), latestRead(qualificationRecords, site, keys.Records, p.records)},
+		more...)
+	if err := readTogether(ctx, q, reads...); err != nil {
+		return nil, err
+	}
+	cs := coupons()
+	if err := keys.cover(cs); err != nil {
+		return nil, err
+	}
+	p.refused = make([]bool, len(cs))
 	first := make(map[string]int, len(cs))
-	var marks []string
 	for i, c := range cs {
 		if c.Refused {
 			p.refused[i] = true
@@ -132,9 +159,8 @@ func planImport(ctx context.Context, q querier, site string, cs []ImportCoupon) 
 			continue
 		}
 		first[c.Data.CouponMark] = i
-		marks = append(marks, c.Data.CouponMark)
 	}
-	held, err := p.storedMarks(ctx, q, cs, marks)
+	held, err := p.storedMarks(ctx, q, cs, holders)
 	if err != nil {
 		return nil, err
 	}
@@ -148,9 +174,7 @@ func planImport(ctx context.Context, q querier, site string, cs []ImportCoupon) 
 			p.checkSections(i, &cs[i], !cs[i].Refused)
 		}
 	}
-	if err := p.checkLinks(ctx, q, cs, held); err != nil {
-		return nil, err
-	}
+	p.checkLinks(cs, held)
 	for i := range cs {
 		if p.refused[i] || held[i] {
 			continue
@@ -214,18 +238,10 @@ func (p *importPlan) checkSections(i int, c *ImportCoupon, depth bool) {
 	}
 }
 
-// checkLinks reads every procedure and qualification record the new
-// coupons name, once each, and refuses a coupon naming one that is not at
-// the site or is voided, in the words of a single coupon's write.
-func (p *importPlan) checkLinks(ctx context.Context, q querier, cs []ImportCoupon, held []bool) error {
-	var err error
-	if p.procs, err = latestOf[Procedure](ctx, q, procedures, p.site, linkIDs(cs, func(d CouponData) *uuid.UUID { return d.ProcedureID })); err != nil {
-		return err
-	}
-	if p.records, err = latestOf[QualificationRecord](ctx, q, qualificationRecords, p.site,
-		linkIDs(cs, func(d CouponData) *uuid.UUID { return d.QualificationRecordID })); err != nil {
-		return err
-	}
+// checkLinks refuses a coupon naming a procedure or qualification record
+// that is not at the site (the plan read those named, p.procs and
+// p.records) or is voided, in the words of a single coupon's write.
+func (p *importPlan) checkLinks(cs []ImportCoupon, held []bool) {
 	for i, c := range cs {
 		if held[i] {
 			continue
@@ -246,7 +262,6 @@ func (p *importPlan) checkLinks(ctx context.Context, q querier, cs []ImportCoupo
 			}
 		}
 	}
-	return nil
 }
 
 // linkIDs lists the distinct ids that field of the coupons names.
@@ -262,40 +277,47 @@ func linkIDs(cs []ImportCoupon, field func(CouponData) *uuid.UUID) []uuid.UUID {
 	return ids
 }
 
-// storedMarks finds the file's marks that current records already hold and
-// compares each such coupon with the stored one: the same values and
+// markRead reads which of the file's marks current records already hold
+// into holders (mark → record id). Inside the import's write every plan is
+// a custom one (ImportCoupons), and a dry run plans it with the marks in
+// hand (no cached generic plan): the planner then hashes them, instead of
+// comparing every mark of the site with every mark of the part.
+func (p *importPlan) markRead(marks []string, holders map[string]uuid.UUID) []planRead {
+	if len(marks) == 0 {
+		return nil
+	}
+	return []planRead{{`SELECT mark, record_id FROM current_marks WHERE site = $1 AND kind = $2 AND mark = ANY($3)`,
+		[]any{p.site, couponMark.kind, marks}, func(rows pgx.Rows) error {
+			var mark string
+			var id uuid.UUID
+			_, err := pgx.ForEachRow(rows, []any{&mark, &id}, func() error {
+				holders[mark] = id
+				return nil
+			})
+			if err != nil {
+				return fmt.Errorf("stored marks: %w", err)
+			}
+			return nil
+		}, true}}
+}
+
+// storedMarks compares each coupon whose mark a current record holds
+// (holders, read by markRead) with the stored one: the same values and
 // sections count as unchanged, any difference is refused, named. held[i]
 // reports that coupon i's mark is taken (or repeats an earlier one).
-func (p *importPlan) storedMarks(ctx context.Context, q querier, cs []ImportCoupon, marks []string) ([]bool, error) {
+func (p *importPlan) storedMarks(ctx context.Context, q querier, cs []ImportCoupon, holders map[string]uuid.UUID) ([]bool, error) {
 	held := make([]bool, len(cs))
-	if len(marks) == 0 {
+	if len(holders) == 0 {
 		return held, nil
 	}
-	// Planned with the marks in hand (no cached generic plan): the planner
-	// then hashes them, instead of comparing every mark of the site with
-	// every mark of the part.
-	rows, _ := q.Query(ctx, `SELECT mark, record_id FROM current_marks WHERE site = $1 AND kind = $2 AND mark = ANY($3)`,
-		pgx.QueryExecModeExec, p.site, couponMark.kind, marks)
-	holders := map[string]uuid.UUID{}
-	var ids []uuid.UUID
-	var mark string
-	var id uuid.UUID
-	if _, err := pgx.ForEachRow(rows, []any{&mark, &id}, func() error {
-		holders[mark] = id
+	ids := make([]uuid.UUID, 0, len(holders))
+	for _, id := range holders {
 		ids = append(ids, id)
-		return nil
-	}); err != nil {
-		return nil, fmt.Errorf("stored marks: %w", err)
 	}
-	if len(ids) == 0 {
-		return held, nil
-	}
-	stored, err := latestOf[Coupon](ctx, q, coupons, p.site, ids)
-	if err != nil {
-		return nil, err
-	}
-	sections, err := currentSections(ctx, q, p.site, ids)
-	if err != nil {
+	slices.SortFunc(ids, func(a, b uuid.UUID) int { return slices.Compare(a[:], b[:]) })
+	stored := make(map[uuid.UUID]Coupon, len(ids))
+	sections := map[uuid.UUID][]Measurement{}
+	if err := readTogether(ctx, q, latestRead(coupons, p.site, ids, stored), sectionsRead(p.site, ids, sections)); err != nil {
 		return nil, err
 	}
 	for i := range cs {
@@ -365,22 +387,22 @@ func (p *importPlan) compareStored(i int, c *ImportCoupon, st Coupon, secs []Mea
 	}
 }
 
-// currentSections reads the current, non-voided sections of the coupons,
-// keyed by coupon id, in creation order.
-func currentSections(ctx context.Context, q querier, site string, couponIDs []uuid.UUID) (map[uuid.UUID][]Measurement, error) {
-	rows, _ := q.Query(ctx, `SELECT `+measurements.columns()+` FROM (
-			SELECT DISTINCT ON (id) `+measurements.columns()+` FROM measurements
+// sectionsRead reads the current, non-voided sections of the coupons into
+// out, keyed by coupon id, in creation order.
+func sectionsRead(site string, couponIDs []uuid.UUID, out map[uuid.UUID][]Measurement) []planRead {
+	return []planRead{{`SELECT ` + measurements.columns() + ` FROM (
+			SELECT DISTINCT ON (id) ` + measurements.columns() + ` FROM measurements
 			WHERE site = $1 AND coupon_id = ANY($2) ORDER BY id, revision DESC) cur
-		WHERE NOT voided ORDER BY id`, site, couponIDs)
-	ms, err := pgx.CollectRows(rows, pgx.RowToStructByName[Measurement])
-	if err != nil {
-		return nil, fmt.Errorf("stored sections: %w", err)
-	}
-	out := map[uuid.UUID][]Measurement{}
-	for _, m := range ms {
-		out[m.CouponID] = append(out[m.CouponID], m)
-	}
-	return out, nil
+		WHERE NOT voided ORDER BY id`, []any{site, couponIDs}, func(rows pgx.Rows) error {
+		ms, err := pgx.CollectRows(rows, pgx.RowToStructByName[Measurement])
+		if err != nil {
+			return fmt.Errorf("stored sections: %w", err)
+		}
+		for _, m := range ms {
+			out[m.CouponID] = append(out[m.CouponID], m)
+		}
+		return nil
+	}, false}}
 }
 
 // columnDiff is one column whose file value differs from the stored one,

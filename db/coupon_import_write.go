@@ -12,8 +12,6 @@ import (
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
 	"github.com/jackc/pgx/v5/pgtype"
-
-	"etchlog/predict"
 )
 
 // importRows is what an import copies in besides its marks: the planned
@@ -114,11 +112,11 @@ func (r *importRows) leaves(s *Store, e LeafEntry) importLeaves {
 }
 
 // writeImport writes the planned coupons inside tx: claims their marks,
-// copies the coupon and section rows, logs a leaf per row (one pending
-// entry for the coupons, one for the sections) and writes their flags.
-// While the database takes the marks the rows are laid out, and while it
-// copies the rows their leaves are encoded.
-func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPlan) error {
+// copies the coupon and section rows, writes their flags and logs a leaf
+// per row (one pending entry for the coupons, one for the sections). While
+// the database takes the marks the rows are laid out, and while it copies
+// the rows the flags are evaluated and the leaves encoded.
+func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPlan, j *importJudgement) error {
 	if len(p.create) == 0 {
 		return nil
 	}
@@ -127,10 +125,14 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 	if err != nil {
 		return err
 	}
-	prepared, leaves := make(chan *importRows, 1), make(chan importLeaves, 1)
+	if err := j.readChecks(ctx, tx, p, now); err != nil {
+		return err
+	}
+	prepared, flags, leaves := make(chan *importRows, 1), make(chan []*flagWriter, 1), make(chan importLeaves, 1)
 	go func() {
 		r := s.prepareImport(ctx, a, p, now)
 		prepared <- r
+		flags <- j.evaluate(p, now)
 		if r.err == nil {
 			leaves <- r.leaves(s, LeafEntry{Site: a.Site, Actor: a.Name, Action: actionCreate, At: now})
 		}
@@ -157,6 +159,11 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 			return fmt.Errorf("copy %s: %w", c.table, mapError(err))
 		}
 	}
+	for _, w := range <-flags {
+		if _, err := w.flush(ctx, tx); err != nil {
+			return err
+		}
+	}
 	l := <-leaves
 	if l.err != nil {
 		return l.err
@@ -169,15 +176,15 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 			return err
 		}
 	}
-	if err := p.writeFlags(ctx, tx, now); err != nil {
-		return err
+	if !j.chosen { // no chart can hold them
+		return nil
 	}
 	// The coupons join their groups' drift charts (drift.go), like a single create.
 	couponIDs := make([]uuid.UUID, len(p.create))
 	for i, pc := range p.create {
 		couponIDs[i] = pc.id
 	}
-	return importDrift(ctx, tx, now, a.Site, couponIDs)
+	return couponDrift(ctx, tx, now, a.Site, couponIDs...)
 }
 
 // errMarkTaken is a planned mark claimed by another write during the import.
@@ -197,63 +204,4 @@ func (s *Store) takenMark(ctx context.Context, site string, p *importPlan) error
 		return fmt.Errorf("%w: another write took a mark of the file during the import; import the file again", ErrConflict)
 	}
 	return fmt.Errorf("%w: another write took the mark %q during the import; import the file again", ErrConflict, m)
-}
-
-// writeFlags evaluates every new coupon of a procedure against that
-// procedure's latest ranges and its group's active calibration, read once
-// per procedure and per group, and copies the flags in.
-func (p *importPlan) writeFlags(ctx context.Context, tx pgx.Tx, now time.Time) error {
-	type checkKey struct {
-		group CalibrationGroup
-		proc  uuid.UUID
-	}
-	writers := map[uuid.UUID]*flagWriter{}
-	checks := map[checkKey]*predict.PenetrationCheck{}
-	var order []uuid.UUID
-	for _, pc := range p.create {
-		if pc.in.Data.ProcedureID == nil { // a coupon of a qualification record alone answers to no ranges
-			continue
-		}
-		proc := p.procs[*pc.in.Data.ProcedureID]
-		w, ok := writers[proc.ID]
-		if !ok {
-			pr, err := latestRanges(ctx, tx, p.site, proc.ID, 0)
-			if errors.Is(err, ErrNotFound) { // no ranges yet: model flags only
-				pr, err = ProcedureRanges{Site: p.site, ProcedureID: proc.ID}, nil
-			}
-			if err != nil {
-				return err
-			}
-			w = newFlagWriter(p.site, now, pr)
-			writers[proc.ID] = w
-			order = append(order, proc.ID)
-		}
-		c := Coupon{Meta: Meta{Site: p.site, ID: pc.id, Revision: 1, CreatedAt: now}, CouponData: pc.in.Data}
-		c.inherit(procedureDefaults(proc))
-		key := checkKey{couponGroup(c).canonical(), proc.ID}
-		check, ok := checks[key]
-		if !ok {
-			var err error
-			if check, err = penetrationCheck(ctx, tx, p.site, key.group, proc.MinPenetrationMM); err != nil {
-				return err
-			}
-			checks[key] = check
-		}
-		var rec *QualificationRecord
-		if id := pc.in.Data.QualificationRecordID; id != nil {
-			r := p.records[*id]
-			rec = &r
-		}
-		secs := make([]predict.Section, len(pc.in.Sections))
-		for k, sec := range pc.in.Sections {
-			secs[k] = predict.Section{Label: sec.Data.Section, PenetrationMM: sec.Data.PenetrationMM}
-		}
-		w.add(newCouponSubject(c, secs, requirementsOf(proc, rec), check))
-	}
-	for _, id := range order {
-		if _, err := writers[id].flush(ctx, tx); err != nil {
-			return err
-		}
-	}
-	return nil
 }

@@ -438,19 +438,6 @@ func couponDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, ids
 	return recomputeDrift(ctx, tx, now, site, groups, ids)
 }
 
-// importDrift is couponDrift for the coupons an import part wrote, unless
-// no calibration was ever chosen at the site (then no chart can hold them).
-func importDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, ids []uuid.UUID) error {
-	var chosen bool
-	if err := tx.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM calibration_activations WHERE site = $1)`, site).Scan(&chosen); err != nil {
-		return fmt.Errorf("calibrations chosen: %w", err)
-	}
-	if !chosen || len(ids) == 0 {
-		return nil
-	}
-	return couponDrift(ctx, tx, now, site, ids...)
-}
-
 // siteDrift draws every chart of a group with a calibration in use at the
 // site again from the records, and rewrites their flags (after a change
 // that may move many coupons, such as a procedure correction, and in

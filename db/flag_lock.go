@@ -23,6 +23,24 @@ func lockProcedures(ctx context.Context, tx pgx.Tx, site string, ids []uuid.UUID
 	if len(ids) == 0 {
 		return nil
 	}
+	sql, args := procedureLocks(site, ids, exclusive)
+	_, err := tx.Exec(ctx, sql, args...)
+	return err
+}
+
+// queueLockProcedures is lockProcedures queued: on a pipelined write the
+// locks leave with the write's next statement, and are held before it runs.
+func queueLockProcedures(ctx context.Context, tx pgx.Tx, site string, ids []uuid.UUID, exclusive bool) error {
+	if len(ids) == 0 {
+		return nil
+	}
+	sql, args := procedureLocks(site, ids, exclusive)
+	return queueExec(ctx, tx, sql, args...)
+}
+
+// procedureLocks is the statement taking the flag locks of the procedures
+// ids, in byte order of their ids, and its arguments.
+func procedureLocks(site string, ids []uuid.UUID, exclusive bool) (string, []any) {
 	ids = slices.Clone(ids)
 	slices.SortFunc(ids, func(a, b uuid.UUID) int { return slices.Compare(a[:], b[:]) })
 	ids = slices.Compact(ids)
@@ -30,9 +48,8 @@ func lockProcedures(ctx context.Context, tx pgx.Tx, site string, ids []uuid.UUID
 	if exclusive {
 		fn = "pg_advisory_xact_lock"
 	}
-	_, err := tx.Exec(ctx, `SELECT `+fn+`(hashtextextended('etchlog-flags:' || $1 || ':' || p::text, 0))
-		FROM unnest($2::uuid[]) WITH ORDINALITY AS u(p, n) ORDER BY n`, site, ids)
-	return err
+	return `SELECT ` + fn + `(hashtextextended('etchlog-flags:' || $1 || ':' || p::text, 0))
+		FROM unnest($2::uuid[]) WITH ORDINALITY AS u(p, n) ORDER BY n`, []any{site, ids}
 }
 
 // lockCouponProcedures takes the shared flag lock of every procedure the

@@ -86,23 +86,64 @@ func (t table) linkRefused(field string, id uuid.UUID, found, voided bool) error
 	return nil
 }
 
-// latestOf reads the latest revision of each record in ids at the site, in
-// one query, keyed by id; an id not at the site is absent from the map.
-func latestOf[T interface{ RecordID() uuid.UUID }](ctx context.Context, q querier, t table, site string, ids []uuid.UUID) (map[uuid.UUID]T, error) {
-	out := make(map[uuid.UUID]T, len(ids))
+// latestRead reads the latest revision of each record in ids at the site
+// into out, keyed by id (an id not at the site stays absent), in one query
+// (none when ids is empty).
+func latestRead[T interface{ RecordID() uuid.UUID }](t table, site string, ids []uuid.UUID, out map[uuid.UUID]T) []planRead {
 	if len(ids) == 0 {
-		return out, nil
+		return nil
 	}
-	rows, _ := q.Query(ctx, "SELECT DISTINCT ON (id) "+t.columns()+" FROM "+t.name+
-		" WHERE site = $1 AND id = ANY($2) ORDER BY id, revision DESC", site, ids)
-	v, err := pgx.CollectRows(rows, pgx.RowToStructByName[T])
-	if err != nil {
-		return nil, fmt.Errorf("db: read %ss: %w", t.entity, err)
+	return []planRead{{"SELECT DISTINCT ON (id) " + t.columns() + " FROM " + t.name +
+		" WHERE site = $1 AND id = ANY($2) ORDER BY id, revision DESC", []any{site, ids}, func(rows pgx.Rows) error {
+		v, err := pgx.CollectRows(rows, pgx.RowToStructByName[T])
+		if err != nil {
+			return fmt.Errorf("db: read %ss: %w", t.entity, err)
+		}
+		for _, r := range v {
+			out[r.RecordID()] = r
+		}
+		return nil
+	}, false}}
+}
+
+// planRead is one read of a write's plan: a statement, its arguments and
+// the reader of its rows.
+type planRead struct {
+	sql  string
+	args []any
+	read func(pgx.Rows) error
+	// custom: outside a pipelined write, planned for its arguments
+	// (QueryExecModeExec) instead of by a cached generic plan
+	custom bool
+}
+
+// readTogether runs the reads in order. Inside a pipelined write they
+// leave together with whatever is queued before them, in one round trip;
+// elsewhere (a dry run on the pool) one after another.
+func readTogether(ctx context.Context, q querier, reads ...[]planRead) error {
+	tx, piped := q.(*pipeTx)
+	for _, rs := range reads {
+		for _, r := range rs {
+			if piped {
+				tx.queue(r.sql, r.args, r.read, false)
+				continue
+			}
+			args := r.args
+			if r.custom {
+				args = append([]any{pgx.QueryExecModeExec}, args...)
+			}
+			rows, _ := q.Query(ctx, r.sql, args...)
+			err := r.read(rows)
+			rows.Close()
+			if err := firstError(err, rows.Err()); err != nil {
+				return err
+			}
+		}
 	}
-	for _, r := range v {
-		out[r.RecordID()] = r
+	if piped {
+		return tx.flush(ctx)
 	}
-	return out, nil
+	return nil
 }
 
 // revisions lists every revision of one record, oldest first.
