@@ -22,7 +22,6 @@ type importRows struct {
 	coupons, sections       *copyRows
 	couponRows, sectionRows [][]any // as copied
 	couponLeaf, sectionLeaf *rowLeaves
-	err                     error
 }
 
 // importLeaves is the pending entries of an import's rows: one for the
@@ -51,39 +50,63 @@ func importMarks(p *importPlan) (*copyRows, error) {
 	return encodeCopyRows("current_marks", markColumns, markTypes, marks)
 }
 
-// prepareImport lays out the planned coupons and their sections.
-func (s *Store) prepareImport(ctx context.Context, a Actor, p *importPlan, now time.Time) *importRows {
+// laidRows is one table's rows of an import, laid out for its COPY, or why
+// they could not be.
+type laidRows struct {
+	rows *copyRows
+	err  error
+}
+
+// prepareImport lays out the planned coupons, then their sections, and
+// hands each table's rows to laid as soon as they are laid out (after an
+// error, only the error). It returns the rows for their leaves, nil after
+// an error.
+func (s *Store) prepareImport(ctx context.Context, a Actor, p *importPlan, now time.Time, laid chan<- laidRows) *importRows {
+	r, err := s.layImport(ctx, a, p, now, laid)
+	if err != nil {
+		laid <- laidRows{err: err}
+		return nil
+	}
+	return r
+}
+
+// layImport is prepareImport until an error.
+func (s *Store) layImport(ctx context.Context, a Actor, p *importPlan, now time.Time, laid chan<- laidRows) (*importRows, error) {
 	r := &importRows{couponRows: make([][]any, len(p.create))}
 	ck, err := leafKind(coupons.entity, 0)
 	if err != nil {
-		return &importRows{err: err}
+		return nil, err
 	}
 	mk, err := leafKind(measurements.entity, 0)
 	if err != nil {
-		return &importRows{err: err}
+		return nil, err
 	}
 	couponCols, sectionCols := revisionColumns(coupons), revisionColumns(measurements)
 	if r.couponLeaf, err = newRowLeaves(ctx, s.pool, ck, coupons.name, couponCols); err != nil {
-		return &importRows{err: err}
+		return nil, err
 	}
 	if r.sectionLeaf, err = newRowLeaves(ctx, s.pool, mk, measurements.name, sectionCols); err != nil {
-		return &importRows{err: err}
+		return nil, err
 	}
 	for i, pc := range p.create {
 		r.couponRows[i] = append([]any{a.Site, pc.id, 1, now, a.Name, "", false}, recordValues(pc.in.Data)...)
+	}
+	if r.coupons, err = encodeCopyRows(coupons.name, couponCols, r.couponLeaf.oids, r.couponRows); err != nil {
+		return nil, err
+	}
+	laid <- laidRows{rows: r.coupons}
+	for _, pc := range p.create {
 		for k, sec := range pc.in.Sections {
 			d := sec.Data
 			d.CouponID = pc.id
 			r.sectionRows = append(r.sectionRows, append([]any{a.Site, pc.sections[k], 1, now, a.Name, "", false}, recordValues(d)...))
 		}
 	}
-	if r.coupons, err = encodeCopyRows(coupons.name, couponCols, r.couponLeaf.oids, r.couponRows); err != nil {
-		return &importRows{err: err}
-	}
 	if r.sections, err = encodeCopyRows(measurements.name, sectionCols, r.sectionLeaf.oids, r.sectionRows); err != nil {
-		return &importRows{err: err}
+		return nil, err
 	}
-	return r
+	laid <- laidRows{rows: r.sections}
+	return r, nil
 }
 
 // leaves encodes every row's leaf from its copied values and prepares the
@@ -128,12 +151,11 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 	if err := j.readChecks(ctx, tx, p, now); err != nil {
 		return err
 	}
-	prepared, flags, leaves := make(chan *importRows, 1), make(chan []*flagWriter, 1), make(chan importLeaves, 1)
+	laid, flags, leaves := make(chan laidRows, 2), make(chan []*flagWriter, 1), make(chan importLeaves, 1)
 	go func() {
-		r := s.prepareImport(ctx, a, p, now)
-		prepared <- r
+		r := s.prepareImport(ctx, a, p, now, laid)
 		flags <- j.evaluate(p, now)
-		if r.err == nil {
+		if r != nil {
 			leaves <- r.leaves(s, LeafEntry{Site: a.Site, Actor: a.Name, Action: actionCreate, At: now})
 		}
 	}()
@@ -147,16 +169,16 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 		}
 		return fmt.Errorf("claim marks: %w", mapError(err))
 	}
-	r := <-prepared
-	if r.err != nil {
-		return r.err
-	}
-	for _, c := range []*copyRows{r.coupons, r.sections} {
-		if c.n == 0 {
+	for range 2 { // the coupons, then the sections, each as soon as laid out
+		l := <-laid
+		if l.err != nil {
+			return l.err
+		}
+		if l.rows.n == 0 {
 			continue
 		}
-		if err := copyIn(ctx, tx, c); err != nil {
-			return fmt.Errorf("copy %s: %w", c.table, mapError(err))
+		if err := copyIn(ctx, tx, l.rows); err != nil {
+			return fmt.Errorf("copy %s: %w", l.rows.table, mapError(err))
 		}
 	}
 	for _, w := range <-flags {
