@@ -411,7 +411,9 @@ const insertLeaves = `INSERT INTO log_leaves (site, leaf_index, kind, version, r
 		$12::timestamptz[], $13::bigint[]) WITH ORDINALITY
 		AS l(kind, version, record_id, revision, leaf_hash, actor, action, reason, at, seq, n)`
 
-// nodeRows are the tree nodes a pass completes, column by column.
+// nodeRows are the tree nodes above the leaves a pass completes, column
+// by column. Level 0 is not stored: a leaf's hash is its log_leaves row's
+// (migration 000047), and proofs read it there (proofHashes).
 type nodeRows struct {
 	levels  []int16
 	indexes []int64
@@ -419,6 +421,9 @@ type nodeRows struct {
 }
 
 func (n *nodeRows) add(id compact.NodeID, hash []byte) {
+	if id.Level == 0 {
+		return
+	}
 	n.levels = append(n.levels, int16(id.Level))
 	n.indexes = append(n.indexes, int64(id.Index))
 	n.hashes = append(n.hashes, hash)
