@@ -12,7 +12,8 @@ import (
 // The production records list pages in log order through production_list
 // (migration 000043): one row per logged live production record with its log
 // index (every column, as coupon_list), each filter with an index (site,
-// <column>, leaf_index). A leaf does not hold recorded_at, the key of the
+// <column>, leaf_index), but the weld id, whose records are found through the
+// weld claims' key (site, weld_id, procedure_id). A leaf does not hold recorded_at, the key of the
 // month partitions, so the sequencer cannot read a record cheaply; the
 // write that stores the records also stores their columns in
 // production_list_pending, one row of arrays per pending log entry
