@@ -102,7 +102,7 @@ func (s *Store) listProduction(ctx context.Context, site string, pf ProductionRe
 		{"k.procedure_id", pf.ProcedureID, pf.ProcedureID != nil},
 		{"k.welder_id", pf.WelderID, pf.WelderID != ""},
 		// A weld's records are found by the weld claims' key (site, weld_id,
-		// procedure_id; migration 000047): each claim's record is a row of the
+		// procedure_id; migration 000048): each claim's record is a row of the
 		// list's key when it is logged and live, and at most one per procedure.
 		{"w.weld_id", pf.WeldID, pf.WeldID != ""},
 	} {
