@@ -32,7 +32,7 @@ func (s *Store) duplicateMark(ctx context.Context, site, mark string, err error)
 		return err
 	}
 	return fmt.Errorf("db: create coupon: %w", &DuplicateError{Field: "coupon_mark", ExistingID: id,
-		Reason: fmt.Sprintf("coupon %s already has the mark %q; a retried create finds it with GET /v1/coupons?coupon_mark=", id, mark)})
+		Reason: fmt.Sprintf("coupon %s already has the mark %q; correct that one first or choose another (a retried create finds it with GET /v1/coupons?coupon_mark=)", id, mark)})
 }
 
 // duplicateKey turns a failed create of table t into a DuplicateError naming

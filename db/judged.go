@@ -92,6 +92,21 @@ type judgedCheck struct {
 	changes   int64
 }
 
+// unchanged reads the count the statement writing the coupon answers: one
+// other than the kept inputs' fails the write with errJudgementChanged.
+func (c *judgedCheck) unchanged(rows pgx.Rows) error {
+	n, err := pgx.CollectOneRow(rows, pgx.RowTo[int64])
+	switch {
+	case rows.Err() != nil:
+		return nil // the statement's own error is reported
+	case err != nil:
+		return err
+	case n != c.changes:
+		return errJudgementChanged
+	}
+	return nil
+}
+
 // readChanges reads judgementChangesSQL's count into *dst.
 func readChanges(dst **int64) func(pgx.Rows) error {
 	return func(rows pgx.Rows) error {

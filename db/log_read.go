@@ -110,14 +110,17 @@ func (s *Store) Consistency(ctx context.Context, site string, from, to uint64) (
 }
 
 // proofHashes reads the stored node hashes a proof needs and folds the ones
-// that make up its ephemeral node.
+// that make up its ephemeral node: a level-0 node is a leaf's hash, read
+// from its log_leaves row, a higher one from log_nodes.
 func (s *Store) proofHashes(ctx context.Context, site string, nodes proof.Nodes) ([][]byte, error) {
 	levels, idxs := make([]int16, len(nodes.IDs)), make([]int64, len(nodes.IDs))
 	for i, id := range nodes.IDs {
 		levels[i], idxs[i] = int16(id.Level), int64(id.Index)
 	}
-	rows, _ := s.pool.Query(ctx, `SELECT n.hash FROM unnest($2::smallint[], $3::bigint[]) WITH ORDINALITY AS w(lvl, idx, ord)
-		LEFT JOIN log_nodes n ON n.site = $1 AND n.tree_level = w.lvl AND n.tree_index = w.idx ORDER BY w.ord`, site, levels, idxs)
+	rows, _ := s.pool.Query(ctx, `SELECT CASE WHEN w.lvl = 0
+			THEN (SELECT l.leaf_hash FROM log_leaves l WHERE l.site = $1 AND l.leaf_index = w.idx)
+			ELSE (SELECT n.hash FROM log_nodes n WHERE n.site = $1 AND n.tree_level = w.lvl AND n.tree_index = w.idx) END
+		FROM unnest($2::smallint[], $3::bigint[]) WITH ORDINALITY AS w(lvl, idx, ord) ORDER BY w.ord`, site, levels, idxs)
 	hashes, err := pgx.CollectRows(rows, pgx.RowTo[[]byte])
 	if err != nil {
 		return nil, err

@@ -68,31 +68,6 @@ func (k markKind) claimed(ctx context.Context, tx pgx.Tx, m Meta, mark string) f
 	}
 }
 
-// claimedChecked reads the one row of a claim that also answers a
-// procedure's count of judgement changes (recordedNew with a check): a
-// count other than chk's fails the write with errJudgementChanged, before
-// anything else; a NULL claim is read as claimed reads no row.
-func (k markKind) claimedChecked(ctx context.Context, tx pgx.Tx, m Meta, mark string, chk *judgedCheck) func(pgx.Rows) error {
-	return func(rows pgx.Rows) error {
-		var (
-			claim   *uuid.UUID
-			changes int64
-		)
-		_, err := pgx.ForEachRow(rows, []any{&claim, &changes}, func() error { return nil })
-		switch {
-		case rows.Err() != nil:
-			return nil // the statement's own error is reported
-		case err != nil:
-			return err
-		case changes != chk.changes:
-			return errJudgementChanged
-		case claim != nil:
-			return nil
-		}
-		return k.holder(ctx, tx, m, mark)
-	}
-}
-
 // holder queues the read of the record holding the mark a claim did not
 // get, refusing the write when it is another record than m's.
 func (k markKind) holder(ctx context.Context, tx pgx.Tx, m Meta, mark string) error {

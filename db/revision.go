@@ -134,8 +134,7 @@ func (s *Store) recorded(ctx context.Context, t table, m Meta, values []any, act
 
 // recordedNew prepares, before the write's transaction, the step that
 // writes revision 1 (m) of a new record holding a mark of kind k: one
-// statement claims the mark (as claimMark does for revision 1: the
-// claiming row, or a refusal naming the holder), inserts the row and
+// statement claims the mark (a held mark refuses it), inserts the row and
 // appends its pending leaf. The leaf is encoded here from the values sent
 // (valueFact: every column of the row is stored exactly as sent, else this
 // refuses), so nothing is read back and the leaf leaves with the row.
@@ -184,24 +183,26 @@ func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, ma
 		}
 		return strings.Join(p, ", ")
 	}
-	q := `WITH claim AS (
-			INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, $` + strconv.Itoa(n+1) + `, $` + strconv.Itoa(n+2) + `, $2)
-			ON CONFLICT DO NOTHING RETURNING record_id),
-		stored AS (INSERT INTO ` + t.name + ` (` + t.columns() + `) VALUES (` + ph(1, n) + `)),
-		logged AS (INSERT INTO log_pending (` + pendingColumns + `) VALUES (` + ph(n+3, len(pending)) + `))
-		`
+	// The claim is a plain INSERT: a new record holds no mark, so a row
+	// already there is another record's, and its primary key refuses the
+	// statement (and the write); CreateCoupon names the holder
+	// (duplicateMark). An ON CONFLICT claim would cost a speculative
+	// insertion on every create for the rare refusal.
+	writes := `WITH claim AS (
+			INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, $` + strconv.Itoa(n+1) + `, $` + strconv.Itoa(n+2) + `, $2)),
+		stored AS (INSERT INTO ` + t.name + ` (` + t.columns() + `) VALUES (` + ph(1, n) + `))`
+	logged := `INSERT INTO log_pending (` + pendingColumns + `) VALUES (` + ph(n+3, len(pending)) + `)`
 	args = append(append(args, k.kind, mark), pending...)
-	// Checked: the same, answering in one row the claim (NULL when the mark
-	// is held) and the procedure's count of judgement changes.
-	checkedQ := q + `SELECT (SELECT record_id FROM claim),
-			(SELECT count(*) FROM judgement_changes WHERE site = $1 AND procedure_id = $` + strconv.Itoa(len(args)+1) + `)`
-	q += `SELECT record_id FROM claim`
+	q := writes + "\n" + logged
+	// Checked: the same, answering the procedure's count of judgement changes.
+	checkedQ := writes + ", logged AS (" + logged + `)
+		SELECT count(*) FROM judgement_changes WHERE site = $1 AND procedure_id = $` + strconv.Itoa(len(args)+1)
 	return func(tx pgx.Tx) error {
 		chk := check()
 		if chk == nil {
-			return queueRows(ctx, tx, k.claimed(ctx, tx, m, mark), q, args...)
+			return queueExec(ctx, tx, q, args...)
 		}
-		return queueRows(ctx, tx, k.claimedChecked(ctx, tx, m, mark, chk), checkedQ, append(args, chk.procedure)...)
+		return queueRows(ctx, tx, chk.unchanged, checkedQ, append(args, chk.procedure)...)
 	}, nil
 }
 

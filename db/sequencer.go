@@ -411,7 +411,9 @@ const insertLeaves = `INSERT INTO log_leaves (site, leaf_index, kind, version, r
 		$12::timestamptz[], $13::bigint[]) WITH ORDINALITY
 		AS l(kind, version, record_id, revision, leaf_hash, actor, action, reason, at, seq, n)`
 
-// nodeRows are the tree nodes a pass completes, column by column.
+// nodeRows are the tree nodes above the leaves a pass completes, column
+// by column. Level 0 is not stored: a leaf's hash is its log_leaves row's
+// (migration 000047), and proofs read it there (proofHashes).
 type nodeRows struct {
 	levels  []int16
 	indexes []int64
@@ -419,6 +421,9 @@ type nodeRows struct {
 }
 
 func (n *nodeRows) add(id compact.NodeID, hash []byte) {
+	if id.Level == 0 {
+		return
+	}
 	n.levels = append(n.levels, int16(id.Level))
 	n.indexes = append(n.indexes, int64(id.Index))
 	n.hashes = append(n.hashes, hash)
@@ -470,46 +475,3 @@ func encodeStored(ctx context.Context, q querier, kind string, version int, site
 	}
 	return f.LeafHash(), nil
 }
-
-// kickSequencer tells this process's sequencer that a write committed.
-func (s *Store) kickSequencer() {
-	select {
-	case s.kick <- struct{}{}:
-	default:
-	}
-}
-
-// awaitLogged waits, up to LogWait, until every leaf of the site pending when
-// it was called is sequenced, so a list read right after a write shows it.
-// Without a running sequencer it gives up and the list is merely stale.
-func (s *Store) awaitLogged(ctx context.Context, site string) {
-	var last *int64
-	if err := s.pool.QueryRow(ctx, lastPending, site).Scan(&last); err != nil || last == nil {
-		return
-	}
-	s.awaitSequenced(ctx, site, *last)
-}
-
-// lastPending is the newest pending leaf of site $1 (NULL: none).
-const lastPending = `SELECT max(seq) FROM log_pending WHERE site = $1`
-
-// awaitSequenced waits, up to LogWait, until the site has no pending leaf
-// at or below sequence last.
-func (s *Store) awaitSequenced(ctx context.Context, site string, last int64) {
-	s.kickSequencer()
-	deadline := time.Now().Add(LogWait)
-	for wait := time.Millisecond; time.Now().Before(deadline); wait = min(2*wait, 20*time.Millisecond) {
-		select {
-		case <-ctx.Done():
-			return
-		case <-time.After(wait):
-		}
-		var left bool
-		if err := s.pool.QueryRow(ctx, `SELECT EXISTS (SELECT 1 FROM log_pending WHERE site = $1 AND seq <= $2)`, site, last).Scan(&left); err != nil || !left {
-			return
-		}
-	}
-}
-
-// LogWait bounds how long a list waits for the sequencer (awaitLogged).
-var LogWait = 3 * time.Second
