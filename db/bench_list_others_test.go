@@ -38,6 +38,9 @@ func seedOtherLists(ctx context.Context, tb testing.TB, conn *pgx.Conn, n int) (
 			'J-' || g, 'W' || (g * 31 % @welders::int), timestamptz '2019-01-01' + g * (@days::int * interval '1 day' / @production::int),
 			250, 25, 5, 8, now(), 'seed'
 		FROM generate_series(0, @production::int - 1) g`,
+		// Each record's weld claim, as the write that stores it makes.
+		`INSERT INTO production_welds (site, procedure_id, weld_id, record_id)
+		SELECT site, procedure_id, weld_id, id FROM production_records WHERE site = @site`,
 		`INSERT INTO flags (site, subject_kind, subject_id, subject_at, procedure_id, ranges_version, kind, variable, detail, computed_at)
 		SELECT @site, 'production_record', md5(@site::text || 'r' || g)::uuid, timestamptz '2019-01-01' + g * (@days::int * interval '1 day' / @production::int),
 			md5(@site::text || 'p' || (g * 13 % @procids::int))::uuid, 1, 'range', 'current_a', 'seeded', now()
@@ -61,7 +64,7 @@ func seedOtherLists(ctx context.Context, tb testing.TB, conn *pgx.Conn, n int) (
 			tb.Fatalf("%v\n%s", err, q)
 		}
 	}
-	for _, t := range []string{"procedures", "qualification_records", "production_records", "flags", "sign_offs", "log_leaves"} {
+	for _, t := range []string{"procedures", "qualification_records", "production_records", "production_welds", "flags", "sign_offs", "log_leaves"} {
 		if _, err := conn.Exec(ctx, "VACUUM ANALYZE "+t); err != nil {
 			tb.Fatal(err)
 		}

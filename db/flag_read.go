@@ -111,7 +111,7 @@ func (s *Store) Flags(ctx context.Context, site string, ff FlagFilter, cursor st
 	return p, nil
 }
 
-// flagDay is a flag's UTC day, as the index flags_day (migration 000048)
+// flagDay is a flag's UTC day, as the index flags_day (migration 000049)
 // holds it.
 const flagDay = "(subject_at AT TIME ZONE 'UTC')::date"
 

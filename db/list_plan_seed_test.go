@@ -100,6 +100,9 @@ var seedStatements = []string{
 		'J-' || g, 'W' || (g * 31 % @welders::int), timestamptz '2019-01-01' + g * interval '30 minutes',
 		250, 25, 5, 8, now(), 'seed'
 	FROM generate_series(0, @production::int - 1) g`,
+	// Each record's weld claim, as the write that stores it makes.
+	`INSERT INTO production_welds (site, procedure_id, weld_id, record_id)
+	SELECT site, procedure_id, weld_id, id FROM production_records WHERE site = @site`,
 	// Every third coupon and every fifth production record carry a flag.
 	`INSERT INTO flags (site, subject_kind, subject_id, subject_at, procedure_id, ranges_version, kind, variable, detail, computed_at)
 	SELECT @site, 'coupon', md5(@site::text || 'c' || g)::uuid, date '2019-01-01' + (g * @days::int / @coupons::int),

@@ -23,7 +23,7 @@ import (
 var recordTables = map[string]bool{
 	"procedures": true, "qualification_records": true, "coupons": true, "measurements": true,
 	"production_records": true, "flags": true, "log_leaves": true, "sign_offs": true, "coupon_list": true,
-	"section_list": true, "production_list": true, "sign_off_list": true,
+	"section_list": true, "production_list": true, "production_welds": true, "sign_off_list": true,
 	"qualification_list": true, "procedure_list": true,
 }
 

@@ -12,7 +12,8 @@ import (
 // The production records list pages in log order through production_list
 // (migration 000043): one row per logged live production record with its log
 // index (every column, as coupon_list), each filter with an index (site,
-// <column>, leaf_index). A leaf does not hold recorded_at, the key of the
+// <column>, leaf_index), but the weld id, whose records are found through the
+// weld claims' key (site, weld_id, procedure_id). A leaf does not hold recorded_at, the key of the
 // month partitions, so the sequencer cannot read a record cheaply; the
 // write that stores the records also stores their columns in
 // production_list_pending, one row of arrays per pending log entry
@@ -33,7 +34,9 @@ var productionListColumns = strings.Join(productionColumns, ", ") + ", leaf_inde
 // its batch, creation time and author.
 func queueProductionPending(ctx context.Context, tx pgx.Tx, entry uuid.UUID, recs []ProductionRecord) error {
 	n := len(recs)
-	ids, procs, at := make([]uuid.UUID, n), make([]uuid.UUID, n), make([]time.Time, n)
+	// Ids as [16]byte, pgx's direct encoding of a uuid (a uuid.UUID takes
+	// its driver.Valuer path: text written, then parsed again).
+	ids, procs, at := make([][16]byte, n), make([][16]byte, n), make([]time.Time, n)
 	welds, welders := make([]string, n), make([]string, n)
 	current, voltage, travel, feed, ctwd := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n), make([]*float64, n)
 	for i := range recs {
@@ -96,12 +99,15 @@ func (s *Store) listProduction(ctx context.Context, site string, pf ProductionRe
 		val any
 		set bool
 	}{
-		{"procedure_id", pf.ProcedureID, pf.ProcedureID != nil},
-		{"welder_id", pf.WelderID, pf.WelderID != ""},
-		{"weld_id", pf.WeldID, pf.WeldID != ""},
+		{"k.procedure_id", pf.ProcedureID, pf.ProcedureID != nil},
+		{"k.welder_id", pf.WelderID, pf.WelderID != ""},
+		// A weld's records are found by the weld claims' key (site, weld_id,
+		// procedure_id; migration 000048): each claim's record is a row of the
+		// list's key when it is logged and live, and at most one per procedure.
+		{"w.weld_id", pf.WeldID, pf.WeldID != ""},
 	} {
 		if e.set {
-			f.add("k."+e.col+" = ?", e.val)
+			f.add(e.col+" = ?", e.val)
 			equality = true
 		}
 	}
@@ -117,8 +123,13 @@ func (s *Store) listProduction(ctx context.Context, site string, pf ProductionRe
 		f.add("(SELECT true FROM flags fl WHERE fl.site = $1 AND fl.subject_id = k.id LIMIT 1)")
 	}
 	lim := pageLimit(limit)
+	table := "production_list"
+	if pf.WeldID != "" {
+		table = "production_welds w, production_list"
+		f.conds = append(f.conds, "w.site = k.site", "w.record_id = k.id")
+	}
 	walk := func(conds []string) string {
-		return keyWalk("production_list", "k.id, k.recorded_at, k.leaf_index", conds, lim)
+		return keyWalk(table, "k.id, k.recorded_at, k.leaf_index", conds, lim)
 	}
 	keys := walk(f.conds)
 	if !equality && (pf.RecordedFrom != nil || pf.RecordedTo != nil) {
