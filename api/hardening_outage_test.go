@@ -57,7 +57,7 @@ func freshEnvWith(t *testing.T, opt api.Options, hs func(*http.Server)) (*testEn
 	if err != nil {
 		t.Fatal(err)
 	}
-	store, err := db.Open(ctx, appURL)
+	store, err := db.Open(ctx, appURL, 0)
 	if err != nil {
 		t.Fatal(err)
 	}

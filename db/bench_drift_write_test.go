@@ -26,7 +26,11 @@ import (
 //   - RawInsert: a bare pgx INSERT of a comparable coupon row.
 //
 // It reports ms/op of each, the ratios raw/Store and raw/StoreRedraw, and
-// Store against the uncalibrated create.
+// Store against the uncalibrated create. A create now rewrites only the
+// charts its coupon has a point on (newCouponDrift), and a new coupon has
+// no sections, so no point on this group's penetration chart: Store and
+// StoreRedraw no longer touch the chart: only the writes that move a point
+// (a section, a correction, an import) update it.
 // go test ./db/ -run XXX -bench BenchmarkCouponWriteCalibratedGroup -benchtime 10x
 func BenchmarkCouponWriteCalibratedGroup(b *testing.B) {
 	fb := seedFitGroup(b, benchGroupSize(b))

@@ -30,7 +30,7 @@ func BenchmarkExport(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	s, err := db.Open(ctx, appURL)
+	s, err := db.Open(ctx, appURL, 0)
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -53,7 +53,7 @@ func seedFitGroup(b *testing.B, n int) fitBench {
 	if err != nil {
 		b.Fatal(err)
 	}
-	s, err := db.Open(ctx, appURL)
+	s, err := db.Open(ctx, appURL, 0)
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -154,7 +154,7 @@ func writeBenchSite(b *testing.B) (*db.Store, string) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	s, err := db.Open(ctx, appURL)
+	s, err := db.Open(ctx, appURL, 0)
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -347,12 +347,22 @@ var families = []string{"penetration", "melting"}
 // points are not against the calibration in use, the chart is drawn again
 // from the records and stored.
 func recomputeDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, groups []CalibrationGroup, coupons []uuid.UUID) error {
+	return recomputeCharts(ctx, tx, now, site, chartKeys(groups), coupons)
+}
+
+// chartKeys are the charts of groups, every family of each: key to group.
+func chartKeys(groups []CalibrationGroup) map[string]CalibrationGroup {
 	keys := map[string]CalibrationGroup{}
 	for _, g := range groups {
 		for _, f := range families {
 			keys[driftKey(f, g)] = g.canonical()
 		}
 	}
+	return keys
+}
+
+// recomputeCharts is recomputeDrift for the charts keys names.
+func recomputeCharts(ctx context.Context, tx pgx.Tx, now time.Time, site string, keys map[string]CalibrationGroup, coupons []uuid.UUID) error {
 	sorted := make([]string, 0, len(keys))
 	for k := range keys {
 		sorted = append(sorted, k)
@@ -422,6 +432,15 @@ func driftFamily(key string) string {
 // they are or were in (a correction may move one from one group to
 // another) and rewrites those charts' drift flags.
 func couponDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, ids ...uuid.UUID) error {
+	groups, err := couponGroups(ctx, tx, site, ids)
+	if err != nil {
+		return err
+	}
+	return recomputeDrift(ctx, tx, now, site, groups, ids)
+}
+
+// couponGroups are the calibration groups the coupons ids are or were in.
+func couponGroups(ctx context.Context, tx pgx.Tx, site string, ids []uuid.UUID) ([]CalibrationGroup, error) {
 	rows, _ := tx.Query(ctx, `SELECT DISTINCT coalesce(p.process, r.process, '') AS process, c.joint_type,
 			coalesce(nullif(c.shielding_gas, ''), p.shielding_gas, r.shielding_gas, '') AS shielding_gas,
 			coalesce(c.wire_diameter_mm, p.wire_diameter_mm, r.wire_diameter_mm, 0) AS wire_diameter_mm
@@ -433,9 +452,9 @@ func couponDrift(ctx context.Context, tx pgx.Tx, now time.Time, site string, ids
 		WHERE c.site = $1 AND c.id IN (SELECT unnest($2::uuid[]))`, site, ids)
 	groups, err := pgx.CollectRows(rows, pgx.RowToStructByName[CalibrationGroup])
 	if err != nil {
-		return fmt.Errorf("groups of coupons: %w", err)
+		return nil, fmt.Errorf("groups of coupons: %w", err)
 	}
-	return recomputeDrift(ctx, tx, now, site, groups, ids)
+	return groups, nil
 }
 
 // importDrift is couponDrift for the coupons an import part wrote, unless

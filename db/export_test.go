@@ -16,7 +16,7 @@ import (
 // OpenTraced is Open with tr watching every statement of the service pool,
 // for tests that examine what a method sends (the list plans test).
 func OpenTraced(ctx context.Context, url string, tr pgx.QueryTracer) (*Store, error) {
-	s, err := Open(ctx, url)
+	s, err := Open(ctx, url, 0)
 	if err != nil {
 		return nil, err
 	}

@@ -137,6 +137,9 @@ func writtenCouponFlags(ctx context.Context, kept *judgedCache, m Meta, in **cou
 		if !(*in).calibrated { // no calibration of the process was ever chosen: no drift chart to redraw
 			return nil
 		}
+		if m.Revision == 1 && out.ProcedureID != nil { // a create, under its procedure's flag lock
+			return newCouponDrift(ctx, tx, m.CreatedAt, *out)
+		}
 		return couponDrift(ctx, tx, m.CreatedAt, m.Site, m.ID)
 	}
 }

@@ -104,7 +104,7 @@ func Setup(ctx context.Context, ownerURL string) error {
 // OpenOwner connects as OwnerRole through the administrator's login in url,
 // for administration (users, migrations); the service never uses it.
 func OpenOwner(ctx context.Context, url string) (*Store, error) {
-	return open(ctx, url, OwnerRole, false)
+	return open(ctx, url, OwnerRole, false, 0)
 }
 
 // AppURL is url with its login replaced by AppRole and no password: the

@@ -138,7 +138,7 @@ func TestServiceGrants(t *testing.T) {
 func TestOpenRefusesPrivilegedLogin(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()
-	if s, err := db.Open(ctx, dbtest.URL(t)); !errors.Is(err, db.ErrPrivilegedLogin) {
+	if s, err := db.Open(ctx, dbtest.URL(t), 0); !errors.Is(err, db.ErrPrivilegedLogin) {
 		if s != nil {
 			s.Close()
 		}
@@ -146,7 +146,7 @@ func TestOpenRefusesPrivilegedLogin(t *testing.T) {
 	}
 	u, _ := url.Parse(dbtest.URL(t))
 	u.RawQuery += "&options=-c%20role%3D" + db.OwnerRole
-	if s, err := db.Open(ctx, u.String()); !errors.Is(err, db.ErrPrivilegedLogin) {
+	if s, err := db.Open(ctx, u.String(), 0); !errors.Is(err, db.ErrPrivilegedLogin) {
 		if s != nil {
 			s.Close()
 		}
@@ -217,7 +217,7 @@ func TestMigrateDownRefusesRecords(t *testing.T) {
 		t.Fatal(err)
 	}
 	app, _ := db.AppURL(u)
-	s, err := db.Open(ctx, app)
+	s, err := db.Open(ctx, app, 0)
 	if err != nil {
 		t.Fatal(err)
 	}

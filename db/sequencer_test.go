@@ -21,7 +21,7 @@ func openStore(t *testing.T) *db.Store {
 	if err != nil {
 		t.Fatal(err)
 	}
-	s, err := db.Open(context.Background(), app)
+	s, err := db.Open(context.Background(), app, 0)
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -39,7 +39,7 @@ func TestExportReadsTheStandby(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	s, err := db.Open(ctx, appURL)
+	s, err := db.Open(ctx, appURL, 0)
 	if err != nil {
 		t.Fatal(err)
 	}

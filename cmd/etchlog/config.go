@@ -9,6 +9,7 @@ import (
 	"io"
 	"log/slog"
 	"net/url"
+	"strconv"
 	"strings"
 	"time"
 
@@ -27,6 +28,7 @@ type config struct {
 	LogLevel   string
 	BodyLimit  string
 	PerUser    int
+	DBConns    int    // the main pool's connections to PostgreSQL (db.Open)
 	LogKey     string // the private log signing key text (env ETCHLOG_LOG_KEY)
 	LogKeyFile string // or a file holding it
 	// ReadURL is a streaming standby the export may read from (env
@@ -37,7 +39,7 @@ type config struct {
 
 // defaults fills the configuration from the environment.
 func defaults(getenv func(string) string) config {
-	c := config{Addr: "127.0.0.1:8080", LogLevel: "info", BodyLimit: "1MiB", PerUser: api.DefaultPerUser, DatabaseURL: getenv("DATABASE_URL"),
+	c := config{Addr: "127.0.0.1:8080", LogLevel: "info", BodyLimit: "1MiB", PerUser: api.DefaultPerUser, DBConns: db.DefaultConns, DatabaseURL: getenv("DATABASE_URL"),
 		OwnerURL: getenv("ETCHLOG_OWNER_DATABASE_URL"), LogKey: getenv("ETCHLOG_LOG_KEY"), LogKeyFile: getenv("ETCHLOG_LOG_KEY_FILE"),
 		ReadURL: getenv("DATABASE_READ_URL"), ReadMaxLag: 5 * time.Second}
 	if v := getenv("ETCHLOG_ADDR"); v != "" {
@@ -45,6 +47,11 @@ func defaults(getenv func(string) string) config {
 	}
 	if v := getenv("ETCHLOG_LOG_LEVEL"); v != "" {
 		c.LogLevel = v
+	}
+	if n, err := strconv.Atoi(getenv("ETCHLOG_DB_CONNS")); err == nil {
+		c.DBConns = n // validate refuses a number below 1
+	} else if getenv("ETCHLOG_DB_CONNS") != "" {
+		c.DBConns = -1
 	}
 	return c
 }
@@ -64,6 +71,8 @@ func (c *config) serverFlags(fs *flag.FlagSet) {
 	fs.StringVar(&c.LogKeyFile, "log-key-file", c.LogKeyFile, "file with the log signing key made by etchlog keygen (env ETCHLOG_LOG_KEY_FILE; or the key in ETCHLOG_LOG_KEY)")
 	fs.StringVar(&c.BodyLimit, "body-limit", c.BodyLimit, "largest request body, e.g. 1MiB (binary) or 1M (10^6 bytes)")
 	fs.IntVar(&c.PerUser, "per-user", c.PerUser, "requests one user may have running at once; more get 429")
+	fs.IntVar(&c.DBConns, "db-conns", c.DBConns, fmt.Sprintf("connections to PostgreSQL for requests, at most (env ETCHLOG_DB_CONNS); "+
+		"exports and audit verifications have %d more, the log sequencer one", db.LongReadConns))
 	fs.StringVar(&c.ReadURL, "database-read-url", c.ReadURL,
 		"PostgreSQL streaming standby the export reads from while it keeps up (env DATABASE_READ_URL; empty: none)")
 	fs.DurationVar(&c.ReadMaxLag, "read-max-lag", c.ReadMaxLag, "replay lag past which the export reads the primary instead of the standby")
@@ -77,6 +86,9 @@ func (c config) validate() error {
 	}
 	if c.Addr == "" {
 		return fmt.Errorf("listen address is empty")
+	}
+	if c.DBConns < 1 || c.DBConns > 1000 {
+		return fmt.Errorf("db-conns (env ETCHLOG_DB_CONNS): want a whole number from 1 to 1000")
 	}
 	return nil
 }
@@ -188,7 +200,7 @@ func openStore(ctx context.Context, c config, log *slog.Logger) (*db.Store, erro
 	} else {
 		log.Info("no administrator login: migrations are not applied (set -owner-database-url)")
 	}
-	store, err := db.Open(ctx, dbs.app)
+	store, err := db.Open(ctx, dbs.app, c.DBConns)
 	if err != nil || c.ReadURL == "" {
 		return store, err
 	}

@@ -82,7 +82,7 @@ func TestCrashLosesNoAcknowledgedWrite(t *testing.T) {
 	}
 	defer owner.Close()
 	app, _ := db.AppURL(url)
-	store, err := db.Open(ctx, app)
+	store, err := db.Open(ctx, app, 0)
 	if err != nil {
 		t.Fatal(err)
 	}

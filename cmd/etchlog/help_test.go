@@ -13,7 +13,7 @@ import (
 // stdout naming the command, and it lists exactly the command's own flags.
 func TestHelp(t *testing.T) {
 	t.Parallel()
-	server := []string{"addr", "body-limit", "database-read-url", "database-url", "log-key-file", "log-level", "owner-database-url", "per-user", "read-max-lag"}
+	server := []string{"addr", "body-limit", "database-read-url", "database-url", "db-conns", "log-key-file", "log-level", "owner-database-url", "per-user", "read-max-lag"}
 	flagLine := regexp.MustCompile(`(?m)^  -(\S+)`)
 	for _, c := range []struct {
 		args  []string

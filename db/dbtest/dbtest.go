@@ -69,7 +69,7 @@ func setup() {
 	if owner, setupEr = db.OpenOwner(ctx, dbURL); setupEr != nil {
 		return
 	}
-	if store, setupEr = db.Open(ctx, appURL); setupEr != nil {
+	if store, setupEr = db.Open(ctx, appURL, 0); setupEr != nil {
 		return
 	}
 	if setupEr = store.SetLogKey(PrivateKey); setupEr != nil {
