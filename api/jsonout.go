@@ -7,6 +7,7 @@ import (
 	"io"
 	"math"
 	"strconv"
+	"strings"
 
 	"github.com/labstack/echo/v4"
 
@@ -219,64 +220,86 @@ func writeValue(out *bytes.Buffer, v any) {
 // writeNumber writes an integer literal as it came and any other number
 // rounded, in encoding/json's float format.
 func writeNumber(out *bytes.Buffer, lit string, f float64, isFloat bool) {
-	if !isFloat {
-		if !bytes.ContainsAny([]byte(lit), ".eE") {
-			out.WriteString(lit)
-			return
+	var buf [32]byte
+	out.Write(appendNumber(buf[:0], lit, f, isFloat))
+}
+
+// appendNumber is writeNumber appending to b.
+func appendNumber(b []byte, lit string, f float64, isFloat bool) []byte {
+	r := f
+	if isFloat {
+		r = roundAnswer(f)
+	} else {
+		if !strings.ContainsAny(lit, ".eE") {
+			return append(b, lit...)
 		}
 		var err error
 		if f, err = strconv.ParseFloat(lit, 64); err != nil {
-			out.WriteString(lit)
-			return
+			return append(b, lit...)
+		}
+		r = f
+		if significantDigits(lit) > answerDigits {
+			r = roundAnswer(f)
 		}
 	}
-	r := roundAnswer(f)
 	if math.IsNaN(r) || math.IsInf(r, 0) { // never from encoding/json, which refuses them
-		out.WriteString(lit)
-		return
+		return append(b, lit...)
 	}
-	var buf [32]byte
-	out.Write(logfmt.AppendJSONFloat(buf[:0], r))
+	return logfmt.AppendJSONFloat(b, r)
+}
+
+// significantDigits counts the digits of a number literal's mantissa from
+// its first non-zero one (trailing zeros counted). A literal of at most
+// answerDigits of them needs no rounding: the double nearest it lies within
+// half a unit in the last place (at most about 1.1e-16 of it) of its
+// decimal, far inside half a unit of the answerDigits-th digit (at least
+// 5e-13 of it), so rounding that double to answerDigits digits gives the
+// same decimal back and reading that gives the same double (a subnormal
+// double, spaced wider than that digit, reads back as itself whatever the
+// rounding). TestShortLiteralsNeedNoRounding checks it. Most stored values
+// are typed to a few digits: this spares them two of the four conversions.
+func significantDigits(lit string) int {
+	n, lead := 0, true
+	for i := 0; i < len(lit); i++ {
+		switch c := lit[i]; {
+		case c == 'e' || c == 'E':
+			return n
+		case c == '0' && lead:
+		case c >= '0' && c <= '9':
+			lead = false
+			n++
+		}
+	}
+	return n
 }
 
 // roundNumbers is rewriteAnswer without unit conversion, in one pass over
 // the bytes of a document encoding/json wrote: every number outside a
-// string is rewritten by writeNumber, everything else copied. Building the
-// document's tree and writing it again cost a list page eight times what
-// reading it from the database did.
+// string that is not an integer is rewritten by appendNumber; the bytes
+// between are copied in runs. Building the document's tree and writing it
+// again cost a list page eight times what reading it from the database did.
 func roundNumbers(doc []byte) []byte {
-	var out bytes.Buffer
-	out.Grow(len(doc))
-	inString := false
+	out := make([]byte, 0, len(doc))
+	copied := 0 // doc[:copied] is in out
 	for i := 0; i < len(doc); i++ {
-		c := doc[i]
-		switch {
-		case inString:
-			if c == '\\' && i+1 < len(doc) {
-				out.WriteByte(c)
-				i++
-				c = doc[i]
-			} else if c == '"' {
-				inString = false
-			}
-			out.WriteByte(c)
+		switch c := doc[i]; {
 		case c == '"':
-			inString = true
-			out.WriteByte(c)
+			for i++; i < len(doc) && doc[i] != '"'; i++ {
+				if doc[i] == '\\' {
+					i++ // the escaped byte cannot end the string
+				}
+			}
 		case c == '-' || c >= '0' && c <= '9':
 			j := i + 1
 			for j < len(doc) && (doc[j] >= '0' && doc[j] <= '9' || doc[j] == '.' || doc[j] == 'e' || doc[j] == 'E' || doc[j] == '+' || doc[j] == '-') {
 				j++
 			}
-			if lit := doc[i:j]; bytes.ContainsAny(lit, ".eE") {
-				writeNumber(&out, string(lit), 0, false)
-			} else {
-				out.Write(lit) // an integer passes unchanged
+			if lit := doc[i:j]; bytes.ContainsAny(lit, ".eE") { // an integer passes unchanged
+				out = appendNumber(append(out, doc[copied:i]...), string(lit), 0, false)
+				copied = j
 			}
 			i = j - 1
-		default:
-			out.WriteByte(c)
 		}
 	}
-	return out.Bytes()
+	return append(out, doc[copied:]...)
 }

@@ -1,9 +1,12 @@
 package api
 
 import (
+	"bytes"
 	"encoding/json"
 	"math"
 	"math/rand/v2"
+	"strconv"
+	"strings"
 	"testing"
 
 	"etchlog/db/logfmt"
@@ -130,6 +133,40 @@ func TestAppendFloatMatchesEncodingJSON(t *testing.T) {
 		}
 		if got := logfmt.AppendJSONFloat(nil, v); string(got) != string(want) {
 			t.Fatalf("AppendJSONFloat(%v) = %s, encoding/json writes %s", v, got, want)
+		}
+	}
+}
+
+// TestShortLiteralsNeedNoRounding checks the short cut of writeNumber: a
+// literal of at most answerDigits significant digits, in every form a JSON
+// document may carry it (encoding/json's, fixed, exponent, trailing zeros),
+// at every magnitude from subnormal to the largest, is written as the full
+// rounding (roundAnswer, then encoding/json's format) writes it.
+func TestShortLiteralsNeedNoRounding(t *testing.T) {
+	rng := rand.New(rand.NewPCG(91, 17))
+	lits := []string{"0.0", "-0.0", "1e-323", "5e-324", "2.2250738585e-308", "1.79769313486e308", "9.99999999999e20", "1e21", "0.000001", "100.000000000"}
+	for range 50000 {
+		v := (rng.Float64() - 0.5) * math.Pow(10, float64(rng.IntN(640)-320))
+		digits := 1 + rng.IntN(answerDigits)
+		lits = append(lits,
+			strconv.FormatFloat(v, 'e', digits-1, 64),
+			strconv.FormatFloat(v, 'g', digits, 64),
+			string(logfmt.AppendJSONFloat(nil, roundTo(v, digits))),
+			strconv.FormatFloat(roundTo(v, digits), 'f', -1, 64)+".0")
+	}
+	for _, lit := range lits {
+		if !strings.ContainsAny(lit, ".eE") || significantDigits(lit) > answerDigits {
+			continue
+		}
+		f, err := strconv.ParseFloat(lit, 64)
+		if err != nil {
+			continue // out of range: written as it came either way
+		}
+		want := logfmt.AppendJSONFloat(nil, roundAnswer(f))
+		var got bytes.Buffer
+		writeNumber(&got, lit, 0, false)
+		if got.String() != string(want) {
+			t.Fatalf("writeNumber(%s) = %s, the full rounding writes %s", lit, got.String(), want)
 		}
 	}
 }

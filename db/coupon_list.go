@@ -96,6 +96,42 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 	if err != nil {
 		return Page[Coupon]{}, fmt.Errorf("db: list coupon: %w", err)
 	}
+	sql, args, err := couponListQuery(site, cf, from, limit)
+	if err != nil {
+		return Page[Coupon]{}, err
+	}
+	// Rows are scanned by position into listedCoupon.targets: the statement
+	// selects coupons.columns() (Meta's columns, then CouponData's, each in
+	// field order, read from the structs' tags) and then listedCoupon's
+	// own, in its field order. TestCouponListScansByPosition compares the
+	// statement's column names with those fields and the targets with
+	// them. Matching each row's columns by name, and finding each field by
+	// reflection, cost half the page's scan.
+	var page []listedCoupon
+	err = s.readPage(ctx, site, sql, args, func(rows pgx.Rows) error {
+		var err error
+		page, err = pgx.CollectRows(rows, func(row pgx.CollectableRow) (listedCoupon, error) {
+			var c listedCoupon
+			return c, row.Scan(c.targets()...)
+		})
+		return err
+	})
+	if err != nil {
+		return Page[Coupon]{}, fmt.Errorf("db: list coupon: %w", mapError(err))
+	}
+	items := make([]Coupon, len(page))
+	last := int64(-1)
+	for i, c := range page {
+		items[i] = c.Coupon
+		items[i].inherit(couponDefaults{Process: c.Process, WireDiameterMM: c.WireDiameterMM, ShieldingGas: c.ShieldingGas, Polarity: c.Polarity})
+		last = c.LeafIndex
+	}
+	return Page[Coupon]{Items: items, Next: nextLogCursor(coupons.name, from, last, len(items))}, nil
+}
+
+// couponListQuery is the statement of one coupons page (and its
+// arguments): the rows of listedCoupon, in its field order.
+func couponListQuery(site string, cf CouponFilter, from int64, limit int) (string, []any, error) {
 	f := newFilter()
 	f.args[0], f.args[1] = site, from
 	if !cf.IncludeVoided {
@@ -129,7 +165,7 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 		accepted = []string{cf.Acceptance}
 	case "":
 	default:
-		return Page[Coupon]{}, &FieldError{Field: "acceptance", Reason: "want accept or reject"}
+		return "", nil, &FieldError{Field: "acceptance", Reason: "want accept or reject"}
 	}
 	byDays := !equality && (cf.WeldedFrom != nil || cf.WeldedTo != nil)
 	if !byDays && cf.Acceptance != "" {
@@ -196,23 +232,7 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 		LEFT JOIN LATERAL (SELECT process, wire_diameter_mm, shielding_gas, polarity FROM qualification_records
 			WHERE site = $1 AND id = k.qualification_record_id ORDER BY revision DESC LIMIT 1) r ON true
 		ORDER BY k.leaf_index`
-	var page []listedCoupon
-	err = s.readPage(ctx, site, sql, f.args, func(rows pgx.Rows) error {
-		var err error
-		page, err = pgx.CollectRows(rows, pgx.RowToStructByName[listedCoupon])
-		return err
-	})
-	if err != nil {
-		return Page[Coupon]{}, fmt.Errorf("db: list coupon: %w", mapError(err))
-	}
-	items := make([]Coupon, len(page))
-	last := int64(-1)
-	for i, c := range page {
-		items[i] = c.Coupon
-		items[i].inherit(couponDefaults{Process: c.Process, WireDiameterMM: c.WireDiameterMM, ShieldingGas: c.ShieldingGas, Polarity: c.Polarity})
-		last = c.LeafIndex
-	}
-	return Page[Coupon]{Items: items, Next: nextLogCursor(coupons.name, from, last, len(items))}, nil
+	return sql, f.args, nil
 }
 
 // listedCoupon is one row of a coupons page: the coupon as stored, its log
@@ -224,6 +244,19 @@ type listedCoupon struct {
 	WireDiameterMM *float64 `db:"inherited_wire_diameter_mm"`
 	ShieldingGas   string   `db:"inherited_shielding_gas"`
 	Polarity       *string  `db:"inherited_polarity"`
+}
+
+// targets are the addresses a row of the page is scanned into, one per
+// column, in the statement's order (the fields' order, embedded structs
+// flattened, fields tagged "-" left out).
+func (c *listedCoupon) targets() []any {
+	m, d := &c.Meta, &c.CouponData
+	return []any{&m.Site, &m.ID, &m.Revision, &m.CreatedAt, &m.CreatedBy, &m.Reason, &m.Voided,
+		&d.ProcedureID, &d.QualificationRecordID, &d.CouponMark, &d.WelderID, &d.PowerSourceID, &d.FillerLot,
+		&d.WeldedOn, &d.JointType, &d.ThicknessMM, &d.PassNumber, &d.CurrentA, &d.VoltageV, &d.TravelSpeedMMPerS,
+		&d.WireFeedSpeedMPerMin, &d.CTWDMM, &d.WireDiameterMM, &d.ShieldingGas, &d.Polarity, &d.Position,
+		&d.PreheatC, &d.InterpassC,
+		&c.LeafIndex, &c.Process, &c.WireDiameterMM, &c.ShieldingGas, &c.Polarity}
 }
 
 // maxDayWalk is the longest welding-day range (in days) the coupons list
