@@ -74,26 +74,38 @@ func nextLogCursor(list string, from, lastIndex int64, n int) string {
 	return SeqCursor(list, lastIndex+1)
 }
 
-// indexedRow hides a query's last column (the log index) from struct
-// scanning and scans it into idx instead.
-type indexedRow struct {
+// tailRow hides a query's last len(tail) columns from struct scanning and
+// scans them into tail instead.
+type tailRow struct {
 	pgx.CollectableRow
-	idx *int64
+	tail []any
 }
 
-func (r indexedRow) FieldDescriptions() []pgconn.FieldDescription {
+func (r tailRow) FieldDescriptions() []pgconn.FieldDescription {
 	fd := r.CollectableRow.FieldDescriptions()
-	return fd[:len(fd)-1]
+	return fd[:len(fd)-len(r.tail)]
 }
 
-func (r indexedRow) Scan(dest ...any) error { return r.CollectableRow.Scan(append(dest, r.idx)...) }
+func (r tailRow) Scan(dest ...any) error { return r.CollectableRow.Scan(append(dest, r.tail...)...) }
 
 // collectIndexed reads rows whose last column is the log index into T and
 // returns the index of the last row.
 func collectIndexed[T any](rows pgx.Rows) ([]T, int64, error) {
+	return collectTail[T](rows, nil)
+}
+
+// collectTail reads rows into T whose last columns are tail's and then the
+// log index, calling each (when set) after each row with the row's item,
+// tail scanned; it returns the index of the last row.
+func collectTail[T any](rows pgx.Rows, each func(*T), tail ...any) ([]T, int64, error) {
 	var last int64 = -1
+	tail = append(tail, &last)
 	items, err := pgx.CollectRows(rows, func(row pgx.CollectableRow) (T, error) {
-		return pgx.RowToStructByName[T](indexedRow{row, &last})
+		item, err := pgx.RowToStructByName[T](tailRow{row, tail})
+		if err == nil && each != nil {
+			each(&item)
+		}
+		return item, err
 	})
 	return items, last, err
 }

@@ -56,6 +56,15 @@ func keyWalk(table, cols string, conds []string, lim string) string {
 			ORDER BY k.leaf_index` + lim
 }
 
+// revisionByKey joins to a page's keys k (id, revision) at site $1 the
+// revision of t each names, as alias: read by its key, a lateral subquery
+// the planner cannot flatten, so a page is one probe per row in the walk's
+// order and never a hash of every record of the site.
+func revisionByKey(t table, alias string) string {
+	return `CROSS JOIN LATERAL (SELECT ` + t.columns() + ` FROM ` + t.name + `
+			WHERE site = $1 AND id = k.id AND revision = k.revision OFFSET 0) ` + alias
+}
+
 // ofKind is the ids of the leaves of kind among l, and their log indexes
 // when l's first leaf takes index size.
 func (l *leafRows) ofKind(kind string, size uint64) (ids [][16]byte, at []int64) {

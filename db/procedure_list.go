@@ -32,9 +32,9 @@ func queueProcedureList(b *pgx.Batch, site string, out *leafRows) {
 // Procedures lists current procedures after the cursor in log order: the
 // page's keys walked in log order through the filter's index of
 // procedure_list (the page size written into the statement), then each
-// revision read by its key.
+// revision read by its key with its sign-off, in one statement.
 func (s *Store) Procedures(ctx context.Context, site string, pf ProcedureFilter, cursor string, limit int) (Page[Procedure], error) {
-	pg, err := logPage(procedures.name, procedures.entity, cursor, limit, func(from int64, limit int) ([]Procedure, int64, error) {
+	return logPage(procedures.name, procedures.entity, cursor, limit, func(from int64, limit int) ([]Procedure, int64, error) {
 		f := newFilter()
 		f.args[0], f.args[1] = site, from
 		if !pf.IncludeVoided {
@@ -46,16 +46,13 @@ func (s *Store) Procedures(ctx context.Context, site string, pf ProcedureFilter,
 		if pf.Status != "" {
 			f.add("k.status = ?", pf.Status)
 		}
-		sql := `SELECT ` + prefixed("p.", procedures.columns()) + `, k.leaf_index
+		sql := `SELECT ` + prefixed("p.", procedures.columns()) + `, ` + signedColumns + `, k.leaf_index
 		FROM (` + keyWalk("procedure_list", "k.id, k.revision, k.leaf_index", f.conds, pageLimit(limit)) + `) k
-		JOIN procedures p ON p.site = $1 AND p.id = k.id AND p.revision = k.revision
+		` + revisionByKey(procedures, "p") + `
+		` + signedJoin(SignProcedure, "k") + `
 		ORDER BY k.leaf_index`
-		return readIndexed[Procedure](ctx, s, site, sql, f.args)
+		return readSigned[Procedure](ctx, s, site, sql, f.args)
 	})
-	if err != nil {
-		return pg, err
-	}
-	return pg, attachSignOffs(ctx, s.pool, site, pg.Items)
 }
 
 // RecheckProcedureList compares the site's procedure_list with

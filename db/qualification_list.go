@@ -35,7 +35,8 @@ func queueQualificationList(b *pgx.Batch, site string, out *leafRows) {
 // listQualificationRecords returns one page of current PQRs matching qf in
 // log order from index from: the page's keys walked in log order through
 // the filter's index of qualification_list (the page size written into the
-// statement), then each revision read by its key. A welding-day range
+// statement), then each revision read by its key with its sign-off, in one
+// statement. A welding-day range
 // without a welder walks each day of the range (of its partial months when
 // it spans more than maxDayWalk days) and each whole month between, up to a
 // page each, and merges the heads: at most (days + months) × limit index
@@ -70,11 +71,12 @@ func (s *Store) listQualificationRecords(ctx context.Context, site string, qf Qu
 		w := splitDays(qf.WeldedFrom, qf.WeldedTo)
 		keys = f.rangeKeys(w, "qualification_list", "welded_on", "welded_month", "b.id, b.revision, b.leaf_index", lim, walk)
 	}
-	sql := `SELECT ` + prefixed("q.", qualificationRecords.columns()) + `, k.leaf_index
+	sql := `SELECT ` + prefixed("q.", qualificationRecords.columns()) + `, ` + signedColumns + `, k.leaf_index
 		FROM (` + keys + `) k
-		JOIN qualification_records q ON q.site = $1 AND q.id = k.id AND q.revision = k.revision
+		` + revisionByKey(qualificationRecords, "q") + `
+		` + signedJoin(SignQualificationRecord, "k") + `
 		ORDER BY k.leaf_index`
-	return readIndexed[QualificationRecord](ctx, s, site, sql, f.args)
+	return readSigned[QualificationRecord](ctx, s, site, sql, f.args)
 }
 
 // RecheckQualificationList compares the site's qualification_list with

@@ -123,11 +123,7 @@ type QualificationRecordFilter struct {
 // QualificationRecords lists current PQRs after the cursor, in log order
 // through the list's key (qualification_list.go).
 func (s *Store) QualificationRecords(ctx context.Context, site string, qf QualificationRecordFilter, cursor string, limit int) (Page[QualificationRecord], error) {
-	pg, err := logPage(qualificationRecords.name, qualificationRecords.entity, cursor, limit, func(from int64, limit int) ([]QualificationRecord, int64, error) {
+	return logPage(qualificationRecords.name, qualificationRecords.entity, cursor, limit, func(from int64, limit int) ([]QualificationRecord, int64, error) {
 		return s.listQualificationRecords(ctx, site, qf, from, limit)
 	})
-	if err != nil {
-		return pg, err
-	}
-	return pg, attachSignOffs(ctx, s.pool, site, pg.Items)
 }

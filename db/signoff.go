@@ -249,6 +249,52 @@ func attachSignOffs[T any](ctx context.Context, q querier, site string, items []
 	return nil
 }
 
+// signedColumns are the columns a page of signable records reads before
+// each row's log index: the sign-off of the row's revision (signedJoin),
+// null when it is unsigned.
+const signedColumns = "so.id, so.statement, so.signed_hash, so.signed_hash_of, so.signed_by, so.signer_role, so.signed_at"
+
+// signedJoin joins to a page's rows (alias r, with id and revision) at site
+// $1 the sign-off of kind of that revision, found by its key: a lateral
+// subquery the planner cannot flatten, one probe per row, so that it never
+// hashes every sign-off of the site for a page.
+func signedJoin(kind, r string) string {
+	return `LEFT JOIN LATERAL (SELECT ` + signOffColumns + ` FROM sign_offs
+			WHERE site = $1 AND record_kind = '` + kind + `' AND record_id = ` + r + `.id AND record_revision = ` + r + `.revision OFFSET 0) so ON true`
+}
+
+// readSigned reads one page of signable records with readPage, each row
+// ending with signedColumns and its log index, and returns the items, each
+// with its sign-off, and the last one's index: the page and its sign-offs
+// in one statement.
+func readSigned[T any, P interface {
+	*T
+	signable
+}](ctx context.Context, s *Store, site, sql string, args []any) ([]T, int64, error) {
+	var (
+		id                      *uuid.UUID
+		statement, of, by, role *string
+		hash                    []byte
+		at                      *time.Time
+	)
+	signed := func(item *T) {
+		kind, rid, rev, slot := P(item).signOffSlot()
+		if id == nil {
+			*slot = nil
+			return
+		}
+		*slot = &SignOff{Site: site, ID: *id, RecordKind: kind, RecordID: rid, RecordRevision: rev, Statement: *statement,
+			SignedHash: hash, SignedHashOf: *of, SignedBy: *by, SignerRole: *role, SignedAt: *at}
+	}
+	var items []T
+	var last int64
+	err := s.readPage(ctx, site, sql, args, func(rows pgx.Rows) (err error) {
+		items, last, err = collectTail[T](rows, signed, &id, &statement, &hash, &of, &by, &role, &at)
+		return err
+	})
+	return items, last, err
+}
+
 func (p *Procedure) signOffSlot() (string, uuid.UUID, int, **SignOff) {
 	return SignProcedure, p.ID, p.Revision, &p.SignOff
 }

@@ -5,6 +5,7 @@ import (
 	"context"
 	"crypto/sha256"
 	"errors"
+	"reflect"
 	"strings"
 	"testing"
 
@@ -75,8 +76,8 @@ func TestSignOff(t *testing.T) {
 		t.Fatalf("read after sign-off: %+v, %v; want sign-off %s by %s", got.SignOff, err, so.ID, eng.Name)
 	}
 	page, err := s.QualificationRecords(ctx, site, db.QualificationRecordFilter{}, "", 10)
-	if err != nil || len(page.Items) != 1 || page.Items[0].SignOff == nil {
-		t.Errorf("list after sign-off: %+v, %v; want the PQR with its sign-off", page.Items, err)
+	if err != nil || len(page.Items) != 1 || !reflect.DeepEqual(page.Items[0].SignOff, got.SignOff) {
+		t.Errorf("list after sign-off: %+v, %v; want the PQR with its sign-off as the read shows it, %+v", page.Items, err, got.SignOff)
 	}
 
 	fixed := q.QualificationRecordData
@@ -87,6 +88,9 @@ func TestSignOff(t *testing.T) {
 	}
 	if got, _ := s.QualificationRecord(ctx, site, q.ID, 0); got.SignOff != nil || got.Revision != 2 {
 		t.Errorf("current revision after the correction: revision %d signed %v; want 2, unsigned", got.Revision, got.SignOff)
+	}
+	if page, err := s.QualificationRecords(ctx, site, db.QualificationRecordFilter{}, "", 10); err != nil || len(page.Items) != 1 || page.Items[0].SignOff != nil {
+		t.Errorf("list after the correction: %+v, %v; want revision 2, unsigned", page.Items, err)
 	}
 	revs, err := s.QualificationRecordRevisions(ctx, site, q.ID)
 	if err != nil || len(revs) != 2 || revs[0].SignOff == nil || revs[1].SignOff != nil {
@@ -144,8 +148,12 @@ func TestSignOffProcedureAndCalibration(t *testing.T) {
 	if _, err := s.SignOffRecord(ctx, eng, db.SignProcedure, p.ID, db.SignOffRequest{Revision: 1, Statement: "WPS approved for production."}); err != nil {
 		t.Fatal(err)
 	}
-	if got, err := s.Procedure(ctx, site, p.ID, 0); err != nil || got.SignOff == nil || got.SignOff.RecordKind != db.SignProcedure {
-		t.Errorf("procedure read: %+v, %v; want signed", got.SignOff, err)
+	read, err := s.Procedure(ctx, site, p.ID, 0)
+	if err != nil || read.SignOff == nil || read.SignOff.RecordKind != db.SignProcedure {
+		t.Errorf("procedure read: %+v, %v; want signed", read.SignOff, err)
+	}
+	if list, err := s.Procedures(ctx, site, db.ProcedureFilter{}, "", 10); err != nil || len(list.Items) != 1 || !reflect.DeepEqual(list.Items[0].SignOff, read.SignOff) {
+		t.Errorf("procedure list: %+v, %v; want the procedure with its sign-off as the read shows it, %+v", list.Items, err, read.SignOff)
 	}
 	storeFitCoupons(t, s, site, p.ID, 6)
 	c, err := s.CreateCalibration(ctx, eng, spec(db.CalibrationJacksonFixed))
