@@ -2,6 +2,7 @@ package db_test
 
 import (
 	"context"
+	"strings"
 	"testing"
 	"time"
 
@@ -10,6 +11,19 @@ import (
 
 	"etchlog/db"
 )
+
+// seedStatement is the statement of seedStatements that begins with prefix
+// (found by its text: a statement added to the seed moves the others).
+func seedStatement(tb testing.TB, prefix string) string {
+	tb.Helper()
+	for _, q := range seedStatements {
+		if strings.HasPrefix(q, prefix) {
+			return q
+		}
+	}
+	tb.Fatalf("no seed statement begins with %q", prefix)
+	return ""
+}
 
 // seedOtherLists adds to BenchmarkRecordListScale's site of n coupons the
 // records of the other lists, logged after the sections: n/200 procedures
@@ -26,8 +40,8 @@ func seedOtherLists(ctx context.Context, tb testing.TB, conn *pgx.Conn, n int) (
 		"welders": 250, "days": 2500, "procids": 60}
 	for _, q := range []string{
 		"SET session_replication_role = replica", // the seed's rows are unique by construction
-		seedStatements[0],                        // procedures
-		seedStatements[1],                        // qualification records
+		seedStatement(tb, "INSERT INTO procedures "),
+		seedStatement(tb, "INSERT INTO qualification_records "),
 		`INSERT INTO production_batches (site, id, created_at, created_by, record_count, first_id, last_id, procedure_ids)
 		SELECT @site, md5(@site::text || 'batch')::uuid, now(), 'seed', @production, md5(@site::text || 'r0')::uuid, md5(@site::text || 'r0')::uuid, '{}'`,
 		`SELECT etchlog_production_month((date '2019-01-01' + m * interval '1 month')::date)
@@ -45,7 +59,7 @@ func seedOtherLists(ctx context.Context, tb testing.TB, conn *pgx.Conn, n int) (
 		SELECT @site, 'production_record', md5(@site::text || 'r' || g)::uuid, timestamptz '2019-01-01' + g * (@days::int * interval '1 day' / @production::int),
 			md5(@site::text || 'p' || (g * 13 % @procids::int))::uuid, 1, 'range', 'current_a', 'seeded', now()
 		FROM generate_series(0, @production::int - 1, 20) g`,
-		seedStatements[8], // sign-offs
+		seedStatement(tb, "INSERT INTO sign_offs "),
 		// The log: after the coupons and sections, the procedures, the PQRs,
 		// the production records, then the sign-offs.
 		`INSERT INTO log_leaves (site, leaf_index, kind, version, record_id, revision, leaf_hash, actor, action, at, integrated_at, pending_seq)
