@@ -103,9 +103,9 @@ func TestImportLeavesVerify(t *testing.T) {
 
 // TestImportMarkTakenMeanwhile: a mark another write claims after the
 // import's plan read the marks, and commits while the import waits for it,
-// fails the import's claim on current_marks' primary key: the import is
-// rolled back whole (nothing of it stored) and the mark is named as a
-// conflict, as before the marks were copied.
+// fails the import's claim (its INSERT into current_marks) on the primary
+// key: the import is rolled back whole (nothing of it stored) and the mark
+// is named as a conflict.
 func TestImportMarkTakenMeanwhile(t *testing.T) {
 	t.Parallel()
 	s, site := dbtest.Store(t), dbtest.Site(t)
@@ -134,7 +134,7 @@ func TestImportMarkTakenMeanwhile(t *testing.T) {
 	watch, waiting := superuser(t), false
 	for deadline := time.Now().Add(20 * time.Second); !waiting && time.Now().Before(deadline); time.Sleep(20 * time.Millisecond) {
 		if err := watch.QueryRow(ctx, `SELECT count(*) > 0 FROM pg_stat_activity
-			WHERE wait_event_type = 'Lock' AND query LIKE 'COPY "current_marks"%'`).Scan(&waiting); err != nil {
+			WHERE wait_event_type = 'Lock' AND query LIKE 'INSERT INTO current_marks%'`).Scan(&waiting); err != nil {
 			t.Fatal(err)
 		}
 	}

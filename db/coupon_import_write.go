@@ -11,7 +11,6 @@ import (
 	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
-	"github.com/jackc/pgx/v5/pgtype"
 )
 
 // importRows is what an import copies in besides its marks: the planned
@@ -31,23 +30,33 @@ type importLeaves struct {
 	err               error
 }
 
-// markColumns are current_marks' columns as an import copies them.
-var markColumns = []string{"site", "kind", "mark", "record_id"}
-
-// markTypes are the types of markColumns (migration 000008).
-var markTypes = []uint32{pgtype.TextOID, pgtype.TextOID, pgtype.TextOID, pgtype.UUIDOID}
-
 // revisionColumns are metaColumns, then t's fields: the columns a revision
 // row is written in.
 func revisionColumns(t table) []string { return append(strings.Split(metaColumns, ", "), t.fields...) }
 
-// importMarks lays out the planned coupons' marks for current_marks.
-func importMarks(p *importPlan) (*copyRows, error) {
-	marks := make([][]any, len(p.create))
+// queueClaimMarks queues the insert of the planned coupons' marks into
+// current_marks, one statement over two arrays (a COPY takes two round
+// trips: its start, then its rows). The marks' primary key refuses a mark
+// another write claimed since the plan read the marks (errMarkTaken): the
+// whole import is rolled back (ImportCoupons names the mark), and importing
+// again finds that coupon.
+func queueClaimMarks(ctx context.Context, tx pgx.Tx, p *importPlan) error {
+	marks, ids := make([]string, len(p.create)), make([][16]byte, len(p.create))
 	for i, pc := range p.create {
-		marks[i] = []any{p.site, couponMark.kind, pc.in.Data.CouponMark, pc.id}
+		marks[i], ids[i] = pc.in.Data.CouponMark, pc.id // ids as [16]byte: pgx's direct encoding
 	}
-	return encodeCopyRows("current_marks", markColumns, markTypes, marks)
+	return queueExecMapped(ctx, tx, claimRefused, `INSERT INTO current_marks (site, kind, mark, record_id)
+		SELECT $1, $2, m, r FROM unnest($3::text[], $4::uuid[]) AS c (m, r)`, p.site, couponMark.kind, marks, ids)
+}
+
+// claimRefused maps the marks' insert error: a mark already in
+// current_marks is errMarkTaken.
+func claimRefused(err error) error {
+	var pg *pgconn.PgError
+	if errors.As(err, &pg) && pg.Code == pgerrcode.UniqueViolation && pg.TableName == "current_marks" {
+		return errMarkTaken
+	}
+	return fmt.Errorf("claim marks: %w", mapError(err))
 }
 
 // laidRows is one table's rows of an import, laid out for its COPY, or why
@@ -144,10 +153,6 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 		return nil
 	}
 	now := s.now()
-	marks, err := importMarks(p)
-	if err != nil {
-		return err
-	}
 	if err := j.readChecks(ctx, tx, p, now); err != nil {
 		return err
 	}
@@ -159,15 +164,12 @@ func (s *Store) writeImport(ctx context.Context, tx pgx.Tx, a Actor, p *importPl
 			leaves <- r.leaves(s, LeafEntry{Site: a.Site, Actor: a.Name, Action: actionCreate, At: now})
 		}
 	}()
-	// The marks' primary key refuses a mark another write claimed since
-	// the plan read the marks: the whole import is rolled back (ImportCoupons
-	// names the mark), and importing again finds that coupon.
-	if err := copyIn(ctx, tx, marks); err != nil {
-		var pg *pgconn.PgError
-		if errors.As(err, &pg) && pg.Code == pgerrcode.UniqueViolation && pg.TableName == "current_marks" {
-			return errMarkTaken
-		}
-		return fmt.Errorf("claim marks: %w", mapError(err))
+	// The marks are claimed in one round trip while the coupons are laid out.
+	if err := queueClaimMarks(ctx, tx, p); err != nil {
+		return err
+	}
+	if err := flushed(ctx, tx); err != nil {
+		return err
 	}
 	for range 2 { // the coupons, then the sections, each as soon as laid out
 		l := <-laid
