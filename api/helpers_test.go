@@ -39,9 +39,15 @@ func userName(role string) string { return "test-" + role }
 // newEnv starts the API on an httptest server for one test.
 func newEnv(tb testing.TB) *testEnv {
 	tb.Helper()
+	return newEnvWith(tb, api.Options{})
+}
+
+// newEnvWith is newEnv with server options (its Logger is the test log's).
+func newEnvWith(tb testing.TB, opt api.Options) *testEnv {
+	tb.Helper()
 	store := dbtest.Store(tb)
-	log := slog.New(slog.NewJSONHandler(testWriter{tb}, &slog.HandlerOptions{Level: slog.LevelError}))
-	srv, err := api.New(store, api.Options{Logger: log})
+	opt.Logger = slog.New(slog.NewJSONHandler(testWriter{tb}, &slog.HandlerOptions{Level: slog.LevelError}))
+	srv, err := api.New(store, opt)
 	if err != nil {
 		tb.Fatalf("api.New: %v", err)
 	}

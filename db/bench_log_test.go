@@ -10,7 +10,6 @@ import (
 	"testing"
 	"time"
 
-	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
 	"github.com/transparency-dev/merkle/compact"
 
@@ -49,26 +48,7 @@ func BenchmarkCouponWriteConcurrent(b *testing.B) {
 			}
 			c := couponData(p.ID, "")
 			raw := func() error {
-				tx, err := s.Pool().Begin(ctx)
-				if err != nil {
-					return err
-				}
-				defer tx.Rollback(ctx) //nolint:errcheck // no-op after Commit
-				if _, err := tx.Exec(ctx, `
-					INSERT INTO coupons (site, id, revision, created_at, created_by, reason, voided, procedure_id,
-						qualification_record_id, coupon_mark, welder_id, power_source_id, filler_lot, welded_on,
-						joint_type, thickness_mm, pass_number, current_a, voltage_v, travel_speed_mm_s,
-						wire_feed_speed_m_min, ctwd_mm, wire_diameter_mm, shielding_gas, polarity, position,
-						preheat_c, interpass_c)
-					VALUES ($1, $2, 1, now(), 'bench', '', false, $3, NULL, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13,
-						$14, $15, $16, $17, $18, $19, $20, $21, $22)`,
-					site+"-raw", uuid.New(), p.ID, fmt.Sprintf("B-R-%d", n.Add(1)), c.WelderID, c.PowerSourceID, c.FillerLot,
-					c.WeldedOn, c.JointType, c.ThicknessMM, c.PassNumber, c.CurrentA, c.VoltageV, c.TravelSpeedMMPerS,
-					c.WireFeedSpeedMPerMin, c.CTWDMM, c.WireDiameterMM, c.ShieldingGas, c.Polarity, c.Position,
-					c.PreheatC, c.InterpassC); err != nil {
-					return err
-				}
-				return tx.Commit(ctx)
+				return dbtest.RawCoupon(ctx, s.Pool(), site+"-raw", fmt.Sprintf("B-R-%d", n.Add(1)), c)
 			}
 			stop := make(chan struct{})
 			var backlog atomic.Int64
