@@ -75,8 +75,8 @@ func BenchmarkCouponCreateAPI(b *testing.B) {
 				b.ResetTimer()
 				for done := 0; done < b.N; done += createRound {
 					k := min(createRound, b.N-done)
-					inAPI += clientsTime(b, clients, k, endpoint)
-					inRaw += clientsTime(b, clients, k, insert)
+					inAPI += dbtest.TimeClients(b, clients, k, endpoint)
+					inRaw += dbtest.TimeClients(b, clients, k, insert)
 				}
 				b.StopTimer()
 				if err := e.store.AwaitLogged(ctx, e.site); err != nil {
@@ -100,14 +100,3 @@ func BenchmarkCouponCreateAPI(b *testing.B) {
 
 // createRound is how many creates of one kind run before the other kind's turn.
 const createRound = 250
-
-// clientsTime runs call n times from k clients and returns the wall time; an
-// error fails the benchmark.
-func clientsTime(b *testing.B, k, n int, call func() error) time.Duration {
-	b.Helper()
-	d, err := dbtest.Clients(k, n, call)
-	if err != nil {
-		b.Fatal(err)
-	}
-	return d
-}

@@ -5,7 +5,6 @@ import (
 	"fmt"
 	"os"
 	"strconv"
-	"sync"
 	"sync/atomic"
 	"testing"
 	"time"
@@ -58,8 +57,8 @@ func BenchmarkCouponWriteConcurrent(b *testing.B) {
 			b.ResetTimer()
 			for done := 0; done < b.N; done += writeRound {
 				k := min(writeRound, b.N-done)
-				inStore += concurrently(b, clients, k, store)
-				inRaw += concurrently(b, clients, k, raw)
+				inStore += dbtest.TimeClients(b, clients, k, store)
+				inRaw += dbtest.TimeClients(b, clients, k, raw)
 			}
 			b.StopTimer()
 			close(stop)
@@ -147,33 +146,6 @@ func writeBenchSite(b *testing.B) (*db.Store, string) {
 	b.Cleanup(func() { stopSeq(); <-done; s.Close() })
 	b.Logf("seeded %d coupons in %v", n, time.Since(start).Round(time.Second))
 	return s, site
-}
-
-// concurrently runs n calls of fn spread over the given number of clients
-// and returns how long they took.
-func concurrently(b *testing.B, clients, n int, fn func() error) time.Duration {
-	b.Helper()
-	var next atomic.Int64
-	var wg sync.WaitGroup
-	var failed atomic.Value
-	start := time.Now()
-	for range clients {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			for next.Add(1) <= int64(n) {
-				if err := fn(); err != nil {
-					failed.Store(err)
-					return
-				}
-			}
-		}()
-	}
-	wg.Wait()
-	if err, _ := failed.Load().(error); err != nil {
-		b.Fatal(err)
-	}
-	return time.Since(start)
 }
 
 // sampleBacklog records the largest number of pending leaves seen until stop.

@@ -2,6 +2,7 @@ package dbtest
 
 import (
 	"sync"
+	"testing"
 	"time"
 )
 
@@ -31,4 +32,15 @@ func Clients(k, n int, call func() error) (time.Duration, error) {
 	}
 	wg.Wait()
 	return time.Since(t0), first
+}
+
+// TimeClients is Clients for a benchmark: it fails tb on the first error and
+// returns the wall time.
+func TimeClients(tb testing.TB, k, n int, call func() error) time.Duration {
+	tb.Helper()
+	d, err := Clients(k, n, call)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	return d
 }
