@@ -31,10 +31,7 @@ func (im *importColumns) keys(recs []csvRow) db.ImportKeys {
 		{im.index("qualification_record_id"), &k.Records, map[uuid.UUID]bool{}}}
 	marks := map[string]bool{}
 	for _, r := range recs {
-		mark := ""
-		if im.mark < len(r.cells) {
-			mark = r.cells[im.mark]
-		}
+		mark := im.markOf(r.cells)
 		if !marks[mark] {
 			marks[mark] = true
 			k.Marks = append(k.Marks, mark)
@@ -99,16 +96,10 @@ func (b *importBatch) then(next *importBatch) *importBatch {
 // after the rows before it (its mark is empty or differs from the mark of
 // the last CSV row before it; rows that are not CSV are skipped), or -1.
 func (im *importColumns) couponStart(recs []csvRow, i int) int {
-	mark := func(r csvRow) string {
-		if im.mark < len(r.cells) {
-			return r.cells[im.mark]
-		}
-		return ""
-	}
 	prev, seen := "", false
 	for k := i - 1; k >= 0 && !seen; k-- {
 		if recs[k].err == nil {
-			prev, seen = mark(recs[k]), true
+			prev, seen = im.markOf(recs[k].cells), true
 		}
 	}
 	if !seen {
@@ -118,7 +109,7 @@ func (im *importColumns) couponStart(recs []csvRow, i int) int {
 		if recs[i].err != nil {
 			continue
 		}
-		if m := mark(recs[i]); m == "" || m != prev {
+		if m := im.markOf(recs[i].cells); m == "" || m != prev {
 			return i
 		}
 	}

@@ -88,6 +88,15 @@ func newImportColumns(header []string) (*importColumns, error) {
 	return im, v.err()
 }
 
+// markOf is a row's coupon mark, empty when the row is too short to hold
+// one.
+func (im *importColumns) markOf(cells []string) string {
+	if im.mark < len(cells) {
+		return cells[im.mark]
+	}
+	return ""
+}
+
 // namedField is a struct field found by its JSON name: its type and index.
 type namedField struct {
 	jsonField
@@ -155,10 +164,7 @@ func (b *importBatch) fault(row int, column, reason string) {
 // row before adds to it (its coupon columns repeated unchanged).
 func (b *importBatch) add(row int, rec []string) {
 	cols := b.cols.cols
-	mark := ""
-	if b.cols.mark < len(rec) {
-		mark = rec[b.cols.mark]
-	}
+	mark := b.cols.markOf(rec)
 	cur := len(b.coupons) - 1
 	if cur < 0 || mark == "" || mark != b.mark || b.first == nil {
 		b.coupons = append(b.coupons, db.ImportCoupon{Row: row, Data: db.CouponData{CouponMark: mark}})
