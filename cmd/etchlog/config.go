@@ -48,10 +48,12 @@ func defaults(getenv func(string) string) config {
 	if v := getenv("ETCHLOG_LOG_LEVEL"); v != "" {
 		c.LogLevel = v
 	}
-	if n, err := strconv.Atoi(getenv("ETCHLOG_DB_CONNS")); err == nil {
+	if v := getenv("ETCHLOG_DB_CONNS"); v != "" {
+		n, err := strconv.Atoi(v)
+		if err != nil {
+			n = -1
+		}
 		c.DBConns = n // validate refuses a number below 1
-	} else if getenv("ETCHLOG_DB_CONNS") != "" {
-		c.DBConns = -1
 	}
 	return c
 }
