@@ -34,11 +34,7 @@ type cleanScan struct {
 	depth int
 }
 
-func (s *cleanScan) space() {
-	for s.i < len(s.b) && (s.b[s.i] == ' ' || s.b[s.i] == '\t' || s.b[s.i] == '\n' || s.b[s.i] == '\r') {
-		s.i++
-	}
-}
+func (s *cleanScan) space() { s.i = skipSpace(s.b, s.i) }
 
 // value reads one value whose field name (the walk's last path element) is
 // name, and the white space after it.
