@@ -57,6 +57,7 @@ func (s *Server) guard(next echo.HandlerFunc) echo.HandlerFunc {
 		}
 		req.Body = io.NopCloser(bytes.NewReader(body))
 		req.ContentLength = int64(len(body))
+		c.Set(ctxBody, body) // for a request run again (requireRole)
 		if len(bytes.TrimSpace(body)) == 0 {
 			return next(c)
 		}
