@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"sync"
 	"time"
 
 	"github.com/google/uuid"
@@ -34,7 +35,22 @@ type groupActivation struct {
 	calibration uuid.UUID
 	action      string
 	level       float64
-	fit         []byte
+	fit         *activationFit
+}
+
+// activationFit is an activation's calibration fit as stored, decoded on
+// first use only, once for every create that judges by the same kept
+// inputs (which share it).
+type activationFit struct {
+	raw  []byte
+	once sync.Once
+	fit  CalibrationFit
+	err  error
+}
+
+func (f *activationFit) decoded() (CalibrationFit, error) {
+	f.once.Do(func() { f.err = json.Unmarshal(f.raw, &f.fit) })
+	return f.fit, f.err
 }
 
 // couponInputs is what queueCouponInputs reads.
@@ -296,7 +312,7 @@ func (in *couponInputs) readActivations(rows pgx.Rows) error {
 			continue
 		}
 		in.activations = append(in.activations, groupActivation{wireMM: *wireMM, gas: *gas, calibration: *calibration,
-			action: *action, level: *level, fit: fit})
+			action: *action, level: *level, fit: &activationFit{raw: fit}})
 	}
 	return rows.Err()
 }
@@ -315,8 +331,8 @@ func (in *couponInputs) penetrationCheck(g CalibrationGroup, minMM *float64) (*p
 		if a.action != ActionActivate {
 			return nil, nil
 		}
-		var fit CalibrationFit
-		if err := json.Unmarshal(a.fit, &fit); err != nil {
+		fit, err := a.fit.decoded()
+		if err != nil {
 			return nil, fmt.Errorf("active calibration: %w", err)
 		}
 		if fit.Penetration == nil {
