@@ -9,11 +9,12 @@ import (
 )
 
 // keptUserRoutes are the routes whose every answer but a refusal follows
-// a write through the Store made with the request's context, which
-// confirms the token's user (requireRole, admitKept): they may let a
-// request in on the user a lookup of its token found before. Every other
-// route looks the token up for each request.
-var keptUserRoutes = map[string]bool{http.MethodPost + " /v1/coupons": true}
+// a write through the Store made with the request's context, or a list
+// page's read (Store.readPage), which confirms the token's user
+// (requireRole, admitKept): they may let a request in on the user a lookup
+// of its token found before. Every other route looks the token up for each
+// request.
+var keptUserRoutes = map[string]bool{http.MethodPost + " /v1/coupons": true, http.MethodGet + " /v1/coupons": true}
 
 // routes registers every route, in the order of the OpenAPI document, with
 // the roles it admits (nil: no token needed).

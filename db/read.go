@@ -189,9 +189,15 @@ func pageLimit(limit int) string { return " LIMIT " + strconv.Itoa(limit) }
 // readPage reads one page of a list with read, showing every write
 // acknowledged before it was asked for: the site's newest pending leaf is
 // read in the same round trip as the page, and only when the site had one
-// does the list wait for the sequencer and read the page again.
+// does the list wait for the sequencer and read the page again. A request
+// let in on a kept lookup of its token (WithUserCheck) confirms its user
+// first in the same round trip, so a page read for a user who no longer
+// holds the token is never answered: ErrUserChanged instead.
 func (s *Store) readPage(ctx context.Context, site, sql string, args []any, read func(pgx.Rows) error) error {
 	b := &pgx.Batch{}
+	if c := pendingUserCheck(ctx); c != nil {
+		b.Queue(userByTokenSQL, c.digest).Query(c.confirm)
+	}
 	var pending *int64
 	b.Queue(lastPending, site).QueryRow(func(r pgx.Row) error { return r.Scan(&pending) })
 	b.Queue(sql, args...).Query(read)

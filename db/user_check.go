@@ -60,22 +60,35 @@ func (c *UserCheck) Confirmed() bool { return c.confirmed.Load() }
 // ErrUserChanged unless the lookup finds exactly the claimed user. A check
 // already confirmed by an earlier write of the request is not repeated.
 func queueUserCheck(ctx context.Context, tx pgx.Tx) error {
+	c := pendingUserCheck(ctx)
+	if c == nil {
+		return nil
+	}
+	return queueRows(ctx, tx, c.confirm, userByTokenSQL, c.digest)
+}
+
+// pendingUserCheck is ctx's UserCheck when it is not yet confirmed, else nil.
+func pendingUserCheck(ctx context.Context) *UserCheck {
 	c, ok := ctx.Value(userCheckKey{}).(*UserCheck)
 	if !ok || c.Confirmed() {
 		return nil
 	}
-	return queueRows(ctx, tx, func(rows pgx.Rows) error {
-		found, err := pgx.CollectRows(rows, pgx.RowToStructByName[User])
-		if rows.Err() != nil {
-			return nil // the statement's own error is reported
-		}
-		if err != nil {
-			return err
-		}
-		if len(found) != 1 || found[0] != c.user {
-			return ErrUserChanged
-		}
-		c.confirmed.Store(true)
-		return nil
-	}, userByTokenSQL, c.digest)
+	return c
+}
+
+// confirm reads the rows of userByTokenSQL: ErrUserChanged unless they are
+// exactly the claimed user, whom it then records as confirmed.
+func (c *UserCheck) confirm(rows pgx.Rows) error {
+	found, err := pgx.CollectRows(rows, pgx.RowToStructByName[User])
+	if rows.Err() != nil {
+		return nil // the statement's own error is reported
+	}
+	if err != nil {
+		return err
+	}
+	if len(found) != 1 || found[0] != c.user {
+		return ErrUserChanged
+	}
+	c.confirmed.Store(true)
+	return nil
 }
