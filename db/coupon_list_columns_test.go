@@ -2,6 +2,7 @@ package db
 
 import (
 	"context"
+	"fmt"
 	"reflect"
 )
 
@@ -48,4 +49,33 @@ func CouponListColumns(ctx context.Context, s *Store, site string, cf CouponFilt
 		targeted = append(targeted, false)
 	}
 	return columns, fields, targeted, rows.Err()
+}
+
+// CouponListRawScan reads a coupons page with filter cf twice over the same
+// rows: each row decoded by scanRaw and scanned by pgx. It returns how many
+// rows scanRaw took whole, and each row's two results where they differ.
+func CouponListRawScan(ctx context.Context, s *Store, site string, cf CouponFilter) (rows, taken int, diffs []string, err error) {
+	sql, args, err := couponListQuery(site, cf, 0, 50)
+	if err != nil {
+		return 0, 0, nil, err
+	}
+	rs, err := s.pool.Query(ctx, sql, args...)
+	if err != nil {
+		return 0, 0, nil, err
+	}
+	defer rs.Close()
+	for rs.Next() {
+		var raw, scanned listedCoupon
+		rows++
+		if scanRaw(rs.FieldDescriptions(), rs.RawValues(), raw.targets()) {
+			taken++
+		}
+		if err := rs.Scan(scanned.targets()...); err != nil {
+			return rows, taken, diffs, err
+		}
+		if !reflect.DeepEqual(raw, scanned) {
+			diffs = append(diffs, fmt.Sprintf("%+v\n  pgx: %+v", raw, scanned))
+		}
+	}
+	return rows, taken, diffs, rs.Err()
 }

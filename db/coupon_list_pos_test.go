@@ -50,3 +50,34 @@ func TestCouponListScansByPosition(t *testing.T) {
 		}
 	}
 }
+
+// TestCouponListRawScan stores coupons with every optional field present
+// and absent, and text beyond ASCII, and checks that a page's rows are all
+// decoded from their raw values (scanRaw) into what pgx's own scan, the
+// reference, gives for the same rows.
+func TestCouponListRawScan(t *testing.T) {
+	t.Parallel()
+	s, site := dbtest.Store(t), dbtest.Site(t)
+	ctx := context.Background()
+	p := mustProcedure(t, s, site)
+	full := couponData(p.ID, "RAW-1")
+	full.FillerLot = "Los «7» <&> 溶接"
+	bare := couponData(p.ID, "RAW-2")
+	bare.WireFeedSpeedMPerMin, bare.CTWDMM, bare.WireDiameterMM, bare.Polarity, bare.PreheatC = nil, nil, nil, nil, nil
+	bare.ShieldingGas, bare.PowerSourceID = "", ""
+	for _, c := range []db.CouponData{full, bare} {
+		if _, err := s.CreateCoupon(ctx, actor(site), c); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if _, err := s.Coupons(ctx, site, db.CouponFilter{}, "", 50); err != nil { // waits for the log's sequencer
+		t.Fatal(err)
+	}
+	rows, taken, diffs, err := db.CouponListRawScan(ctx, s, site, db.CouponFilter{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if rows != 2 || taken != rows || diffs != nil {
+		t.Errorf("%d rows, %d decoded raw, want 2 and 2; differences from pgx's scan: %v", rows, taken, diffs)
+	}
+}
