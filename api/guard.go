@@ -57,7 +57,6 @@ func (s *Server) guard(next echo.HandlerFunc) echo.HandlerFunc {
 		}
 		req.Body = io.NopCloser(bytes.NewReader(body))
 		req.ContentLength = int64(len(body))
-		c.Set(ctxBody, body) // for a request run again (requireRole)
 		if len(bytes.TrimSpace(body)) == 0 {
 			return next(c)
 		}
@@ -69,6 +68,9 @@ func (s *Server) guard(next echo.HandlerFunc) echo.HandlerFunc {
 		}
 		if err := checkBody(body); err != nil {
 			return err
+		}
+		if keptUserRoutes[req.Method+" "+c.Path()] {
+			c.Set(ctxBody, body) // to run the request again (admitKept); elsewhere the body may go once read
 		}
 		return next(c)
 	}
