@@ -69,6 +69,9 @@ func (s *Server) guard(next echo.HandlerFunc) echo.HandlerFunc {
 		if err := checkBody(body); err != nil {
 			return err
 		}
+		if keptUserRoutes[req.Method+" "+c.Path()] {
+			c.Set(ctxBody, body) // to run the request again (admitKept); elsewhere the body may go once read
+		}
 		return next(c)
 	}
 }
@@ -129,6 +132,14 @@ func checkBody(body []byte) error {
 	if !utf8.Valid(body) {
 		return badRequest("body", "is not valid UTF-8")
 	}
+	if cleanBody(body) {
+		return nil
+	}
+	return walkBody(body)
+}
+
+// walkBody is checkBody's walk of a body of valid UTF-8, naming every fault.
+func walkBody(body []byte) error {
 	w := bodyWalker{dec: json.NewDecoder(bytes.NewReader(body))}
 	w.dec.UseNumber()
 	if err := w.value(""); err != nil {

@@ -258,7 +258,7 @@ func appendNumber(b []byte, lit string, f float64, isFloat bool) []byte {
 // double, spaced wider than that digit, reads back as itself whatever the
 // rounding). TestShortLiteralsNeedNoRounding checks it. Most stored values
 // are typed to a few digits: this spares them two of the four conversions.
-func significantDigits(lit string) int {
+func significantDigits[S string | []byte](lit S) int {
 	n, lead := 0, true
 	for i := 0; i < len(lit); i++ {
 		switch c := lit[i]; {

@@ -55,6 +55,9 @@ func answerList[T any](s *Server, c echo.Context, name string, list lister[T]) e
 		if err != nil {
 			return err
 		}
+		if written, err := writePage(c, p); written {
+			return err
+		}
 		return c.JSON(http.StatusOK, pageOf(p))
 	}
 	if c.QueryParams().Has("limit") {

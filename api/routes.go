@@ -8,6 +8,13 @@ import (
 	"etchlog/db"
 )
 
+// keptUserRoutes are the routes whose every answer but a refusal follows
+// a write through the Store made with the request's context, which
+// confirms the token's user (requireRole, admitKept): they may let a
+// request in on the user a lookup of its token found before. Every other
+// route looks the token up for each request.
+var keptUserRoutes = map[string]bool{http.MethodPost + " /v1/coupons": true}
+
 // routes registers every route, in the order of the OpenAPI document, with
 // the roles it admits (nil: no token needed).
 func (s *Server) routes() error {
@@ -104,7 +111,7 @@ func (s *Server) routes() error {
 		}
 		mw := []echo.MiddlewareFunc{conform}
 		if r.roles != nil {
-			mw = []echo.MiddlewareFunc{s.requireRole(r.roles), conform}
+			mw = []echo.MiddlewareFunc{s.requireRole(r.roles, keptUserRoutes[r.method+" "+r.path]), conform}
 		}
 		if r.method == http.MethodPost && creates(s.spec.Paths.Find(specPath(r.path)).GetOperation(r.method)) {
 			mw = append(mw, s.idempotent)

@@ -32,6 +32,7 @@ type Server struct {
 	spec     *openapi3.T
 	echo     *echo.Echo
 	limit    *userLimiter
+	users    keptUsers // token digest → user, for keptUserRoutes
 	lab      *lab.Lab
 }
 

@@ -28,6 +28,14 @@ import (
 // The returned sentAs records, by stored path, the spelling and number each
 // rewritten quantity was sent in, so a refusal can be worded in them.
 func storedSpellings(body []byte, t reflect.Type) ([]byte, []FieldIssue, sentAs) {
+	if issues, ok := storedAsSent(body, t); ok {
+		return body, issues, nil
+	}
+	return rewriteSpellings(body, t)
+}
+
+// rewriteSpellings is storedSpellings for any body, through a map of its fields.
+func rewriteSpellings(body []byte, t reflect.Type) ([]byte, []FieldIssue, sentAs) {
 	var obj map[string]json.RawMessage
 	if t.Kind() != reflect.Struct || json.Unmarshal(body, &obj) != nil || obj == nil {
 		return body, nil, nil

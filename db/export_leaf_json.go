@@ -88,7 +88,7 @@ func leafOfListing(raw [][]byte) logfmt.ExportLeaf {
 	// The texts go into one string (one allocation a leaf, not six).
 	var buf [512]byte
 	b := append(buf[:0], raw[1]...)
-	b = appendUUID(b, raw[3])
+	b = logfmt.AppendUUID(b, raw[3])
 	b = append(append(append(b, raw[6]...), raw[7]...), raw[8]...)
 	b = appendRawTime(b, int64(binary.BigEndian.Uint64(raw[9])))
 	all := string(b)
@@ -202,7 +202,7 @@ func appendListedLeaf(b []byte, list [][]byte, missing string, fields func([]byt
 	b = append(b, `,"version":`...)
 	b = strconv.AppendInt(b, int64(int32(binary.BigEndian.Uint32(list[2]))), 10)
 	b = append(b, `,"record_id":"`...)
-	b = appendUUID(b, list[3])
+	b = logfmt.AppendUUID(b, list[3])
 	b = append(b, `","revision":`...)
 	b = strconv.AppendInt(b, int64(int32(binary.BigEndian.Uint32(list[4]))), 10)
 	b = append(b, `,"fields":`...)

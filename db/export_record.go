@@ -271,7 +271,7 @@ func (e *recordEncoder) append(b []byte, raw [][]byte) ([]byte, bool) {
 		case ftUUID:
 			if ok = len(v) == 16; ok {
 				b = append(b, '"')
-				b = appendUUID(b, v)
+				b = logfmt.AppendUUID(b, v)
 				b = append(b, '"')
 			}
 		case ftTime:

@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"sync"
 	"time"
 
 	"github.com/google/uuid"
@@ -34,7 +35,22 @@ type groupActivation struct {
 	calibration uuid.UUID
 	action      string
 	level       float64
-	fit         []byte
+	fit         *activationFit
+}
+
+// activationFit is an activation's calibration fit as stored, decoded on
+// first use only, once for every create that judges by the same kept
+// inputs (which share it).
+type activationFit struct {
+	raw  []byte
+	once sync.Once
+	fit  CalibrationFit
+	err  error
+}
+
+func (f *activationFit) decoded() (CalibrationFit, error) {
+	f.once.Do(func() { f.err = json.Unmarshal(f.raw, &f.fit) })
+	return f.fit, f.err
 }
 
 // couponInputs is what queueCouponInputs reads.
@@ -46,6 +62,7 @@ type couponInputs struct {
 	record      *QualificationRecord
 	activations []groupActivation
 	calibrated  bool         // some calibration of the procedure's process was activated or deactivated at the site (read for a written revision)
+	melting     bool         // some of them of the melting-rate family: only then may a new coupon have a point on a drift chart
 	changes     *int64       // a new coupon's: the procedure's count of judgement changes, read before the rest (judged.go)
 	check       *judgedCheck // the count the write compares, when the inputs were kept from an earlier create
 }
@@ -138,6 +155,9 @@ func writtenCouponFlags(ctx context.Context, kept *judgedCache, m Meta, in **cou
 			return nil
 		}
 		if m.Revision == 1 && out.ProcedureID != nil { // a create, under its procedure's flag lock
+			if !(*in).melting { // a new coupon's only possible point is on a melting-rate chart (newCouponDrift)
+				return nil
+			}
 			return newCouponDrift(ctx, tx, m.CreatedAt, *out)
 		}
 		return couponDrift(ctx, tx, m.CreatedAt, m.Site, m.ID)
@@ -198,9 +218,11 @@ func queueCouponInputs(ctx context.Context, tx pgx.Tx, site string, id uuid.UUID
 	latestProcess := `(SELECT process FROM procedures WHERE site = $1 AND id = ` + procID + ` ORDER BY revision DESC LIMIT 1)`
 	// The drift charts a coupon write may redraw need a calibration of its
 	// process: whether there was ever one comes with the group's activations.
-	calibrated := `false`
+	calibrated, melting := `false`, `false`
 	if written != nil {
 		calibrated = `EXISTS (SELECT 1 FROM calibration_activations WHERE site = $1 AND process = ` + latestProcess + `)`
+		melting = `EXISTS (SELECT 1 FROM calibration_activations WHERE site = $1 AND process = ` + latestProcess +
+			` AND family = '` + CalibrationLesnewich.Family() + `')`
 	}
 	queued := []error{queueExec(ctx, tx, lock, lockArgs...)}
 	if written != nil && written.Revision == 1 && written.ProcedureID != nil { // a new coupon's inputs may be kept: count first
@@ -211,8 +233,8 @@ func queueCouponInputs(ctx context.Context, tx pgx.Tx, site string, id uuid.UUID
 			WHERE site = $1 AND id = `+procID+` ORDER BY revision DESC LIMIT 1`, args[:2]...),
 		queueRows(ctx, tx, readRangesWithStale(&in.ranges), rangesWithStaleSQL(procID), args[:2]...),
 		queueRows(ctx, tx, in.readActivations, `
-			SELECT x.calibrated, g.wire_diameter_mm, g.shielding_gas, g.calibration_id, g.action, g.level, g.fit
-			FROM (SELECT `+calibrated+` AS calibrated) x LEFT JOIN (
+			SELECT x.calibrated, x.melting, g.wire_diameter_mm, g.shielding_gas, g.calibration_id, g.action, g.level, g.fit
+			FROM (SELECT `+calibrated+` AS calibrated, `+melting+` AS melting) x LEFT JOIN (
 				SELECT a.wire_diameter_mm, a.shielding_gas, a.calibration_id, a.action, c.level, c.fit FROM (
 					SELECT DISTINCT ON (wire_diameter_mm, shielding_gas) wire_diameter_mm, shielding_gas, calibration_id, action
 					FROM calibration_activations
@@ -271,9 +293,9 @@ func (in *couponInputs) flags(ctx context.Context, tx pgx.Tx, now time.Time, sit
 	return w.flush(ctx, tx)
 }
 
-// readActivations reads whether the process was ever calibrated and the
-// latest activation event of each group: one row with no event when there
-// is none.
+// readActivations reads whether the process was ever calibrated (and in
+// the melting-rate family) and the latest activation event of each group:
+// one row with no event when there is none.
 func (in *couponInputs) readActivations(rows pgx.Rows) error {
 	in.activations = nil
 	for rows.Next() {
@@ -283,14 +305,14 @@ func (in *couponInputs) readActivations(rows pgx.Rows) error {
 			calibration   *uuid.UUID
 			fit           []byte
 		)
-		if err := rows.Scan(&in.calibrated, &wireMM, &gas, &calibration, &action, &level, &fit); err != nil {
+		if err := rows.Scan(&in.calibrated, &in.melting, &wireMM, &gas, &calibration, &action, &level, &fit); err != nil {
 			return err
 		}
 		if calibration == nil {
 			continue
 		}
 		in.activations = append(in.activations, groupActivation{wireMM: *wireMM, gas: *gas, calibration: *calibration,
-			action: *action, level: *level, fit: fit})
+			action: *action, level: *level, fit: &activationFit{raw: fit}})
 	}
 	return rows.Err()
 }
@@ -309,8 +331,8 @@ func (in *couponInputs) penetrationCheck(g CalibrationGroup, minMM *float64) (*p
 		if a.action != ActionActivate {
 			return nil, nil
 		}
-		var fit CalibrationFit
-		if err := json.Unmarshal(a.fit, &fit); err != nil {
+		fit, err := a.fit.decoded()
+		if err != nil {
 			return nil, fmt.Errorf("active calibration: %w", err)
 		}
 		if fit.Penetration == nil {

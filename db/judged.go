@@ -45,6 +45,7 @@ type judged struct {
 	ranges      *ProcedureRanges
 	activations []groupActivation
 	calibrated  bool
+	melting     bool
 }
 
 // judgedCache is a Store's kept inputs; the zero value is empty.
@@ -130,7 +131,7 @@ func (c *judgedCache) keep(in *couponInputs) {
 	}
 	c.put(judgedKey{in.coupon.Site, in.procedure.ID, in.coupon.JointType}, &judged{
 		changes: *in.changes, procedure: *in.procedure, ranges: in.ranges,
-		activations: in.activations, calibrated: in.calibrated,
+		activations: in.activations, calibrated: in.calibrated, melting: in.melting,
 	})
 }
 
@@ -140,7 +141,7 @@ func (c *judgedCache) keep(in *couponInputs) {
 // the rest comes from j, and in.check asks the write to compare j's count.
 func queueKeptInputs(ctx context.Context, tx pgx.Tx, written *Coupon, j *judged) (*couponInputs, error) {
 	p := j.procedure
-	in := &couponInputs{coupon: written, procedure: &p, ranges: j.ranges, activations: j.activations, calibrated: j.calibrated,
+	in := &couponInputs{coupon: written, procedure: &p, ranges: j.ranges, activations: j.activations, calibrated: j.calibrated, melting: j.melting,
 		check: &judgedCheck{procedure: p.ID, changes: j.changes}}
 	queued := []error{queueExec(ctx, tx, lockNewCouponProcedure, written.Site, written.ProcedureID)}
 	if rid := written.QualificationRecordID; rid != nil {

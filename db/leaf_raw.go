@@ -3,7 +3,6 @@ package db
 import (
 	"encoding/base64"
 	"encoding/binary"
-	"encoding/hex"
 	"fmt"
 	"math"
 	"strconv"
@@ -68,7 +67,7 @@ func appendCanonicalRaw(dst []byte, oid uint32, format int16, b []byte) ([]byte,
 		if len(b) != 16 {
 			return dst, false
 		}
-		return appendUUID(dst, b), true
+		return logfmt.AppendUUID(dst, b), true
 	case pgtype.DateOID:
 		if len(b) != 4 {
 			return dst, false
@@ -91,22 +90,6 @@ func appendCanonicalRaw(dst []byte, oid uint32, format int16, b []byte) ([]byte,
 		return base64.StdEncoding.AppendEncode(dst, b), true
 	}
 	return dst, false
-}
-
-// appendUUID appends the canonical (lower-case, hyphenated) form of a UUID,
-// as uuid.UUID.String writes it.
-func appendUUID(dst, u []byte) []byte {
-	var buf [36]byte
-	hex.Encode(buf[0:8], u[0:4])
-	buf[8] = '-'
-	hex.Encode(buf[9:13], u[4:6])
-	buf[13] = '-'
-	hex.Encode(buf[14:18], u[6:8])
-	buf[18] = '-'
-	hex.Encode(buf[19:23], u[8:10])
-	buf[23] = '-'
-	hex.Encode(buf[24:], u[10:])
-	return append(dst, buf[:]...)
 }
 
 // appendRawTime appends microseconds since pgEpoch as the canonical timestamptz text.

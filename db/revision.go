@@ -272,6 +272,10 @@ func (s *Store) tx(ctx context.Context, fn func(tx pgx.Tx) error) error {
 	defer conn.Release()
 	tx := newPipeTx(conn)
 	defer tx.Rollback(ctx) //nolint:errcheck // no-op after Commit
+	// A request let in on a kept lookup of its token confirms its user first.
+	if err := queueUserCheck(ctx, tx); err != nil {
+		return err
+	}
 	if err := fn(tx); err != nil {
 		return err
 	}

@@ -101,10 +101,12 @@ func (s *Store) PutUser(ctx context.Context, u User, token string) error {
 // UserByToken finds the user holding a bearer token: the token must be on the
 // user's latest revision, and the user not revoked.
 func (s *Store) UserByToken(ctx context.Context, token string) (User, error) {
-	rows, _ := s.pool.Query(ctx, `
-		SELECT site, name, role FROM api_users u
-		WHERE token_sha256 = $1 AND NOT voided
-		  AND NOT EXISTS (SELECT 1 FROM api_users l WHERE l.id = u.id AND l.revision > u.revision)`, tokenDigest(token))
+	return s.UserByDigest(ctx, tokenDigest(token))
+}
+
+// UserByDigest is UserByToken for the token's SHA-256 digest.
+func (s *Store) UserByDigest(ctx context.Context, digest []byte) (User, error) {
+	rows, _ := s.pool.Query(ctx, userByTokenSQL, digest)
 	u, err := pgx.CollectOneRow(rows, pgx.RowToStructByName[User])
 	if errors.Is(err, pgx.ErrNoRows) {
 		return User{}, ErrNotFound

@@ -2,6 +2,7 @@ package logfmt
 
 import (
 	"encoding/base64"
+	"encoding/hex"
 	"math"
 	"strconv"
 	"unicode/utf8"
@@ -66,6 +67,22 @@ func (l ExportLeaf) AppendJSON(b []byte) []byte {
 }
 
 const hexDigits = "0123456789abcdef"
+
+// AppendUUID appends the canonical (lower-case, hyphenated) form of the
+// 16 bytes of a UUID u, as uuid.UUID.String writes it.
+func AppendUUID(dst, u []byte) []byte {
+	var buf [36]byte
+	hex.Encode(buf[0:8], u[0:4])
+	buf[8] = '-'
+	hex.Encode(buf[9:13], u[4:6])
+	buf[13] = '-'
+	hex.Encode(buf[14:18], u[6:8])
+	buf[18] = '-'
+	hex.Encode(buf[19:23], u[8:10])
+	buf[23] = '-'
+	hex.Encode(buf[24:], u[10:])
+	return append(dst, buf[:]...)
+}
 
 // AppendJSONString appends s as a JSON string the way encoding/json writes
 // it by default: control characters, quote and backslash escaped, <, > and
