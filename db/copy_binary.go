@@ -110,6 +110,45 @@ func (w *copyWriter) fields(dst [][]byte) [][]byte {
 	return dst
 }
 
+// eachRow hands the binary values of each row laid out, in order, to fn
+// (as copyWriter.fields answers them: nil for NULL, slices of the laid-out
+// bytes, valid during the call).
+func (c *copyRows) eachRow(fn func(fields [][]byte) error) error {
+	data := c.data
+	const header = 19 // signature, flags, header extension length
+	if len(data) < header {
+		return fmt.Errorf("db: copy into %s: no header", c.table)
+	}
+	at := header
+	fields := make([][]byte, len(c.cols))
+	for range c.n {
+		if at+2 > len(data) || int(binary.BigEndian.Uint16(data[at:])) != len(c.cols) {
+			return fmt.Errorf("db: copy into %s: a row that is not %d fields", c.table, len(c.cols))
+		}
+		at += 2
+		for i := range fields {
+			if at+4 > len(data) {
+				return fmt.Errorf("db: copy into %s: rows cut short", c.table)
+			}
+			n := int32(binary.BigEndian.Uint32(data[at:]))
+			at += 4
+			if n < 0 {
+				fields[i] = nil
+				continue
+			}
+			if at+int(n) > len(data) {
+				return fmt.Errorf("db: copy into %s: rows cut short", c.table)
+			}
+			fields[i] = data[at : at+int(n)]
+			at += int(n)
+		}
+		if err := fn(fields); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
 // done ends the rows.
 func (w *copyWriter) done() *copyRows {
 	w.b.Write([]byte{0xff, 0xff})

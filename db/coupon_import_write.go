@@ -11,12 +11,14 @@ import (
 	"github.com/jackc/pgerrcode"
 	"github.com/jackc/pgx/v5"
 	"github.com/jackc/pgx/v5/pgconn"
+	"github.com/jackc/pgx/v5/pgtype"
 )
 
 // importRows is what an import copies in besides its marks: the planned
-// coupons' rows and their sections' laid out in the binary COPY format, and
-// the rows' values, from which each leaf is encoded (leaf_values.go), so
-// nothing is read back. Laying it out needs no transaction.
+// coupons' rows and their sections' laid out in the binary COPY format,
+// from whose bytes each leaf is encoded (rowLeaves.rawFact, as a production
+// stream's chunk encodes its leaves), so nothing is read back, and the
+// rows' values as laid out. Laying it out needs no transaction.
 type importRows struct {
 	coupons, sections       *copyRows
 	couponRows, sectionRows [][]any // as copied
@@ -118,28 +120,36 @@ func (s *Store) layImport(ctx context.Context, a Actor, p *importPlan, now time.
 	return r, nil
 }
 
-// leaves encodes every row's leaf from its copied values and prepares the
-// pending entries naming them, in row order.
+// leaves encodes every row's leaf from the bytes laid out for it and
+// prepares the pending entries naming them, in row order.
 func (r *importRows) leaves(s *Store, e LeafEntry) importLeaves {
 	var out importLeaves
-	entry := func(rl *rowLeaves, rows [][]any) (*ManyLeaves, error) {
+	tm := pgtype.NewMap()
+	entry := func(rl *rowLeaves, laid *copyRows, rows [][]any) (*ManyLeaves, error) {
 		if len(rows) == 0 {
 			return nil, nil
 		}
-		ids, hashes := make([]uuid.UUID, len(rows)), make([][]byte, len(rows))
-		for i, row := range rows {
-			f, err := rl.fact(row)
+		ids, hashes := make([]uuid.UUID, len(rows)), make([][]byte, 0, len(rows))
+		err := laid.eachRow(func(fields [][]byte) error {
+			f, err := rl.rawFact(fields, tm)
 			if err != nil {
-				return nil, err
+				return err
 			}
-			ids[i], hashes[i] = row[1].(uuid.UUID), f.LeafHash()
+			hashes = append(hashes, f.LeafHash())
+			return nil
+		})
+		if err != nil {
+			return nil, err
+		}
+		for i, row := range rows {
+			ids[i] = row[1].(uuid.UUID)
 		}
 		return s.newManyLeaves(rl.kind, e, 1, ids, hashes)
 	}
-	if out.coupons, out.err = entry(r.couponLeaf, r.couponRows); out.err != nil {
+	if out.coupons, out.err = entry(r.couponLeaf, r.coupons, r.couponRows); out.err != nil {
 		return out
 	}
-	out.sections, out.err = entry(r.sectionLeaf, r.sectionRows)
+	out.sections, out.err = entry(r.sectionLeaf, r.sections, r.sectionRows)
 	return out
 }
 

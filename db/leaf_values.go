@@ -148,7 +148,7 @@ func storedForm(oid uint32, v any) (any, error) {
 
 // A write of many rows (a chunk of production records, the coupons and
 // sections of an import) copies them in the binary COPY format and encodes
-// each row's leaf with valueFact from the values copied: rowLeaves holds,
+// each row's leaf from the bytes laid out for it (rawFact): rowLeaves holds,
 // for one table and the columns written, the leaf's column descriptions and
 // every written column's type (what encodeCopyRows sends it as).
 // Verification encodes the same facts again from the stored rows
@@ -199,16 +199,6 @@ func newRowLeaves(ctx context.Context, q querier, k LeafKind, table string, cols
 	}
 	rowShapes.Store(key, r)
 	return r, nil
-}
-
-// fact encodes one row, its values in the written columns' order as
-// copied, as a fact of the kind (valueFact).
-func (r *rowLeaves) fact(row []any) (logfmt.Fact, error) {
-	vals := make([]any, len(r.fds))
-	for i, j := range r.at {
-		vals[i] = row[j]
-	}
-	return valueFact(r.kind, r.fds, vals)
 }
 
 // rawFact encodes one row from the binary values a copyWriter laid out for
