@@ -18,7 +18,7 @@ import (
 
 // BenchmarkCouponCreateAPI posts coupons to POST /v1/coupons from 8 and from
 // 32 clients at once, end to end (the client's JSON, HTTP on a loopback
-// listener, token lookup, the OpenAPI check of the request, the field
+// listener, token check, the OpenAPI check of the request, the field
 // checks, Store.CreateCoupon, the JSON answer), and side by side a raw pgx
 // INSERT of the same columns in one transaction (dbtest.RawCoupon) from as
 // many clients through the service's pool, alternating in rounds of

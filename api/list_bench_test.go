@@ -14,7 +14,7 @@ import (
 )
 
 // BenchmarkCouponListAPI asks GET /v1/coupons?limit=50 from 8 clients at
-// once, end to end (token lookup, the OpenAPI check of the request, the
+// once, end to end (token check, the OpenAPI check of the request, the
 // list, JSON with 12 significant digits), b.N pages in all, and side by side
 // a raw SELECT of a 50-coupon page of the same site and columns from 8
 // clients through the service's pool. x-of-raw is the endpoint's pages/s
