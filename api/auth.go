@@ -26,7 +26,7 @@ var (
 
 const (
 	ctxUser = "etchlog.user"
-	ctxBody = "etchlog.body" // the request body guard read, to run a request again
+	ctxBody = "etchlog.body" // the request body guard read: for the compiled schema check and to run a request again
 )
 
 // requireRole authenticates the bearer token and admits only the given

@@ -69,9 +69,9 @@ func (s *Server) guard(next echo.HandlerFunc) echo.HandlerFunc {
 		if err := checkBody(body); err != nil {
 			return err
 		}
-		if keptUserRoutes[req.Method+" "+c.Path()] {
-			c.Set(ctxBody, body) // to run the request again (admitKept); elsewhere the body may go once read
-		}
+		// Kept for the OpenAPI check's compiled schema (conformTo) and to run
+		// a request again (admitKept).
+		c.Set(ctxBody, body)
 		return next(c)
 	}
 }

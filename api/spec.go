@@ -96,6 +96,10 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 	}
 	all := *first
 	all.MultiError = true
+	// A body the compiled schema passes needs only the parameters checked.
+	quick := compileQuick(route.Operation)
+	params := *first
+	params.ExcludeRequestBody = true
 	known := queryNames(item, route.Operation)
 	api := strings.HasPrefix(sp, "/v1/") // the page, probes and the document ignore stray parameters
 	units := item.Parameters.GetByInAndName(openapi3.ParameterInQuery, "units") != nil ||
@@ -111,9 +115,9 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 				// Checked against the parameter's enum below; read by jsonAnswer.
 				c.Set(ctxUnits, c.QueryParam("units"))
 			}
-			params := map[string]string{}
+			pathParams := map[string]string{}
 			for _, n := range c.ParamNames() {
-				params[n] = c.Param(n)
+				pathParams[n] = c.Param(n)
 			}
 			// The first pass stops at the first fault, so a valid request
 			// costs one walk and a hostile one cannot grow an error per item.
@@ -125,7 +129,12 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 				shallow.Body, shallow.ContentLength = http.NoBody, 0
 				req = &shallow
 			}
-			in := &openapi3filter.RequestValidationInput{Request: req, PathParams: params, Route: route, Options: first}
+			in := &openapi3filter.RequestValidationInput{Request: req, PathParams: pathParams, Route: route, Options: first}
+			if quick != nil && !stream {
+				if body, ok := c.Get(ctxBody).([]byte); ok && quick.accepts(req.Header.Get(echo.HeaderContentType), body) {
+					in.Options = &params
+				}
+			}
 			if err := openapi3filter.ValidateRequest(req.Context(), in); err != nil {
 				if req.ContentLength <= multiErrorBodyLimit {
 					in.Options = &all
