@@ -124,6 +124,11 @@ func open(ctx context.Context, url, role string, unprivileged bool, conns int) (
 	// inflated (a set-returning function counts as 1,000 rows, as in the
 	// coupons list's month walk) took PostgreSQL seconds for a 1 ms page.
 	cfg.ConnConfig.RuntimeParams["jit"] = "off"
+	// Named in pg_stat_activity, so an operator (and a CPU count per
+	// connection) tells the service's requests from its log sequencer.
+	if cfg.ConnConfig.RuntimeParams["application_name"] == "" {
+		cfg.ConnConfig.RuntimeParams["application_name"] = "etchlog"
+	}
 	if role != "" {
 		cfg.ConnConfig.RuntimeParams["role"] = role
 	}
