@@ -42,22 +42,54 @@ func itemWriterOf[T any]() itemWriter[T] {
 // true, or reports false when T has none or the answer is asked indented or
 // verbatim (those take jsonAnswer).
 func writePage[T any](c echo.Context, p db.Page[T]) (bool, error) {
-	item := itemWriterOf[T]()
+	item, inch := directWriter[T](c)
 	if item == nil {
 		return false, nil
 	}
-	if _, pretty := c.QueryParams()["pretty"]; pretty || c.Echo().Debug {
-		return false, nil
-	}
-	if verbatim, _ := c.Get(ctxVerbatim).(bool); verbatim {
-		return false, nil
-	}
-	units, _ := c.Get(ctxUnits).(string)
-	b, err := appendPage(make([]byte, 0, 1024*(len(p.Items)+1)), p, item, units == unitsInchPound)
+	b, err := appendPage(make([]byte, 0, 1024*(len(p.Items)+1)), p, item, inch)
 	if err != nil {
 		return true, err
 	}
 	return true, c.JSONBlob(http.StatusOK, b)
+}
+
+// writeOne answers one record with status through the item writer of T, as
+// writePage answers a page, and reports true; false as writePage's.
+func writeOne[T any](c echo.Context, status int, v *T) (bool, error) {
+	item, inch := directWriter[T](c)
+	if item == nil {
+		return false, nil
+	}
+	b, err := appendOne(make([]byte, 0, 1024), v, item, inch)
+	if err != nil {
+		return true, err
+	}
+	return true, c.JSONBlob(status, b)
+}
+
+// directWriter is the item writer of T for this answer and whether it is
+// inch-pound, or nil when T has none or the answer is asked indented or
+// verbatim (those take jsonAnswer).
+func directWriter[T any](c echo.Context) (itemWriter[T], bool) {
+	item := itemWriterOf[T]()
+	if item == nil {
+		return nil, false
+	}
+	if _, pretty := c.QueryParams()["pretty"]; pretty || c.Echo().Debug {
+		return nil, false
+	}
+	if verbatim, _ := c.Get(ctxVerbatim).(bool); verbatim {
+		return nil, false
+	}
+	units, _ := c.Get(ctxUnits).(string)
+	return item, units == unitsInchPound
+}
+
+// appendOne appends v as jsonAnswer writes it, the trailing newline included.
+func appendOne[T any](b []byte, v *T, item itemWriter[T], inch bool) ([]byte, error) {
+	w := &answerWriter{b: append(b, '{'), inch: inch}
+	item(w, v)
+	return append(w.b, '}', '\n'), w.err
 }
 
 // appendPage appends the page {items, next_cursor} as jsonAnswer writes

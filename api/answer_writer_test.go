@@ -153,6 +153,35 @@ func TestListAnswerMatchesEncodingJSON(t *testing.T) {
 	checkPage(t, db.Page[db.Coupon]{}, appendCoupon) // no items: []
 }
 
+// TestOneAnswerMatchesEncodingJSON: a created or corrected coupon's answer
+// (appendOne) is the bytes jsonAnswer writes for it, metric and inch-pound.
+func TestOneAnswerMatchesEncodingJSON(t *testing.T) {
+	t.Parallel()
+	r := rand.New(rand.NewPCG(5, 6))
+	for range 400 {
+		c := randomCoupon(r)
+		for _, inch := range []bool{false, true} {
+			want, werr := json.Marshal(c)
+			if werr == nil {
+				want, werr = rewriteAnswer(want, inch)
+			}
+			got, gerr := appendOne(nil, &c, appendCoupon, inch)
+			if werr == nil && !json.Valid(want) { // an inch-pound conversion past the largest double
+				if gerr == nil {
+					t.Fatalf("inch=%v: wrote %s where the rewriting wrote no valid JSON; want a refusal", inch, got)
+				}
+				continue
+			}
+			if (werr != nil) != (gerr != nil) {
+				t.Fatalf("inch=%v: error %v, encoding/json's %v", inch, gerr, werr)
+			}
+			if werr == nil && !bytes.Equal(got, append(want, '\n')) {
+				t.Fatalf("inch=%v:\n got %s\nwant %s", inch, got, want)
+			}
+		}
+	}
+}
+
 // TestListAnswerRefusesAsEncodingJSON: a value encoding/json refuses (NaN,
 // an infinity, a year past 9999, a zone hour past 23) fails the page in
 // both.

@@ -72,7 +72,7 @@ func handleCreate[In input[D], D any, R any](s *Server, r resource[In, D, R]) ec
 			return err
 		}
 		c.Response().Header().Set(echo.HeaderLocation, r.path+"/"+idOf(rec).String())
-		return c.JSON(http.StatusCreated, rec)
+		return answerOne(c, http.StatusCreated, &rec)
 	}
 }
 
@@ -104,7 +104,7 @@ func handleCorrect[In input[D], D any, R any](s *Server, r resource[In, D, R]) e
 		if err != nil {
 			return err
 		}
-		return c.JSON(http.StatusOK, rec)
+		return answerOne(c, http.StatusOK, &rec)
 	}
 }
 
@@ -281,4 +281,13 @@ func pageOf[T any](p db.Page[T]) listPage[T] {
 		p.Items = []T{}
 	}
 	return listPage[T]{Items: p.Items, Next: p.Next}
+}
+
+// answerOne answers a written record, through its item writer when it has
+// one (writeOne), else through jsonAnswer.
+func answerOne[R any](c echo.Context, status int, rec *R) error {
+	if done, err := writeOne(c, status, rec); done {
+		return err
+	}
+	return c.JSON(status, rec)
 }

@@ -158,16 +158,12 @@ func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, ma
 		return nil, err
 	}
 	args := append([]any{m.Site, m.ID, m.Revision, m.CreatedAt, m.CreatedBy, m.Reason, m.Voided}, values...)
-	cols := strings.Split(t.columns(), ", ")
-	if len(cols) != len(args) {
-		return nil, fmt.Errorf("db: %s: %d values for %d columns", t.name, len(args), len(cols))
+	st, err := newRecordStatements(t, lk, len(args))
+	if err != nil {
+		return nil, err
 	}
-	leafVals := make([]any, len(lk.Columns))
-	for i, c := range lk.Columns {
-		j := slices.Index(cols, c)
-		if j < 0 {
-			return nil, fmt.Errorf("db: %s leaf column %s is not written", t.entity, c)
-		}
+	leafVals := make([]any, len(st.leafArgs))
+	for i, j := range st.leafArgs {
 		leafVals[i] = args[j]
 	}
 	f, err := valueFact(lk, fds, leafVals)
@@ -175,7 +171,48 @@ func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, ma
 		return nil, err
 	}
 	pending := pendingRow(key, lk, m.leafEntry(t.entity, action), m.ID, m.Revision, f)
-	n := len(args)
+	if len(pending) != st.pending {
+		return nil, fmt.Errorf("db: %s: %d pending values for %d columns", t.name, len(pending), st.pending)
+	}
+	args = append(append(args, k.kind, mark), pending...)
+	q, checkedQ := st.q, st.checkedQ
+	return func(tx pgx.Tx) error {
+		chk := check()
+		if chk == nil {
+			return queueExec(ctx, tx, q, args...)
+		}
+		return queueRows(ctx, tx, chk.unchanged, checkedQ, append(args, chk.procedure)...)
+	}, nil
+}
+
+// recordStatements are a new record's statements for one table, built once
+// (they depend only on the table's columns and its leaf kind).
+type recordStatements struct {
+	args        int    // the record's values, its meta columns first
+	leafArgs    []int  // the argument of each of the leaf kind's columns
+	pending     int    // values of a pending log row
+	q, checkedQ string // the write; the write answering the procedure's count of judgement changes
+}
+
+var recordStatementCache sync.Map // leafShapeKey → *recordStatements
+
+func newRecordStatements(t table, lk LeafKind, n int) (*recordStatements, error) {
+	key := leafShapeKey{lk.Kind, lk.Version, t.name}
+	if st, ok := recordStatementCache.Load(key); ok && st.(*recordStatements).args == n {
+		return st.(*recordStatements), nil
+	}
+	cols := strings.Split(t.columns(), ", ")
+	if len(cols) != n {
+		return nil, fmt.Errorf("db: %s: %d values for %d columns", t.name, n, len(cols))
+	}
+	st := &recordStatements{args: n, pending: len(pendingColumnList)}
+	for _, c := range lk.Columns {
+		j := slices.Index(cols, c)
+		if j < 0 {
+			return nil, fmt.Errorf("db: %s leaf column %s is not written", t.entity, c)
+		}
+		st.leafArgs = append(st.leafArgs, j)
+	}
 	ph := func(from, count int) string {
 		p := make([]string, count)
 		for i := range p {
@@ -191,19 +228,13 @@ func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, ma
 	writes := `WITH claim AS (
 			INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, $` + strconv.Itoa(n+1) + `, $` + strconv.Itoa(n+2) + `, $2)),
 		stored AS (INSERT INTO ` + t.name + ` (` + t.columns() + `) VALUES (` + ph(1, n) + `))`
-	logged := `INSERT INTO log_pending (` + pendingColumns + `) VALUES (` + ph(n+3, len(pending)) + `)`
-	args = append(append(args, k.kind, mark), pending...)
-	q := writes + "\n" + logged
+	logged := `INSERT INTO log_pending (` + pendingColumns + `) VALUES (` + ph(n+3, st.pending) + `)`
+	st.q = writes + "\n" + logged
 	// Checked: the same, answering the procedure's count of judgement changes.
-	checkedQ := writes + ", logged AS (" + logged + `)
-		SELECT count(*) FROM judgement_changes WHERE site = $1 AND procedure_id = $` + strconv.Itoa(len(args)+1)
-	return func(tx pgx.Tx) error {
-		chk := check()
-		if chk == nil {
-			return queueExec(ctx, tx, q, args...)
-		}
-		return queueRows(ctx, tx, chk.unchanged, checkedQ, append(args, chk.procedure)...)
-	}, nil
+	st.checkedQ = writes + ", logged AS (" + logged + `)
+		SELECT count(*) FROM judgement_changes WHERE site = $1 AND procedure_id = $` + strconv.Itoa(n+2+st.pending+1)
+	recordStatementCache.Store(key, st)
+	return st, nil
 }
 
 // lockRecord serialises the writes to one record until the transaction ends.
