@@ -204,6 +204,10 @@ func mapError(err error) error {
 		return err
 	}
 	switch pg.Code {
+	case refuseUserChanged:
+		return ErrUserChanged
+	case refuseJudgementChanged:
+		return errJudgementChanged
 	case pgerrcode.DeadlockDetected, pgerrcode.SerializationFailure: // two writes crossed; the client may retry
 		return fmt.Errorf("%w: a concurrent write got in the way; retry", ErrConflict)
 	case pgerrcode.UniqueViolation:

@@ -143,8 +143,15 @@ func readWrittenCoupon(ctx context.Context, kept *judgedCache, useKept bool, m M
 // there, and this one is not until the write commits).
 func writtenCouponFlags(ctx context.Context, kept *judgedCache, m Meta, in **couponInputs, out *Coupon) step {
 	return func(tx pgx.Tx) error {
-		if err := flushed(ctx, tx); err != nil {
-			return err
+		// Inputs kept in the process are all here before anything is sent
+		// (a qualification record the coupon names is read): the flags go
+		// with the write and COMMIT, in one round trip, the write's own
+		// statement failing the transaction if the inputs changed. Read
+		// inputs arrive with this flush.
+		if k := *in; k.check == nil || k.coupon.QualificationRecordID != nil {
+			if err := flushed(ctx, tx); err != nil {
+				return err
+			}
 		}
 		kept.keep(*in)
 		out.inherit((*in).defaults())

@@ -83,6 +83,11 @@ func (c *judgedCache) drop(k judgedKey) {
 // change of them committed.
 var errJudgementChanged = errors.New("what the procedure's coupons are judged by changed since it was read")
 
+// refuseJudgementChanged is the SQLSTATE with which the statement writing a
+// coupon fails when the count is not the kept inputs' (mapError turns it
+// into errJudgementChanged).
+const refuseJudgementChanged = "EL002"
+
 // judgementChangesSQL counts the judgement changes of procedure $2 at site $1.
 const judgementChangesSQL = `SELECT count(*) FROM judgement_changes WHERE site = $1 AND procedure_id = $2`
 

@@ -65,10 +65,16 @@ func (t *pipeTx) queueMapped(sql string, args []any, mapErr func(error) error) {
 }
 
 func (t *pipeTx) queueWith(sql string, args []any, read func(pgx.Rows) error, owned bool, mapErr func(error) error) {
+	t.queueReader(sql, args, read, owned, read != nil && !owned, mapErr)
+}
+
+// queueReader queues a statement; checking says its reader may refuse what
+// the statement answered, so COMMIT may not leave with it.
+func (t *pipeTx) queueReader(sql string, args []any, read func(pgx.Rows) error, owned, checking bool, mapErr func(error) error) {
 	p := t.next
 	i := len(p.errs)
 	p.errs = append(p.errs, nil)
-	p.checking = p.checking || (read != nil && !owned)
+	p.checking = p.checking || checking
 	qq := p.b.Queue(sql, args...)
 	qq.Fn = func(br pgx.BatchResults) error {
 		if read == nil {
@@ -293,6 +299,18 @@ func queueRows(ctx context.Context, tx pgx.Tx, read func(pgx.Rows) error, sql st
 		return mapError(err)
 	}
 	return rerr
+}
+
+// queueEnforced is queueRows for a statement that enforces its condition
+// itself, failing (and so aborting the transaction) when it does not hold:
+// its reader only reads the answer, and COMMIT may leave in the same round
+// trip. A refusal the reader still reports fails the write as queueRows'.
+func queueEnforced(ctx context.Context, tx pgx.Tx, read func(pgx.Rows) error, sql string, args ...any) error {
+	if t, ok := tx.(*pipeTx); ok {
+		t.queueReader(sql, args, read, false, false, mapError)
+		return nil
+	}
+	return queueRows(ctx, tx, read, sql, args...)
 }
 
 // queueExecMapped is queueExec with its own mapping of the statement's

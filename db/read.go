@@ -196,7 +196,7 @@ func pageLimit(limit int) string { return " LIMIT " + strconv.Itoa(limit) }
 func (s *Store) readPage(ctx context.Context, site, sql string, args []any, read func(pgx.Rows) error) error {
 	b := &pgx.Batch{}
 	if c := pendingUserCheck(ctx); c != nil {
-		b.Queue(userByTokenSQL, c.digest).Query(c.confirm)
+		b.Queue(userByTokenSQL, c.digest).Query(c.confirmLookup)
 	}
 	var pending *int64
 	b.Queue(lastPending, site).QueryRow(func(r pgx.Row) error { return r.Scan(&pending) })

@@ -181,7 +181,7 @@ func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, ma
 		if chk == nil {
 			return queueExec(ctx, tx, q, args...)
 		}
-		return queueRows(ctx, tx, chk.unchanged, checkedQ, append(args, chk.procedure)...)
+		return queueEnforced(ctx, tx, chk.unchanged, checkedQ, append(args, chk.procedure, chk.changes)...)
 	}, nil
 }
 
@@ -230,9 +230,14 @@ func newRecordStatements(t table, lk LeafKind, n int) (*recordStatements, error)
 		stored AS (INSERT INTO ` + t.name + ` (` + t.columns() + `) VALUES (` + ph(1, n) + `))`
 	logged := `INSERT INTO log_pending (` + pendingColumns + `) VALUES (` + ph(n+3, st.pending) + `)`
 	st.q = writes + "\n" + logged
-	// Checked: the same, answering the procedure's count of judgement changes.
+	// Checked: the same, answering the procedure's count of judgement
+	// changes, and failing (SQLSTATE refuseJudgementChanged, which aborts
+	// the transaction) when it is not the count the create judged by.
+	proc, want := strconv.Itoa(n+2+st.pending+1), strconv.Itoa(n+2+st.pending+2)
 	st.checkedQ = writes + ", logged AS (" + logged + `)
-		SELECT count(*) FROM judgement_changes WHERE site = $1 AND procedure_id = $` + strconv.Itoa(n+2+st.pending+1)
+		SELECT CASE WHEN count(*) = $` + want + `::bigint THEN count(*)
+		       ELSE etchlog_refuse('` + refuseJudgementChanged + `', 'what the procedure''s coupons are judged by changed') END
+		FROM judgement_changes WHERE site = $1 AND procedure_id = $` + proc
 	recordStatementCache.Store(key, st)
 	return st, nil
 }

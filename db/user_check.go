@@ -55,16 +55,33 @@ func WithUserCheck(ctx context.Context, digest []byte, u User) (context.Context,
 // the token's user to be the one claimed (a write that commits always has).
 func (c *UserCheck) Confirmed() bool { return c.confirmed.Load() }
 
-// queueUserCheck queues, on a new write transaction, the lookup of the
-// token of ctx's unconfirmed UserCheck; its reader fails the write with
-// ErrUserChanged unless the lookup finds exactly the claimed user. A check
-// already confirmed by an earlier write of the request is not repeated.
+// userCheckSQL is userByTokenSQL's lookup made a condition of the write: it
+// answers one row when the token ($1) is held by exactly the claimed user
+// ($2 site, $3 name, $4 role), and otherwise fails with SQLSTATE
+// refuseUserChanged, aborting the transaction there (etchlog_refuse,
+// migration 000050), so no COMMIT sent behind it in the same round trip
+// can take effect.
+const userCheckSQL = `WITH found AS (` + userByTokenSQL + `)
+		SELECT CASE WHEN (SELECT count(*) FROM found) = 1
+		             AND EXISTS (SELECT 1 FROM found WHERE site = $2 AND name = $3 AND role = $4)
+		       THEN 1 ELSE etchlog_refuse('` + refuseUserChanged + `', 'the token''s user changed') END`
+
+// refuseUserChanged is the SQLSTATE of userCheckSQL's refusal (mapError
+// turns it into ErrUserChanged).
+const refuseUserChanged = "EL001"
+
+// queueUserCheck queues, on a new write transaction, the check that the
+// token of ctx's unconfirmed UserCheck is held by exactly the claimed user:
+// the statement itself fails the write otherwise (ErrUserChanged), so the
+// check needs no round trip of its own before COMMIT. A check already
+// confirmed by an earlier write of the request is not repeated.
 func queueUserCheck(ctx context.Context, tx pgx.Tx) error {
 	c := pendingUserCheck(ctx)
 	if c == nil {
 		return nil
 	}
-	return queueRows(ctx, tx, c.confirm, userByTokenSQL, c.digest)
+	u := c.user
+	return queueEnforced(ctx, tx, c.confirm, userCheckSQL, c.digest, u.Site, u.Name, u.Role)
 }
 
 // pendingUserCheck is ctx's UserCheck when it is not yet confirmed, else nil.
@@ -76,9 +93,27 @@ func pendingUserCheck(ctx context.Context) *UserCheck {
 	return c
 }
 
-// confirm reads the rows of userByTokenSQL: ErrUserChanged unless they are
-// exactly the claimed user, whom it then records as confirmed.
+// confirm reads userCheckSQL's one row, which it answers only for the
+// claimed user, and records the user as confirmed.
 func (c *UserCheck) confirm(rows pgx.Rows) error {
+	n, err := pgx.CollectOneRow(rows, pgx.RowTo[int64])
+	if rows.Err() != nil {
+		return nil // the statement's own error is reported
+	}
+	if err != nil {
+		return err
+	}
+	if n != 1 {
+		return ErrUserChanged
+	}
+	c.confirmed.Store(true)
+	return nil
+}
+
+// confirmLookup reads the rows of userByTokenSQL (a read's batch runs the
+// lookup itself): ErrUserChanged unless they are exactly the claimed user,
+// whom it then records as confirmed.
+func (c *UserCheck) confirmLookup(rows pgx.Rows) error {
 	found, err := pgx.CollectRows(rows, pgx.RowToStructByName[User])
 	if rows.Err() != nil {
 		return nil // the statement's own error is reported
