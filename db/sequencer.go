@@ -88,6 +88,7 @@ func (s *Store) leadOnce(ctx context.Context, opt SequencerOptions) error {
 	// The planner's cost of a large batch had it compile the statements to
 	// machine code first (JIT), which took longer than their reads by key.
 	cfg.RuntimeParams["jit"] = "off"
+	cfg.RuntimeParams["application_name"] = "etchlog sequencer"
 	conn, err := pgx.ConnectConfig(ctx, cfg)
 	if err != nil {
 		return err
