@@ -106,7 +106,7 @@ func keyRefresh(table, columns string) string {
 // the records $2 at site $1: each found by its key, then deleted by its
 // address (as sectionListDelete).
 func keyDelete(table string) string {
-	return `DELETE FROM ` + table + ` WHERE site = $1 AND ctid = ANY (ARRAY(
+	return `DELETE FROM ` + table + ` WHERE ctid = ANY (ARRAY(
 	SELECT k.ctid FROM unnest($2::uuid[]) u(id)
 	CROSS JOIN LATERAL (SELECT ctid FROM ` + table + ` WHERE site = $1 AND id = u.id OFFSET 0) k))`
 }
