@@ -101,3 +101,10 @@ const CouponListDelete = couponListDelete
 func QueueProductionPending(ctx context.Context, tx pgx.Tx, entry uuid.UUID, recs []ProductionRecord) error {
 	return queueProductionPending(ctx, tx, entry, recs)
 }
+
+// UserByTokenSQL and UserCheckSQL are the token lookups: a request's, and a
+// write's check of the user it was let in as.
+const (
+	UserByTokenSQL = userByTokenSQL
+	UserCheckSQL   = userCheckSQL
+)
