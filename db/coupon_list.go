@@ -119,7 +119,7 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 	// reflection, cost half the page's scan. Each row is decoded from its
 	// raw values where scanRaw takes them all, else scanned by pgx.
 	var page []listedCoupon
-	err = s.readPage(ctx, site, sql, args, func(rows pgx.Rows) error {
+	err = s.readPageWith(ctx, site, sql, args, func(rows pgx.Rows) error {
 		defer rows.Close()
 		page = make([]listedCoupon, 0, limit)
 		var c listedCoupon
@@ -135,7 +135,7 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 			c = listedCoupon{} // the targets still point into c
 		}
 		return rows.Err()
-	})
+	}, walksDays(cf))
 	if err != nil {
 		return Page[Coupon]{}, fmt.Errorf("db: list coupon: %w", mapError(err))
 	}
@@ -157,7 +157,6 @@ func couponListQuery(site string, cf CouponFilter, from int64, limit int) (strin
 	if !cf.IncludeVoided {
 		f.add("NOT k.voided")
 	}
-	equality := false
 	for _, e := range []struct {
 		col string
 		val any
@@ -170,7 +169,6 @@ func couponListQuery(site string, cf CouponFilter, from int64, limit int) (strin
 	} {
 		if e.set {
 			f.add("k."+e.col+" = ?", e.val)
-			equality = true
 		}
 	}
 	if cf.WeldedFrom != nil {
@@ -187,7 +185,7 @@ func couponListQuery(site string, cf CouponFilter, from int64, limit int) (strin
 	default:
 		return "", nil, &FieldError{Field: "acceptance", Reason: "want accept or reject"}
 	}
-	byDays := !equality && (cf.WeldedFrom != nil || cf.WeldedTo != nil)
+	byDays := walksDays(cf)
 	if !byDays && cf.Acceptance != "" {
 		f.add("k.verdict = ?", cf.Acceptance)
 	}
@@ -277,6 +275,14 @@ func (c *listedCoupon) targets() []any {
 		&d.WireFeedSpeedMPerMin, &d.CTWDMM, &d.WireDiameterMM, &d.ShieldingGas, &d.Polarity, &d.Position,
 		&d.PreheatC, &d.InterpassC,
 		&c.LeafIndex, &c.Process, &c.WireDiameterMM, &c.ShieldingGas, &c.Polarity}
+}
+
+// walksDays reports a filter the coupons list answers by walking welding
+// days and months (couponListQuery): a welding-day range with no equality
+// filter.
+func walksDays(cf CouponFilter) bool {
+	equality := cf.ProcedureID != nil || cf.QualificationRecordID != nil || cf.WelderID != "" || cf.CouponMark != ""
+	return !equality && (cf.WeldedFrom != nil || cf.WeldedTo != nil)
 }
 
 // maxDayWalk is the longest welding-day range (in days) the coupons list

@@ -149,3 +149,53 @@ func countedStore(t *testing.T) (*db.Store, *tripCounter) {
 	}
 	return s, tr
 }
+
+// TestDayWalkUsesGenericPlan: a coupons page by welding days alone is read
+// with its statement's generic plan (the page's transaction sets
+// plan_cache_mode in the same round trip as the page), and other coupons
+// pages are not; both answer the same coupons as listed in log order.
+func TestDayWalkUsesGenericPlan(t *testing.T) {
+	ctx := context.Background()
+	dbtest.Store(t)
+	s, tr := countedStore(t)
+	site := dbtest.Site(t)
+	p := mustProcedure(t, s, site)
+	var marks []string
+	for i := range 3 {
+		c, err := s.CreateCoupon(ctx, actor(site), couponData(p.ID, fmt.Sprint("GP-", i)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		marks = append(marks, c.CouponMark)
+	}
+	if err := s.AwaitLogged(ctx, site); err != nil { // the lists then read in one round trip
+		t.Fatal(err)
+	}
+	from := db.DateOf(couponData(p.ID, "").WeldedOn.AddDate(0, 0, -40))
+	for _, c := range []struct {
+		name    string
+		f       db.CouponFilter
+		generic bool
+	}{
+		{"welding days", db.CouponFilter{WeldedFrom: &from}, true},
+		{"welding days and welder", db.CouponFilter{WeldedFrom: &from, WelderID: couponData(p.ID, "").WelderID}, false},
+		{"none", db.CouponFilter{}, false},
+	} {
+		tr.reset()
+		page, err := s.Coupons(ctx, site, c.f, "", 50)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var got []string
+		for _, it := range page.Items {
+			got = append(got, it.CouponMark)
+		}
+		if fmt.Sprint(got) != fmt.Sprint(marks) {
+			t.Errorf("%s: coupons %v, want %v", c.name, got, marks)
+		}
+		sent := strings.Join(tr.log, "\n")
+		if generic := strings.Contains(sent, "plan_cache_mode = force_generic_plan"); generic != c.generic || tr.trips() != 1 {
+			t.Errorf("%s: generic plan %v (want %v) in %d round trips (want 1):\n%s", c.name, generic, c.generic, tr.trips(), sent)
+		}
+	}
+}
