@@ -102,10 +102,7 @@ func oneLine(sql string) string {
 // kept, 7.)
 func TestCouponWriteRoundTrips(t *testing.T) {
 	ctx := context.Background()
-	dbtest.Store(t)
-	s, tr := countedStore(t)
-	site := dbtest.Site(t)
-	p := mustProcedure(t, s, site)
+	s, tr, site, p := countedProcedure(t)
 	var c db.Coupon
 	var err error
 	for i := range 2 { // the first create warms the statement cache
@@ -133,6 +130,16 @@ func TestCouponWriteRoundTrips(t *testing.T) {
 	}
 }
 
+// countedProcedure is a counted store (countedStore) on the test database,
+// a site of the test's own and a procedure there.
+func countedProcedure(t *testing.T) (*db.Store, *tripCounter, string, db.Procedure) {
+	t.Helper()
+	dbtest.Store(t)
+	s, tr := countedStore(t)
+	site := dbtest.Site(t)
+	return s, tr, site, mustProcedure(t, s, site)
+}
+
 // countedStore opens a Store of its own on the test database (a second
 // process's pool, as far as the database can tell), with a tripCounter
 // watching each of its statements; it closes when the test ends.
@@ -156,10 +163,7 @@ func countedStore(t *testing.T) (*db.Store, *tripCounter) {
 // pages are not; both answer the same coupons as listed in log order.
 func TestDayWalkUsesGenericPlan(t *testing.T) {
 	ctx := context.Background()
-	dbtest.Store(t)
-	s, tr := countedStore(t)
-	site := dbtest.Site(t)
-	p := mustProcedure(t, s, site)
+	s, tr, site, p := countedProcedure(t)
 	var marks []string
 	for i := range 3 {
 		c, err := s.CreateCoupon(ctx, actor(site), couponData(p.ID, fmt.Sprint("GP-", i)))
