@@ -366,34 +366,20 @@ func (r *quickReader) literal(s string) bool {
 	return false
 }
 
-// plainString reads a string holding no escape sequence and answers its
-// bytes; an escape answers false.
+// plainString reads a string holding no escape sequence (the package's
+// plainString) and answers its bytes; an escape answers false.
 func (r *quickReader) plainString() ([]byte, bool) {
-	if !r.byte('"') {
-		return nil, false
+	v, next, ok := plainString(r.b, r.i)
+	if ok {
+		r.i = next
 	}
-	start := r.i
-	for r.i < len(r.b) {
-		switch r.b[r.i] {
-		case '"':
-			r.i++
-			return r.b[start : r.i-1], true
-		case '\\':
-			return nil, false
-		}
-		r.i++
-	}
-	return nil, false
+	return v, ok
 }
 
 // number reads a number's characters (json.Valid has checked its form).
 func (r *quickReader) number() []byte {
 	start := r.i
-	for r.i < len(r.b) {
-		c := r.b[r.i]
-		if (c < '0' || c > '9') && c != '-' && c != '+' && c != '.' && c != 'e' && c != 'E' {
-			break
-		}
+	for r.i < len(r.b) && numberByte(r.b[r.i]) {
 		r.i++
 	}
 	return r.b[start:r.i]
