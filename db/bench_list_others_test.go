@@ -115,6 +115,7 @@ func otherListCases(ctx context.Context, tb testing.TB, s *db.Store, conn *pgx.C
 	tb.Helper()
 	const site = "bench"
 	procs, pqrs, production := seedOtherLists(ctx, tb, conn, n)
+	rawListIndexes(ctx, tb, conn)
 	deep := func(list, kind string, count int) string {
 		var idx int64
 		if err := conn.QueryRow(ctx, "SELECT leaf_index FROM log_leaves WHERE site = 'bench' AND kind = $1 ORDER BY leaf_index OFFSET $2 LIMIT 1",

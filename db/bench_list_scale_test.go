@@ -31,6 +31,7 @@ func BenchmarkCouponListScale(b *testing.B) {
 	if err := fillCouponList(ctx, conn); err != nil {
 		b.Fatal(err)
 	}
+	rawListIndexes(ctx, b, conn)
 	s, _ := tracedStore(b, dbURL)
 	var cols string
 	if err := s.Pool().QueryRow(ctx, `SELECT string_agg(column_name, ', ' ORDER BY ordinal_position)

@@ -108,3 +108,10 @@ const (
 	UserByTokenSQL = userByTokenSQL
 	UserCheckSQL   = userCheckSQL
 )
+
+// RecordCouponsSQL and ProcedureCouponsSQL read the coupons a corrected
+// qualification record or procedure judges again.
+var (
+	RecordCouponsSQL    = recordCouponsSQL
+	ProcedureCouponsSQL = procedureCouponsSQL
+)

@@ -87,11 +87,7 @@ func recomputeProcedure(ctx context.Context, tx pgx.Tx, now time.Time, pr Proced
 		return 0, fmt.Errorf("clear flags: %w", err)
 	}
 	w := newFlagWriter(pr.Site, now, pr)
-	rows, _ := tx.Query(ctx, `SELECT `+coupons.columns()+` FROM (
-			SELECT DISTINCT ON (id) `+coupons.columns()+` FROM coupons
-			WHERE site = $1 AND id IN (SELECT id FROM coupons WHERE site = $1 AND procedure_id = $2)
-			ORDER BY id, revision DESC) cur
-		WHERE NOT voided AND procedure_id = $2`, pr.Site, pr.ProcedureID)
+	rows, _ := tx.Query(ctx, procedureCouponsSQL, pr.Site, pr.ProcedureID)
 	cs, err := pgx.CollectRows(rows, pgx.RowToStructByName[Coupon])
 	if err != nil {
 		return 0, fmt.Errorf("read coupons: %w", err)
@@ -136,6 +132,30 @@ func evaluateProduction(ctx context.Context, tx pgx.Tx, w *flagWriter) error {
 	return rows.Err()
 }
 
+// procedureCouponsSQL reads the current, non-voided coupons of the
+// procedure $2 at site $1: the coupons that ever named it (coupons_procedure),
+// each one's latest revision found by its key, so the read costs the
+// procedure's coupons, not the site's (TestRecordRecomputeReadsByIndex).
+var procedureCouponsSQL = `SELECT ` + prefixed("cur.", coupons.columns()) + `
+	FROM (SELECT DISTINCT id FROM coupons WHERE site = $1 AND procedure_id = $2) ever
+	CROSS JOIN LATERAL (SELECT ` + coupons.columns() + ` FROM coupons
+		WHERE site = $1 AND id = ever.id ORDER BY revision DESC LIMIT 1) cur
+	WHERE NOT cur.voided AND cur.procedure_id = $2
+	ORDER BY cur.id`
+
+// recordCouponsSQL finds the current, non-voided coupons that name the
+// qualification record $2 and belong to none of the procedures $3 (whose
+// coupons the procedures' recompute judges anyway): the coupons that ever
+// named the record (coupons_qualification_record), each one's latest
+// revision found by its key, so a record's correction costs its own
+// coupons, whatever the site ($1) holds (TestRecordRecomputeReadsByIndex).
+const recordCouponsSQL = `SELECT cur.id
+	FROM (SELECT DISTINCT id FROM coupons WHERE site = $1 AND qualification_record_id = $2) ever
+	CROSS JOIN LATERAL (SELECT id, voided, qualification_record_id, procedure_id FROM coupons
+		WHERE site = $1 AND id = ever.id ORDER BY revision DESC LIMIT 1) cur
+	WHERE NOT cur.voided AND cur.qualification_record_id = $2 AND NOT (cur.procedure_id = ANY($3))
+	ORDER BY cur.id`
+
 // recordFlags is the step that keeps flags in step with a corrected or
 // voided qualification record: the procedures it supports are re-evaluated
 // (their ranges may now be stale, and their flags say so), and so are the
@@ -156,10 +176,7 @@ func recordFlags(ctx context.Context, m Meta) step {
 				return err
 			}
 		}
-		rows, _ = tx.Query(ctx, `SELECT id FROM (
-				SELECT DISTINCT ON (id) id, voided, qualification_record_id, procedure_id FROM coupons
-				WHERE site = $1 ORDER BY id, revision DESC) cur
-			WHERE NOT voided AND qualification_record_id = $2 AND NOT (procedure_id = ANY($3))`, m.Site, m.ID, procs)
+		rows, _ = tx.Query(ctx, recordCouponsSQL, m.Site, m.ID, procs)
 		cs, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
 		if err != nil {
 			return fmt.Errorf("coupons of %s: %w", m.ID, err)

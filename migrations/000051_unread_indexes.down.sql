@@ -1,0 +1,11 @@
+CREATE INDEX measurements_rejected ON measurements (coupon_id) WHERE acceptance = 'reject';
+CREATE INDEX measurements_coupon ON measurements (coupon_id);
+CREATE INDEX production_records_weld ON production_records (site, weld_id);
+CREATE INDEX production_records_recorded_at ON production_records (site, recorded_at);
+CREATE INDEX production_records_welder ON production_records (site, welder_id, recorded_at);
+CREATE INDEX qualification_records_welder ON qualification_records (site, welder_id, welded_on);
+CREATE INDEX qualification_records_welded_on ON qualification_records (site, welded_on);
+CREATE INDEX qualification_records_number ON qualification_records (site, record_number);
+CREATE INDEX coupons_welder ON coupons (site, welder_id, welded_on);
+CREATE INDEX coupons_welded_on ON coupons (site, welded_on);
+CREATE INDEX coupons_mark ON coupons (site, coupon_mark);
