@@ -23,11 +23,7 @@ import (
 func TestKeysHoldSite(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()
-	conn, err := pgx.Connect(ctx, dbtest.URL(t))
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer conn.Close(ctx)
+	conn := dbtest.Conn(t)
 
 	// Keys: constraints (p, u, f) and unique indexes that back no constraint
 	// (the partial ones, e.g. one code per procedure at revision 1), with

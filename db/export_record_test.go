@@ -10,8 +10,6 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/jackc/pgx/v5"
-
 	"etchlog/db"
 	"etchlog/db/dbtest"
 )
@@ -24,11 +22,7 @@ func TestRecordEncoderMatchesEncodingJSON(t *testing.T) {
 	ctx := context.Background()
 	s := dbtest.Store(t)
 	site := "rec-" + t.Name()
-	conn, err := pgx.Connect(ctx, dbtest.URL(t))
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer conn.Close(ctx)
+	conn := dbtest.Conn(t)
 	// Rows written with SQL alone, to reach values the API would refuse
 	// (they have no leaf; only their records are compared here).
 	const cols = `site, id, revision, created_at, created_by, reason, voided, procedure_id, qualification_record_id,

@@ -22,11 +22,7 @@ import (
 func TestExportReportsRowsWithoutLeaf(t *testing.T) {
 	ctx := context.Background()
 	s := dbtest.Store(t)
-	conn, err := pgx.Connect(ctx, dbtest.URL(t))
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer conn.Close(ctx)
+	conn := dbtest.Conn(t)
 	for _, unlogged := range []int{5, 20001} { // below and above the rows held ahead (20,000)
 		t.Run(fmt.Sprint(unlogged), func(t *testing.T) {
 			site := fmt.Sprintf("win-%d-%s", unlogged, uuid.NewString()[:8])

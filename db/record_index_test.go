@@ -45,11 +45,7 @@ var writePathIndexes = map[string]string{
 func TestRecordIndexesHaveReaders(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()
-	conn, err := pgx.Connect(ctx, dbtest.URL(t))
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer conn.Close(ctx)
+	conn := dbtest.Conn(t)
 	rows, _ := conn.Query(ctx, `SELECT indexname FROM pg_indexes WHERE schemaname = current_schema()
 		AND tablename IN ('coupons', 'measurements', 'qualification_records', 'procedures', 'production_records',
 		                  'current_marks', 'log_pending')`)

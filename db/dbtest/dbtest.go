@@ -104,6 +104,19 @@ func URL(tb testing.TB) string {
 	return dbURL
 }
 
+// Conn returns a superuser connection to the package's test database,
+// closed when the test ends: for tests that read the catalog or write rows
+// with SQL alone.
+func Conn(tb testing.TB) *pgx.Conn {
+	tb.Helper()
+	conn, err := pgx.Connect(context.Background(), URL(tb))
+	if err != nil {
+		tb.Fatalf("dbtest: connect to the test database: %v", err)
+	}
+	tb.Cleanup(func() { conn.Close(context.Background()) })
+	return conn
+}
+
 // AppURL returns the service's connection URL of the package's test database
 // (login db.AppRole).
 func AppURL(tb testing.TB) string {
