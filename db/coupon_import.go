@@ -104,7 +104,7 @@ func (s *Store) ImportCouponsAhead(ctx context.Context, a Actor, keys ImportKeys
 	err := s.tx(ctx, func(tx pgx.Tx) error {
 		// Flags are judged under the procedures' current ranges: hold their
 		// shared flag locks before reading anything. Every statement of the
-		// write is planned for its own arguments (the marks' read above all).
+		// write is planned for its own arguments.
 		queued := firstError(queueExec(ctx, tx, `SET LOCAL plan_cache_mode = force_custom_plan`),
 			queueLockProcedures(ctx, tx, a.Site, keys.Procedures, false))
 		if queued != nil {
@@ -277,16 +277,23 @@ func linkIDs(cs []ImportCoupon, field func(CouponData) *uuid.UUID) []uuid.UUID {
 	return ids
 }
 
+// storedMarksSQL reads which of the marks $3 of kind $2 current records at
+// site $1 hold: one descent of current_marks' key per mark, whatever the
+// statistics (TestMarkLookupsReadByKey). Each mark is looked up on its own
+// (LATERAL … LIMIT 1, which the planner keeps as a lookup): as one condition
+// mark = ANY($3), a plan made under statistics younger than the site's marks
+// scanned the site's (site, kind) prefix and filtered every mark.
+const storedMarksSQL = `SELECT m.mark, c.record_id FROM unnest($3::text[]) m(mark)
+	CROSS JOIN LATERAL (SELECT record_id FROM current_marks
+		WHERE site = $1 AND kind = $2 AND mark = m.mark LIMIT 1) c`
+
 // markRead reads which of the file's marks current records already hold
-// into holders (mark → record id). Inside the import's write every plan is
-// a custom one (ImportCoupons), and a dry run plans it with the marks in
-// hand (no cached generic plan): the planner then hashes them, instead of
-// comparing every mark of the site with every mark of the part.
+// into holders (mark → record id), each mark by key (storedMarksSQL).
 func (p *importPlan) markRead(marks []string, holders map[string]uuid.UUID) []planRead {
 	if len(marks) == 0 {
 		return nil
 	}
-	return []planRead{{`SELECT mark, record_id FROM current_marks WHERE site = $1 AND kind = $2 AND mark = ANY($3)`,
+	return []planRead{{storedMarksSQL,
 		[]any{p.site, couponMark.kind, marks}, func(rows pgx.Rows) error {
 			var mark string
 			var id uuid.UUID

@@ -232,7 +232,7 @@ func (s *Store) takenMark(ctx context.Context, site string, p *importPlan) error
 		marks[i] = pc.in.Data.CouponMark
 	}
 	var m string
-	err := s.pool.QueryRow(ctx, `SELECT mark FROM current_marks WHERE site = $1 AND kind = $2 AND mark = ANY($3) ORDER BY mark LIMIT 1`,
+	err := s.pool.QueryRow(ctx, `SELECT mark FROM (`+storedMarksSQL+`) held ORDER BY mark LIMIT 1`,
 		pgx.QueryExecModeExec, site, couponMark.kind, marks).Scan(&m)
 	if err != nil {
 		return fmt.Errorf("%w: another write took a mark of the file during the import; import the file again", ErrConflict)

@@ -115,3 +115,6 @@ var (
 	RecordCouponsSQL    = recordCouponsSQL
 	ProcedureCouponsSQL = procedureCouponsSQL
 )
+
+// StoredMarksSQL is an import's read of the marks current records hold.
+const StoredMarksSQL = storedMarksSQL

@@ -36,8 +36,8 @@ var (
 func claimMark(ctx context.Context, k markKind, m Meta, mark string) step {
 	return func(tx pgx.Tx) error {
 		if m.Revision > 1 {
-			// By the site too, so the delete finds the row through
-			// current_marks_record (site, kind, record_id).
+			// By the site and kind too, so the delete finds the row by
+			// the whole of current_marks_record (record_id, kind, site).
 			if err := queueExec(ctx, tx, `DELETE FROM current_marks WHERE site = $1 AND kind = $2 AND record_id = $3 AND mark <> $4`,
 				m.Site, k.kind, m.ID, mark); err != nil {
 				return err

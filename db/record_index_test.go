@@ -136,3 +136,41 @@ func ids(k int, f func(int) uuid.UUID) []uuid.UUID {
 	}
 	return out
 }
+
+// TestMarkLookupsReadByKey: an import part reads which of its marks current
+// records hold, a few hundred marks at a time, and must find them by key
+// however young the statistics: on a new site of 20,000 marks written after
+// the table was last analysed (when the site had none), with autovacuum off,
+// the read of 600 marks (half of them held) reads each by a descent of
+// current_marks' key, in the plan made for the arguments and in the generic
+// plan. (With current_marks_record leading with (site, kind), the planner
+// filtered every mark of the site: 20,000 rows.) The marks are invented for
+// the test.
+func TestMarkLookupsReadByKey(t *testing.T) {
+	t.Parallel()
+	ctx := context.Background()
+	_, conn := dbtest.FreshConn(t)
+	for _, sql := range []string{
+		"ALTER TABLE current_marks SET (autovacuum_enabled = false)",
+		`INSERT INTO current_marks (site, kind, mark, record_id)
+			SELECT 'analysed', 'coupon_mark', 'A-' || g, md5('a' || g)::uuid FROM generate_series(1, 5000) g`,
+		"ANALYZE current_marks",
+		`INSERT INTO current_marks (site, kind, mark, record_id)
+			SELECT 'young', 'coupon_mark', 'Y-' || g, md5('y' || g)::uuid FROM generate_series(1, 20000) g`,
+	} {
+		if _, err := conn.Exec(ctx, sql); err != nil {
+			t.Fatal(err)
+		}
+	}
+	marks := make([]string, 600)
+	for i := range marks {
+		marks[i] = fmt.Sprintf("Y-%d", 19700+i) // Y-19700 … Y-20000 are held, the rest new
+	}
+	for _, mode := range []string{"force_custom_plan", "force_generic_plan"} {
+		read, plan := rowsRead(ctx, t, conn, "", db.StoredMarksSQL, mode, "young", "coupon_mark", marks)
+		t.Logf("%s: %d rows read for %d marks: %s", mode, read, len(marks), plan)
+		if read > 2*len(marks) {
+			t.Errorf("%s: read %d rows for %d marks of a site of 20,000: %s", mode, read, len(marks), plan)
+		}
+	}
+}
