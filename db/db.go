@@ -182,10 +182,10 @@ func (s *Store) Pool() *pgxpool.Pool { return s.pool }
 func (s *Store) Ping(ctx context.Context) error { return s.pool.Ping(ctx) }
 
 // uniqueWords says in the user's words which value a unique key refused.
+// (Coupon marks and record numbers are claimed in current_marks, whose
+// refusal names the holder: DuplicateError.)
 var uniqueWords = map[string]string{
-	"procedures_code_key":              "another procedure at this site has this code",
-	"qualification_records_number_key": "another qualification record at this site has this record number",
-	"coupons_mark_key":                 "another coupon at this site has this mark",
+	"procedures_code_key": "another procedure at this site has this code",
 }
 
 // pgErrCode is the SQLSTATE of a PostgreSQL error in err's chain ("" when none).
