@@ -232,7 +232,7 @@ func couponListQuery(site string, cf CouponFilter, from int64, limit int) (strin
 		keys = `SELECT ` + prefixed("c.", couponListColumns) + `
 			FROM (` + strings.Join(walks, "\n\t\t\tUNION ALL ") + `
 				ORDER BY leaf_index LIMIT ` + lim + `) b
-			JOIN coupon_list c ON c.site = $1 AND c.id = b.id`
+			` + rowByID("coupon_list", couponListColumns, "c", "b")
 	} else {
 		keys = keyWalk("coupon_list", prefixed("k.", couponListColumns), f.conds, pageLimit(limit))
 	}

@@ -65,6 +65,17 @@ func revisionByKey(t table, alias string) string {
 			WHERE site = $1 AND id = k.id AND revision = k.revision OFFSET 0) ` + alias
 }
 
+// rowByID joins to the rows r (with an id) at site $1 the row of table
+// each names, with columns, as alias: read by its key in a lateral subquery
+// the planner cannot flatten, so it stays one probe per row whatever the
+// statistics (a plain join, planned while the site's statistics were younger
+// than its rows, read the site's rows whole for every row of the page:
+// TestListPlansUnderYoungStatistics).
+func rowByID(table, columns, alias, r string) string {
+	return `CROSS JOIN LATERAL (SELECT ` + columns + ` FROM ` + table + `
+			WHERE site = $1 AND id = ` + r + `.id OFFSET 0) ` + alias
+}
+
 // ofKind is the ids of the leaves of kind among l, and their log indexes
 // when l's first leaf takes index size.
 func (l *leafRows) ofKind(kind string, size uint64) (ids [][16]byte, at []int64) {

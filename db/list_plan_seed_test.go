@@ -31,12 +31,24 @@ const (
 // reference data.
 func seedPlans(ctx context.Context, tb testing.TB, conn *pgx.Conn) {
 	tb.Helper()
-	// Row triggers (a section's uniqueness takes a lock per coupon) are
-	// for the service's writes; the seed's rows are unique by construction.
+	seedSites(ctx, tb, conn, planSite, planOther)
+	// The coupons, sections, production records, sign-offs, PQRs and procedures lists' keys, as the sequencer would have
+	// written them (derived once the records have statistics).
+	if _, err := conn.Exec(ctx, "ANALYZE"); err != nil {
+		tb.Fatal(err)
+	}
+	deriveLists(ctx, tb, conn, "", true)
+}
+
+// seedSites writes seedStatements' rows for each site. Row triggers (a
+// section's uniqueness takes a lock per coupon) are for the service's
+// writes; the seed's rows are unique by construction, so they are off.
+func seedSites(ctx context.Context, tb testing.TB, conn *pgx.Conn, sites ...string) {
+	tb.Helper()
 	if _, err := conn.Exec(ctx, "SET session_replication_role = replica"); err != nil {
 		tb.Fatal(err)
 	}
-	for _, site := range []string{planSite, planOther} {
+	for _, site := range sites {
 		for _, q := range seedStatements {
 			if _, err := conn.Exec(ctx, q, pgx.NamedArgs{"site": site, "coupons": planCoupons,
 				"production": planProduction, "pqrs": planPQRs, "procedures": planProcedures,
@@ -45,16 +57,33 @@ func seedPlans(ctx context.Context, tb testing.TB, conn *pgx.Conn) {
 			}
 		}
 	}
-	// The coupons, sections, production records, sign-offs, PQRs and procedures lists' keys, as the sequencer would have
-	// written them (derived once the records have statistics).
-	for _, q := range []string{"ANALYZE", "INSERT INTO coupon_list SELECT * FROM coupon_list_derived", "ANALYZE coupon_list",
-		"INSERT INTO section_list SELECT * FROM section_list_derived", "ANALYZE section_list",
-		"INSERT INTO production_list SELECT * FROM production_list_derived", "ANALYZE production_list",
-		"INSERT INTO sign_off_list SELECT * FROM sign_off_list_derived", "ANALYZE sign_off_list",
-		"INSERT INTO qualification_list SELECT * FROM qualification_list_derived", "ANALYZE qualification_list",
-		"INSERT INTO procedure_list SELECT * FROM procedure_list_derived", "ANALYZE procedure_list"} {
-		if _, err := conn.Exec(ctx, q); err != nil {
+	if _, err := conn.Exec(ctx, "RESET session_replication_role"); err != nil {
+		tb.Fatal(err)
+	}
+}
+
+// listKeys are the list key tables, each filled from its derivation view.
+var listKeys = []string{"coupon_list", "section_list", "production_list", "sign_off_list", "qualification_list", "procedure_list"}
+
+// deriveLists fills the list keys from their derivations, as the sequencer
+// would have written them: every site's rows, or site's alone; with analyze
+// each key is analysed after.
+func deriveLists(ctx context.Context, tb testing.TB, conn *pgx.Conn, site string, analyze bool) {
+	tb.Helper()
+	for _, k := range listKeys {
+		q := "INSERT INTO " + k + " SELECT * FROM " + k + "_derived"
+		args := []any{}
+		if site != "" {
+			q += " WHERE site = $1"
+			args = append(args, site)
+		}
+		if _, err := conn.Exec(ctx, q, args...); err != nil {
 			tb.Fatal(err)
+		}
+		if analyze {
+			if _, err := conn.Exec(ctx, "ANALYZE "+k); err != nil {
+				tb.Fatal(err)
+			}
 		}
 	}
 }

@@ -117,6 +117,190 @@ func TestListPlansUseIndexes(t *testing.T) {
 	t.Logf("seeded in %v", time.Since(start).Round(time.Millisecond))
 	s, tr := tracedStore(t, dbURL)
 
+	cases := listPlanCases(ctx, s)
+	explainRefresh(ctx, t, s)
+	for _, c := range cases {
+		if err := c.list(); err != nil {
+			t.Errorf("%s: %v", c.name, err)
+			continue
+		}
+		sql, args := tr.take()
+		if sql == "" {
+			t.Errorf("%s: no list statement seen", c.name)
+			continue
+		}
+		for _, generic := range []bool{false, true} {
+			root, err := explainList(ctx, s, sql, args, generic)
+			name := c.name
+			if generic {
+				name += " (generic plan)"
+			}
+			if err != nil {
+				t.Errorf("%s: explain: %v", name, err)
+				continue
+			}
+			scans := seqScans(root)
+			if reason, ok := planGaps[c.name]; ok && len(scans) > 0 {
+				t.Logf("%s: known gap (%s): %s", name, reason, planText(root))
+			} else if len(scans) > 0 {
+				t.Errorf("%s: sequential scan of %v: %s", name, scans, planText(root))
+			} else if testing.Verbose() {
+				t.Logf("%s: %s", name, planText(root))
+			}
+		}
+	}
+}
+
+// explainList returns the plan of a list statement for its arguments: the
+// plan made for them, or with generic set the generic plan, the one
+// PostgreSQL reuses for every later execution of a prepared statement once
+// five executions have not found it dearer (the service's pool prepares
+// each statement once per connection). Both must stay off sequential scans.
+func explainList(ctx context.Context, s *db.Store, sql string, args []any, generic bool) (map[string]any, error) {
+	return explainListWith(ctx, s, "FORMAT JSON", sql, args, generic)
+}
+
+// explainListWith is explainList with EXPLAIN's options (with ANALYZE the
+// statement runs, and the plan counts the rows each node read).
+func explainListWith(ctx context.Context, s *db.Store, options, sql string, args []any, generic bool) (map[string]any, error) {
+	var plan []map[string]any
+	if !generic {
+		if err := s.Pool().QueryRow(ctx, "EXPLAIN ("+options+") "+sql, args...).Scan(&plan); err != nil {
+			return nil, err
+		}
+		root, _ := plan[0]["Plan"].(map[string]any)
+		return root, nil
+	}
+	conn, err := s.Pool().Acquire(ctx)
+	if err != nil {
+		return nil, err
+	}
+	defer conn.Release()
+	defer func() {
+		_, _ = conn.Exec(ctx, "DEALLOCATE list_plan; RESET plan_cache_mode", pgx.QueryExecModeSimpleProtocol)
+	}()
+	if _, err := conn.Exec(ctx, "PREPARE list_plan AS "+sql+"; SET plan_cache_mode = force_generic_plan", pgx.QueryExecModeSimpleProtocol); err != nil {
+		return nil, err
+	}
+	params := make([]string, len(args))
+	for i := range args {
+		params[i] = "$" + strconv.Itoa(i+1)
+	}
+	// The simple protocol writes the arguments into EXECUTE as literals.
+	rows, _ := conn.Query(ctx, "EXPLAIN ("+options+") EXECUTE list_plan("+strings.Join(params, ", ")+")",
+		append([]any{pgx.QueryExecModeSimpleProtocol}, args...)...)
+	if plan, err = pgx.CollectExactlyOneRow(rows, pgx.RowTo[[]map[string]any]); err != nil {
+		return nil, err
+	}
+	root, _ := plan[0]["Plan"].(map[string]any)
+	return root, nil
+}
+
+// TestListPlansUseIndexes also covers the sequencer's rewrites of
+// coupon_list, section_list, production_list, sign_off_list, qualification_list and procedure_list rows: they run for every batch, so they must
+// reach a batch's coupons and sections by key, never order every leaf of a
+// kind at the site.
+func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
+	var plan []map[string]any
+	ids := []uuid.UUID{seededID("c", 5), seededID("c", 77)}
+	sections := []uuid.UUID{seededID("m", 8), seededID("m", 90)}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.CouponListRefresh, planSite, ids, sections).Scan(&plan); err != nil {
+		t.Fatalf("explain coupon_list refresh: %v", err)
+	}
+	root, _ := plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("coupon_list refresh: sequential scan of %v: %s", scans, planText(root))
+	}
+	sections = []uuid.UUID{seededID("m", 4), seededID("m", 78)}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.SectionListRefresh, planSite, sections).Scan(&plan); err != nil {
+		t.Fatalf("explain section_list refresh: %v", err)
+	}
+	root, _ = plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("section_list refresh: sequential scan of %v: %s", scans, planText(root))
+	}
+	entries, records := []uuid.UUID{seededID("batch", 1), seededID("batch", 2)}, []uuid.UUID{seededID("r", 3), seededID("r", 4)}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.ProductionListRefresh, planSite, entries, records, []int64{7, 8}).Scan(&plan); err != nil {
+		t.Fatalf("explain production_list refresh: %v", err)
+	}
+	root, _ = plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("production_list refresh: sequential scan of %v: %s", scans, planText(root))
+	}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.ProcedureListRefresh, planSite,
+		[]uuid.UUID{seededID("p", 3), seededID("p", 40)}).Scan(&plan); err != nil {
+		t.Fatalf("explain procedure_list refresh: %v", err)
+	}
+	root, _ = plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("procedure_list refresh: sequential scan of %v: %s", scans, planText(root))
+	}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.QualificationListRefresh, planSite,
+		[]uuid.UUID{seededID("q", 3), seededID("q", 40)}).Scan(&plan); err != nil {
+		t.Fatalf("explain qualification_list refresh: %v", err)
+	}
+	root, _ = plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("qualification_list refresh: sequential scan of %v: %s", scans, planText(root))
+	}
+	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.SignOffListRefresh, planSite,
+		[]uuid.UUID{seededID("sq", 3), seededID("sp", 4)}, []int64{7, 8}).Scan(&plan); err != nil {
+		t.Fatalf("explain sign_off_list refresh: %v", err)
+	}
+	root, _ = plan[0]["Plan"].(map[string]any)
+	if scans := seqScans(root); len(scans) > 0 {
+		t.Errorf("sign_off_list refresh: sequential scan of %v: %s", scans, planText(root))
+	}
+}
+
+// planGaps are the lists whose plan still reads a table whole, each with
+// why; they are logged, not failed, so the report shows them. None at
+// present.
+var planGaps = map[string]string{}
+
+// seededID is the id seedPlans gave the n-th row of a kind at planSite.
+func seededID(kind string, n int) uuid.UUID { return seedID(planSite, kind, n) }
+
+// seedID is the id seedStatements give the n-th row of a kind at site.
+func seedID(site, kind string, n int) uuid.UUID {
+	return uuid.UUID(md5.Sum([]byte(site + kind + strconv.Itoa(n))))
+}
+
+// planText writes a plan tree on one line: each node's type, relation and
+// index, children in brackets.
+func planText(node map[string]any) string {
+	var b strings.Builder
+	b.WriteString(fmt.Sprint(node["Node Type"]))
+	if r, ok := node["Relation Name"]; ok {
+		b.WriteString(" on " + fmt.Sprint(r))
+	}
+	if i, ok := node["Index Name"]; ok {
+		b.WriteString(" using " + fmt.Sprint(i))
+	}
+	plans, _ := node["Plans"].([]any)
+	if len(plans) > 0 {
+		parts := make([]string, 0, len(plans))
+		for _, p := range plans {
+			if m, ok := p.(map[string]any); ok {
+				parts = append(parts, planText(m))
+			}
+		}
+		b.WriteString(" [" + strings.Join(parts, "; ") + "]")
+	}
+	return b.String()
+}
+
+// listPlanCase is one list call of the plan tests: a Store list with its
+// filter and page; the statement it sends is taken from the tracer.
+type listPlanCase struct {
+	name string
+	list func() error
+}
+
+// listPlanCases are the list calls the plan tests make on planSite: every
+// list with each filter the API offers (alone, in common pairs) on its first
+// page and, where it pages, 90% deep.
+func listPlanCases(ctx context.Context, s *db.Store) []listPlanCase {
 	proc := seededID("p", 7)
 	pqr := seededID("q", 11)
 	coupon := seededID("c", 1234)
@@ -124,16 +308,8 @@ func TestListPlansUseIndexes(t *testing.T) {
 	quarter := db.DateOf(time.Date(2021, 6, 1, 0, 0, 0, 0, time.UTC))
 	at, until := time.Date(2019, 6, 1, 0, 0, 0, 0, time.UTC), time.Date(2019, 6, 2, 0, 0, 0, 0, time.UTC)
 	deep := db.SeqCursor("coupons", planCoupons)
-	cases := []struct {
-		name string
-		list func() error
-	}{}
-	add := func(name string, list func() error) {
-		cases = append(cases, struct {
-			name string
-			list func() error
-		}{name, list})
-	}
+	var cases []listPlanCase
+	add := func(name string, list func() error) { cases = append(cases, listPlanCase{name, list}) }
 	coupons := map[string]db.CouponFilter{
 		"none": {}, "procedure_id": {ProcedureID: &proc}, "qualification_record_id": {QualificationRecordID: &pqr},
 		"welder_id": {WelderID: "W17"}, "coupon_mark": {CouponMark: "C-2024"},
@@ -235,168 +411,5 @@ func TestListPlansUseIndexes(t *testing.T) {
 		add("sign_offs/deep/"+name, func() error { _, err := s.SignOffs(ctx, planSite, f, deepSignOffs, 50); return err })
 	}
 
-	explainRefresh(ctx, t, s)
-	for _, c := range cases {
-		if err := c.list(); err != nil {
-			t.Errorf("%s: %v", c.name, err)
-			continue
-		}
-		sql, args := tr.take()
-		if sql == "" {
-			t.Errorf("%s: no list statement seen", c.name)
-			continue
-		}
-		for _, generic := range []bool{false, true} {
-			root, err := explainList(ctx, s, sql, args, generic)
-			name := c.name
-			if generic {
-				name += " (generic plan)"
-			}
-			if err != nil {
-				t.Errorf("%s: explain: %v", name, err)
-				continue
-			}
-			scans := seqScans(root)
-			if reason, ok := planGaps[c.name]; ok && len(scans) > 0 {
-				t.Logf("%s: known gap (%s): %s", name, reason, planText(root))
-			} else if len(scans) > 0 {
-				t.Errorf("%s: sequential scan of %v: %s", name, scans, planText(root))
-			} else if testing.Verbose() {
-				t.Logf("%s: %s", name, planText(root))
-			}
-		}
-	}
-}
-
-// explainList returns the plan of a list statement for its arguments: the
-// plan made for them, or with generic set the generic plan, the one
-// PostgreSQL reuses for every later execution of a prepared statement once
-// five executions have not found it dearer (the service's pool prepares
-// each statement once per connection). Both must stay off sequential scans.
-func explainList(ctx context.Context, s *db.Store, sql string, args []any, generic bool) (map[string]any, error) {
-	var plan []map[string]any
-	if !generic {
-		if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+sql, args...).Scan(&plan); err != nil {
-			return nil, err
-		}
-		root, _ := plan[0]["Plan"].(map[string]any)
-		return root, nil
-	}
-	conn, err := s.Pool().Acquire(ctx)
-	if err != nil {
-		return nil, err
-	}
-	defer conn.Release()
-	defer func() {
-		_, _ = conn.Exec(ctx, "DEALLOCATE list_plan; RESET plan_cache_mode", pgx.QueryExecModeSimpleProtocol)
-	}()
-	if _, err := conn.Exec(ctx, "PREPARE list_plan AS "+sql+"; SET plan_cache_mode = force_generic_plan", pgx.QueryExecModeSimpleProtocol); err != nil {
-		return nil, err
-	}
-	params := make([]string, len(args))
-	for i := range args {
-		params[i] = "$" + strconv.Itoa(i+1)
-	}
-	// The simple protocol writes the arguments into EXECUTE as literals.
-	rows, _ := conn.Query(ctx, "EXPLAIN (FORMAT JSON) EXECUTE list_plan("+strings.Join(params, ", ")+")",
-		append([]any{pgx.QueryExecModeSimpleProtocol}, args...)...)
-	if plan, err = pgx.CollectExactlyOneRow(rows, pgx.RowTo[[]map[string]any]); err != nil {
-		return nil, err
-	}
-	root, _ := plan[0]["Plan"].(map[string]any)
-	return root, nil
-}
-
-// TestListPlansUseIndexes also covers the sequencer's rewrites of
-// coupon_list, section_list, production_list, sign_off_list, qualification_list and procedure_list rows: they run for every batch, so they must
-// reach a batch's coupons and sections by key, never order every leaf of a
-// kind at the site.
-func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
-	var plan []map[string]any
-	ids := []uuid.UUID{seededID("c", 5), seededID("c", 77)}
-	sections := []uuid.UUID{seededID("m", 8), seededID("m", 90)}
-	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.CouponListRefresh, planSite, ids, sections).Scan(&plan); err != nil {
-		t.Fatalf("explain coupon_list refresh: %v", err)
-	}
-	root, _ := plan[0]["Plan"].(map[string]any)
-	if scans := seqScans(root); len(scans) > 0 {
-		t.Errorf("coupon_list refresh: sequential scan of %v: %s", scans, planText(root))
-	}
-	sections = []uuid.UUID{seededID("m", 4), seededID("m", 78)}
-	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.SectionListRefresh, planSite, sections).Scan(&plan); err != nil {
-		t.Fatalf("explain section_list refresh: %v", err)
-	}
-	root, _ = plan[0]["Plan"].(map[string]any)
-	if scans := seqScans(root); len(scans) > 0 {
-		t.Errorf("section_list refresh: sequential scan of %v: %s", scans, planText(root))
-	}
-	entries, records := []uuid.UUID{seededID("batch", 1), seededID("batch", 2)}, []uuid.UUID{seededID("r", 3), seededID("r", 4)}
-	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.ProductionListRefresh, planSite, entries, records, []int64{7, 8}).Scan(&plan); err != nil {
-		t.Fatalf("explain production_list refresh: %v", err)
-	}
-	root, _ = plan[0]["Plan"].(map[string]any)
-	if scans := seqScans(root); len(scans) > 0 {
-		t.Errorf("production_list refresh: sequential scan of %v: %s", scans, planText(root))
-	}
-	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.ProcedureListRefresh, planSite,
-		[]uuid.UUID{seededID("p", 3), seededID("p", 40)}).Scan(&plan); err != nil {
-		t.Fatalf("explain procedure_list refresh: %v", err)
-	}
-	root, _ = plan[0]["Plan"].(map[string]any)
-	if scans := seqScans(root); len(scans) > 0 {
-		t.Errorf("procedure_list refresh: sequential scan of %v: %s", scans, planText(root))
-	}
-	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.QualificationListRefresh, planSite,
-		[]uuid.UUID{seededID("q", 3), seededID("q", 40)}).Scan(&plan); err != nil {
-		t.Fatalf("explain qualification_list refresh: %v", err)
-	}
-	root, _ = plan[0]["Plan"].(map[string]any)
-	if scans := seqScans(root); len(scans) > 0 {
-		t.Errorf("qualification_list refresh: sequential scan of %v: %s", scans, planText(root))
-	}
-	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.SignOffListRefresh, planSite,
-		[]uuid.UUID{seededID("sq", 3), seededID("sp", 4)}, []int64{7, 8}).Scan(&plan); err != nil {
-		t.Fatalf("explain sign_off_list refresh: %v", err)
-	}
-	root, _ = plan[0]["Plan"].(map[string]any)
-	if scans := seqScans(root); len(scans) > 0 {
-		t.Errorf("sign_off_list refresh: sequential scan of %v: %s", scans, planText(root))
-	}
-}
-
-// planGaps are the lists whose plan still reads a table whole, each with
-// why; they are logged, not failed, so the report shows them. None at
-// present.
-var planGaps = map[string]string{}
-
-// seededID is the id seedPlans gave the n-th row of a kind at planSite.
-func seededID(kind string, n int) uuid.UUID { return seedID(planSite, kind, n) }
-
-// seedID is the id seedStatements give the n-th row of a kind at site.
-func seedID(site, kind string, n int) uuid.UUID {
-	return uuid.UUID(md5.Sum([]byte(site + kind + strconv.Itoa(n))))
-}
-
-// planText writes a plan tree on one line: each node's type, relation and
-// index, children in brackets.
-func planText(node map[string]any) string {
-	var b strings.Builder
-	b.WriteString(fmt.Sprint(node["Node Type"]))
-	if r, ok := node["Relation Name"]; ok {
-		b.WriteString(" on " + fmt.Sprint(r))
-	}
-	if i, ok := node["Index Name"]; ok {
-		b.WriteString(" using " + fmt.Sprint(i))
-	}
-	plans, _ := node["Plans"].([]any)
-	if len(plans) > 0 {
-		parts := make([]string, 0, len(plans))
-		for _, p := range plans {
-			if m, ok := p.(map[string]any); ok {
-				parts = append(parts, planText(m))
-			}
-		}
-		b.WriteString(" [" + strings.Join(parts, "; ") + "]")
-	}
-	return b.String()
+	return cases
 }

@@ -138,7 +138,7 @@ func (s *Store) listProduction(ctx context.Context, site string, pf ProductionRe
 	}
 	sql := `SELECT ` + prefixed("c.", strings.Join(productionColumns, ", ")) + `, k.leaf_index
 		FROM (` + keys + `) k
-		JOIN production_list c ON c.site = $1 AND c.id = k.id
+		` + rowByID("production_list", strings.Join(productionColumns, ", "), "c", "k") + `
 		ORDER BY k.leaf_index`
 	return readIndexed[ProductionRecord](ctx, s, site, sql, f.args)
 }

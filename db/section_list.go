@@ -65,7 +65,7 @@ func (s *Store) listSections(ctx context.Context, site string, mf MeasurementFil
 		}
 		sql := `SELECT ` + prefixed("m.", measurements.columns()) + `, k.leaf_index
 		FROM (` + keyWalk("section_list", "k.id, k.revision, k.leaf_index", f.conds, pageLimit(limit)) + `) k
-		JOIN measurements m ON m.site = $1 AND m.id = k.id AND m.revision = k.revision
+		` + revisionByKey(measurements, "m") + `
 		ORDER BY k.leaf_index`
 		return readIndexed[Measurement](ctx, s, site, sql, f.args)
 	})

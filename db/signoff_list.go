@@ -52,7 +52,7 @@ func (s *Store) SignOffs(ctx context.Context, site string, f SignOffFilter, curs
 		}
 		sql := `SELECT ` + prefixed("s.", signOffColumns) + `, k.leaf_index
 		FROM (` + keyWalk("sign_off_list", "k.id, k.leaf_index", fl.conds, pageLimit(limit)) + `) k
-		JOIN sign_offs s ON s.site = $1 AND s.id = k.id
+		` + rowByID("sign_offs", signOffColumns, "s", "k") + `
 		ORDER BY k.leaf_index`
 		return readIndexed[SignOff](ctx, s, site, sql, fl.args)
 	})
