@@ -104,7 +104,7 @@ func total(m map[string]int) int {
 var youngGaps = map[string]string{
 	"coupons":               "a filter's walk may take the log index instead of the filter's (site leads every index of coupon_list)",
 	"qualification_records": "welding-day ranges walk the wrong index of qualification_list",
-	"production_records":    "the page's lookup of production_list by id may take another index's site prefix; filter walks likewise",
+	"production_records":    "a filter's or a time range's walk may take the wrong index of production_list",
 	"sign_offs":             "a filter's walk may take the log index instead of the filter's",
 	"flags":                 "a procedure's or a day's flags may walk the wrong index",
 }
