@@ -310,6 +310,11 @@ func listPlanCases(ctx context.Context, s *db.Store) []listPlanCase {
 	deep := db.SeqCursor("coupons", planCoupons)
 	var cases []listPlanCase
 	add := func(name string, list func() error) { cases = append(cases, listPlanCase{name, list}) }
+	// paged adds a list's first page and its page from the cursor deep.
+	paged := func(list, name, deep string, page func(cursor string) error) {
+		add(list+"/"+name, func() error { return page("") })
+		add(list+"/deep/"+name, func() error { return page(deep) })
+	}
 	coupons := map[string]db.CouponFilter{
 		"none": {}, "procedure_id": {ProcedureID: &proc}, "qualification_record_id": {QualificationRecordID: &pqr},
 		"welder_id": {WelderID: "W17"}, "coupon_mark": {CouponMark: "C-2024"},
@@ -330,14 +335,12 @@ func listPlanCases(ctx context.Context, s *db.Store) []listPlanCase {
 		"welder_id+acceptance=reject":       {WelderID: "W17", Acceptance: "reject"},
 	}
 	for name, f := range coupons {
-		add("coupons/"+name, func() error { _, err := s.Coupons(ctx, planSite, f, "", 50); return err })
-		add("coupons/deep/"+name, func() error { _, err := s.Coupons(ctx, planSite, f, deep, 50); return err })
+		paged("coupons", name, deep, func(cursor string) error { _, err := s.Coupons(ctx, planSite, f, cursor, 50); return err })
 	}
 	deepProcedures := db.SeqCursor("procedures", planProcedures*9/10)
 	for name, f := range map[string]db.ProcedureFilter{"none": {}, "process": {Process: "FCAW"}, "status": {Status: "qualified"},
 		"include_voided": {IncludeVoided: true}, "process+status": {Process: "FCAW", Status: "qualified"}} {
-		add("procedures/"+name, func() error { _, err := s.Procedures(ctx, planSite, f, "", 50); return err })
-		add("procedures/deep/"+name, func() error { _, err := s.Procedures(ctx, planSite, f, deepProcedures, 50); return err })
+		paged("procedures", name, deepProcedures, func(cursor string) error { _, err := s.Procedures(ctx, planSite, f, cursor, 50); return err })
 	}
 	deepPQRs := db.SeqCursor("qualification_records", planProcedures+planPQRs*9/10)
 	for name, f := range map[string]db.QualificationRecordFilter{
@@ -350,12 +353,8 @@ func listPlanCases(ctx context.Context, s *db.Store) []listPlanCase {
 		"outcome+welded_from":           {Outcome: "fail", WeldedFrom: &from},
 		"welded_from+to+include_voided": {WeldedFrom: &from, WeldedTo: &to, IncludeVoided: true},
 	} {
-		add("qualification_records/"+name, func() error {
-			_, err := s.QualificationRecords(ctx, planSite, f, "", 50)
-			return err
-		})
-		add("qualification_records/deep/"+name, func() error {
-			_, err := s.QualificationRecords(ctx, planSite, f, deepPQRs, 50)
+		paged("qualification_records", name, deepPQRs, func(cursor string) error {
+			_, err := s.QualificationRecords(ctx, planSite, f, cursor, 50)
 			return err
 		})
 	}
@@ -365,8 +364,7 @@ func listPlanCases(ctx context.Context, s *db.Store) []listPlanCase {
 		"include_voided": {IncludeVoided: true}, "coupon_id+acceptance": {CouponID: &coupon, Acceptance: "reject"},
 		"acceptance+include_voided": {Acceptance: "reject", IncludeVoided: true},
 	} {
-		add("measurements/"+name, func() error { _, err := s.Measurements(ctx, planSite, f, "", 50); return err })
-		add("measurements/deep/"+name, func() error { _, err := s.Measurements(ctx, planSite, f, deepSections, 50); return err })
+		paged("measurements", name, deepSections, func(cursor string) error { _, err := s.Measurements(ctx, planSite, f, cursor, 50); return err })
 	}
 	// The production records' times: at a day's midnight and inside one, a
 	// week, a quarter and open ranges (days and months walked).
@@ -384,12 +382,8 @@ func listPlanCases(ctx context.Context, s *db.Store) []listPlanCase {
 		"recorded_from+to(quarter)+flagged_only": {RecordedFrom: &noon, RecordedTo: &quarterAt, FlaggedOnly: true},
 		"weld_id+procedure_id":                   {WeldID: "J-777", ProcedureID: &proc},
 	} {
-		add("production_records/"+name, func() error {
-			_, err := s.ProductionRecords(ctx, planSite, f, "", 50)
-			return err
-		})
-		add("production_records/deep/"+name, func() error {
-			_, err := s.ProductionRecords(ctx, planSite, f, deepProduction, 50)
+		paged("production_records", name, deepProduction, func(cursor string) error {
+			_, err := s.ProductionRecords(ctx, planSite, f, cursor, 50)
 			return err
 		})
 	}
@@ -407,8 +401,7 @@ func listPlanCases(ctx context.Context, s *db.Store) []listPlanCase {
 		"none": {}, "record_kind": {RecordKind: "procedure"}, "record_id": {RecordID: &signed}, "signed_by": {SignedBy: "E3"},
 		"record_kind+signed_by": {RecordKind: "qualification_record", SignedBy: "E3"},
 	} {
-		add("sign_offs/"+name, func() error { _, err := s.SignOffs(ctx, planSite, f, "", 50); return err })
-		add("sign_offs/deep/"+name, func() error { _, err := s.SignOffs(ctx, planSite, f, deepSignOffs, 50); return err })
+		paged("sign_offs", name, deepSignOffs, func(cursor string) error { _, err := s.SignOffs(ctx, planSite, f, cursor, 50); return err })
 	}
 
 	return cases
