@@ -65,9 +65,9 @@ const listedCoupons = `WITH ids AS (SELECT array_agg(DISTINCT id) AS ids FROM (S
 // through one of its other indexes instead (TestSequencerRewriteReadsByKey,
 // never analysed), so there is none; the same holds for every list key's
 // deletion (keyDelete, sectionListDelete).
-const couponListDelete = listedCoupons + `DELETE FROM coupon_list WHERE ctid = ANY (ARRAY(
+var couponListDelete = listedCoupons + `DELETE FROM coupon_list WHERE ctid = ANY (ARRAY(
 	SELECT k.ctid FROM unnest((SELECT ids FROM ids)::uuid[]) u(id)
-	CROSS JOIN LATERAL (SELECT ctid FROM coupon_list WHERE site = $1 AND id = u.id OFFSET 0) k))`
+	CROSS JOIN LATERAL (SELECT ctid FROM coupon_list WHERE ` + byIDAtSite("u") + ` OFFSET 0) k))`
 
 // couponListRefresh writes their coupon_list rows from coupon_list_derived,
 // each coupon read from the view by its key, one seek per id, as the

@@ -42,7 +42,7 @@ var SectionListRefresh = sectionListRefresh
 
 // SectionListDelete is the statement that removes the section_list rows the
 // sequencer then writes again, for the plan test.
-const SectionListDelete = sectionListDelete
+var SectionListDelete = sectionListDelete
 
 // QualificationListRefresh is the statement the sequencer rewrites
 // qualification_list rows with, for the plan test.
@@ -94,7 +94,7 @@ var AppendJSONFloat = logfmt.AppendJSONFloat
 
 // CouponListDelete is the statement that removes the coupon_list rows the
 // sequencer then writes again, for the plan test.
-const CouponListDelete = couponListDelete
+var CouponListDelete = couponListDelete
 
 // QueueProductionPending is the production list's write step, for the
 // benchmark that measures it alone (on a plain transaction it runs at once).

@@ -68,23 +68,23 @@ func revisionByKey(t table, alias string) string {
 // rowByID joins to the rows r (with an id) at site $1 the row of table
 // each names, with columns, as alias: read by its key in a lateral subquery
 // the planner cannot flatten, so it stays one probe per row whatever the
-// statistics (a plain join, planned while the site's statistics were younger
-// than its rows, read the site's rows whole for every row of the page:
-// TestListPlansUnderYoungStatistics).
+// statistics (byIDAtSite).
 func rowByID(table, columns, alias, r string) string {
 	return `CROSS JOIN LATERAL (SELECT ` + columns + ` FROM ` + table + `
-			WHERE site = $1 AND id = ` + r + `.id OFFSET 0) ` + alias
+			WHERE ` + byIDAtSite(r) + ` OFFSET 0) ` + alias
 }
 
-// rowByIDFirst is rowByID for a table whose key leads with id (id, site):
-// the site is checked as a filter the planner cannot turn into an index
-// condition ((site = $1) IS TRUE), so the key's id is the only way in. A
-// table with several indexes that lead with site (production_list has five)
-// otherwise offers their site prefix, which a plan made under young
-// statistics takes for a lookup (TestListPlansUnderYoungStatistics).
-func rowByIDFirst(table, columns, alias, r string) string {
-	return `CROSS JOIN LATERAL (SELECT ` + columns + ` FROM ` + table + `
-			WHERE id = ` + r + `.id AND (site = $1) IS TRUE OFFSET 0) ` + alias
+// byIDAtSite is the condition that finds the row of r.id at site $1 in a
+// table whose key leads with the id (id, site): the list keys, sign_offs.
+// The site is checked as a filter the planner cannot turn into an index
+// condition ((site = $1) IS TRUE), so the key's id is the only way in. With
+// the site as a plain condition, every other index of the table leads with
+// site, and a plan made under statistics that know every site but this one
+// (a new site filling up) took one of their site prefixes for a lookup: every
+// row of the site for every row looked up (TestListPlansUnderYoungStatistics,
+// TestSequencerRewriteReadsByKey).
+func byIDAtSite(r string) string {
+	return `id = ` + r + `.id AND (site = $1) IS TRUE`
 }
 
 // ofKind is the ids of the leaves of kind among l, and their log indexes
@@ -130,7 +130,7 @@ func keyRefresh(table, columns string) string {
 func keyDelete(table string) string {
 	return `DELETE FROM ` + table + ` WHERE ctid = ANY (ARRAY(
 	SELECT k.ctid FROM unnest($2::uuid[]) u(id)
-	CROSS JOIN LATERAL (SELECT ctid FROM ` + table + ` WHERE site = $1 AND id = u.id OFFSET 0) k))`
+	CROSS JOIN LATERAL (SELECT ctid FROM ` + table + ` WHERE ` + byIDAtSite("u") + ` OFFSET 0) k))`
 }
 
 // rangeKeys is the keys of a page of a time range walked without an

@@ -138,7 +138,7 @@ func (s *Store) listProduction(ctx context.Context, site string, pf ProductionRe
 	}
 	sql := `SELECT ` + prefixed("c.", strings.Join(productionColumns, ", ")) + `, k.leaf_index
 		FROM (` + keys + `) k
-		` + rowByIDFirst("production_list", strings.Join(productionColumns, ", "), "c", "k") + `
+		` + rowByID("production_list", strings.Join(productionColumns, ", "), "c", "k") + `
 		ORDER BY k.leaf_index`
 	return readIndexed[ProductionRecord](ctx, s, site, sql, f.args)
 }

@@ -31,9 +31,9 @@ var sectionListRefresh = `INSERT INTO section_list (` + sectionListColumns + `) 
 
 // sectionListDelete removes the section_list rows of sections $2 at site
 // $1: each found by its key, then deleted by its address (as couponListDelete).
-const sectionListDelete = `DELETE FROM section_list WHERE ctid = ANY (ARRAY(
+var sectionListDelete = `DELETE FROM section_list WHERE ctid = ANY (ARRAY(
 	SELECT k.ctid FROM unnest($2::uuid[]) u(id)
-	CROSS JOIN LATERAL (SELECT ctid FROM section_list WHERE site = $1 AND id = u.id OFFSET 0) k))`
+	CROSS JOIN LATERAL (SELECT ctid FROM section_list WHERE ` + byIDAtSite("u") + ` OFFSET 0) k))`
 
 // queueSectionList adds to the sequencer's batch of writes the rewrite of
 // the section_list rows of the sections the batch logs (ids; a section may

@@ -35,13 +35,17 @@ import (
 // coupons' rewrite read every coupon of the site through its welding-day
 // index while the ids were an array condition on the view).
 func TestSequencerRewriteReadsByKey(t *testing.T) {
-	for _, analysed := range []bool{true, false} {
-		name := map[bool]string{true: "analysed while small", false: "never analysed"}[analysed]
-		t.Run(name, func(t *testing.T) { rewritesReadByKey(t, analysed) })
+	for _, before := range []string{"analysed while small", "never analysed", "analysed with one other site"} {
+		t.Run(before, func(t *testing.T) { rewritesReadByKey(t, before) })
 	}
 }
 
-func rewritesReadByKey(t *testing.T, analysed bool) {
+// rewritesReadByKey runs TestSequencerRewriteReadsByKey with the statistics
+// taken before the site grew: with 200 small sites, with none, or with one
+// other site as large as the site grows to (a group of a few shops: the
+// statistics then know every site but the new one, which they take for
+// empty).
+func rewritesReadByKey(t *testing.T, before string) {
 	ctx, cancel := context.WithTimeout(context.Background(), 3*time.Minute)
 	defer cancel()
 	_, conn := dbtest.FreshConn(t)
@@ -54,10 +58,15 @@ func rewritesReadByKey(t *testing.T, analysed bool) {
 			t.Fatal(err)
 		}
 	}
-	if analysed {
+	switch before {
+	case "analysed while small":
 		for i := range 200 { // many small sites: a site's rows look few
 			seedGrown(ctx, t, conn, fmt.Sprintf("%s-%d", other, i), 10)
 		}
+	case "analysed with one other site":
+		seedGrown(ctx, t, conn, other, coupons)
+	}
+	if before != "never analysed" {
 		if _, err := conn.Exec(ctx, "ANALYZE"); err != nil {
 			t.Fatal(err)
 		}
