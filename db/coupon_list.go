@@ -60,14 +60,9 @@ const listedCoupons = `WITH ids AS (SELECT array_agg(DISTINCT id) AS ids FROM (S
 // condition on the table, statistics taken while the site was small (as
 // during an import) had the planner scan every row of the site and filter.
 // The addresses are the site's rows, found in this statement's snapshot
-// (the sequencer alone writes the table): a condition on the site beside
-// them let a planner with no statistics at all read every row of the site
-// through one of its other indexes instead (TestSequencerRewriteReadsByKey,
-// never analysed), so there is none; the same holds for every list key's
-// deletion (keyDelete, sectionListDelete).
-var couponListDelete = listedCoupons + `DELETE FROM coupon_list WHERE ctid = ANY (ARRAY(
-	SELECT k.ctid FROM unnest((SELECT ids FROM ids)::uuid[]) u(id)
-	CROSS JOIN LATERAL (SELECT ctid FROM coupon_list WHERE ` + byIDAtSite("u") + ` OFFSET 0) k))`
+// (the sequencer alone writes the table), so no condition on the site sits
+// beside them (keyDeleteOf).
+var couponListDelete = listedCoupons + keyDeleteOf("coupon_list", "(SELECT ids FROM ids)::uuid[]")
 
 // couponListRefresh writes their coupon_list rows from coupon_list_derived,
 // each coupon read from the view by its key, one seek per id, as the

@@ -118,12 +118,9 @@ type PlannedCoupon struct {
 // PlannedCoupons returns the current, non-voided coupons carrying the
 // plan's marks: the planned coupons that have come back.
 func (s *Store) PlannedCoupons(ctx context.Context, site string, marks []string) ([]PlannedCoupon, error) {
-	// Each mark looked up by current_marks' key (as storedMarksSQL does).
-	rows, _ := s.pool.Query(ctx, `SELECT p.mark, m.record_id AS id FROM unnest($2::text[]) p(mark)
-		CROSS JOIN LATERAL (SELECT record_id FROM current_marks
-			WHERE site = $1 AND kind = 'coupon_mark' AND mark = p.mark LIMIT 1) m
+	rows, _ := s.pool.Query(ctx, `SELECT m.mark, m.record_id AS id FROM (`+storedMarksSQL+`) m
 		WHERE NOT (SELECT voided FROM coupons c WHERE c.site = $1 AND c.id = m.record_id ORDER BY revision DESC LIMIT 1)
-		ORDER BY p.mark`, site, marks)
+		ORDER BY m.mark`, site, couponMark.kind, marks)
 	out, err := pgx.CollectRows(rows, pgx.RowToStructByName[PlannedCoupon])
 	if err != nil {
 		return nil, fmt.Errorf("db: planned coupons: %w", err)

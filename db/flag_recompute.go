@@ -132,29 +132,29 @@ func evaluateProduction(ctx context.Context, tx pgx.Tx, w *flagWriter) error {
 	return rows.Err()
 }
 
-// procedureCouponsSQL reads the current, non-voided coupons of the
-// procedure $2 at site $1: the coupons that ever named it (coupons_procedure),
-// each one's latest revision found by its key, so the read costs the
-// procedure's coupons, not the site's (TestRecordRecomputeReadsByIndex).
-var procedureCouponsSQL = `SELECT ` + prefixed("cur.", coupons.columns()) + `
-	FROM (SELECT DISTINCT id FROM coupons WHERE site = $1 AND procedure_id = $2) ever
+// currentCouponsNaming reads columns of the current, non-voided coupons at
+// site $1 whose current revision names $2 in column (and meets more): the
+// coupons that ever named it, found through the column's index, each one's
+// latest revision by its key, so the read costs those coupons, not the
+// site's (TestRecordRecomputeReadsByIndex).
+func currentCouponsNaming(columns, column, more string) string {
+	return `SELECT ` + columns + `
+	FROM (SELECT DISTINCT id FROM coupons WHERE site = $1 AND ` + column + ` = $2) ever
 	CROSS JOIN LATERAL (SELECT ` + coupons.columns() + ` FROM coupons
 		WHERE site = $1 AND id = ever.id ORDER BY revision DESC LIMIT 1) cur
-	WHERE NOT cur.voided AND cur.procedure_id = $2
+	WHERE NOT cur.voided AND cur.` + column + ` = $2` + more + `
 	ORDER BY cur.id`
+}
+
+// procedureCouponsSQL reads the current, non-voided coupons of the
+// procedure $2 at site $1 (through coupons_procedure).
+var procedureCouponsSQL = currentCouponsNaming(prefixed("cur.", coupons.columns()), "procedure_id", "")
 
 // recordCouponsSQL finds the current, non-voided coupons that name the
-// qualification record $2 and belong to none of the procedures $3 (whose
-// coupons the procedures' recompute judges anyway): the coupons that ever
-// named the record (coupons_qualification_record), each one's latest
-// revision found by its key, so a record's correction costs its own
-// coupons, whatever the site ($1) holds (TestRecordRecomputeReadsByIndex).
-const recordCouponsSQL = `SELECT cur.id
-	FROM (SELECT DISTINCT id FROM coupons WHERE site = $1 AND qualification_record_id = $2) ever
-	CROSS JOIN LATERAL (SELECT id, voided, qualification_record_id, procedure_id FROM coupons
-		WHERE site = $1 AND id = ever.id ORDER BY revision DESC LIMIT 1) cur
-	WHERE NOT cur.voided AND cur.qualification_record_id = $2 AND NOT (cur.procedure_id = ANY($3))
-	ORDER BY cur.id`
+// qualification record $2 and belong to none of the procedures $3, whose
+// coupons the procedures' recompute judges anyway (through
+// coupons_qualification_record).
+var recordCouponsSQL = currentCouponsNaming("cur.id", "qualification_record_id", " AND NOT (cur.procedure_id = ANY($3))")
 
 // recordFlags is the step that keeps flags in step with a corrected or
 // voided qualification record: the procedures it supports are re-evaluated

@@ -150,8 +150,8 @@ func TestMarkLookupsReadByKey(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()
 	_, conn := dbtest.FreshConn(t)
+	autovacuumOff(ctx, t, conn)
 	for _, sql := range []string{
-		"ALTER TABLE current_marks SET (autovacuum_enabled = false)",
 		`INSERT INTO current_marks (site, kind, mark, record_id)
 			SELECT 'analysed', 'coupon_mark', 'A-' || g, md5('a' || g)::uuid FROM generate_series(1, 5000) g`,
 		"ANALYZE current_marks",

@@ -267,13 +267,19 @@ func TestCouponFilters(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			var got []string
-			for _, c := range pg.Items {
-				got = append(got, c.CouponMark)
-			}
+			got := marksOf(pg.Items)
 			if d := cmp.Diff(tc.want, got); d != "" {
 				t.Errorf("Coupons(%+v) marks (-want +got):\n%s", tc.f, d)
 			}
 		})
 	}
+}
+
+// marksOf is the coupon marks of a page's coupons, in its order (nil for none).
+func marksOf(cs []db.Coupon) []string {
+	var marks []string
+	for _, c := range cs {
+		marks = append(marks, c.CouponMark)
+	}
+	return marks
 }

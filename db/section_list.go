@@ -25,15 +25,11 @@ const sectionListColumns = "site, id, revision, leaf_index, coupon_id, acceptanc
 // key, one seek per id. With the ids as a condition on the view, statistics
 // taken while the site was small (as during an import) had the planner read
 // every section of the site and filter.
-var sectionListRefresh = `INSERT INTO section_list (` + sectionListColumns + `) SELECT ` + prefixed("d.", sectionListColumns) + `
-	FROM (SELECT DISTINCT id FROM unnest($2::uuid[]) u(id)) u
-	CROSS JOIN LATERAL (SELECT ` + sectionListColumns + ` FROM section_list_derived WHERE site = $1 AND id = u.id OFFSET 0) d`
+var sectionListRefresh = keyRefresh("section_list", sectionListColumns)
 
 // sectionListDelete removes the section_list rows of sections $2 at site
-// $1: each found by its key, then deleted by its address (as couponListDelete).
-var sectionListDelete = `DELETE FROM section_list WHERE ctid = ANY (ARRAY(
-	SELECT k.ctid FROM unnest($2::uuid[]) u(id)
-	CROSS JOIN LATERAL (SELECT ctid FROM section_list WHERE ` + byIDAtSite("u") + ` OFFSET 0) k))`
+// $1: each found by its key, then deleted by its address.
+var sectionListDelete = keyDelete("section_list")
 
 // queueSectionList adds to the sequencer's batch of writes the rewrite of
 // the section_list rows of the sections the batch logs (ids; a section may

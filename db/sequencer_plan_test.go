@@ -53,11 +53,7 @@ func rewritesReadByKey(t *testing.T, before string) {
 	// Statistics taken while only other, small sites had rows (or none),
 	// and kept so (no autovacuum in this database's tables) while the site
 	// grows.
-	for _, table := range []string{"coupons", "measurements", "log_leaves", "coupon_list", "section_list"} {
-		if _, err := conn.Exec(ctx, "ALTER TABLE "+table+" SET (autovacuum_enabled = false)"); err != nil {
-			t.Fatal(err)
-		}
-	}
+	autovacuumOff(ctx, t, conn)
 	switch before {
 	case "analysed while small":
 		for i := range 200 { // many small sites: a site's rows look few

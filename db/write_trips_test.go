@@ -190,10 +190,7 @@ func TestDayWalkUsesGenericPlan(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		var got []string
-		for _, it := range page.Items {
-			got = append(got, it.CouponMark)
-		}
+		got := marksOf(page.Items)
 		if fmt.Sprint(got) != fmt.Sprint(marks) {
 			t.Errorf("%s: coupons %v, want %v", c.name, got, marks)
 		}
