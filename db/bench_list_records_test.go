@@ -225,8 +225,9 @@ func seedSectionsAndFlags(ctx context.Context, tb testing.TB, conn *pgx.Conn, n 
 // sections (50, a paced pass under writes; 2,000, a full batch) has its
 // section_list rows rewritten as the sequencer does (DELETE, INSERT from
 // section_list_derived) beside the coupon_list rewrite the sequencer already
-// made for the same sections' coupons (their ids read, DELETE, INSERT from
-// coupon_list_derived), each in its own transaction rolled back, alternating.
+// made for the same sections' coupons (DELETE and INSERT from
+// coupon_list_derived, the coupons found from the sections' ids), all with
+// the sequencer's own statements, each in its own transaction rolled back, alternating.
 // It reports each one's time per leaf and the section rewrite as a share of
 // the coupon rewrite.
 func BenchmarkSectionListRefresh(b *testing.B) {
@@ -262,19 +263,16 @@ func BenchmarkSectionListRefresh(b *testing.B) {
 				}
 				sections += timed(func(tx pgx.Tx) error {
 					bt := &pgx.Batch{}
-					bt.Queue(`DELETE FROM section_list WHERE site = $1 AND id = ANY($2)`, "bench", ids)
+					bt.Queue(db.SectionListDelete, "bench", ids)
 					bt.Queue(db.SectionListRefresh, "bench", ids)
 					return tx.SendBatch(ctx, bt).Close()
 				})
 				couponsTime += timed(func(tx pgx.Tx) error {
-					rows, _ := tx.Query(ctx, `SELECT DISTINCT coupon_id FROM measurements WHERE site = $1 AND id = ANY($2)`, "bench", ids)
-					of, err := pgx.CollectRows(rows, pgx.RowTo[uuid.UUID])
-					if err != nil {
-						return err
-					}
+					// As the sequencer queues it: no coupon leaves, the
+					// sections' ids, whose coupons the statements find.
 					bt := &pgx.Batch{}
-					bt.Queue(`DELETE FROM coupon_list WHERE site = $1 AND id = ANY($2)`, "bench", of)
-					bt.Queue(db.CouponListRefresh, "bench", of)
+					bt.Queue(db.CouponListDelete, "bench", []uuid.UUID{}, ids)
+					bt.Queue(db.CouponListRefresh, "bench", []uuid.UUID{}, ids)
 					return tx.SendBatch(ctx, bt).Close()
 				})
 			}
