@@ -1,8 +1,10 @@
 package logfmt
 
 import (
+	"bytes"
 	"encoding/json"
 	"fmt"
+	"unicode/utf8"
 )
 
 // Export line kinds that carry the log. An export is newline-delimited JSON,
@@ -90,8 +92,16 @@ func (f Field) MarshalJSON() ([]byte, error) {
 	return json.Marshal([]string{f.Name, f.Value})
 }
 
-// UnmarshalJSON reads [name, value] or [name, null].
+// UnmarshalJSON reads [name, value] or [name, null]. encoding/json hands
+// it a value it has already found to be valid JSON, so a pair of plain
+// strings (no escape, valid UTF-8) is taken from the bytes as they are,
+// which is what decoding them gives; any other pair is decoded by
+// encoding/json (a verify reads one pair per field of every leaf).
 func (f *Field) UnmarshalJSON(b []byte) error {
+	if name, value, null, ok := plainPair(b); ok {
+		f.Name, f.Value, f.Null = name, value, null
+		return nil
+	}
 	var pair []*string
 	if err := json.Unmarshal(b, &pair); err != nil {
 		return err
@@ -104,4 +114,55 @@ func (f *Field) UnmarshalJSON(b []byte) error {
 		f.Value = *pair[1]
 	}
 	return nil
+}
+
+// plainPair reads the valid JSON value b when it is [name, value] or
+// [name, null] with plain strings; ok is false for anything else.
+func plainPair(b []byte) (name, value string, null, ok bool) {
+	i := skipSpace(b, 0)
+	if i >= len(b) || b[i] != '[' {
+		return "", "", false, false
+	}
+	if name, i, ok = plainString(b, skipSpace(b, i+1)); !ok {
+		return "", "", false, false
+	}
+	if i = skipSpace(b, i); i >= len(b) || b[i] != ',' {
+		return "", "", false, false
+	}
+	i = skipSpace(b, i+1)
+	if null = bytes.HasPrefix(b[i:], []byte("null")); null {
+		i += len("null")
+	} else if value, i, ok = plainString(b, i); !ok {
+		return "", "", false, false
+	}
+	if i = skipSpace(b, i); i != len(b)-1 || b[i] != ']' {
+		return "", "", false, false
+	}
+	return name, value, null, true
+}
+
+// plainString reads the JSON string at b[i] when it holds no escape and
+// valid UTF-8, returning it and the index after its closing quote.
+func plainString(b []byte, i int) (string, int, bool) {
+	if i >= len(b) || b[i] != '"' {
+		return "", i, false
+	}
+	j := bytes.IndexByte(b[i+1:], '"')
+	if j < 0 {
+		return "", i, false
+	}
+	s := b[i+1 : i+1+j]
+	if bytes.IndexByte(s, '\\') >= 0 || !utf8.Valid(s) {
+		return "", i, false
+	}
+	return string(s), i + 2 + j, true
+}
+
+// skipSpace returns the index of the first byte at or after i that is not
+// JSON white space.
+func skipSpace(b []byte, i int) int {
+	for i < len(b) && (b[i] == ' ' || b[i] == '\t' || b[i] == '\n' || b[i] == '\r') {
+		i++
+	}
+	return i
 }

@@ -1,6 +1,7 @@
 package logfmt
 
 import (
+	"bufio"
 	"bytes"
 	"encoding/json"
 	"fmt"
@@ -74,13 +75,19 @@ func BenchmarkVerifyExport1M(b *testing.B) {
 	for range b.N {
 		pr, pw := io.Pipe()
 		go func() {
-			enc := json.NewEncoder(pw)
-			_ = enc.Encode(map[string]any{"kind": LineHeader, "record": ExportHeader{Site: "bench", Format: 2}})
+			// The lines as the export writes them (its leaf writer, whose
+			// bytes are encoding/json's), buffered as a file's would be.
+			w := bufio.NewWriterSize(pw, 64<<10)
+			_ = json.NewEncoder(w).Encode(map[string]any{"kind": LineHeader, "record": ExportHeader{Site: "bench", Format: 2}})
+			var line []byte
 			for i := range n {
 				f := benchFact(i)
-				_ = enc.Encode(map[string]any{"kind": LineLeaf, "record": ExportLeaf{Index: uint64(i), Kind: f.Kind, Version: 1, Fields: f.Fields, LeafHash: f.LeafHash(),
-					Actor: "ines", Action: "create", At: "2026-11-05T08:00:01.000000Z"}})
+				line = append(line[:0], `{"kind":"leaf","record":`...)
+				line = ExportLeaf{Index: uint64(i), Kind: f.Kind, Version: 1, Fields: f.Fields, LeafHash: f.LeafHash(),
+					Actor: "ines", Action: "create", At: "2026-11-05T08:00:01.000000Z"}.AppendJSON(line)
+				_, _ = w.Write(append(line, '}', '\n'))
 			}
+			_ = w.Flush()
 			pw.Close()
 		}()
 		var peak atomic.Uint64
