@@ -55,8 +55,9 @@ func BenchmarkCouponListAPI(b *testing.B) {
 		FROM information_schema.columns WHERE table_name = 'coupons'`).Scan(&cols); err != nil {
 		b.Fatal(err)
 	}
+	rawPool := dbtest.RawPool(b, e.store) // the raw page planned with PostgreSQL's defaults
 	raw := func() error {
-		rows, _ := e.store.Pool().Query(ctx, "SELECT "+cols+" FROM coupons WHERE site = $1 ORDER BY id LIMIT 50", e.site)
+		rows, _ := rawPool.Query(ctx, "SELECT "+cols+" FROM coupons WHERE site = $1 ORDER BY id LIMIT 50", e.site)
 		page, err := pgx.CollectRows(rows, pgx.RowToStructByName[db.Coupon])
 		if err == nil && len(page) != 50 {
 			err = fmt.Errorf("raw page of %d", len(page))

@@ -177,6 +177,18 @@ func otherListCases(ctx context.Context, tb testing.TB, s *db.Store, conn *pgx.C
 	// PQR 19 has welder W89 (31·19 mod 250), welded on day 133; production record 19 has procedure 7 (13·19 mod 60) and welder W89.
 	welder, pqrDay := "W89", 19*7%2500
 	pqrLate := min(7*pqrs, 2500) * 9 / 10 // the last tenth of the PQRs' welding days
+	// Deep in that filter's own PQRs (90 % through them in log order): deep in
+	// the whole log, none of them is left at 100,000 coupons (PQR g is welded
+	// on day 7g mod 2500, so the last tenth of the log's PQRs lies earlier).
+	var pqrLateIdx int64
+	if err := conn.QueryRow(ctx, `SELECT l.leaf_index FROM log_leaves l
+		JOIN qualification_records q ON q.site = l.site AND q.id = l.record_id AND q.revision = l.revision
+		WHERE l.site = 'bench' AND l.kind = 'qualification_record' AND q.welded_on >= $1
+		ORDER BY l.leaf_index OFFSET (SELECT count(*) * 9 / 10 FROM qualification_records WHERE site = 'bench' AND welded_on >= $1) LIMIT 1`,
+		day(pqrLate)).Scan(&pqrLateIdx); err != nil {
+		tb.Fatal(err)
+	}
+	pqrLateDeep := db.SeqCursor("qualification_records", pqrLateIdx)
 	prodProc, lateAt := id("p", 19*13%60), production*8/10
 	signed := id("q", pqrs*9/10)
 	var cases []recordListCase
@@ -199,7 +211,7 @@ func otherListCases(ctx context.Context, tb testing.TB, s *db.Store, conn *pgx.C
 			rawPQR + "welder_id = $2 ORDER BY welded_on LIMIT 50", []any{welder}, true},
 		{"pqrs/welded_from+to(week)", pqrList(db.QualificationRecordFilter{WeldedFrom: day(pqrDay), WeldedTo: day(pqrDay + 7)}), "",
 			rawPQR + "welded_on >= $2 AND welded_on < $3 ORDER BY welded_on LIMIT 50", []any{day(pqrDay), day(pqrDay + 7)}, true},
-		{"pqrs/welded_from(last tenth)", pqrList(db.QualificationRecordFilter{WeldedFrom: day(pqrLate)}), pqrDeep,
+		{"pqrs/welded_from(last tenth)", pqrList(db.QualificationRecordFilter{WeldedFrom: day(pqrLate)}), pqrLateDeep,
 			rawPQR + "welded_on >= $2 ORDER BY welded_on LIMIT 50", []any{day(pqrLate)}, false},
 		{"production/none", prodList(db.ProductionRecordFilter{}), prodDeep, rawProd + "true ORDER BY recorded_at LIMIT 50", nil, false},
 		{"production/procedure_id", prodList(db.ProductionRecordFilter{ProcedureID: &prodProc}), prodDeep,

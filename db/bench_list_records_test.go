@@ -97,6 +97,7 @@ func BenchmarkRecordListScale(b *testing.B) {
 			rawFlags + "subject_id = $2 ORDER BY subject_id LIMIT 50", []any{coupon}},
 	}
 	cases = append(cases, otherListCases(ctx, b, s, conn, n)...)
+	rawPool := dbtest.RawPool(b, s) // the raw pages planned with PostgreSQL's defaults
 	for _, c := range cases {
 		store := func() error {
 			got, err := c.store()
@@ -106,7 +107,7 @@ func BenchmarkRecordListScale(b *testing.B) {
 			return err
 		}
 		raw := func() error {
-			rows, _ := s.Pool().Query(ctx, c.raw, append([]any{site}, c.args...)...)
+			rows, _ := rawPool.Query(ctx, c.raw, append([]any{site}, c.args...)...)
 			got := 0
 			for rows.Next() {
 				if _, err := rows.Values(); err != nil {

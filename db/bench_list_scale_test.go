@@ -10,6 +10,7 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"etchlog/db"
+	"etchlog/db/dbtest"
 )
 
 // BenchmarkCouponListScale pages the coupons list of one site holding
@@ -44,6 +45,7 @@ func BenchmarkCouponListScale(b *testing.B) {
 		return &d
 	}
 	deep := db.SeqCursor("coupons", int64(n*9/10))
+	rawPool := dbtest.RawPool(b, s) // the raw pages planned with PostgreSQL's defaults
 	for _, c := range []struct {
 		name   string
 		f      db.CouponFilter
@@ -74,7 +76,7 @@ func BenchmarkCouponListScale(b *testing.B) {
 			return err
 		}
 		raw := func() error {
-			rows, _ := s.Pool().Query(ctx, "SELECT "+cols+" FROM coupons WHERE site = $1 AND "+c.raw+" LIMIT 50", append([]any{site}, c.args...)...)
+			rows, _ := rawPool.Query(ctx, "SELECT "+cols+" FROM coupons WHERE site = $1 AND "+c.raw+" LIMIT 50", append([]any{site}, c.args...)...)
 			page, err := pgx.CollectRows(rows, pgx.RowToStructByName[db.Coupon])
 			if err == nil && len(page) == 0 {
 				err = fmt.Errorf("%s raw: an empty page", c.name)

@@ -56,9 +56,10 @@ func BenchmarkCouponListFiltered(b *testing.B) {
 			}
 		}
 	})
+	rawPool := dbtest.RawPool(b, s) // the raw page planned with PostgreSQL's defaults
 	b.Run("RawSelect", func(b *testing.B) {
 		for i := 0; i < b.N; i++ {
-			rows, _ := s.Pool().Query(ctx, "SELECT "+cols+" FROM coupons WHERE site = $1 AND procedure_id = $2"+
+			rows, _ := rawPool.Query(ctx, "SELECT "+cols+" FROM coupons WHERE site = $1 AND procedure_id = $2"+
 				" ORDER BY welded_on LIMIT 50", site, p)
 			page, err := pgx.CollectRows(rows, pgx.RowToStructByName[db.Coupon])
 			if err != nil || len(page) != 50 {

@@ -92,7 +92,7 @@ func (s *Store) exportUnlogged(ctx context.Context, tx pgx.Tx, site string, clai
 			rev, args = "r.revision", append(args, u.ids, u.revs)
 		}
 		rows, _ := tx.Query(ctx, q+`
-			AND NOT EXISTS (SELECT 1 FROM log_leaves lg WHERE lg.site = $1 AND lg.record_id = r.id AND lg.revision = `+rev+` AND lg.kind = $2)
+			AND NOT EXISTS (SELECT 1 FROM log_leaves lg WHERE lg.record_id = r.id AND lg.kind = $2 AND (lg.site = $1) IS TRUE AND lg.revision = `+rev+`)
 			AND NOT EXISTS (SELECT 1 FROM log_pending p WHERE p.site = $1 AND p.record_id = r.id AND p.revision = `+rev+` AND p.kind = $2)
 			AND (r.id, `+rev+`) NOT IN (SELECT c.id, p.revision FROM log_pending p, unnest(p.record_ids) c(id) WHERE p.site = $1 AND p.kind = $2)
 			AND NOT EXISTS (SELECT 1 FROM log_rejected x WHERE x.site = $1 AND x.record_id = r.id AND x.revision = `+rev+` AND x.kind = $2)

@@ -65,7 +65,7 @@ func (s *Store) Inclusion(ctx context.Context, site, kind string, id uuid.UUID, 
 		return p, err
 	}
 	var idx int64
-	err = s.pool.QueryRow(ctx, `SELECT leaf_index, leaf_hash FROM log_leaves WHERE site = $1 AND kind = $2 AND record_id = $3 AND revision = $4`,
+	err = s.pool.QueryRow(ctx, `SELECT leaf_index, leaf_hash FROM log_leaves WHERE record_id = $3 AND kind = $2 AND (site = $1) IS TRUE AND revision = $4`,
 		site, kind, id, rev).Scan(&idx, &p.LeafHash)
 	if errors.Is(err, pgx.ErrNoRows) || (err == nil && uint64(idx) >= cp.Size) {
 		return p, fmt.Errorf("db: %s %s revision %d is not in the log yet: %w", kind, id, rev, ErrNotFound)

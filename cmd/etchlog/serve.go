@@ -57,6 +57,9 @@ func serve(ctx context.Context, c config, store *db.Store, log *slog.Logger, rea
 	go func() { errc <- hs.Serve(ln) }()
 	ready("http://" + ln.Addr().String())
 	log.Info("listening", "addr", ln.Addr().String())
+	if kept, err := store.StatisticsKept(ctx); err == nil && !kept {
+		log.Warn("the database server's autovacuum is off: table statistics are never refreshed, so as a site grows some list pages read far more rows than they need; run vacuumdb --analyze-only as the database owner after large imports and regularly, or turn autovacuum on")
+	}
 	select {
 	case err := <-errc:
 		return err
