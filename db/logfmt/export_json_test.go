@@ -17,17 +17,7 @@ import (
 // every ASCII byte, multi-byte UTF-8, U+2028/U+2029 and invalid UTF-8.
 func TestAppendJSONMatchesEncodingJSON(t *testing.T) {
 	rng := rand.New(rand.NewPCG(13, 5))
-	pieces := []string{"a", "Z", "9", " ", "é", "ü", "漢", "😀", "\u2028", "\u2029", "\xff", "\xe2\x80", "\xed\xa0\x80", "<", ">", "&", `"`, `\`, "/"}
-	for c := range 0x80 {
-		pieces = append(pieces, string(rune(c)))
-	}
-	str := func() string {
-		var s string
-		for range rng.IntN(12) {
-			s += pieces[rng.IntN(len(pieces))]
-		}
-		return s
-	}
+	str := randomText(rng, 12, "ü", "\u2029", "\xed\xa0\x80", ">")
 	for i := range 3000 {
 		l := ExportLeaf{Index: rng.Uint64() >> rng.IntN(64), Kind: str(), Version: rng.IntN(5) - 1, RecordID: str(),
 			Revision: rng.IntN(1000), Actor: str(), Action: str(), Reason: str(), At: str()}
@@ -68,17 +58,7 @@ func TestAppendJSONMatchesEncodingJSON(t *testing.T) {
 // list decodes within a leaf as it does alone.
 func TestFieldDecodeMatchesEncodingJSON(t *testing.T) {
 	rng := rand.New(rand.NewPCG(29, 3))
-	pieces := []string{"a", "Z", "9", " ", "é", "漢", "😀", "\u2028", "\xff", "\xe2\x80", "<", "&", `"`, `\`, "/", "null"}
-	for c := range 0x80 {
-		pieces = append(pieces, string(rune(c)))
-	}
-	str := func() string {
-		var s string
-		for range rng.IntN(8) {
-			s += pieces[rng.IntN(len(pieces))]
-		}
-		return s
-	}
+	str := randomText(rng, 8, "null")
 	space := func() string { return []string{"", "", " ", "\n", "\t ", "\r\n"}[rng.IntN(6)] }
 	quoted := func(s string) string {
 		q, err := json.Marshal(s)
@@ -209,4 +189,21 @@ func FuzzLeafLine(f *testing.F) {
 			t.Fatalf("line %q: one pass read %+v, whole %v %+v", b, got, wok, want)
 		}
 	})
+}
+
+// randomText returns a maker of random strings of up to most-1 pieces: every
+// ASCII character, multi-byte UTF-8, U+2028, invalid UTF-8, the JSON
+// specials, and the extra pieces given.
+func randomText(rng *rand.Rand, most int, extra ...string) func() string {
+	pieces := append([]string{"a", "Z", "9", " ", "é", "漢", "😀", "\u2028", "\xff", "\xe2\x80", "<", "&", `"`, `\`, "/"}, extra...)
+	for c := range 0x80 {
+		pieces = append(pieces, string(rune(c)))
+	}
+	return func() string {
+		var s string
+		for range rng.IntN(most) {
+			s += pieces[rng.IntN(len(pieces))]
+		}
+		return s
+	}
 }
