@@ -134,7 +134,7 @@ func open(ctx context.Context, url, role string, unprivileged bool, conns int) (
 	// TestListPlansUnderYoungStatistics ("empty database") counts 36 list
 	// plans over its bound instead of 60, and the analysed plans read 97,390
 	// rows in all instead of 115,077. Long reads (export, audit verify),
-	// which read a site whole, keep them (longReadParams).
+	// which read a site whole, keep them (PlannerDefaults).
 	cfg.ConnConfig.RuntimeParams["enable_bitmapscan"] = "off"
 	// Named in pg_stat_activity, so an operator (and a CPU count per
 	// connection) tells the service's requests from its log sequencer.
@@ -167,7 +167,7 @@ func open(ctx context.Context, url, role string, unprivileged bool, conns int) (
 		}
 	}
 	lcfg := cfg.Copy()
-	longReadParams(lcfg.ConnConfig.RuntimeParams)
+	PlannerDefaults(lcfg.ConnConfig.RuntimeParams)
 	lcfg.MaxConns = LongReadConns
 	lcfg.MinConns = 0
 	long, err := pgxpool.NewWithConfig(ctx, lcfg)
@@ -179,17 +179,11 @@ func open(ctx context.Context, url, role string, unprivileged bool, conns int) (
 		kick: make(chan struct{}, 1)}, nil
 }
 
-// PlannerParams are the session settings the main pool sets away from
-// PostgreSQL's planner defaults (Open).
-var PlannerParams = []string{"enable_bitmapscan"}
-
-// longReadParams turns the main pool's session settings into the long
-// reads': bitmap scans allowed again, for reads of a site whole.
-func longReadParams(p map[string]string) {
-	for _, k := range PlannerParams {
-		delete(p, k)
-	}
-}
+// PlannerDefaults removes from the session settings p those the main pool
+// sets away from PostgreSQL's planner defaults (Open): bitmap scans
+// allowed again. The long reads, which read a site whole, take it; so do
+// the benchmarks' raw baselines.
+func PlannerDefaults(p map[string]string) { delete(p, "enable_bitmapscan") }
 
 // Close releases every connection.
 func (s *Store) Close() {

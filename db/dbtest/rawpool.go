@@ -11,14 +11,12 @@ import (
 
 // RawPool is a pool on the Store's database, as large as its main pool,
 // whose sessions keep PostgreSQL's own planner settings (the Store's turn
-// bitmap scans off, db.PlannerParams): a raw baseline's SELECT is planned as
+// bitmap scans off, db.PlannerDefaults): a raw baseline's SELECT is planned as
 // a plain client's would be.
 func RawPool(tb testing.TB, s *db.Store) *pgxpool.Pool {
 	tb.Helper()
 	cfg := s.Pool().Config().Copy()
-	for _, p := range db.PlannerParams {
-		delete(cfg.ConnConfig.RuntimeParams, p)
-	}
+	db.PlannerDefaults(cfg.ConnConfig.RuntimeParams)
 	pool, err := pgxpool.NewWithConfig(context.Background(), cfg)
 	if err != nil {
 		tb.Fatalf("dbtest: raw pool: %v", err)
