@@ -130,7 +130,7 @@ func revisionLeafHash(ctx context.Context, tx pgx.Tx, site, kind string, id uuid
 	var h []byte
 	var version int
 	err := tx.QueryRow(ctx, `
-		SELECT leaf_hash, version FROM log_leaves WHERE record_id = $3 AND kind = $2 AND (site = $1) IS TRUE AND revision = $4
+		SELECT leaf_hash, version FROM log_leaves WHERE `+leafOfRevision+`
 		UNION ALL
 		SELECT leaf_hash, version FROM log_pending WHERE site = $1 AND kind = $2 AND record_id = $3 AND revision = $4
 		UNION ALL
