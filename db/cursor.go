@@ -93,19 +93,3 @@ func (r tailRow) Scan(dest ...any) error { return r.CollectableRow.Scan(append(d
 func collectIndexed[T any](rows pgx.Rows) ([]T, int64, error) {
 	return collectTail[T](rows, nil)
 }
-
-// collectTail reads rows into T whose last columns are tail's and then the
-// log index, calling each (when set) after each row with the row's item,
-// tail scanned; it returns the index of the last row.
-func collectTail[T any](rows pgx.Rows, each func(*T), tail ...any) ([]T, int64, error) {
-	var last int64 = -1
-	tail = append(tail, &last)
-	items, err := pgx.CollectRows(rows, func(row pgx.CollectableRow) (T, error) {
-		item, err := pgx.RowToStructByName[T](tailRow{row, tail})
-		if err == nil && each != nil {
-			each(&item)
-		}
-		return item, err
-	})
-	return items, last, err
-}

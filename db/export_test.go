@@ -46,11 +46,11 @@ var SectionListDelete = sectionListDelete
 
 // QualificationListRefresh is the statement the sequencer rewrites
 // qualification_list rows with, for the plan test.
-var QualificationListRefresh = qualificationListRefresh
+var QualificationListRefresh = qualificationList.refresh
 
 // ProcedureListRefresh is the statement the sequencer rewrites
 // procedure_list rows with, for the plan test.
-var ProcedureListRefresh = procedureListRefresh
+var ProcedureListRefresh = procedureList.refresh
 
 // RecordJSONBothWays reads the coupons of a site (up to the first the
 // driver cannot scan) and returns each row's
@@ -118,3 +118,10 @@ var (
 
 // StoredMarksSQL is an import's read of the marks current records hold.
 const StoredMarksSQL = storedMarksSQL
+
+// ScanByName makes the lists scan their rows by name (on) or by position,
+// for TestCollectTailMatchesByName.
+func ScanByName(on bool) { scanByName.Store(on) }
+
+// PositionRows is how many rows the lists have scanned by position.
+func PositionRows() int64 { return positionRows.Load() }

@@ -117,9 +117,12 @@ func queueKeyRewrite(b *pgx.Batch, site string, out *leafRows, entity, table, re
 // <table>_derived: each record read by its key through a lateral subquery
 // the planner cannot flatten, so statistics taken while the site was small
 // cannot turn it into a read of every record of the site.
-func keyRefresh(table, columns string) string {
+func keyRefresh(table, columns string) string { return keyRefreshOf(table, columns, "$2::uuid[]") }
+
+// keyRefreshOf is keyRefresh for the records of the id array ids.
+func keyRefreshOf(table, columns, ids string) string {
 	return `INSERT INTO ` + table + ` (` + columns + `) SELECT ` + prefixed("d.", columns) + `
-	FROM (SELECT DISTINCT id FROM unnest($2::uuid[]) u(id)) u
+	FROM (SELECT DISTINCT id FROM unnest(` + ids + `) u(id)) u
 	CROSS JOIN LATERAL (SELECT ` + columns + ` FROM ` + table + `_derived WHERE site = $1 AND id = u.id OFFSET 0) d`
 }
 
@@ -159,4 +162,38 @@ func (f *filter) rangeKeys(w dayWalk, table, dayCol, monthCol, keyCols, lim stri
 	}
 	return `SELECT ` + keyCols + ` FROM (` + strings.Join(walks, "\n\t\tUNION ALL ") + `) b
 		ORDER BY b.leaf_index` + lim
+}
+
+// signedKey is a list key whose rows carry their revision's logged sign-off
+// (procedure_list, qualification_list; migration 000057): the sequencer
+// rewrites a record's row when one of its own leaves, or the leaf of a
+// sign-off of it, takes its index.
+type signedKey struct {
+	entity          string // the records' leaf kind
+	delete, refresh string // $1 site, $2 record ids, $3 sign-off ids
+}
+
+// newSignedKey is the signed list key table of the records of kind (a sign-off's
+// record_kind, also their leaf kind), with its columns named.
+func newSignedKey(table, kind, columns string) signedKey {
+	// The records $2 and those the sign-offs $3 sign, each once, as one
+	// array; a sign-off is found by its key.
+	ids := `WITH ids AS (SELECT array_agg(DISTINCT id) AS ids FROM (SELECT unnest($2::uuid[]) AS id
+		UNION ALL SELECT so.record_id FROM unnest($3::uuid[]) s(id)
+			CROSS JOIN LATERAL (SELECT record_id FROM sign_offs WHERE ` + byIDAtSite("s") + ` AND record_kind = '` + kind + `' OFFSET 0) so) c) `
+	all := "(SELECT ids FROM ids)::uuid[]"
+	return signedKey{entity: kind, delete: ids + keyDeleteOf(table, all), refresh: ids + keyRefreshOf(table, columns, all)}
+}
+
+// queue adds to the sequencer's batch of writes the rewrite of the rows of
+// the records among the pass's leaves (out) and of those its sign-offs
+// sign; neither, no statement.
+func (k signedKey) queue(b *pgx.Batch, site string, out *leafRows) {
+	ids, _ := out.ofKind(k.entity, 0)
+	signs, _ := out.ofKind(signOffTable.entity, 0)
+	if len(ids) == 0 && len(signs) == 0 {
+		return
+	}
+	b.Queue(k.delete, site, ids, signs)
+	b.Queue(k.refresh, site, ids, signs)
 }

@@ -228,7 +228,7 @@ func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
 		t.Errorf("production_list refresh: sequential scan of %v: %s", scans, planText(root))
 	}
 	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.ProcedureListRefresh, planSite,
-		[]uuid.UUID{seededID("p", 3), seededID("p", 40)}).Scan(&plan); err != nil {
+		[]uuid.UUID{seededID("p", 3), seededID("p", 40)}, []uuid.UUID{seededID("sp", 4)}).Scan(&plan); err != nil {
 		t.Fatalf("explain procedure_list refresh: %v", err)
 	}
 	root, _ = plan[0]["Plan"].(map[string]any)
@@ -236,7 +236,7 @@ func explainRefresh(ctx context.Context, t *testing.T, s *db.Store) {
 		t.Errorf("procedure_list refresh: sequential scan of %v: %s", scans, planText(root))
 	}
 	if err := s.Pool().QueryRow(ctx, "EXPLAIN (FORMAT JSON) "+db.QualificationListRefresh, planSite,
-		[]uuid.UUID{seededID("q", 3), seededID("q", 40)}).Scan(&plan); err != nil {
+		[]uuid.UUID{seededID("q", 3), seededID("q", 40)}, []uuid.UUID{seededID("sq", 3)}).Scan(&plan); err != nil {
 		t.Fatalf("explain qualification_list refresh: %v", err)
 	}
 	root, _ = plan[0]["Plan"].(map[string]any)

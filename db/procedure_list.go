@@ -7,32 +7,34 @@ import (
 )
 
 // The procedures list pages in log order through procedure_list (migration
-// 000046): one row per logged procedure with its latest logged revision,
-// that revision's log index and the columns the list filters on (process,
-// status, void mark), each filter with an index (site, <column>,
-// leaf_index). The sequencer rewrites a procedure's row in the transaction
-// that gives one of its leaves its index (queueProcedureList), so the table
+// 000046): one row per logged procedure with its latest logged revision
+// whole, that revision's log index and its logged sign-off (migration
+// 000057), each filter (process, status, void mark) with an index (site,
+// <column>, leaf_index). The sequencer rewrites a procedure's row in the
+// transaction that gives one of its leaves, or a sign-off of it, its index
+// (queueProcedureList), so the table
 // agrees with the log a reader sees and a client following the cursor sees
 // every procedure revision exactly once, as with the PQRs list.
 
-// procedureListColumns are procedure_list's columns, named.
-const procedureListColumns = "site, id, revision, leaf_index, voided, process, status"
+// procedureListColumns are procedure_list's columns, named, in the order a
+// page reads them (readSigned): the revision's, its sign-off's and its log
+// index (migration 000057).
+var procedureListColumns = procedures.columns() + ", " + signedColumns + ", leaf_index"
 
-// procedureListRefresh writes the procedure_list rows of the procedures $2
-// at site $1 (an id may repeat), each read by its key (keyRefresh).
-var procedureListRefresh = keyRefresh("procedure_list", procedureListColumns)
+// procedureList is procedure_list, which the sequencer rewrites for a
+// procedure's leaves and its sign-offs' (each row read by its key from
+// procedure_list_derived, keyRefresh).
+var procedureList = newSignedKey("procedure_list", SignProcedure, procedureListColumns)
 
 // queueProcedureList adds to the sequencer's batch of writes the rewrite of
-// the procedure_list rows of the procedures among the pass's leaves (out);
-// none, no statement.
-func queueProcedureList(b *pgx.Batch, site string, out *leafRows) {
-	queueKeyRewrite(b, site, out, procedures.entity, "procedure_list", procedureListRefresh)
-}
+// the procedure_list rows of the procedures among the pass's leaves (out),
+// and of those its sign-offs sign; none, no statement.
+func queueProcedureList(b *pgx.Batch, site string, out *leafRows) { procedureList.queue(b, site, out) }
 
 // Procedures lists current procedures after the cursor in log order: the
-// page's keys walked in log order through the filter's index of
-// procedure_list (the page size written into the statement), then each
-// revision read by its key with its sign-off, in one statement.
+// page walked in log order through the filter's index of procedure_list
+// (the page size written into the statement), each entry with its
+// revision and sign-off.
 func (s *Store) Procedures(ctx context.Context, site string, pf ProcedureFilter, cursor string, limit int) (Page[Procedure], error) {
 	return logPage(procedures.name, procedures.entity, cursor, limit, func(from int64, limit int) ([]Procedure, int64, error) {
 		f := newFilter()
@@ -46,11 +48,8 @@ func (s *Store) Procedures(ctx context.Context, site string, pf ProcedureFilter,
 		if pf.Status != "" {
 			f.add("k.status = ?", pf.Status)
 		}
-		sql := `SELECT ` + prefixed("p.", procedures.columns()) + `, ` + signedColumns + `, k.leaf_index
-		FROM (` + keyWalk("procedure_list", "k.id, k.revision, k.leaf_index", f.conds, pageLimit(limit)) + `) k
-		` + revisionByKey(procedures, "p") + `
-		` + signedJoin(SignProcedure, "k") + `
-		ORDER BY k.leaf_index`
+		// The page is one walk of the key: each entry carries its row.
+		sql := keyWalk("procedure_list", prefixed("k.", procedureListColumns), f.conds, pageLimit(limit))
 		return readSigned[Procedure](ctx, s, site, sql, f.args)
 	})
 }

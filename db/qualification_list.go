@@ -7,36 +7,42 @@ import (
 )
 
 // The PQRs list pages in log order through qualification_list (migration
-// 000045): one row per logged PQR with its latest logged revision, that
-// revision's log index and the columns the list filters on (process,
-// welder, outcome, welding day and month, void mark), each filter with an
-// index (site, <column>, leaf_index). The sequencer rewrites a PQR's row in
-// the transaction that gives one of its leaves its index
+// 000045): one row per logged PQR with its latest logged revision whole,
+// that revision's log index and logged sign-off (migration 000057) and its
+// welding month, each filter (process, welder, outcome, welding day and
+// month, void mark) with an index (site, <column>, leaf_index). The
+// sequencer rewrites a PQR's row in the transaction that gives one of its
+// leaves, or a sign-off of it, its index
 // (queueQualificationList), so the table agrees with the log a reader sees
 // and a client following the cursor sees every PQR revision exactly once,
 // as with the sections list.
 
-// qualificationListColumns are qualification_list's columns, named.
-const qualificationListColumns = "site, id, revision, leaf_index, voided, process, welder_id, outcome, welded_on, welded_month"
+// qualificationListColumns are qualification_list's columns, named, in the
+// order a page reads them (readSigned): the revision's, its sign-off's and
+// its log index (migration 000057); the table also has the welding month
+// its day walks use (qualificationKeyColumns).
+var qualificationListColumns = qualificationRecords.columns() + ", " + signedColumns + ", leaf_index"
 
-// qualificationListRefresh writes the qualification_list rows of the PQRs
-// $2 at site $1 (an id may repeat): each PQR read from
-// qualification_list_derived by its key, one seek per id, whatever the
-// statistics say of the site (keyRefresh).
-var qualificationListRefresh = keyRefresh("qualification_list", qualificationListColumns)
+// qualificationList is qualification_list, which the sequencer rewrites for
+// a PQR's leaves and its sign-offs' (each row read by its key from
+// qualification_list_derived, whatever the statistics say of the site:
+// keyRefresh).
+var qualificationList = newSignedKey("qualification_list", SignQualificationRecord, qualificationKeyColumns)
+
+// qualificationKeyColumns are all of qualification_list's columns, named.
+var qualificationKeyColumns = qualificationListColumns + ", welded_month"
 
 // queueQualificationList adds to the sequencer's batch of writes the
 // rewrite of the qualification_list rows of the PQRs among the pass's
-// leaves (out); none, no statement.
+// leaves (out), and of those its sign-offs sign; none, no statement.
 func queueQualificationList(b *pgx.Batch, site string, out *leafRows) {
-	queueKeyRewrite(b, site, out, qualificationRecords.entity, "qualification_list", qualificationListRefresh)
+	qualificationList.queue(b, site, out)
 }
 
 // listQualificationRecords returns one page of current PQRs matching qf in
-// log order from index from: the page's keys walked in log order through
-// the filter's index of qualification_list (the page size written into the
-// statement), then each revision read by its key with its sign-off, in one
-// statement. A welding-day range
+// log order from index from: the page walked in log order through the
+// filter's index of qualification_list (the page size written into the
+// statement), each entry with its revision and sign-off. A welding-day range
 // without a welder walks each day of the range (of its partial months when
 // it spans more than maxDayWalk days) and each whole month between, up to a
 // page each, and merges the heads: at most (days + months) × limit index
@@ -63,19 +69,20 @@ func (s *Store) listQualificationRecords(ctx context.Context, site string, qf Qu
 		f.add("k.welded_on < ?", *qf.WeldedTo)
 	}
 	lim := pageLimit(limit)
-	walk := func(conds []string) string {
-		return keyWalk("qualification_list", "k.id, k.revision, k.leaf_index", conds, lim)
-	}
-	keys := walk(f.conds)
+	// A walk of one index is the page: each entry carries its row. A
+	// merge of walks reads each head's key alone, then the page's rows by
+	// key.
+	sql := keyWalk("qualification_list", prefixed("k.", qualificationListColumns), f.conds, lim)
 	if qf.WelderID == "" && (qf.WeldedFrom != nil || qf.WeldedTo != nil) {
+		walk := func(conds []string) string {
+			return keyWalk("qualification_list", "k.id, k.revision, k.leaf_index", conds, lim)
+		}
 		w := splitDays(qf.WeldedFrom, qf.WeldedTo)
-		keys = f.rangeKeys(w, "qualification_list", "welded_on", "welded_month", "b.id, b.revision, b.leaf_index", lim, walk)
-	}
-	sql := `SELECT ` + prefixed("q.", qualificationRecords.columns()) + `, ` + signedColumns + `, k.leaf_index
-		FROM (` + keys + `) k
-		` + revisionByKey(qualificationRecords, "q") + `
-		` + signedJoin(SignQualificationRecord, "k") + `
+		keys := f.rangeKeys(w, "qualification_list", "welded_on", "welded_month", "b.id, b.revision, b.leaf_index", lim, walk)
+		sql = `SELECT ` + prefixed("q.", qualificationListColumns) + ` FROM (` + keys + `) k
+		` + rowByID("qualification_list", qualificationListColumns, "q", "k") + `
 		ORDER BY k.leaf_index`
+	}
 	return readSigned[QualificationRecord](ctx, s, site, sql, f.args)
 }
 
@@ -84,5 +91,5 @@ func (s *Store) listQualificationRecords(ctx context.Context, site string, qf Qu
 // log) and returns each difference; none means the list key is derived
 // exactly.
 func (s *Store) RecheckQualificationList(ctx context.Context, site string) ([]string, error) {
-	return s.recheckDerived(ctx, site, "qualification_list", "qualification_list_derived", qualificationListColumns, "PQR")
+	return s.recheckDerived(ctx, site, "qualification_list", "qualification_list_derived", qualificationKeyColumns, "PQR")
 }

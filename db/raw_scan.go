@@ -36,6 +36,10 @@ func scanRaw(fds []pgconn.FieldDescription, raw [][]byte, targets []any) bool {
 				*p = nil
 			case **uuid.UUID:
 				*p = nil
+			case **time.Time:
+				*p = nil
+			case *[]byte:
+				*p = nil
 			default:
 				return false
 			}
@@ -100,16 +104,22 @@ func scanRaw(fds []pgconn.FieldDescription, raw [][]byte, targets []any) bool {
 			u := uuid.UUID(v)
 			*p = &u
 		case *time.Time:
-			if fd.DataTypeOID != pgtype.TimestamptzOID || len(v) != 8 {
-				return false
-			}
-			// As pgx builds it: time.Unix from microseconds since 2000-01-01, in the local zone.
-			us := int64(binary.BigEndian.Uint64(v))
-			t := time.Unix(pgEpoch.Unix()+us/1_000_000, us%1_000_000*1_000)
-			if y := t.Year(); us == math.MaxInt64 || us == math.MinInt64 || y < 1 || y > 9999 {
+			t, ok := rawTimestamptz(fd, v)
+			if !ok {
 				return false
 			}
 			*p = t
+		case **time.Time:
+			t, ok := rawTimestamptz(fd, v)
+			if !ok {
+				return false
+			}
+			*p = &t
+		case *[]byte:
+			if fd.DataTypeOID != pgtype.ByteaOID {
+				return false
+			}
+			*p = append([]byte{}, v...) // the row's buffer is reused
 		case *Date:
 			if fd.DataTypeOID != pgtype.DateOID || len(v) != 4 {
 				return false
@@ -125,6 +135,21 @@ func scanRaw(fds []pgconn.FieldDescription, raw [][]byte, targets []any) bool {
 		}
 	}
 	return true
+}
+
+// rawTimestamptz is a binary timestamp with time zone as pgx builds it:
+// time.Unix from microseconds since 2000-01-01, in the local zone; not one
+// that is infinite or outside years 1 to 9999.
+func rawTimestamptz(fd *pgconn.FieldDescription, v []byte) (time.Time, bool) {
+	if fd.DataTypeOID != pgtype.TimestamptzOID || len(v) != 8 {
+		return time.Time{}, false
+	}
+	us := int64(binary.BigEndian.Uint64(v))
+	t := time.Unix(pgEpoch.Unix()+us/1_000_000, us%1_000_000*1_000)
+	if y := t.Year(); us == math.MaxInt64 || us == math.MinInt64 || y < 1 || y > 9999 {
+		return time.Time{}, false
+	}
+	return t, true
 }
 
 // rawFloat8 is a binary double precision value.

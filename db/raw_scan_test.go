@@ -43,6 +43,8 @@ func TestScanRawMatchesPgx(t *testing.T) {
 	id := func() any { return new(uuid.UUID) }
 	optID := func() any { return new(*uuid.UUID) }
 	at := func() any { return new(time.Time) }
+	optAt := func() any { return new(*time.Time) }
+	bytes := func() any { return new([]byte) }
 	day := func() any { return new(Date) }
 	boolean := func() any { return new(bool) }
 	us := func(t time.Time) int64 { return t.UnixMicro() - pgEpoch.UnixMicro() }
@@ -68,6 +70,10 @@ func TestScanRawMatchesPgx(t *testing.T) {
 		{pgtype.DateOID, bin, be32(days(first)), day}, {pgtype.DateOID, bin, be32(days(last)), day},
 		{pgtype.DateOID, bin, be32(days(first) - 1), day}, {pgtype.DateOID, bin, be32(days(last) + 1), day},
 		{pgtype.DateOID, txt, []byte("2026-03-04"), day}, {pgtype.DateOID, bin, nil, day},
+		{pgtype.TimestamptzOID, bin, nil, optAt}, {pgtype.TimestamptzOID, bin, be64(us(last) + 1), optAt},
+		{pgtype.TimestamptzOID, txt, []byte("2026-01-02 03:04:05+00"), optAt},
+		{pgtype.ByteaOID, bin, nil, bytes}, {pgtype.ByteaOID, bin, []byte{}, bytes}, {pgtype.ByteaOID, bin, []byte{0, 255, 7}, bytes},
+		{pgtype.ByteaOID, txt, []byte("\\x00ff"), bytes}, {pgtype.TextOID, bin, []byte("ab"), bytes},
 	}
 	lo, hi := us(first), us(last)
 	for range 2000 {
@@ -78,6 +84,8 @@ func TestScanRawMatchesPgx(t *testing.T) {
 			rawCase{pgtype.Float8OID, bin, be64(int64(math.Float64bits(r.NormFloat64() * 100))), optF},
 			rawCase{pgtype.UUIDOID, bin, u[:], id}, rawCase{pgtype.UUIDOID, bin, u[:], optID},
 			rawCase{pgtype.TimestamptzOID, bin, be64(lo + r.Int64N(hi-lo)), at},
+			rawCase{pgtype.TimestamptzOID, bin, be64(lo + r.Int64N(hi-lo)), optAt},
+			rawCase{pgtype.ByteaOID, bin, u[:r.IntN(17)], bytes},
 			rawCase{pgtype.TimestamptzOID, bin, be64(r.Int64N(1e16) - 5e15), at},
 			rawCase{pgtype.DateOID, bin, be32(days(first) + r.Int32N(days(last)-days(first))), day})
 	}
@@ -99,8 +107,8 @@ func TestScanRawMatchesPgx(t *testing.T) {
 				reflect.ValueOf(got).Elem(), reflect.ValueOf(want).Elem())
 		}
 	}
-	if taken < 2000*8 {
-		t.Errorf("scanRaw took %d of the %d random values, want all", taken, 2000*8)
+	if taken < 2000*10 {
+		t.Errorf("scanRaw took %d of the %d random values, want all", taken, 2000*10)
 	}
 }
 

@@ -37,9 +37,9 @@ var copiedTables = map[string]string{
 	"production_list_pending_derived": "a view of production_records",
 	"section_list":                    "the current revision's acceptance of each section, copied from measurements",
 	"section_list_derived":            "a view of measurements",
-	"qualification_list":              "the current revision's filtered columns of each PQR, copied from qualification_records",
+	"qualification_list":              "the current logged revision of each PQR and its logged sign-off, copied from qualification_records and sign_offs",
 	"qualification_list_derived":      "a view of qualification_records",
-	"procedure_list":                  "the current revision's filtered columns of each procedure, copied from procedures",
+	"procedure_list":                  "the current logged revision of each procedure and its logged sign-off, copied from procedures and sign_offs",
 	"procedure_list_derived":          "a view of procedures",
 }
 

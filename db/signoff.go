@@ -249,19 +249,11 @@ func attachSignOffs[T any](ctx context.Context, q querier, site string, items []
 	return nil
 }
 
-// signedColumns are the columns a page of signable records reads before
-// each row's log index: the sign-off of the row's revision (signedJoin),
-// null when it is unsigned.
-const signedColumns = "so.id, so.statement, so.signed_hash, so.signed_hash_of, so.signed_by, so.signer_role, so.signed_at"
-
-// signedJoin joins to a page's rows (alias r, with id and revision) at site
-// $1 the sign-off of kind of that revision, found by its key: a lateral
-// subquery the planner cannot flatten, one probe per row, so that it never
-// hashes every sign-off of the site for a page.
-func signedJoin(kind, r string) string {
-	return `LEFT JOIN LATERAL (SELECT ` + signOffColumns + ` FROM sign_offs
-			WHERE site = $1 AND record_kind = '` + kind + `' AND record_id = ` + r + `.id AND record_revision = ` + r + `.revision OFFSET 0) so ON true`
-}
+// signedColumns are the columns of a signed list key (procedure_list,
+// qualification_list) that a page of signable records reads before each
+// row's log index: the logged sign-off of the row's revision, null when it
+// is unsigned (migration 000057).
+const signedColumns = "sign_off_id, sign_off_statement, sign_off_hash, sign_off_hash_of, sign_off_by, sign_off_role, sign_off_at"
 
 // readSigned reads one page of signable records with readPage, each row
 // ending with signedColumns and its log index, and returns the items, each
