@@ -99,7 +99,7 @@ func (s *Store) Flags(ctx context.Context, site string, ff FlagFilter, cursor st
 		CROSS JOIN LATERAL (SELECT ` + cols + ` FROM flags WHERE ` + where + ` AND ` + flagDay + ` = d.day::date` + order + lim + `) b` + order + lim
 	}
 	rows, _ := s.pool.Query(ctx, sql, f.args...)
-	items, err := pgx.CollectRows(rows, pgx.RowToStructByName[Flag])
+	items, err := collectRows[Flag](rows, nil)
 	if err != nil {
 		return Page[Flag]{}, fmt.Errorf("db: list flags: %w", mapError(err))
 	}

@@ -101,9 +101,17 @@ func tagged(t reflect.Type, at []int, fields map[string][]int) bool {
 // log index, calling each (when set) after each row with the row's item,
 // tail scanned; it returns the index of the last row.
 func collectTail[T any](rows pgx.Rows, each func(*T), tail ...any) ([]T, int64, error) {
-	defer rows.Close()
 	var last int64 = -1
-	tail = append(tail, &last)
+	items, err := collectRows(rows, each, append(tail, &last)...)
+	return items, last, err
+}
+
+// collectRows reads rows into T whose last columns, if any, are tail's,
+// calling each (when set) after each row with the row's item, tail
+// scanned: by position where the columns and T's fields pair by tag
+// (planRows), else by pgx's scan by name.
+func collectRows[T any](rows pgx.Rows, each func(*T), tail ...any) ([]T, error) {
+	defer rows.Close()
 	fds := rows.FieldDescriptions()
 	n := len(fds) - len(tail)
 	var plan *rowPlan
@@ -111,9 +119,9 @@ func collectTail[T any](rows pgx.Rows, each func(*T), tail ...any) ([]T, int64, 
 		plan = planRows(reflect.TypeFor[T](), fds[:n])
 	}
 	if plan == nil {
-		return collectTailByName[T](rows, each, tail)
+		return collectByName(rows, each, tail)
 	}
-	var items []T
+	items := []T{}
 	targets := make([]any, len(fds))
 	copy(targets[n:], tail)
 	for rows.Next() {
@@ -124,7 +132,7 @@ func collectTail[T any](rows pgx.Rows, each func(*T), tail ...any) ([]T, int64, 
 		}
 		if !scanRaw(fds, rows.RawValues(), targets) {
 			if err := rows.Scan(targets...); err != nil {
-				return nil, last, err
+				return nil, err
 			}
 		}
 		if each != nil {
@@ -134,23 +142,18 @@ func collectTail[T any](rows pgx.Rows, each func(*T), tail ...any) ([]T, int64, 
 		positionRows.Add(1)
 	}
 	if err := rows.Err(); err != nil {
-		return nil, last, err
+		return nil, err
 	}
-	if items == nil {
-		items = []T{}
-	}
-	return items, last, nil
+	return items, nil
 }
 
-// collectTailByName is collectTail by pgx's scan by name.
-func collectTailByName[T any](rows pgx.Rows, each func(*T), tail []any) ([]T, int64, error) {
-	last := tail[len(tail)-1].(*int64)
-	items, err := pgx.CollectRows(rows, func(row pgx.CollectableRow) (T, error) {
+// collectByName is collectRows by pgx's scan by name.
+func collectByName[T any](rows pgx.Rows, each func(*T), tail []any) ([]T, error) {
+	return pgx.CollectRows(rows, func(row pgx.CollectableRow) (T, error) {
 		item, err := pgx.RowToStructByName[T](tailRow{row, tail})
 		if err == nil && each != nil {
 			each(&item)
 		}
 		return item, err
 	})
-	return items, *last, err
 }

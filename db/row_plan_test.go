@@ -13,7 +13,7 @@ import (
 
 // TestCollectTailMatchesByName reads every list that scans its rows by
 // position (procedures and PQRs with their sign-offs, sections, production
-// records, sign-offs, calibrations, audit events) once that way and once by
+// records, sign-offs, calibrations, flags, audit events) once that way and once by
 // pgx's own scan by name (pgx.RowToStructByName), over stored rows with and
 // without their optional values (a signed and an unsigned revision, a
 // voided one, sections with and without fillet sizes), and wants the same
@@ -46,7 +46,11 @@ func TestCollectTailMatchesByName(t *testing.T) {
 		}
 	}
 	storeFitCoupons(t, s, site, p.ID, 6)
-	if _, err := s.CreateProductionRecords(ctx, eng, []db.ProductionRecordData{productionRow(p.ID, "J-1", 180), productionRow(p.ID, "J-2", 400)}); err != nil {
+	rp := rangesProcedure(t, s, eng) // its ranges flag J-2's current
+	if _, err := s.DeriveRanges(ctx, eng, rp.ID, "structural-style-gmaw", 0); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := s.CreateProductionRecords(ctx, eng, []db.ProductionRecordData{productionRow(rp.ID, "J-1", 180), productionRow(rp.ID, "J-2", 400)}); err != nil {
 		t.Fatal(err)
 	}
 	if _, err := s.CreateCalibration(ctx, eng, spec(db.CalibrationJacksonFixed)); err != nil {
@@ -78,6 +82,10 @@ func TestCollectTailMatchesByName(t *testing.T) {
 		},
 		"calibrations": func() (any, int, error) {
 			pg, err := s.Calibrations(ctx, site, db.CalibrationFilter{}, "", 0)
+			return pg, len(pg.Items), err
+		},
+		"flags": func() (any, int, error) {
+			pg, err := s.Flags(ctx, site, db.FlagFilter{}, "", 0)
 			return pg, len(pg.Items), err
 		},
 		"audit events": func() (any, int, error) {
