@@ -29,11 +29,11 @@ type rowPlanKey struct {
 
 var rowPlans sync.Map // rowPlanKey → *rowPlan, nil when a column has no field
 
-// scanByName makes collectTail scan every row by name, for the test that
+// scanByName makes collectRows scan every row by name, for the test that
 // compares the two.
 var scanByName atomic.Bool
 
-// positionRows counts the rows collectTail has scanned by position, for the
+// positionRows counts the rows collectRows has scanned by position, for the
 // same test.
 var positionRows atomic.Int64
 
@@ -50,9 +50,9 @@ func planRows(t reflect.Type, fds []pgconn.FieldDescription) *rowPlan {
 	if p, ok := rowPlans.Load(key); ok {
 		return p.(*rowPlan)
 	}
-	fields := map[string][]int{}
+	fields, exact := fieldPaths(t)
 	var p *rowPlan
-	if tagged(t, nil, fields) && len(fields) == len(names) {
+	if exact && len(fields) == len(names) {
 		p = &rowPlan{paths: make([][]int, len(names))}
 		for i, n := range names {
 			path, ok := fields[n]
@@ -65,36 +65,6 @@ func planRows(t reflect.Type, fds []pgconn.FieldDescription) *rowPlan {
 	}
 	rowPlans.Store(key, p)
 	return p
-}
-
-// tagged adds to fields the path of each exported field of struct t by its
-// db tag, embedded structs' fields as their own, skipping fields tagged
-// "-"; it reports false at a field it cannot place so (untagged, an
-// embedded pointer, a tag met twice).
-func tagged(t reflect.Type, at []int, fields map[string][]int) bool {
-	for i := range t.NumField() {
-		f := t.Field(i)
-		path := append(append([]int{}, at...), i)
-		switch {
-		case f.Anonymous && f.Type.Kind() == reflect.Struct:
-			if !tagged(f.Type, path, fields) {
-				return false
-			}
-			continue
-		case !f.IsExported():
-			continue
-		}
-		tag, ok := f.Tag.Lookup("db")
-		tag, _, _ = strings.Cut(tag, ",")
-		if tag == "-" {
-			continue
-		}
-		if _, dup := fields[tag]; !ok || f.Anonymous || dup {
-			return false
-		}
-		fields[tag] = path
-	}
-	return true
 }
 
 // collectTail reads rows into T whose last columns are tail's and then the
