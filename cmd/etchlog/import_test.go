@@ -8,6 +8,7 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+	"time"
 
 	"etchlog/db"
 	"etchlog/db/dbtest"
@@ -35,6 +36,13 @@ func TestImportParts(t *testing.T) {
 			t.Errorf("part %d = %q from row %d (%d rows), want %q from row %d (%d rows)",
 				i, p.body, p.firstRow, p.rows, want[i].body, want[i].firstRow, want[i].rows)
 		}
+	}
+	if got.shared {
+		t.Error("importParts: shared set, but each mark's rows lie in one part")
+	}
+	again, err := importParts([]byte(file+"C-1,C\n"), 1) // C-1's rows in the first part and the last
+	if err != nil || !again.shared {
+		t.Errorf("importParts(C-1 again at the end) = shared %v, %v; want shared", again.shared, err)
 	}
 	one, err := importParts([]byte(file), 1<<20)
 	if err != nil || len(one.list) != 1 || !bytes.Equal(one.list[0].body, []byte(file)) {
@@ -111,4 +119,57 @@ func TestImportCommand(t *testing.T) {
 	if !strings.Contains(out, "0 new with 0 sections, 2 unchanged, 1 refused") {
 		t.Errorf("second commit = %v\n%s\nwant nothing new, 2 unchanged", err, out)
 	}
+}
+
+// TestSendParts: parts are posted at most n unread at a time, each answer
+// is read as its part's, and after a refused part at most n-1 later ones
+// were sent.
+func TestSendParts(t *testing.T) {
+	t.Parallel()
+	parts := make([]importPart, 9)
+	release := make([]chan struct{}, len(parts))
+	for i := range parts {
+		parts[i].firstRow, release[i] = i, make(chan struct{}, 1)
+	}
+	started := make(chan int, len(parts))
+	post := func(p importPart) (importReport, error) {
+		started <- p.firstRow
+		<-release[p.firstRow]
+		if p.firstRow == 4 {
+			return importReport{}, fmt.Errorf("refused")
+		}
+		return importReport{Rows: p.firstRow}, nil
+	}
+	sender := sendParts(2, parts, post)
+	quiet := func(when string) { // no further part starts
+		select {
+		case k := <-started:
+			t.Fatalf("%s: part %d sent", when, k)
+		case <-time.After(50 * time.Millisecond):
+		}
+	}
+	first := map[int]bool{<-started: true, <-started: true}
+	if !first[0] || !first[1] {
+		t.Fatalf("first parts sent: %v, want 0 and 1", first)
+	}
+	quiet("two unread")
+	for i := range 4 {
+		release[i] <- struct{}{}
+		if a := sender.answer(i); a.err != nil || a.rep.Rows != i {
+			t.Fatalf("answer %d = %+v, %v; want rows %d", i, a.rep, a.err, i)
+		}
+		if k := <-started; k != i+2 {
+			t.Fatalf("after answer %d, part %d sent, want %d", i, k, i+2)
+		}
+	}
+	release[4] <- struct{}{}
+	if a := sender.answer(4); a.err == nil {
+		t.Fatal("answer 4: no error, want the refusal")
+	}
+	if sent := sender.stop(); sent != 6 {
+		t.Errorf("%d parts sent by the refusal at part 4, want 6 (part 5 was in flight)", sent)
+	}
+	release[5] <- struct{}{}
+	<-sender.answers[5]
+	quiet("after stop")
 }
