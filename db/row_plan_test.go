@@ -61,37 +61,19 @@ func TestCollectTailMatchesByName(t *testing.T) {
 	}
 	lists := map[string]func() (any, int, error){
 		"procedures": func() (any, int, error) {
-			pg, err := s.Procedures(ctx, site, db.ProcedureFilter{IncludeVoided: true}, "", 0)
-			return pg, len(pg.Items), err
+			return counted(s.Procedures(ctx, site, db.ProcedureFilter{IncludeVoided: true}, "", 0))
 		},
 		"qualification records": func() (any, int, error) {
-			pg, err := s.QualificationRecords(ctx, site, db.QualificationRecordFilter{}, "", 0)
-			return pg, len(pg.Items), err
+			return counted(s.QualificationRecords(ctx, site, db.QualificationRecordFilter{}, "", 0))
 		},
-		"sections": func() (any, int, error) {
-			pg, err := s.Measurements(ctx, site, db.MeasurementFilter{}, "", 0)
-			return pg, len(pg.Items), err
-		},
+		"sections": func() (any, int, error) { return counted(s.Measurements(ctx, site, db.MeasurementFilter{}, "", 0)) },
 		"production records": func() (any, int, error) {
-			pg, err := s.ProductionRecords(ctx, site, db.ProductionRecordFilter{}, "", 0)
-			return pg, len(pg.Items), err
+			return counted(s.ProductionRecords(ctx, site, db.ProductionRecordFilter{}, "", 0))
 		},
-		"sign-offs": func() (any, int, error) {
-			pg, err := s.SignOffs(ctx, site, db.SignOffFilter{}, "", 0)
-			return pg, len(pg.Items), err
-		},
-		"calibrations": func() (any, int, error) {
-			pg, err := s.Calibrations(ctx, site, db.CalibrationFilter{}, "", 0)
-			return pg, len(pg.Items), err
-		},
-		"flags": func() (any, int, error) {
-			pg, err := s.Flags(ctx, site, db.FlagFilter{}, "", 0)
-			return pg, len(pg.Items), err
-		},
-		"audit events": func() (any, int, error) {
-			pg, err := s.AuditEvents(ctx, site, db.AuditFilter{}, "", 0)
-			return pg, len(pg.Items), err
-		},
+		"sign-offs":    func() (any, int, error) { return counted(s.SignOffs(ctx, site, db.SignOffFilter{}, "", 0)) },
+		"calibrations": func() (any, int, error) { return counted(s.Calibrations(ctx, site, db.CalibrationFilter{}, "", 0)) },
+		"flags":        func() (any, int, error) { return counted(s.Flags(ctx, site, db.FlagFilter{}, "", 0)) },
+		"audit events": func() (any, int, error) { return counted(s.AuditEvents(ctx, site, db.AuditFilter{}, "", 0)) },
 	}
 	defer db.ScanByName(false)
 	for name, list := range lists {
@@ -114,3 +96,6 @@ func TestCollectTailMatchesByName(t *testing.T) {
 		}
 	}
 }
+
+// counted is a page with its number of items.
+func counted[T any](p db.Page[T], err error) (any, int, error) { return p, len(p.Items), err }
