@@ -97,4 +97,49 @@ func TestImportInBrowser(t *testing.T) {
 	if err != nil || progress != "4 of 4 rows" {
 		t.Errorf("the progress reads %q (%v), want 4 of 4 rows", progress, err)
 	}
+
+	// New coupons committed in parts, two in flight; then a file whose
+	// coupon LAB-7 has rows in its first part and its last, sent one part
+	// at a time, as it would be one after the other: LAB-7 is created by
+	// the first, and the last, finding it stored with other sections,
+	// refuses its row (a stored coupon is never changed by an import).
+	row := func(mark, section string) string {
+		return proc + "," + mark + ",W-1,2026-11-04,fillet,0.25,1,180,21,5,2F," + section + ",1.5,7,1,accept,QC\n"
+	}
+	head := file[:strings.Index(file, "\n")+1]
+	for _, c := range []struct {
+		name, body, summary string
+		want                map[string]int // sections per mark
+	}{
+		{"new coupons", head + row("LAB-4", "A") + row("LAB-5", "A") + row("LAB-6", "A") + row("LAB-6", "B"),
+			"3 new written with 4 sections", map[string]int{"LAB-4": 1, "LAB-5": 1, "LAB-6": 2}},
+		{"a coupon in two parts", head + row("LAB-7", "A") + row("LAB-8", "A") + row("LAB-7", "B"),
+			"2 new written with 2 sections, 0 already stored unchanged, 1 refused", map[string]int{"LAB-7": 1, "LAB-8": 1}},
+	} {
+		p := filepath.Join(t.TempDir(), "more.csv")
+		if err := os.WriteFile(p, []byte(c.body), 0o600); err != nil {
+			t.Fatal(err)
+		}
+		if err := chromedp.Do(ctx, chromedp.Navigate(e.url+"/lab/import"), chromedp.WaitVisible(chromedp.ID("import-file")),
+			chromedp.SetAttributeValue(chromedp.ID("import-form"), "data-limit", "1"),
+			chromedp.SetAttributeValue(chromedp.ID("import-form"), "data-part-size", "1"),
+			chromedp.SetUploadFiles(chromedp.ID("import-file"), []string{p}), chromedp.Click(chromedp.ID("check")),
+			chromedp.WaitVisible(chromedp.ID("commit")), chromedp.Click(chromedp.ID("commit")),
+			chromedp.WaitVisible(chromedp.CSS(`#report[data-mode="commit"]`))); err != nil {
+			t.Fatalf("%s: import in parts: %v", c.name, err)
+		}
+		contains(t, c.name+": the import's summary", summary(), c.summary)
+		for mark, n := range c.want {
+			got := e.call(http.MethodGet, "/v1/coupons?coupon_mark="+mark, "auditor", nil, http.StatusOK)["items"].([]any)
+			if len(got) != 1 {
+				t.Errorf("%s: %d coupons marked %s, want 1", c.name, len(got), mark)
+				continue
+			}
+			id := got[0].(map[string]any)["id"].(string)
+			secs := e.call(http.MethodGet, "/v1/measurements?coupon_id="+id, "auditor", nil, http.StatusOK)["items"].([]any)
+			if len(secs) != n {
+				t.Errorf("%s: %s has %d sections, want %d", c.name, mark, len(secs), n)
+			}
+		}
+	}
 }

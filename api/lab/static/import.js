@@ -1,7 +1,7 @@
 // etchlog lab import: a file up to one request's limit is sent by the form
 // and the server draws the report. A larger one is cut here into parts
 // between coupons (each with the header row and the file row it starts on),
-// sent one by one with a progress bar, and the reports are added up. Each
+// sent two at a time with a progress bar, and the reports are added up. Each
 // part is its own transaction on a commit, as with "etchlog import coupons".
 (function () {
   "use strict";
@@ -46,7 +46,7 @@
     var head = text.slice(0, recs[0].end);
     if (!/\n$/.test(head)) { head += "\n"; }
     var mark = recs[0].fields.indexOf("coupon_mark");
-    var list = [], start = 1, prev = null;
+    var list = [], start = 1, prev = null, partOf = {}, shared = false;
     for (var k = 1; k < recs.length; k++) {
       var m = mark >= 0 ? recs[k].fields[mark] : prev;
       var size = recs[k].end - recs[start].start + head.length;
@@ -55,9 +55,12 @@
         start = k;
       }
       prev = m;
+      // shared: a coupon's rows lie in two parts.
+      if (Object.prototype.hasOwnProperty.call(partOf, m) && partOf[m] !== list.length) { shared = true; }
+      partOf[m] = list.length;
     }
     list.push({ body: head + text.slice(recs[start].start), firstRow: start + 1, rows: recs.length - start });
-    return { list: list, rows: recs.length - 1 };
+    return { list: list, rows: recs.length - 1, shared: shared };
   }
 
   var bar = document.getElementById("import-bar");
@@ -102,40 +105,72 @@
     live.appendChild(sec);
   }
 
-  // run sends every part in mode, one after another, drawing the progress.
+  // run sends the parts in mode, two in flight as "etchlog import coupons"
+  // sends them (one at a time when a coupon's rows lie in two parts), reads
+  // the answers in file order and draws the progress. After a refused part
+  // no other is sent; the one already in flight is said to be stored when
+  // it was.
   function run(file, mode) {
     var old = document.getElementById("report");
     if (old) { old.remove(); }
     file.text().then(function (text) {
-      var p = parts(text), done = 0, i = 0;
+      var p = parts(text), done = 0, sent = 0, read = 0, answers = [];
+      var inFlight = p.shared ? 1 : 2;
       var rep = { rows: 0, coupons: 0, new_coupons: 0, new_sections: 0, unchanged_coupons: 0, refused_coupons: 0, errors: [] };
       barBox.hidden = false;
       barLabel.textContent = mode === "commit" ? "Importing" : "Checking";
       bar.max = Math.max(p.rows, 1); bar.value = 0;
       count.textContent = "0 of " + p.rows + " rows";
       var token = form.elements.form_token.value;
-      function next() {
-        if (i === p.list.length) { show(mode, rep, file); return; }
-        var part = p.list[i++];
-        fetch("/lab/import/part?mode=" + mode + "&first_row=" + part.firstRow, {
+      function post(part) {
+        return fetch("/lab/import/part?mode=" + mode + "&first_row=" + part.firstRow, {
           method: "POST", credentials: "same-origin",
           headers: { "Content-Type": "text/csv", "X-Form-Token": token }, body: part.body
         }).then(function (res) {
           return res.json().then(function (body) {
             if (!res.ok) { throw new Error((body.Title || body.title || res.statusText) + (body.Detail ? ": " + body.Detail : "")); }
-            ["rows", "coupons", "new_coupons", "new_sections", "unchanged_coupons", "refused_coupons"].forEach(function (k) { rep[k] += body[k]; });
-            rep.errors = rep.errors.concat(body.errors);
-            done += part.rows; bar.value = done;
-            count.textContent = done + " of " + p.rows + " rows";
-            next();
+            return body;
           });
-        }).catch(function (err) {
-          live.textContent = "";
-          var msg = el("p", "Stopped at the part starting on row " + part.firstRow + ": " + err.message +
-            (mode === "commit" ? ". The parts before it are stored; importing the file again writes only what is missing." : "."));
-          msg.className = "problem"; msg.setAttribute("role", "alert"); live.appendChild(msg);
         });
       }
+      function send() {
+        while (sent < p.list.length && sent - read < inFlight) {
+          answers[sent] = post(p.list[sent]);
+          answers[sent].catch(function () {}); // read in file order by next
+          sent++;
+        }
+      }
+      function add(body) {
+        ["rows", "coupons", "new_coupons", "new_sections", "unchanged_coupons", "refused_coupons"].forEach(function (k) { rep[k] += body[k]; });
+        rep.errors = rep.errors.concat(body.errors);
+      }
+      function next() {
+        if (read === p.list.length) { show(mode, rep, file); return; }
+        var part = p.list[read];
+        answers[read].then(function (body) {
+          add(body);
+          done += part.rows; bar.value = done;
+          count.textContent = done + " of " + p.rows + " rows";
+          read++;
+          send();
+          next();
+        }, function (err) {
+          var later = p.list.slice(read + 1, sent);
+          Promise.all(answers.slice(read + 1, sent).map(function (a) {
+            return a.then(function () { return true; }, function () { return false; });
+          })).then(function (ok) {
+            var went = later.filter(function (q, j) { return ok[j]; }).map(function (q) {
+              return "rows " + q.firstRow + "–" + (q.firstRow + q.rows - 1);
+            });
+            live.textContent = "";
+            var msg = el("p", "Stopped at the part starting on row " + part.firstRow + ": " + err.message +
+              (mode === "commit" ? ". The parts before it are stored" + (went.length ? ", and so is the part already sent after it (" + went.join(", ") + ")" : "") +
+                "; importing the file again writes only what is missing." : "."));
+            msg.className = "problem"; msg.setAttribute("role", "alert"); live.appendChild(msg);
+          });
+        });
+      }
+      send();
       next();
     });
   }
