@@ -80,6 +80,16 @@ func TestImportLeavesVerify(t *testing.T) {
 	if rep := offlineVerify(t, s, site, cp.Note); !rep.OK {
 		t.Fatalf("offline verify after the import: %q", rep.Problems)
 	}
+	// The coupons list's key holds the imported coupons as derived: the
+	// sequencer wrote new coupons straight from their revisions, and those
+	// whose sections it logged in the same pass through the derivation.
+	if diffs, err := s.RecheckCouponList(ctx, site); err != nil || len(diffs) > 0 {
+		t.Fatalf("coupon_list after the import: %q (err %v), want its derivation", diffs, err)
+	}
+	accepted, err := s.Coupons(ctx, site, db.CouponFilter{Acceptance: "accept"}, "", 0)
+	if err != nil || len(accepted.Items) != 2 {
+		t.Errorf("coupons with accepted sections after the import: %d (err %v), want IMP-FULL and IMP-PQR", len(accepted.Items), err)
+	}
 
 	// An imported section edited afterwards no longer matches its leaf.
 	conn := superuser(t)
