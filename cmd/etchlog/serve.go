@@ -42,6 +42,10 @@ func cmdServe(ctx context.Context, args []string, getenv func(string) string, st
 
 // serve runs the HTTP server until ctx ends, then drains it for up to 10 s.
 // ready is called with the base URL once the listener is open.
+// statisticsEvery is how often serve looks for stale table statistics
+// when the server's autovacuum is off: autovacuum's own default naptime.
+const statisticsEvery = time.Minute
+
 func serve(ctx context.Context, c config, store *db.Store, log *slog.Logger, ready func(base string)) error {
 	srv, err := api.New(store, api.Options{Logger: log, BodyLimit: c.BodyLimit, PerUser: c.PerUser})
 	if err != nil {
@@ -58,7 +62,14 @@ func serve(ctx context.Context, c config, store *db.Store, log *slog.Logger, rea
 	ready("http://" + ln.Addr().String())
 	log.Info("listening", "addr", ln.Addr().String())
 	if kept, err := store.StatisticsKept(ctx); err == nil && !kept {
-		log.Warn("the database server's autovacuum is off: table statistics are never refreshed, so as a site grows some list pages read far more rows than they need; run vacuumdb --analyze-only as the database owner after large imports and regularly, or turn autovacuum on")
+		log.Warn("the database server's autovacuum is off: etchlog analyses its own tables every minute when they have changed by more than autovacuum's default threshold; turn autovacuum on to leave it to the server")
+		go store.KeepStatistics(ctx, statisticsEvery, func(tables []string, took time.Duration, err error) {
+			if err != nil {
+				log.Warn("refreshing table statistics", "err", err, "analysed", tables)
+				return
+			}
+			log.Info("table statistics refreshed", "tables", tables, "took", took.Round(time.Millisecond).String())
+		})
 	}
 	select {
 	case err := <-errc:

@@ -1,0 +1,1 @@
+DROP FUNCTION IF EXISTS etchlog_analyze(regclass);
