@@ -98,20 +98,6 @@ func (l *leafRows) ofKind(kind string, size uint64) (ids [][16]byte, at []int64)
 	return ids, at
 }
 
-// queueKeyRewrite adds to the sequencer's batch of writes the rewrite of
-// the rows of a list key table (one row per record, its latest logged
-// revision) for the records of kind entity among the pass's leaves (out):
-// their rows deleted, each found by its key, then written by refresh ($1
-// site, $2 ids); none, no statement.
-func queueKeyRewrite(b *pgx.Batch, site string, out *leafRows, entity, table, refresh string) {
-	ids, _ := out.ofKind(entity, 0)
-	if len(ids) == 0 {
-		return
-	}
-	b.Queue(keyDelete(table), site, ids)
-	b.Queue(refresh, site, ids)
-}
-
 // keyRefresh is the statement that writes the rows of list key table
 // (columns named) for the records $2 at site $1 from the view
 // <table>_derived: each record read by its key through a lateral subquery
