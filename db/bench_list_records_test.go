@@ -3,12 +3,14 @@ package db_test
 import (
 	"context"
 	"fmt"
+	"os"
 	"strconv"
 	"testing"
 	"time"
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgxpool"
 
 	"etchlog/db"
 	"etchlog/db/dbtest"
@@ -32,7 +34,7 @@ func BenchmarkRecordListScale(b *testing.B) {
 	dbURL, conn, proc := benchSite(b, n)
 	const site = "bench"
 	seedSectionsAndFlags(ctx, b, conn, n)
-	s, _ := tracedStore(b, dbURL)
+	s, tracer := tracedStore(b, dbURL)
 	var sectionCols string
 	if err := s.Pool().QueryRow(ctx, `SELECT string_agg(column_name, ', ' ORDER BY ordinal_position)
 		FROM information_schema.columns WHERE table_name = 'measurements'`).Scan(&sectionCols); err != nil {
@@ -123,7 +125,7 @@ func BenchmarkRecordListScale(b *testing.B) {
 			}
 			return nil
 		}
-		sideBySide(b, c.name, store, raw)
+		sideBySide(b, c.name, store, raw, listProfile{s, tracer, rawPool, c.raw, append([]any{site}, c.args...)})
 	}
 }
 
@@ -139,28 +141,96 @@ type recordListCase struct {
 
 // sideBySide runs one list case against its raw page at 1 client (calls
 // alternating: p95 of each, x-of-raw the raw time over the Store's) and at 8
-// clients (pages/s of each, x-of-raw their ratio).
-func sideBySide(b *testing.B, name string, store, raw func() error) {
+// clients (pages/s of each, x-of-raw their ratio; the sides take turns in
+// rounds of listRound pages, so that a change of the machine's load falls
+// on both), each after both sides' connections are warmed alike
+// (dbtest.Warm).
+// With ETCHLOG_BENCH_EXPLAIN set, the 1-client run also reports each side's
+// plan profile (profile.report).
+func sideBySide(b *testing.B, name string, store, raw func() error, profile listProfile) {
+	warm := func(b *testing.B, clients int) {
+		if err := dbtest.Warm(clients, store, raw); err != nil {
+			b.Fatal(err)
+		}
+		b.ResetTimer()
+	}
 	b.Run(name+"/clients=1", func(b *testing.B) {
+		warm(b, 1)
+		if os.Getenv("ETCHLOG_BENCH_EXPLAIN") != "" {
+			profile.report(b, store)
+		}
 		ts, tr := alternate(b, store, raw)
 		b.ReportMetric(p95(ts), "store-p95-ms")
 		b.ReportMetric(p95(tr), "raw-p95-ms")
 		b.ReportMetric(float64(sum(tr))/float64(sum(ts)), "x-of-raw")
 	})
 	b.Run(name+"/clients=8", func(b *testing.B) {
-		ds, err := dbtest.Clients(8, b.N, store)
-		if err != nil {
-			b.Fatal(err)
-		}
-		dr, err := dbtest.Clients(8, b.N, raw)
-		if err != nil {
-			b.Fatal(err)
+		warm(b, 8)
+		var ds, dr time.Duration
+		for done := 0; done < b.N; done += listRound {
+			k := min(listRound, b.N-done)
+			ds += dbtest.TimeClients(b, 8, k, store)
+			dr += dbtest.TimeClients(b, 8, k, raw)
 		}
 		b.ReportMetric(float64(b.N)/ds.Seconds(), "store-pages/s")
 		b.ReportMetric(float64(b.N)/dr.Seconds(), "raw-pages/s")
 		b.ReportMetric(dr.Seconds()/ds.Seconds(), "x-of-raw")
 	})
 }
+
+// listProfile is what a list case's plans are profiled from: the Store and
+// the tracer of its statements, and the raw page's pool, statement and
+// arguments.
+type listProfile struct {
+	s      *db.Store
+	tr     *listTracer
+	raw    *pgxpool.Pool
+	rawSQL string
+	args   []any
+}
+
+// report reads one page through store, then runs EXPLAIN (ANALYZE,
+// BUFFERS) on the statement it sent (with the generic plan, the one a warm
+// connection runs when PostgreSQL has chosen it, and with the plan made for
+// its arguments) and on the raw page's, and reports the buffers each read
+// (shared hits and reads) and each plan's execution time: where a page's
+// database time goes, beside the raw page's.
+func (p listProfile) report(b *testing.B, store func() error) {
+	ctx := context.Background()
+	p.tr.take()
+	if err := store(); err != nil {
+		b.Fatal(err)
+	}
+	sql, args := p.tr.take()
+	if sql == "" {
+		b.Fatal("no list statement seen")
+	}
+	cost := func(pool *pgxpool.Pool, sql string, args []any, generic bool) (buffers, ms float64) {
+		root, err := explainListWith(ctx, pool, "ANALYZE, BUFFERS, FORMAT JSON", sql, args, generic)
+		if err != nil {
+			b.Fatalf("explain: %v\n%s", err, sql)
+		}
+		hit, _ := root["Shared Hit Blocks"].(float64)
+		read, _ := root["Shared Read Blocks"].(float64)
+		total, _ := root["Actual Total Time"].(float64)
+		return hit + read, total
+	}
+	for _, side := range []struct {
+		name    string
+		pool    *pgxpool.Pool
+		sql     string
+		args    []any
+		generic bool
+	}{{"store-generic", p.s.Pool(), sql, args, true}, {"store-custom", p.s.Pool(), sql, args, false}, {"raw", p.raw, p.rawSQL, p.args, false}} {
+		buffers, ms := cost(side.pool, side.sql, side.args, side.generic)
+		b.ReportMetric(buffers, side.name+"-buffers")
+		b.ReportMetric(ms, side.name+"-exec-ms")
+	}
+}
+
+// listRound is how many pages one side reads at 8 clients before the
+// other side's turn.
+const listRound = 250
 
 // alternate calls store and raw one after the other b.N times, so that a
 // change of the machine's load falls on both, and returns each call's time.

@@ -22,8 +22,10 @@ import (
 //   - clients=1: Store and raw calls alternate; it reports each one's p95
 //     latency and x-of-raw, the raw time over the Store time;
 //   - clients=8: eight goroutines call the Store, then eight the raw
-//     SELECT, b.N calls in all each; x-of-raw is the Store's throughput
-//     over the raw SELECT's.
+//     SELECT, in turns of listRound calls, b.N calls in all each; x-of-raw
+//     is the Store's throughput over the raw SELECT's.
+//
+// Both sides' connections are warmed alike before each (dbtest.Warm).
 func BenchmarkCouponListScale(b *testing.B) {
 	n := envInt(b, "ETCHLOG_BENCH_LIST_COUPONS", 100000)
 	ctx := context.Background()
@@ -33,7 +35,7 @@ func BenchmarkCouponListScale(b *testing.B) {
 		b.Fatal(err)
 	}
 	rawListIndexes(ctx, b, conn)
-	s, _ := tracedStore(b, dbURL)
+	s, tracer := tracedStore(b, dbURL)
 	var cols string
 	if err := s.Pool().QueryRow(ctx, `SELECT string_agg(column_name, ', ' ORDER BY ordinal_position)
 		FROM information_schema.columns WHERE table_name = 'coupons'`).Scan(&cols); err != nil {
@@ -83,7 +85,8 @@ func BenchmarkCouponListScale(b *testing.B) {
 			}
 			return err
 		}
-		sideBySide(b, c.name, store, raw)
+		sideBySide(b, c.name, store, raw, listProfile{s, tracer, rawPool,
+			"SELECT " + cols + " FROM coupons WHERE site = $1 AND " + c.raw + " LIMIT 50", append([]any{site}, c.args...)})
 	}
 }
 

@@ -13,6 +13,7 @@ import (
 
 	"github.com/google/uuid"
 	"github.com/jackc/pgx/v5"
+	"github.com/jackc/pgx/v5/pgxpool"
 
 	"etchlog/db"
 	"etchlog/db/dbtest"
@@ -157,21 +158,21 @@ func TestListPlansUseIndexes(t *testing.T) {
 // five executions have not found it dearer (the service's pool prepares
 // each statement once per connection). Both must stay off sequential scans.
 func explainList(ctx context.Context, s *db.Store, sql string, args []any, generic bool) (map[string]any, error) {
-	return explainListWith(ctx, s, "FORMAT JSON", sql, args, generic)
+	return explainListWith(ctx, s.Pool(), "FORMAT JSON", sql, args, generic)
 }
 
 // explainListWith is explainList with EXPLAIN's options (with ANALYZE the
-// statement runs, and the plan counts the rows each node read).
-func explainListWith(ctx context.Context, s *db.Store, options, sql string, args []any, generic bool) (map[string]any, error) {
+// statement runs, and the plan counts the rows each node read), through pool.
+func explainListWith(ctx context.Context, pool *pgxpool.Pool, options, sql string, args []any, generic bool) (map[string]any, error) {
 	var plan []map[string]any
 	if !generic {
-		if err := s.Pool().QueryRow(ctx, "EXPLAIN ("+options+") "+sql, args...).Scan(&plan); err != nil {
+		if err := pool.QueryRow(ctx, "EXPLAIN ("+options+") "+sql, args...).Scan(&plan); err != nil {
 			return nil, err
 		}
 		root, _ := plan[0]["Plan"].(map[string]any)
 		return root, nil
 	}
-	conn, err := s.Pool().Acquire(ctx)
+	conn, err := pool.Acquire(ctx)
 	if err != nil {
 		return nil, err
 	}

@@ -72,7 +72,7 @@ func youngListPlans(t *testing.T, other bool) {
 				if generic {
 					name += " (generic plan)"
 				}
-				root, err := explainListWith(ctx, s, "ANALYZE, FORMAT JSON", sql, args, generic)
+				root, err := explainListWith(ctx, s.Pool(), "ANALYZE, FORMAT JSON", sql, args, generic)
 				if err != nil {
 					t.Fatalf("%s: explain: %v", name, err)
 				}
