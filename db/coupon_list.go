@@ -93,6 +93,10 @@ var verdicts = []string{"", "accept", "reject"}
 // in log order on its own, up to a page each, and the heads are merged: at
 // most (days + months × verdicts) × limit index entries, none outside the
 // range, whatever the page depth.
+// couponKinds are the leaves the coupons list's rows are made from: a
+// coupon's revisions, and its sections (its verdict).
+var couponKinds = listKinds{own: coupons.entity, also: []string{measurements.entity}}
+
 func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, cursor string, limit int) (Page[Coupon], error) {
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
@@ -114,7 +118,7 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 	// reflection, cost half the page's scan. Each row is decoded from its
 	// raw values where scanRaw takes them all, else scanned by pgx.
 	var page []listedCoupon
-	err = s.readPageWith(ctx, site, sql, args, func(rows pgx.Rows) error {
+	err = s.readPageWith(ctx, site, couponKinds, limit, sql, args, func(rows pgx.Rows) (int, error) {
 		defer rows.Close()
 		page = make([]listedCoupon, 0, limit)
 		var c listedCoupon
@@ -123,13 +127,13 @@ func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, c
 		for rows.Next() {
 			if !scanRaw(fds, rows.RawValues(), targets) {
 				if err := rows.Scan(targets...); err != nil {
-					return err
+					return 0, err
 				}
 			}
 			page = append(page, c)
 			c = listedCoupon{} // the targets still point into c
 		}
-		return rows.Err()
+		return len(page), rows.Err()
 	}, walksDays(cf))
 	if err != nil {
 		return Page[Coupon]{}, fmt.Errorf("db: list coupon: %w", mapError(err))

@@ -82,6 +82,8 @@ type Store struct {
 	months sync.Map
 	// judged keeps what new coupons of a procedure are judged by (judged.go).
 	judged judgedCache
+	// pageWaits counts the list pages that waited for the sequencer (readPage).
+	pageWaits atomic.Int64
 }
 
 // LongReadConns is how many connections long reads (export, audit verify)

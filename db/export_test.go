@@ -125,3 +125,6 @@ func ScanByName(on bool) { scanByName.Store(on) }
 
 // PositionRows is how many rows the lists have scanned by position.
 func PositionRows() int64 { return positionRows.Load() }
+
+// PageWaits is how many list pages of s waited for the sequencer.
+func (s *Store) PageWaits() int64 { return s.pageWaits.Load() }

@@ -35,14 +35,15 @@ func logPage[T any](list, what, cursor string, limit int, read func(from int64, 
 	return Page[T]{Items: items, Next: nextLogCursor(list, from, last, len(items))}, nil
 }
 
-// readIndexed reads one page with readPage, each row's last column its log
-// index, and returns the items and the last one's index.
-func readIndexed[T any](ctx context.Context, s *Store, site, sql string, args []any) ([]T, int64, error) {
+// readIndexed reads one page of up to limit rows of a list of kinds with
+// readPage, each row's last column its log index, and returns the items and
+// the last one's index.
+func readIndexed[T any](ctx context.Context, s *Store, site string, kinds listKinds, limit int, sql string, args []any) ([]T, int64, error) {
 	var items []T
 	var last int64
-	err := s.readPage(ctx, site, sql, args, func(rows pgx.Rows) (err error) {
+	err := s.readPage(ctx, site, kinds, limit, sql, args, func(rows pgx.Rows) (n int, err error) {
 		items, last, err = collectIndexed[T](rows)
-		return err
+		return len(items), err
 	})
 	return items, last, err
 }

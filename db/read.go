@@ -186,15 +186,39 @@ func (f *filter) add(cond string, vals ...any) {
 // first page measured 140 ms at 10,000 records instead of 1-3 ms).
 func pageLimit(limit int) string { return " LIMIT " + strconv.Itoa(limit) }
 
-// readPage reads one page of a list with read, showing every write
-// acknowledged before it was asked for: the site's newest pending leaf is
-// read in the same round trip as the page, and only when the site had one
-// does the list wait for the sequencer and read the page again. A request
-// let in on a kept lookup of its token (WithUserCheck) confirms its user
-// first in the same round trip, so a page read for a user who no longer
+// listKinds are the leaf kinds a list's rows are made from: own, the
+// list's records, and also, kinds whose leaves rewrite rows already listed
+// (a section its coupon's verdict, a sign-off its record's).
+type listKinds struct {
+	own  string
+	also []string
+}
+
+// all is every kind of k.
+func (k listKinds) all() []string { return append([]string{k.own}, k.also...) }
+
+// pageWait reads, in a page's round trip, the site's newest pending leaf
+// ($1; NULL: none) and whether some pending leaf could change a row already
+// listed: a leaf of one of the list's kinds ($2) that is not the first
+// revision of a record of its own kind ($3). A first revision is given an
+// index after every logged one, so its row comes after every listed row.
+const pageWait = `SELECT max(seq), coalesce(bool_or(kind = ANY($2::text[]) AND (kind <> $3 OR revision <> 1)), false)
+	FROM log_pending WHERE site = $1`
+
+// readPage reads one page of a list of kinds with read (which answers how
+// many rows it read), showing every write acknowledged before it was asked
+// for. The site's pending leaves are looked at in the same round trip as the
+// page, and the list waits for the sequencer and reads the page again only
+// when one of them could show on it: when the page is shorter than limit
+// (its end is the end of what is logged, where new records will show), or
+// when a pending leaf could change a row already listed (a correction, a
+// void, a section of a coupon, a sign-off). A full page under pending first
+// revisions alone is answered at once: they will be listed after it. A
+// request let in on a kept lookup of its token (WithUserCheck) confirms its
+// user first in the same round trip, so a page read for a user who no longer
 // holds the token is never answered: ErrUserChanged instead.
-func (s *Store) readPage(ctx context.Context, site, sql string, args []any, read func(pgx.Rows) error) error {
-	return s.readPageWith(ctx, site, sql, args, read, false)
+func (s *Store) readPage(ctx context.Context, site string, kinds listKinds, limit int, sql string, args []any, read func(pgx.Rows) (int, error)) error {
+	return s.readPageWith(ctx, site, kinds, limit, sql, args, read, false)
 }
 
 // readPageWith is readPage; generic reads the page with the statement's
@@ -206,7 +230,7 @@ func (s *Store) readPage(ctx context.Context, site, sql string, args []any, read
 // SELECT at 1 client with custom plans and 0.45-0.53x with the generic one
 // (BenchmarkCouponListScale, the service's login set to force_generic_plan;
 // other lists gained nothing or lost, so the setting is this statement's).
-func (s *Store) readPageWith(ctx context.Context, site, sql string, args []any, read func(pgx.Rows) error, generic bool) error {
+func (s *Store) readPageWith(ctx context.Context, site string, kinds listKinds, limit int, sql string, args []any, read func(pgx.Rows) (int, error), generic bool) error {
 	b := &pgx.Batch{}
 	if generic {
 		b.Queue("BEGIN READ ONLY")
@@ -216,16 +240,22 @@ func (s *Store) readPageWith(ctx context.Context, site, sql string, args []any, 
 		b.Queue(userByTokenSQL, c.digest).Query(c.confirmLookup)
 	}
 	var pending *int64
-	b.Queue(lastPending, site).QueryRow(func(r pgx.Row) error { return r.Scan(&pending) })
-	b.Queue(sql, args...).Query(read)
+	var changes bool
+	b.Queue(pageWait, site, kinds.all(), kinds.own).QueryRow(func(r pgx.Row) error { return r.Scan(&pending, &changes) })
+	var n int
+	b.Queue(sql, args...).Query(func(rows pgx.Rows) (err error) {
+		n, err = read(rows)
+		return err
+	})
 	if generic {
 		b.Queue("COMMIT")
 	}
 	err := s.pool.SendBatch(ctx, b).Close()
-	if err == nil && pending != nil {
+	if err == nil && pending != nil && (n < limit || changes) {
+		s.pageWaits.Add(1)
 		s.awaitSequenced(ctx, site, *pending)
 		rows, _ := s.pool.Query(ctx, sql, args...)
-		err = read(rows)
+		_, err = read(rows)
 	}
 	return err
 }

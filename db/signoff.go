@@ -262,7 +262,7 @@ const signedColumns = "sign_off_id, sign_off_statement, sign_off_hash, sign_off_
 func readSigned[T any, P interface {
 	*T
 	signable
-}](ctx context.Context, s *Store, site, sql string, args []any) ([]T, int64, error) {
+}](ctx context.Context, s *Store, site string, kinds listKinds, limit int, sql string, args []any) ([]T, int64, error) {
 	var (
 		id                      *uuid.UUID
 		statement, of, by, role *string
@@ -280,9 +280,9 @@ func readSigned[T any, P interface {
 	}
 	var items []T
 	var last int64
-	err := s.readPage(ctx, site, sql, args, func(rows pgx.Rows) (err error) {
+	err := s.readPage(ctx, site, kinds, limit, sql, args, func(rows pgx.Rows) (n int, err error) {
 		items, last, err = collectTail[T](rows, signed, &id, &statement, &hash, &of, &by, &role, &at)
-		return err
+		return len(items), err
 	})
 	return items, last, err
 }
