@@ -45,7 +45,10 @@ func TestPageWaitsOnlyWhenPendingCanShow(t *testing.T) {
 		t.Helper()
 		seqCtx, stopSequencer := context.WithCancel(ctx)
 		stopped := make(chan struct{})
-		go func() { defer close(stopped); _ = s.RunSequencer(seqCtx, db.SequencerOptions{Retry: 100 * time.Millisecond}) }()
+		go func() {
+			defer close(stopped)
+			_ = s.RunSequencer(seqCtx, db.SequencerOptions{Retry: 100 * time.Millisecond})
+		}()
 		mustLogged(t, s, site)
 		stopSequencer()
 		<-stopped
