@@ -53,24 +53,14 @@ func freshEnvWith(t *testing.T, opt api.Options, hs func(*http.Server)) (*testEn
 	t.Helper()
 	url, name, admin := dbtest.Fresh(t)
 	ctx := context.Background()
-	appURL, err := db.AppURL(url)
-	if err != nil {
-		t.Fatal(err)
-	}
-	store, err := db.Open(ctx, appURL, 0)
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(store.Close)
+	store := dbtest.OpenApp(t, url)
 	owner, err := db.OpenOwner(ctx, url)
 	if err != nil {
 		t.Fatal(err)
 	}
 	t.Cleanup(owner.Close)
-	for _, s := range []*db.Store{store, owner} {
-		if err := s.SetLogKey(dbtest.PrivateKey); err != nil {
-			t.Fatal(err)
-		}
+	if err := owner.SetLogKey(dbtest.PrivateKey); err != nil {
+		t.Fatal(err)
 	}
 	seqCtx, stopSeq := context.WithCancel(context.Background())
 	go store.RunSequencer(seqCtx, db.SequencerOptions{Retry: 100 * time.Millisecond}) //nolint:errcheck // ends with the test

@@ -9,6 +9,7 @@ import (
 	"testing"
 
 	"etchlog/db"
+	"etchlog/db/dbtest"
 )
 
 // BenchmarkExport streams a whole site through Store.ExportTo (every coupon
@@ -26,15 +27,7 @@ func BenchmarkExport(b *testing.B) {
 	ctx := context.Background()
 	dbURL, conn, _ := benchSite(b, n)
 	const site = "bench"
-	appURL, err := db.AppURL(dbURL)
-	if err != nil {
-		b.Fatal(err)
-	}
-	s, err := db.Open(ctx, appURL, 0)
-	if err != nil {
-		b.Fatal(err)
-	}
-	defer s.Close()
+	s := dbtest.OpenApp(b, dbURL)
 	var peak uint64
 	sample := []metrics.Sample{{Name: "/memory/classes/heap/objects:bytes"}}
 	store := func() error {

@@ -49,18 +49,7 @@ func benchGroupSize(b *testing.B) int {
 func seedFitGroup(b *testing.B, n int) fitBench {
 	ctx := context.Background()
 	dbURL, conn := dbtest.FreshConn(b)
-	appURL, err := db.AppURL(dbURL)
-	if err != nil {
-		b.Fatal(err)
-	}
-	s, err := db.Open(ctx, appURL, 0)
-	if err != nil {
-		b.Fatal(err)
-	}
-	b.Cleanup(s.Close)
-	if err := s.SetLogKey(dbtest.PrivateKey); err != nil {
-		b.Fatal(err)
-	}
+	s := dbtest.OpenApp(b, dbURL)
 	const site = "bench-fit"
 	p, err := s.CreateProcedure(ctx, actor(site), procedureData("WPS-FIT"))
 	if err != nil {

@@ -129,21 +129,11 @@ func writeBenchSite(b *testing.B) (*db.Store, string) {
 	if _, err := conn.Exec(ctx, `ANALYZE current_marks`); err != nil {
 		b.Fatal(err)
 	}
-	appURL, err := db.AppURL(dbURL)
-	if err != nil {
-		b.Fatal(err)
-	}
-	s, err := db.Open(ctx, appURL, 0)
-	if err != nil {
-		b.Fatal(err)
-	}
-	if err := s.SetLogKey(dbtest.PrivateKey); err != nil {
-		b.Fatal(err)
-	}
+	s := dbtest.OpenApp(b, dbURL)
 	seqCtx, stopSeq := context.WithCancel(ctx)
 	done := make(chan struct{})
 	go func() { defer close(done); _ = s.RunSequencer(seqCtx, db.SequencerOptions{}) }()
-	b.Cleanup(func() { stopSeq(); <-done; s.Close() })
+	b.Cleanup(func() { stopSeq(); <-done })
 	b.Logf("seeded %d coupons in %v", n, time.Since(start).Round(time.Second))
 	return s, site
 }

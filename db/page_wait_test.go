@@ -26,18 +26,7 @@ func TestPageWaitsOnlyWhenPendingCanShow(t *testing.T) {
 	t.Parallel()
 	ctx := context.Background()
 	dbURL, _, _ := dbtest.Fresh(t)
-	appURL, err := db.AppURL(dbURL)
-	if err != nil {
-		t.Fatal(err)
-	}
-	s, err := db.Open(ctx, appURL, 0)
-	if err != nil {
-		t.Fatal(err)
-	}
-	t.Cleanup(s.Close)
-	if err := s.SetLogKey(dbtest.PrivateKey); err != nil {
-		t.Fatal(err)
-	}
+	s := dbtest.OpenApp(t, dbURL)
 	site := dbtest.Site(t)
 	// logNow runs the sequencer until every write of the site is logged,
 	// then stops it.

@@ -63,3 +63,24 @@ func FreshConn(tb testing.TB) (dbURL string, conn *pgx.Conn) {
 	tb.Cleanup(func() { conn.Close(context.Background()) })
 	return dbURL, conn
 }
+
+// OpenApp opens the service's store (login db.AppRole) on the database at
+// dbURL (a superuser's URL, such as Fresh's), signing the log with
+// PrivateKey, and closes it when tb ends. No sequencer runs for it unless
+// the caller starts one.
+func OpenApp(tb testing.TB, dbURL string) *db.Store {
+	tb.Helper()
+	appURL, err := db.AppURL(dbURL)
+	if err != nil {
+		tb.Fatalf("dbtest: %v", err)
+	}
+	s, err := db.Open(context.Background(), appURL, 0)
+	if err != nil {
+		tb.Fatalf("dbtest: open the service's store: %v", err)
+	}
+	tb.Cleanup(s.Close)
+	if err := s.SetLogKey(PrivateKey); err != nil {
+		tb.Fatalf("dbtest: %v", err)
+	}
+	return s
+}
