@@ -47,9 +47,21 @@ func TestNextCouponsAndDriftInBrowser(t *testing.T) {
 	}
 	ctx := browser(t, 1280)
 	e.signIn(t, ctx, "engineer")
-	if err := chromedp.Do(ctx, chromedp.Navigate(e.url+"/lab/procedures/"+shop.proc),
-		chromedp.WaitVisible(chromedp.ID("next-coupons-link")), chromedp.Click(chromedp.ID("next-coupons-link")),
-		chromedp.WaitVisible(chromedp.ID("proposals"))); err != nil {
+	// The procedure page links to the group's next-coupons page; the link is
+	// followed with Navigate, which returns once the page has loaded (after
+	// a click, a query could still reach the procedure page's document and
+	// fail with "No node with given id found" when the new one replaced it).
+	if err := chromedp.Do(ctx, chromedp.Navigate(e.url+"/lab/procedures/"+shop.proc)); err != nil {
+		t.Fatal(err)
+	}
+	link, err := chromedp.Run(ctx, chromedp.AttributeValue(chromedp.ID("next-coupons-link"), "href"))
+	if err != nil || !link.Exists {
+		t.Fatalf("the procedure page's next-coupons link: %v (href found: %v)", err, link.Exists)
+	}
+	if want := "/lab/procedures/" + shop.proc + "/next-coupons"; link.Value != want {
+		t.Fatalf("the procedure page links to %q, want %q", link.Value, want)
+	}
+	if err := chromedp.Do(ctx, chromedp.Navigate(e.url+link.Value), chromedp.WaitVisible(chromedp.ID("proposals"))); err != nil {
 		t.Fatalf("open the next-coupons page from the procedure: %v", err)
 	}
 	caution, err := chromedp.Run(ctx, chromedp.Text(chromedp.ID("caution")))
