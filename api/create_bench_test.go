@@ -9,7 +9,6 @@ import (
 	"net/http"
 	"sync/atomic"
 	"testing"
-	"time"
 
 	"etchlog/api"
 	"etchlog/db"
@@ -71,13 +70,8 @@ func BenchmarkCouponCreateAPI(b *testing.B) {
 				insert := func() error {
 					return dbtest.RawCoupon(ctx, e.store.Pool(), e.site+"-raw", fmt.Sprintf("R-%d", n.Add(1)), raw)
 				}
-				var inAPI, inRaw time.Duration
 				b.ResetTimer()
-				for done := 0; done < b.N; done += createRound {
-					k := min(createRound, b.N-done)
-					inAPI += dbtest.TimeClients(b, clients, k, endpoint)
-					inRaw += dbtest.TimeClients(b, clients, k, insert)
-				}
+				inAPI, inRaw := dbtest.TimeRounds(b, clients, b.N, createRound, endpoint, insert)
 				b.StopTimer()
 				if err := e.store.AwaitLogged(ctx, e.site); err != nil {
 					b.Fatal(err)

@@ -166,12 +166,7 @@ func sideBySide(b *testing.B, name string, store, raw func() error, profile list
 	})
 	b.Run(name+"/clients=8", func(b *testing.B) {
 		warm(b, 8)
-		var ds, dr time.Duration
-		for done := 0; done < b.N; done += listRound {
-			k := min(listRound, b.N-done)
-			ds += dbtest.TimeClients(b, 8, k, store)
-			dr += dbtest.TimeClients(b, 8, k, raw)
-		}
+		ds, dr := dbtest.TimeRounds(b, 8, b.N, listRound, store, raw)
 		b.ReportMetric(float64(b.N)/ds.Seconds(), "store-pages/s")
 		b.ReportMetric(float64(b.N)/dr.Seconds(), "raw-pages/s")
 		b.ReportMetric(dr.Seconds()/ds.Seconds(), "x-of-raw")

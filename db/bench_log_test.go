@@ -53,13 +53,8 @@ func BenchmarkCouponWriteConcurrent(b *testing.B) {
 			var backlog atomic.Int64
 			go sampleBacklog(s, stop, &backlog)
 			start := time.Now()
-			var inStore, inRaw time.Duration
 			b.ResetTimer()
-			for done := 0; done < b.N; done += writeRound {
-				k := min(writeRound, b.N-done)
-				inStore += dbtest.TimeClients(b, clients, k, store)
-				inRaw += dbtest.TimeClients(b, clients, k, raw)
-			}
+			inStore, inRaw := dbtest.TimeRounds(b, clients, b.N, writeRound, store, raw)
 			b.StopTimer()
 			close(stop)
 			if err := s.AwaitLogged(ctx, site); err != nil {

@@ -93,10 +93,6 @@ var verdicts = []string{"", "accept", "reject"}
 // in log order on its own, up to a page each, and the heads are merged: at
 // most (days + months × verdicts) × limit index entries, none outside the
 // range, whatever the page depth.
-// couponKinds are the leaves the coupons list's rows are made from: a
-// coupon's revisions, and its sections (its verdict).
-var couponKinds = listKinds{own: coupons.entity, also: []string{measurements.entity}}
-
 func (s *Store) listCoupons(ctx context.Context, site string, cf CouponFilter, cursor string, limit int) (Page[Coupon], error) {
 	if limit <= 0 || limit > MaxPageSize {
 		limit = MaxPageSize
@@ -275,6 +271,10 @@ func (c *listedCoupon) targets() []any {
 		&d.PreheatC, &d.InterpassC,
 		&c.LeafIndex, &c.Process, &c.WireDiameterMM, &c.ShieldingGas, &c.Polarity}
 }
+
+// couponKinds are the leaves the coupons list's rows are made from: a
+// coupon's revisions, and its sections (its verdict).
+var couponKinds = listKinds{coupons.entity, measurements.entity}
 
 // walksDays reports a filter the coupons list answers by walking welding
 // days and months (couponListQuery): a welding-day range with no equality

@@ -156,8 +156,9 @@ func (f *filter) rangeKeys(w dayWalk, table, dayCol, monthCol, keyCols, lim stri
 // rewrites a record's row when one of its own leaves, or the leaf of a
 // sign-off of it, takes its index.
 type signedKey struct {
-	entity          string // the records' leaf kind
-	delete, refresh string // $1 site, $2 record ids, $3 sign-off ids
+	entity          string    // the records' leaf kind
+	kinds           listKinds // the leaves its rows are made from (readPage)
+	delete, refresh string    // $1 site, $2 record ids, $3 sign-off ids
 }
 
 // newSignedKey is the signed list key table of the records of kind (a sign-off's
@@ -169,7 +170,8 @@ func newSignedKey(table, kind, columns string) signedKey {
 		UNION ALL SELECT so.record_id FROM unnest($3::uuid[]) s(id)
 			CROSS JOIN LATERAL (SELECT record_id FROM sign_offs WHERE ` + byIDAtSite("s") + ` AND record_kind = '` + kind + `' OFFSET 0) so) c) `
 	all := "(SELECT ids FROM ids)::uuid[]"
-	return signedKey{entity: kind, delete: ids + keyDeleteOf(table, all), refresh: ids + keyRefreshOf(table, columns, all)}
+	return signedKey{entity: kind, kinds: listKinds{kind, signOffTable.entity},
+		delete: ids + keyDeleteOf(table, all), refresh: ids + keyRefreshOf(table, columns, all)}
 }
 
 // queue adds to the sequencer's batch of writes the rewrite of the rows of

@@ -50,7 +50,7 @@ func (s *Store) Procedures(ctx context.Context, site string, pf ProcedureFilter,
 		}
 		// The page is one walk of the key: each entry carries its row.
 		sql := keyWalk("procedure_list", prefixed("k.", procedureListColumns), f.conds, pageLimit(limit))
-		return readSigned[Procedure](ctx, s, site, listKinds{procedures.entity, []string{signOffTable.entity}}, limit, sql, f.args)
+		return readSigned[Procedure](ctx, s, site, procedureList.kinds, limit, sql, f.args)
 	})
 }
 

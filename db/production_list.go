@@ -140,7 +140,7 @@ func (s *Store) listProduction(ctx context.Context, site string, pf ProductionRe
 		FROM (` + keys + `) k
 		` + rowByID("production_list", strings.Join(productionColumns, ", "), "c", "k") + `
 		ORDER BY k.leaf_index`
-	return readIndexed[ProductionRecord](ctx, s, site, listKinds{own: SubjectProductionRecord}, limit, sql, f.args)
+	return readIndexed[ProductionRecord](ctx, s, site, listKinds{SubjectProductionRecord}, limit, sql, f.args)
 }
 
 // dayFloor is the UTC day holding t (nil: unbounded).

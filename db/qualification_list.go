@@ -83,7 +83,7 @@ func (s *Store) listQualificationRecords(ctx context.Context, site string, qf Qu
 		` + rowByID("qualification_list", qualificationListColumns, "q", "k") + `
 		ORDER BY k.leaf_index`
 	}
-	return readSigned[QualificationRecord](ctx, s, site, listKinds{qualificationRecords.entity, []string{signOffTable.entity}}, limit, sql, f.args)
+	return readSigned[QualificationRecord](ctx, s, site, qualificationList.kinds, limit, sql, f.args)
 }
 
 // RecheckQualificationList compares the site's qualification_list with

@@ -186,16 +186,10 @@ func (f *filter) add(cond string, vals ...any) {
 // first page measured 140 ms at 10,000 records instead of 1-3 ms).
 func pageLimit(limit int) string { return " LIMIT " + strconv.Itoa(limit) }
 
-// listKinds are the leaf kinds a list's rows are made from: own, the
-// list's records, and also, kinds whose leaves rewrite rows already listed
-// (a section its coupon's verdict, a sign-off its record's).
-type listKinds struct {
-	own  string
-	also []string
-}
-
-// all is every kind of k.
-func (k listKinds) all() []string { return append([]string{k.own}, k.also...) }
+// listKinds are the leaf kinds a list's rows are made from: first the
+// list's own records', then any whose leaves rewrite rows already listed (a
+// section its coupon's verdict, a sign-off its record's).
+type listKinds []string
 
 // pageWait reads, in a page's round trip, the site's newest pending leaf
 // ($1; NULL: none) and whether some pending leaf could change a row already
@@ -241,7 +235,7 @@ func (s *Store) readPageWith(ctx context.Context, site string, kinds listKinds, 
 	}
 	var pending *int64
 	var changes bool
-	b.Queue(pageWait, site, kinds.all(), kinds.own).QueryRow(func(r pgx.Row) error { return r.Scan(&pending, &changes) })
+	b.Queue(pageWait, site, []string(kinds), kinds[0]).QueryRow(func(r pgx.Row) error { return r.Scan(&pending, &changes) })
 	var n int
 	b.Queue(sql, args...).Query(func(rows pgx.Rows) (err error) {
 		n, err = read(rows)

@@ -63,7 +63,7 @@ func (s *Store) listSections(ctx context.Context, site string, mf MeasurementFil
 		FROM (` + keyWalk("section_list", "k.id, k.revision, k.leaf_index", f.conds, pageLimit(limit)) + `) k
 		` + revisionByKey(measurements, "m") + `
 		ORDER BY k.leaf_index`
-		return readIndexed[Measurement](ctx, s, site, listKinds{own: measurements.entity}, limit, sql, f.args)
+		return readIndexed[Measurement](ctx, s, site, listKinds{measurements.entity}, limit, sql, f.args)
 	})
 }
 

@@ -54,7 +54,7 @@ func (s *Store) SignOffs(ctx context.Context, site string, f SignOffFilter, curs
 		FROM (` + keyWalk("sign_off_list", "k.id, k.leaf_index", fl.conds, pageLimit(limit)) + `) k
 		` + rowByID("sign_offs", signOffColumns, "s", "k") + `
 		ORDER BY k.leaf_index`
-		return readIndexed[SignOff](ctx, s, site, listKinds{own: signOffTable.entity}, limit, sql, fl.args)
+		return readIndexed[SignOff](ctx, s, site, listKinds{signOffTable.entity}, limit, sql, fl.args)
 	})
 }
 

@@ -34,15 +34,25 @@ func Clients(k, n int, call func() error) (time.Duration, error) {
 	return time.Since(t0), first
 }
 
-// TimeClients is Clients for a benchmark: it fails tb on the first error and
-// returns the wall time.
-func TimeClients(tb testing.TB, k, n int, call func() error) time.Duration {
+// TimeRounds runs a and b side by side for a benchmark, n calls each from
+// k clients, taking turns in rounds of round calls so that a change of the
+// machine's load falls on both; it fails tb on the first error and returns
+// each side's wall time.
+func TimeRounds(tb testing.TB, k, n, round int, a, b func() error) (inA, inB time.Duration) {
 	tb.Helper()
-	d, err := Clients(k, n, call)
-	if err != nil {
-		tb.Fatal(err)
+	for done := 0; done < n; done += round {
+		for _, side := range []struct {
+			call func() error
+			took *time.Duration
+		}{{a, &inA}, {b, &inB}} {
+			d, err := Clients(k, min(round, n-done), side.call)
+			if err != nil {
+				tb.Fatal(err)
+			}
+			*side.took += d
+		}
 	}
-	return d
+	return inA, inB
 }
 
 // WarmCalls is how many untimed calls per client Warm makes of each side:
