@@ -118,6 +118,22 @@ func keyRefreshOf(table, columns, ids string) string {
 // address.
 func keyDelete(table string) string { return keyDeleteOf(table, "$2::uuid[]") }
 
+// queueKeyDelete queues a key delete (keyDeleteOf) on the sequencer's
+// batch of writes, behind a SET LOCAL that has PostgreSQL plan it, and every
+// statement after it in the pass, for its arguments and the tables as they
+// are. A prepared statement's plan made once for any arguments (the generic
+// plan, taken after five executions) is kept until the table's statistics
+// change; made while the table was a few pages, it scanned every row of the
+// table for the addresses, and with autovacuum off it was never replaced:
+// each pass then read the whole list (457 buffers a pass at 20,000 coupons
+// in the create benchmark, growing with the table;
+// TestSequencerKeyDeleteReadsByAddress). Planning the pass's statements
+// costs about 1 ms, in passes that delete only (listedLeaves.queue).
+func queueKeyDelete(b *pgx.Batch, sql string, args ...any) {
+	b.Queue(`SET LOCAL plan_cache_mode = force_custom_plan`)
+	b.Queue(sql, args...)
+}
+
 // keyDeleteOf is keyDelete for the records of the id array ids. The rows
 // are named by address alone: a condition on the site beside them let a
 // planner with no statistics read every row of the site through another
@@ -183,6 +199,6 @@ func (k signedKey) queue(b *pgx.Batch, site string, out *leafRows) {
 	if len(ids) == 0 && len(signs) == 0 {
 		return
 	}
-	b.Queue(k.delete, site, ids, signs)
+	queueKeyDelete(b, k.delete, site, ids, signs)
 	b.Queue(k.refresh, site, ids, signs)
 }

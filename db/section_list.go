@@ -38,7 +38,7 @@ func queueSectionList(b *pgx.Batch, site string, ids [][16]byte) {
 	if len(ids) == 0 {
 		return
 	}
-	b.Queue(sectionListDelete, site, ids)
+	queueKeyDelete(b, sectionListDelete, site, ids)
 	b.Queue(sectionListRefresh, site, ids)
 }
 

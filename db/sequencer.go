@@ -278,7 +278,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, opt 
 			for i, id := range p.RecordIDs {
 				h := p.LeafHashes[32*i : 32*i+32]
 				out.add(p, id, h)
-				listed.add(p.Kind, id)
+				listed.add(p.Kind, id, p.Revision)
 				if err := rng.Append(h, visit); err != nil {
 					return false, err
 				}
@@ -301,7 +301,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, opt 
 			continue
 		}
 		out.add(p, p.RecordID, p.LeafHash)
-		listed.add(p.Kind, p.RecordID)
+		listed.add(p.Kind, p.RecordID, p.Revision)
 		if err := rng.Append(p.LeafHash, visit); err != nil {
 			return false, err
 		}
