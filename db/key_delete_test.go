@@ -17,41 +17,33 @@ import (
 // (auto_explain: "Seq Scan on coupon_list, Filter: (ctid = ANY ($3))";
 // 457 buffers a pass at 20,000 coupons, growing with the table).
 func TestSequencerKeyDeleteReadsByAddress(t *testing.T) {
-	id := func(b byte) [16]byte { return [16]byte{b} }
+	type leaf struct {
+		kind string
+		id   byte
+		rev  int
+	}
+	coupon, section := coupons.entity, measurements.entity
 	cases := []struct {
 		name    string
-		queue   func(b *pgx.Batch)
+		leaves  []leaf
 		deletes int
 	}{
-		{"new coupons", func(b *pgx.Batch) {
-			var l listedLeaves
-			l.add(coupons.entity, id(1), 1)
-			l.add(coupons.entity, id(2), 1)
-			l.queue(b, "s")
-		}, 0},
-		{"a coupon's correction", func(b *pgx.Batch) {
-			var l listedLeaves
-			l.add(coupons.entity, id(1), 1)
-			l.add(coupons.entity, id(2), 2)
-			l.queue(b, "s")
-		}, 1},
-		{"a new section", func(b *pgx.Batch) {
-			var l listedLeaves
-			l.add(coupons.entity, id(1), 1)
-			l.add(measurements.entity, id(3), 1)
-			l.queue(b, "s")
-			queueSectionList(b, "s", l.sections)
-		}, 2},
-		{"a procedure and a sign-off", func(b *pgx.Batch) {
-			var out leafRows
-			out.kinds = []string{procedureList.entity, signOffTable.entity}
-			out.ids = [][16]byte{id(4), id(5)}
-			procedureList.queue(b, "s", &out)
-		}, 1},
+		{"new coupons", []leaf{{coupon, 1, 1}, {coupon, 2, 1}}, 0},
+		{"a coupon's correction", []leaf{{coupon, 1, 1}, {coupon, 2, 2}}, 1},
+		{"a new section", []leaf{{coupon, 1, 1}, {section, 3, 1}}, 2}, // the coupons' and the sections' lists
+		{"a procedure and a sign-off", []leaf{{procedureList.entity, 4, 1}, {signOffTable.entity, 5, 1}}, 1},
 	}
 	for _, c := range cases {
 		b := &pgx.Batch{}
-		c.queue(b)
+		var listed listedLeaves
+		var out leafRows
+		for _, l := range c.leaves {
+			listed.add(l.kind, [16]byte{l.id}, l.rev)
+			out.kinds, out.ids = append(out.kinds, l.kind), append(out.ids, [16]byte{l.id})
+		}
+		listed.queue(b, "s") // as a pass queues them (integrate)
+		queueSectionList(b, "s", listed.sections)
+		procedureList.queue(b, "s", &out)
 		deletes := 0
 		for i, q := range b.QueuedQueries {
 			if !strings.Contains(q.SQL, "DELETE FROM") {
