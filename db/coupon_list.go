@@ -25,35 +25,29 @@ import (
 // sections (their verdict).
 type listedLeaves struct {
 	coupons, sections [][16]byte // ids as pgx encodes them without their text
-	// whether a leaf may change a coupon already listed: a revision after
-	// the first, or a section
-	changes bool
 }
 
-// add notes a leaf of kind for record id, its revision rev.
-func (l *listedLeaves) add(kind string, id [16]byte, rev int) {
+func (l *listedLeaves) add(kind string, id [16]byte) {
 	switch kind {
 	case coupons.entity:
 		l.coupons = append(l.coupons, id)
-		l.changes = l.changes || rev > 1
 	case measurements.entity:
 		l.sections = append(l.sections, id)
-		l.changes = true
 	}
 }
 
 // queue adds to the sequencer's batch of writes the rewrite of the
 // coupon_list rows of the batch's coupons and of the coupons its sections
-// belong (or belonged, before a correction) to, from coupon_list_derived.
-// A batch of first revisions of coupons alone has no row to remove (a
-// coupon's first revision is logged once, and a row is written only when
-// one of its leaves is), so it only inserts; were a row there, the insert
-// would fail on the table's key and the pass with it.
-func (l *listedLeaves) queue(b *pgx.Batch, site string) {
+// belong (or belonged, before a correction) to, from coupon_list_derived;
+// out is the batch's leaves. A batch that rewrites no listed coupon
+// (leafRows.rewrites: first revisions of coupons alone) has no row to
+// remove, so it only inserts; were a row there, the insert would fail on
+// the table's key and the pass with it.
+func (l *listedLeaves) queue(b *pgx.Batch, site string, out *leafRows) {
 	if len(l.coupons) == 0 && len(l.sections) == 0 {
 		return
 	}
-	if l.changes {
+	if out.rewrites(couponKinds) {
 		queueKeyDelete(b, couponListDelete, site, l.coupons, l.sections)
 	}
 	b.Queue(couponListRefresh, site, l.coupons, l.sections)

@@ -37,11 +37,11 @@ func TestSequencerKeyDeleteReadsByAddress(t *testing.T) {
 		b := &pgx.Batch{}
 		var listed listedLeaves
 		var out leafRows
-		for _, l := range c.leaves {
-			listed.add(l.kind, [16]byte{l.id}, l.rev)
-			out.kinds, out.ids = append(out.kinds, l.kind), append(out.ids, [16]byte{l.id})
+		for _, l := range c.leaves { // as a pass notes them (integrate)
+			out.add(pendingLeaf{Kind: l.kind, Revision: l.rev}, [16]byte{l.id}, nil)
+			listed.add(l.kind, [16]byte{l.id})
 		}
-		listed.queue(b, "s") // as a pass queues them (integrate)
+		listed.queue(b, "s", &out)
 		queueSectionList(b, "s", listed.sections)
 		procedureList.queue(b, "s", &out)
 		deletes := 0

@@ -99,6 +99,20 @@ func (l *leafRows) ofKind(kind string, size uint64) (ids [][16]byte, at []int64)
 	return ids, at
 }
 
+// rewrites reports whether leaves l could change a row already written to
+// a list key of kinds: a leaf of one of kinds that is not the first
+// revision of a record of the list's own kind (kinds[0]). A first revision
+// is logged once and its row written when it is, so no row of it is there
+// before. The rule readPage waits by (pageWait), read from a pass's leaves.
+func (l *leafRows) rewrites(kinds listKinds) bool {
+	for i, k := range l.kinds {
+		if slices.Contains(kinds, k) && (k != kinds[0] || l.revisions[i] != 1) {
+			return true
+		}
+	}
+	return false
+}
+
 // keyRefresh is the statement that writes the rows of list key table
 // (columns named) for the records $2 at site $1 from the view
 // <table>_derived: each record read by its key through a lateral subquery

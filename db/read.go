@@ -196,6 +196,7 @@ type listKinds []string
 // listed: a leaf of one of the list's kinds ($2) that is not the first
 // revision of a record of its own kind ($3). A first revision is given an
 // index after every logged one, so its row comes after every listed row.
+// The sequencer skips a key's deletion by the same rule (leafRows.rewrites).
 const pageWait = `SELECT max(seq), coalesce(bool_or(kind = ANY($2::text[]) AND (kind <> $3 OR revision <> 1)), false)
 	FROM log_pending WHERE site = $1`
 

@@ -135,9 +135,10 @@ func (s *Store) recorded(ctx context.Context, t table, m Meta, values []any, act
 // recordedNew prepares, before the write's transaction, the step that
 // writes revision 1 (m) of a new record holding a mark of kind k: one
 // statement inserts the row, a second claims the mark (a held mark refuses
-// it) and appends its pending leaf, both in the write's one round trip. The leaf is encoded here from the values sent
-// (valueFact: every column of the row is stored exactly as sent, else this
-// refuses), so nothing is read back and the leaf leaves with the row.
+// it) and appends its pending leaf, both in the write's one round trip.
+// The leaf is encoded here from the values sent (valueFact: every column of
+// the row is stored exactly as sent, else this refuses), so nothing is read
+// back and the leaf leaves with the row.
 // check, called when the step runs, may ask the statement to compare a
 // procedure's count of judgement changes too (judged.go): a count other
 // than the one given fails the write with errJudgementChanged.

@@ -278,7 +278,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, opt 
 			for i, id := range p.RecordIDs {
 				h := p.LeafHashes[32*i : 32*i+32]
 				out.add(p, id, h)
-				listed.add(p.Kind, id, p.Revision)
+				listed.add(p.Kind, id)
 				if err := rng.Append(h, visit); err != nil {
 					return false, err
 				}
@@ -301,7 +301,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, opt 
 			continue
 		}
 		out.add(p, p.RecordID, p.LeafHash)
-		listed.add(p.Kind, p.RecordID, p.Revision)
+		listed.add(p.Kind, p.RecordID)
 		if err := rng.Append(p.LeafHash, visit); err != nil {
 			return false, err
 		}
@@ -322,7 +322,7 @@ func (s *Store) integrate(ctx context.Context, conn *pgx.Conn, site string, opt 
 		wb.Queue(insertNodes, site, nodes.levels, nodes.indexes, nodes.hashes)
 	}
 	wb.Queue(`DELETE FROM log_pending WHERE site = $1 AND seq = ANY($2)`, site, seqs)
-	listed.queue(wb, site)
+	listed.queue(wb, site, &out)
 	queueSectionList(wb, site, listed.sections)
 	queueProductionList(wb, site, pend, &out, size)
 	queueSignOffList(wb, site, &out, size)
