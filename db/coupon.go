@@ -55,6 +55,7 @@ var coupons = table{name: "coupons", entity: "coupon", fields: recordColumns(Cou
 // found them changed meanwhile (judged.go), it drops them and writes once
 // more, reading afresh.
 func (s *Store) CreateCoupon(ctx context.Context, a Actor, c CouponData) (Coupon, error) {
+	ctx = carryUserCheck(ctx) // in the claim of the mark (recordedNew)
 	m, err := s.newRecord(a)
 	if err != nil {
 		return Coupon{}, err

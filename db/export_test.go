@@ -104,7 +104,7 @@ func QueueProductionPending(ctx context.Context, tx pgx.Tx, entry uuid.UUID, rec
 
 // UserByTokenSQL and UserCheckSQL are the token lookups: a request's, and a
 // write's check of the user it was let in as.
-const (
+var (
 	UserByTokenSQL = userByTokenSQL
 	UserCheckSQL   = userCheckSQL
 )

@@ -189,10 +189,10 @@ func (in *couponInputs) defaults() couponDefaults {
 // names one procedure ($2), or none; a correction holds those its stored
 // revisions ($2 is the coupon) name and the one it names now ($3), in byte
 // order of their ids.
-const (
-	lockNewCouponProcedure = `SELECT pg_advisory_xact_lock_shared(hashtextextended('etchlog-flags:' || $1 || ':' || $2::uuid::text, 0))
+var (
+	lockNewCouponProcedure = `SELECT pg_advisory_xact_lock_shared(` + flagLockKey("$1", "$2::uuid") + `)
 		WHERE $2::uuid IS NOT NULL`
-	lockCorrectedCouponProcedures = `SELECT pg_advisory_xact_lock_shared(hashtextextended('etchlog-flags:' || $1 || ':' || p::text, 0))
+	lockCorrectedCouponProcedures = `SELECT pg_advisory_xact_lock_shared(` + flagLockKey("$1", "p") + `)
 		FROM (SELECT procedure_id AS p FROM coupons WHERE site = $1 AND id = $2 AND procedure_id IS NOT NULL
 		      UNION SELECT $3::uuid WHERE $3::uuid IS NOT NULL) ids
 		ORDER BY p`

@@ -48,8 +48,15 @@ func procedureLocks(site string, ids []uuid.UUID, exclusive bool) (string, []any
 	if exclusive {
 		fn = "pg_advisory_xact_lock"
 	}
-	return `SELECT ` + fn + `(hashtextextended('etchlog-flags:' || $1 || ':' || p::text, 0))
+	return `SELECT ` + fn + `(` + flagLockKey("$1", "p") + `)
 		FROM unnest($2::uuid[]) WITH ORDINALITY AS u(p, n) ORDER BY n`, []any{site, ids}
+}
+
+// flagLockKey is the advisory lock key of a procedure's flag lock, from SQL
+// expressions for the site (text) and the procedure's id (uuid). Every
+// statement taking a flag lock names it through this.
+func flagLockKey(site, procedure string) string {
+	return `hashtextextended('etchlog-flags:' || ` + site + ` || ':' || ` + procedure + `::text, 0)`
 }
 
 // lockCouponProcedures takes the shared flag lock of every procedure the
@@ -57,7 +64,7 @@ func procedureLocks(site string, ids []uuid.UUID, exclusive bool) (string, []any
 // another). One statement: the procedures in byte order of their ids, as
 // lockProcedures orders them, so the two never wait on each other in a
 // cycle; volatile target functions run after the sort.
-const lockCouponProcedures = `SELECT pg_advisory_xact_lock_shared(hashtextextended('etchlog-flags:' || $1 || ':' || p::text, 0))
+var lockCouponProcedures = `SELECT pg_advisory_xact_lock_shared(` + flagLockKey("$1", "p") + `)
 	FROM (SELECT DISTINCT procedure_id AS p FROM coupons
 	      WHERE site = $1 AND id = $2 AND procedure_id IS NOT NULL) ids
 	ORDER BY p`

@@ -141,18 +141,19 @@ func (c *judgedCache) keep(in *couponInputs) {
 }
 
 // queueKeptInputs is queueCouponInputs for a new coupon (written, revision
-// 1, naming a procedure) whose procedure's inputs j were kept: it takes the
-// same flag lock and reads only the qualification record the coupon names;
-// the rest comes from j, and in.check asks the write to compare j's count.
+// 1, naming a procedure) whose procedure's inputs j were kept: it reads only
+// the qualification record the coupon names; the rest comes from j, and
+// in.check asks the write to compare j's count. The same flag lock is
+// taken by the coupon row's INSERT (recordedNew, given in.check), before the
+// statement after it reads the count.
 func queueKeptInputs(ctx context.Context, tx pgx.Tx, written *Coupon, j *judged) (*couponInputs, error) {
 	p := j.procedure
 	in := &couponInputs{coupon: written, procedure: &p, ranges: j.ranges, activations: j.activations, calibrated: j.calibrated, melting: j.melting,
 		check: &judgedCheck{procedure: p.ID, changes: j.changes}}
-	queued := []error{queueExec(ctx, tx, lockNewCouponProcedure, written.Site, written.ProcedureID)}
 	if rid := written.QualificationRecordID; rid != nil {
-		queued = append(queued, queueRecordLink(ctx, tx, in, written.Site, *rid))
+		return in, queueRecordLink(ctx, tx, in, written.Site, *rid)
 	}
-	return in, firstError(queued...)
+	return in, nil
 }
 
 // queueRecordLink queues the read of qualification record rid a written

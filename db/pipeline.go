@@ -34,6 +34,9 @@ type pipeTx struct {
 	next   *pipeBatch
 	err    error // a refusal reported to a step that did not ask: the write must fail
 	done   bool  // committed
+	// A step queued the request's token check inside its own statement
+	// (carriedUserCheck).
+	userChecked bool
 }
 
 // pipeBatch is what leaves in one round trip: the statements and, per

@@ -141,7 +141,11 @@ func (s *Store) recorded(ctx context.Context, t table, m Meta, values []any, act
 // back and the leaf leaves with the row.
 // check, called when the step runs, may ask the statement to compare a
 // procedure's count of judgement changes too (judged.go): a count other
-// than the one given fails the write with errJudgementChanged.
+// than the one given fails the write with errJudgementChanged. The row's
+// INSERT then first takes that procedure's shared flag lock, so the count
+// is read, by the next statement, under the lock (flag_lock.go).
+// A write whose context carries its request's token check (carryUserCheck)
+// has the second statement check the token before it claims the mark.
 func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, mark string, values []any, action string, check func() *judgedCheck) (step, error) {
 	if m.Revision != 1 {
 		return nil, fmt.Errorf("db: %s %s: revision %d is not a new record", t.entity, m.ID, m.Revision)
@@ -177,14 +181,28 @@ func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, ma
 	}
 	logArgs := append(pending, k.kind, mark)
 	return func(tx pgx.Tx) error {
-		if err := queueExec(ctx, tx, st.stored, args...); err != nil {
+		chk := check()
+		stored, storedArgs := st.stored, args
+		if chk != nil {
+			stored, storedArgs = st.storedLocked, slices.Concat(args, []any{chk.procedure})
+		}
+		if err := queueExec(ctx, tx, stored, storedArgs...); err != nil {
 			return err
 		}
-		chk := check()
-		if chk == nil {
-			return queueExec(ctx, tx, st.logged, logArgs...)
+		var judged []any // the check's arguments, after the leaf's and the mark's
+		if chk != nil {
+			judged = []any{chk.procedure, chk.changes}
 		}
-		return queueEnforced(ctx, tx, chk.unchanged, st.checked, append(logArgs, chk.procedure, chk.changes)...)
+		user := carriedUserCheck(ctx, tx)
+		switch {
+		case user != nil && chk != nil:
+			return queueEnforced(ctx, tx, user.confirmCarried(chk), st.checkedUser, slices.Concat(logArgs, judged, user.args())...)
+		case user != nil:
+			return queueEnforced(ctx, tx, user.confirmCarried(nil), st.loggedUser, slices.Concat(logArgs, user.args())...)
+		case chk != nil:
+			return queueEnforced(ctx, tx, chk.unchanged, st.checked, slices.Concat(logArgs, judged)...)
+		}
+		return queueExec(ctx, tx, st.logged, logArgs...)
 	}, nil
 }
 
@@ -195,9 +213,16 @@ type recordStatements struct {
 	leafArgs []int  // the argument of each of the leaf kind's columns
 	pending  int    // values of a pending log row
 	stored   string // the row's INSERT
+	// The row's INSERT, taking first the shared flag lock of the procedure
+	// in its last argument (after the row's values).
+	storedLocked string
 	// The mark's claim and the pending leaf; checked: the same, answering
 	// the procedure's count of judgement changes.
 	logged, checked string
+	// logged and checked with the request's token check (userCheckCTEs,
+	// its four arguments last): it answers first, and the claim is made
+	// from its row, so no mark is claimed before it passed.
+	loggedUser, checkedUser string
 }
 
 var recordStatementCache sync.Map // leafShapeKey → *recordStatements
@@ -226,6 +251,7 @@ func newRecordStatements(t table, lk LeafKind, n int) (*recordStatements, error)
 		}
 		return strings.Join(p, ", ")
 	}
+	arg := func(i int) string { return "$" + strconv.Itoa(i) }
 	// The row's INSERT is a statement of its own. In one statement with
 	// the claim and the leaf, the three tables' check constraints (built
 	// anew for every execution) took the statement's executor memory past
@@ -233,6 +259,10 @@ func newRecordStatements(t table, lk LeafKind, n int) (*recordStatements, error)
 	// heap and gave it back (brk, page faults; about 7 % of the machine's
 	// CPU in the create benchmark). The claim and the leaf stay together.
 	st.stored = `INSERT INTO ` + t.name + ` (` + t.columns() + `) VALUES (` + ph(1, n) + `)`
+	// Locked: the lock is the row's one-time condition (it answers void,
+	// which is not NULL), taken before the row is formed. The site is $1.
+	st.storedLocked = `INSERT INTO ` + t.name + ` (` + t.columns() + `) SELECT ` + ph(1, n) + `
+		WHERE pg_advisory_xact_lock_shared(` + flagLockKey("$1", arg(n+1)+"::uuid") + `) IS NOT NULL`
 	// The claim is a plain INSERT: a new record holds no mark, so a row
 	// already there is another record's, and its primary key refuses the
 	// statement (and the write); CreateCoupon names the holder
@@ -243,17 +273,25 @@ func newRecordStatements(t table, lk LeafKind, n int) (*recordStatements, error)
 		return nil, fmt.Errorf("db: the pending leaf's columns %v no longer start site, _, _, record_id", pendingColumnList)
 	}
 	p := st.pending
-	claim := `WITH claim AS (
-			INSERT INTO current_marks (site, kind, mark, record_id) VALUES ($1, $` + strconv.Itoa(p+1) + `, $` + strconv.Itoa(p+2) + `, $4))`
+	claimed := `(site, kind, mark, record_id)`
+	claim := `claim AS (
+			INSERT INTO current_marks ` + claimed + ` VALUES ($1, ` + arg(p+1) + `, ` + arg(p+2) + `, $4))`
+	claimChecked := `claim AS (
+			INSERT INTO current_marks ` + claimed + ` SELECT $1, ` + arg(p+1) + `, ` + arg(p+2) + `, $4 FROM checked)`
 	logged := `INSERT INTO log_pending (` + pendingColumns + `) VALUES (` + ph(1, p) + `)`
-	st.logged = claim + "\n" + logged
+	st.logged = `WITH ` + claim + "\n" + logged
 	// Checked: the same, answering the procedure's count of judgement
 	// changes, and failing (SQLSTATE refuseJudgementChanged, which aborts
 	// the transaction) when it is not the count the create judged by.
-	st.checked = claim + ", logged AS (" + logged + `)
-		SELECT CASE WHEN count(*) = $` + strconv.Itoa(p+4) + `::bigint THEN count(*)
+	judged := `CASE WHEN count(*) = ` + arg(p+4) + `::bigint THEN count(*)
 		       ELSE etchlog_refuse('` + refuseJudgementChanged + `', 'what the procedure''s coupons are judged by changed') END
-		FROM judgement_changes WHERE site = $1 AND procedure_id = $` + strconv.Itoa(p+3)
+		FROM judgement_changes WHERE site = $1 AND procedure_id = ` + arg(p+3)
+	st.checked = `WITH ` + claim + `, logged AS (` + logged + `)
+		SELECT ` + judged
+	st.loggedUser = `WITH ` + userCheckCTEs(p+3, p+4) + `, ` + claimChecked + `, logged AS (` + logged + `)
+		SELECT ok FROM checked`
+	st.checkedUser = `WITH ` + userCheckCTEs(p+5, p+6) + `, ` + claimChecked + `, logged AS (` + logged + `)
+		SELECT (SELECT ok FROM checked), ` + judged
 	recordStatementCache.Store(key, st)
 	return st, nil
 }
@@ -324,12 +362,22 @@ func (s *Store) tx(ctx context.Context, fn func(tx pgx.Tx) error) error {
 	defer conn.Release()
 	tx := newPipeTx(conn)
 	defer tx.Rollback(ctx) //nolint:errcheck // no-op after Commit
-	// A request let in on a kept lookup of its token confirms its user first.
-	if err := queueUserCheck(ctx, tx); err != nil {
-		return err
+	// A request let in on a kept lookup of its token confirms its user
+	// first, unless a step of the write carries the check in a statement
+	// of its own; should none have taken it, it goes last.
+	carried := carriesUserCheck(ctx)
+	if !carried {
+		if err := queueUserCheck(ctx, tx); err != nil {
+			return err
+		}
 	}
 	if err := fn(tx); err != nil {
 		return err
+	}
+	if carried && !tx.userChecked {
+		if err := queueUserCheck(ctx, tx); err != nil {
+			return err
+		}
 	}
 	if err := markCommitted(ctx, tx); err != nil { // under an Idempotency-Key: only while the claim holds
 		return err

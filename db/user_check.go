@@ -3,6 +3,7 @@ package db
 import (
 	"context"
 	"errors"
+	"strconv"
 	"sync/atomic"
 
 	"github.com/jackc/pgx/v5"
@@ -28,10 +29,15 @@ var ErrUserChanged = errors.New("the token's user changed since the request was 
 
 // userByTokenSQL finds the user holding a token's digest ($1): the token
 // must be on the user's latest revision, and the user not revoked.
-const userByTokenSQL = `
+var userByTokenSQL = userByToken(1)
+
+// userByToken is userByTokenSQL with the digest in parameter $digest.
+func userByToken(digest int) string {
+	return `
 		SELECT site, name, role FROM api_users u
-		WHERE token_sha256 = $1 AND NOT voided
+		WHERE token_sha256 = $` + strconv.Itoa(digest) + ` AND NOT voided
 		  AND NOT EXISTS (SELECT 1 FROM api_users l WHERE l.id = u.id AND l.revision > u.revision)`
+}
 
 // UserCheck is the user a request was let in as on a kept lookup of its
 // token, to be confirmed by the request's first write.
@@ -61,14 +67,93 @@ func (c *UserCheck) Confirmed() bool { return c.confirmed.Load() }
 // refuseUserChanged, aborting the transaction there (etchlog_refuse,
 // migration 000050), so no COMMIT sent behind it in the same round trip
 // can take effect.
-const userCheckSQL = `WITH found AS (` + userByTokenSQL + `)
-		SELECT CASE WHEN (SELECT count(*) FROM found) = 1
-		             AND EXISTS (SELECT 1 FROM found WHERE site = $2 AND name = $3 AND role = $4)
-		       THEN 1 ELSE etchlog_refuse('` + refuseUserChanged + `', 'the token''s user changed') END`
+var userCheckSQL = `WITH ` + userCheckCTEs(1, 2) + `
+		SELECT ok FROM checked`
+
+// userCheckCTEs are userCheckSQL's lookup and condition as the CTEs found
+// and checked (one row, one column: ok, 1) of a longer statement, with the
+// digest in parameter $digest and the claimed user's site, name and role in
+// $user, $user+1 and $user+2. A write of the statement that reads checked
+// cannot write before the check has passed.
+func userCheckCTEs(digest, user int) string {
+	site, name, role := "$"+strconv.Itoa(user), "$"+strconv.Itoa(user+1), "$"+strconv.Itoa(user+2)
+	return `found AS (` + userByToken(digest) + `),
+		checked AS (SELECT CASE WHEN count(*) = 1 AND bool_and(site = ` + site + ` AND name = ` + name + ` AND role = ` + role + `)
+		             THEN 1 ELSE etchlog_refuse('` + refuseUserChanged + `', 'the token''s user changed') END AS ok
+		    FROM found)`
+}
 
 // refuseUserChanged is the SQLSTATE of userCheckSQL's refusal (mapError
 // turns it into ErrUserChanged).
 const refuseUserChanged = "EL001"
+
+// A write may carry its request's token check inside a statement of its
+// own instead of the check's own statement (CreateCoupon: in the claim of
+// the mark, one statement fewer a create): its context says so
+// (carryUserCheck), Store.tx queues no check before the steps, and the step
+// that builds the carrying statement takes the check (carriedUserCheck).
+// Should no step take it, Store.tx queues the check after the steps, still
+// before COMMIT: a write never commits with its token unchecked.
+
+type carryKey struct{}
+
+// carryUserCheck returns ctx saying that a step of its write carries the
+// token check in its own statement.
+func carryUserCheck(ctx context.Context) context.Context {
+	return context.WithValue(ctx, carryKey{}, true)
+}
+
+// carriesUserCheck reports whether ctx says so.
+func carriesUserCheck(ctx context.Context) bool {
+	v, _ := ctx.Value(carryKey{}).(bool)
+	return v
+}
+
+// carriedUserCheck returns, to a step about to queue a statement carrying
+// it on tx, ctx's unconfirmed token check, and records on tx that it was
+// taken; nil when ctx has none to carry.
+func carriedUserCheck(ctx context.Context, tx pgx.Tx) *UserCheck {
+	t, ok := tx.(*pipeTx)
+	c := pendingUserCheck(ctx)
+	if !ok || c == nil || !carriesUserCheck(ctx) {
+		return nil
+	}
+	t.userChecked = true
+	return c
+}
+
+// args are the check's arguments in userCheckCTEs' order: the digest, then
+// the claimed user's site, name and role.
+func (c *UserCheck) args() []any {
+	return []any{c.digest, c.user.Site, c.user.Name, c.user.Role}
+}
+
+// confirmCarried reads the row of a statement carrying the check: the
+// check's ok first, then, when chk is not nil, the count of judgement
+// changes chk compares (as chk.unchanged reads it alone).
+func (c *UserCheck) confirmCarried(chk *judgedCheck) func(pgx.Rows) error {
+	return func(rows pgx.Rows) error {
+		var ok, changes int64
+		dst := []any{&ok}
+		if chk != nil {
+			dst = append(dst, &changes)
+		}
+		_, err := pgx.CollectOneRow(rows, func(r pgx.CollectableRow) (struct{}, error) { return struct{}{}, r.Scan(dst...) })
+		switch {
+		case rows.Err() != nil:
+			return nil // the statement's own error is reported
+		case err != nil:
+			return err
+		case ok != 1:
+			return ErrUserChanged
+		}
+		c.confirmed.Store(true)
+		if chk != nil && changes != chk.changes {
+			return errJudgementChanged
+		}
+		return nil
+	}
+}
 
 // queueUserCheck queues, on a new write transaction, the check that the
 // token of ctx's unconfirmed UserCheck is held by exactly the claimed user:
