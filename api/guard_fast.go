@@ -85,7 +85,8 @@ func jsonDelimiter(c byte) bool {
 
 // object reads the members after '{' and the closing '}'.
 func (s *cleanScan) object() bool {
-	var keys [][]byte
+	var kept [32][]byte // a coupon's fields fit: no allocation for the list
+	keys := kept[:0]
 	for s.b[s.i] != '}' {
 		k, ok := s.text()
 		if !ok || len(keys) == cleanKeys || bytes.ContainsAny(k, ".[]") || hasControl(string(k), false) {

@@ -186,9 +186,12 @@ func ruleReason(fe validator.FieldError, name func(string) string) string {
 // bind decodes the JSON body into v, refusing unknown fields and trailing
 // data, after rewriting every quantity into its stored spelling (units.go).
 func bind(c echo.Context, v any) error {
-	body, err := io.ReadAll(c.Request().Body)
-	if err != nil {
-		return err
+	body, ok := c.Get(ctxBody).([]byte) // read whole and checked by guard
+	if !ok {
+		var err error
+		if body, err = io.ReadAll(c.Request().Body); err != nil {
+			return err
+		}
 	}
 	sent, err := decodeBody(body, v)
 	if len(sent) > 0 {
