@@ -308,7 +308,7 @@ func queueRows(ctx context.Context, tx pgx.Tx, read func(pgx.Rows) error, sql st
 // itself, failing (and so aborting the transaction) when it does not hold:
 // its reader only reads the answer, and COMMIT may leave in the same round
 // trip. The reader must refuse nothing its statement would have let
-// through (UserCheck.confirm and judgedCheck.unchanged compare what the
+// through (UserCheck.confirmRow and judgedCheck.unchanged compare what the
 // statement already compared): a refusal read from good rows is still
 // reported, but COMMIT may already have run in the same round trip.
 func queueEnforced(ctx context.Context, tx pgx.Tx, read func(pgx.Rows) error, sql string, args ...any) error {

@@ -183,22 +183,20 @@ func (s *Store) recordedNew(ctx context.Context, t table, k markKind, m Meta, ma
 	return func(tx pgx.Tx) error {
 		chk := check()
 		stored, storedArgs := st.stored, args
+		var judged []any // the count check's arguments, after the leaf's and the mark's
 		if chk != nil {
 			stored, storedArgs = st.storedLocked, slices.Concat(args, []any{chk.procedure})
+			judged = []any{chk.procedure, chk.changes}
 		}
 		if err := queueExec(ctx, tx, stored, storedArgs...); err != nil {
 			return err
 		}
-		var judged []any // the check's arguments, after the leaf's and the mark's
-		if chk != nil {
-			judged = []any{chk.procedure, chk.changes}
-		}
 		user := carriedUserCheck(ctx, tx)
 		switch {
 		case user != nil && chk != nil:
-			return queueEnforced(ctx, tx, user.confirmCarried(chk), st.checkedUser, slices.Concat(logArgs, judged, user.args())...)
+			return queueEnforced(ctx, tx, user.confirmRow(chk), st.checkedUser, slices.Concat(logArgs, judged, user.args())...)
 		case user != nil:
-			return queueEnforced(ctx, tx, user.confirmCarried(nil), st.loggedUser, slices.Concat(logArgs, user.args())...)
+			return queueEnforced(ctx, tx, user.confirmRow(nil), st.loggedUser, slices.Concat(logArgs, user.args())...)
 		case chk != nil:
 			return queueEnforced(ctx, tx, chk.unchanged, st.checked, slices.Concat(logArgs, judged)...)
 		}

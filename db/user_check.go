@@ -128,10 +128,12 @@ func (c *UserCheck) args() []any {
 	return []any{c.digest, c.user.Site, c.user.Name, c.user.Role}
 }
 
-// confirmCarried reads the row of a statement carrying the check: the
+// confirmRow reads the one row of a statement holding the check
+// (userCheckSQL, or a create's statement carrying it), which it answers
+// only for the claimed user, and records the user as confirmed: the
 // check's ok first, then, when chk is not nil, the count of judgement
 // changes chk compares (as chk.unchanged reads it alone).
-func (c *UserCheck) confirmCarried(chk *judgedCheck) func(pgx.Rows) error {
+func (c *UserCheck) confirmRow(chk *judgedCheck) func(pgx.Rows) error {
 	return func(rows pgx.Rows) error {
 		var ok, changes int64
 		dst := []any{&ok}
@@ -165,8 +167,7 @@ func queueUserCheck(ctx context.Context, tx pgx.Tx) error {
 	if c == nil {
 		return nil
 	}
-	u := c.user
-	return queueEnforced(ctx, tx, c.confirm, userCheckSQL, c.digest, u.Site, u.Name, u.Role)
+	return queueEnforced(ctx, tx, c.confirmRow(nil), userCheckSQL, c.args()...)
 }
 
 // pendingUserCheck is ctx's UserCheck when it is not yet confirmed, else nil.
@@ -176,23 +177,6 @@ func pendingUserCheck(ctx context.Context) *UserCheck {
 		return nil
 	}
 	return c
-}
-
-// confirm reads userCheckSQL's one row, which it answers only for the
-// claimed user, and records the user as confirmed.
-func (c *UserCheck) confirm(rows pgx.Rows) error {
-	n, err := pgx.CollectOneRow(rows, pgx.RowTo[int64])
-	if rows.Err() != nil {
-		return nil // the statement's own error is reported
-	}
-	if err != nil {
-		return err
-	}
-	if n != 1 {
-		return ErrUserChanged
-	}
-	c.confirmed.Store(true)
-	return nil
 }
 
 // confirmLookup reads the rows of userByTokenSQL (a read's batch runs the
