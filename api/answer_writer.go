@@ -6,6 +6,7 @@ import (
 	"math"
 	"net/http"
 	"strconv"
+	"sync"
 	"time"
 	"unicode/utf8"
 
@@ -60,12 +61,24 @@ func writeOne[T any](c echo.Context, status int, v *T) (bool, error) {
 	if item == nil {
 		return false, nil
 	}
-	b, err := appendOne(make([]byte, 0, 1024), v, item, inch)
-	if err != nil {
-		return true, err
+	bp := answerBuffers.Get().(*[]byte)
+	b, err := appendOne((*bp)[:0], v, item, inch)
+	if err == nil {
+		err = c.JSONBlob(status, b) // written out: the buffer is free again
 	}
-	return true, c.JSONBlob(status, b)
+	if cap(b) <= maxKeptAnswer {
+		*bp = b[:0]
+		answerBuffers.Put(bp)
+	}
+	return true, err
 }
+
+// answerBuffers keep the buffers of one-record answers between requests,
+// so that each answer does not allocate (and the collector sweep) its own;
+// a buffer grown past maxKeptAnswer is left to the collector.
+var answerBuffers = sync.Pool{New: func() any { b := make([]byte, 0, 2048); return &b }}
+
+const maxKeptAnswer = 64 << 10
 
 // directWriter is the item writer of T for this answer and whether it is
 // inch-pound, or nil when T has none or the answer is asked indented or

@@ -71,7 +71,9 @@ func storedAsSent(body []byte, t reflect.Type) (issues []FieldIssue, ok bool) {
 	if !json.Valid(body) {
 		return nil, false
 	}
-	keys, firsts, ok := objectKeys(body)
+	var keyArr [32][]byte // a body's fields fit: nothing allocated
+	var firstArr [32]byte
+	keys, firsts, ok := objectKeys(body, keyArr[:0], firstArr[:0])
 	if !ok {
 		return nil, false
 	}
@@ -88,10 +90,10 @@ func storedAsSent(body []byte, t reflect.Type) (issues []FieldIssue, ok bool) {
 	return issues, true
 }
 
-// objectKeys lists the field names of body, a JSON object json.Valid
-// accepted, and the first byte of each value (ok false for another value,
-// or a name with an escape).
-func objectKeys(body []byte) (keys [][]byte, firsts []byte, ok bool) {
+// objectKeys appends to keys the field names of body, a JSON object
+// json.Valid accepted, and to firsts the first byte of each value (ok false
+// for another value, or a name with an escape).
+func objectKeys(body []byte, keys [][]byte, firsts []byte) ([][]byte, []byte, bool) {
 	i := skipSpace(body, 0)
 	if body[i] != '{' {
 		return nil, nil, false

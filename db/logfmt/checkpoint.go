@@ -7,7 +7,9 @@ import (
 	"crypto/sha256"
 	"encoding/base64"
 	"fmt"
+	"hash"
 	"strings"
+	"sync"
 
 	"github.com/transparency-dev/formats/log"
 	"golang.org/x/mod/sumdb/note"
@@ -30,8 +32,9 @@ func GenerateKey(name string) (skey, vkey string, err error) {
 // Signer signs checkpoints and authenticates pending leaves with one key.
 type Signer struct {
 	note.Signer
-	mac []byte
-	vk  string
+	mac  []byte
+	vk   string
+	macs sync.Pool // keyed HMAC-SHA-256 states, reset and reused by Tag
 }
 
 // NewSigner parses a private key made by GenerateKey.
@@ -57,11 +60,18 @@ func (s *Signer) VerifierKey() string { return s.vk }
 // Only a holder of the private key can make a tag the sequencer accepts, so
 // a row and leaf inserted behind the service's back never enter the log.
 func (s *Signer) Tag(site string, leafHash []byte) []byte {
-	h := hmac.New(sha256.New, s.mac)
+	h, ok := s.macs.Get().(hash.Hash)
+	if ok {
+		h.Reset() // back to the keyed state
+	} else {
+		h = hmac.New(sha256.New, s.mac)
+	}
 	h.Write([]byte(site))
 	h.Write([]byte{0})
 	h.Write(leafHash)
-	return h.Sum(nil)
+	tag := h.Sum(make([]byte, 0, sha256.Size))
+	s.macs.Put(h)
+	return tag
 }
 
 // TagOK reports whether tag is the signer's tag of the leaf.
