@@ -1,8 +1,14 @@
 package api
 
 import (
+	"bytes"
+	"errors"
+	"io"
+	"net/http"
+	"net/http/httptest"
 	"strings"
 	"testing"
+	"testing/iotest"
 	"unicode/utf8"
 )
 
@@ -58,5 +64,30 @@ func checkCleanBody(t *testing.T, body []byte) {
 		if err := walkBody(body); err != nil {
 			t.Errorf("cleanBody(%q) = true, but the walk refuses it: %v", body, err)
 		}
+	}
+}
+
+// TestReadBodyAsReadAll checks readBody against the standard library's
+// io.ReadAll: the same bytes for bodies of many sizes whatever Content-Length
+// says (exact, unknown, too small a guess, beyond presizeLimit), read in
+// small pieces, and the same error when the body fails partway.
+func TestReadBodyAsReadAll(t *testing.T) {
+	for _, size := range []int{0, 1, 511, 512, 513, 700, 4096, 70000} {
+		want := bytes.Repeat([]byte("w"), size)
+		for _, cl := range []int64{int64(size), -1, 3, presizeLimit + 1} {
+			req := httptest.NewRequest(http.MethodPost, "/v1/coupons", iotest.HalfReader(bytes.NewReader(want)))
+			req.ContentLength = cl
+			got, err := readBody(req)
+			if err != nil || !bytes.Equal(got, want) {
+				t.Fatalf("size %d, Content-Length %d: %d bytes, %v; io.ReadAll reads %d", size, cl, len(got), err, len(want))
+			}
+		}
+	}
+	failing := io.MultiReader(strings.NewReader("{\"coupon"), iotest.ErrReader(errors.New("cut")))
+	req := httptest.NewRequest(http.MethodPost, "/v1/coupons", failing)
+	_, err := readBody(req)
+	_, wantErr := io.ReadAll(io.MultiReader(strings.NewReader("{\"coupon"), iotest.ErrReader(errors.New("cut"))))
+	if err == nil || err.Error() != wantErr.Error() {
+		t.Fatalf("a failing body: %v, io.ReadAll %v", err, wantErr)
 	}
 }
