@@ -133,11 +133,16 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 			if quick != nil && !stream {
 				if body, ok := c.Get(ctxBody).([]byte); ok && quick.accepts(req.Header.Get(echo.HeaderContentType), body) {
 					in.Options = &params
+					// The body is checked: keep the security check from reading
+					// and copying it again (its authentication reads nothing).
+					shallow := *req
+					shallow.Body, shallow.ContentLength = http.NoBody, 0
+					in.Request = &shallow
 				}
 			}
 			if err := openapi3filter.ValidateRequest(req.Context(), in); err != nil {
 				if req.ContentLength <= multiErrorBodyLimit {
-					in.Options = &all
+					in.Options, in.Request = &all, req // the body too, to name every fault
 					if err2 := openapi3filter.ValidateRequest(req.Context(), in); err2 != nil {
 						err = err2
 					}
