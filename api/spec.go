@@ -125,9 +125,7 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 			// name every refused field.
 			req := c.Request()
 			if stream { // the security check reads a body whole (to offer it to each scheme): keep a stream from it
-				shallow := *req
-				shallow.Body, shallow.ContentLength = http.NoBody, 0
-				req = &shallow
+				req = withoutBody(req)
 			}
 			in := &openapi3filter.RequestValidationInput{Request: req, PathParams: pathParams, Route: route, Options: first}
 			if quick != nil && !stream {
@@ -135,9 +133,7 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 					in.Options = &params
 					// The body is checked: keep the security check from reading
 					// and copying it again (its authentication reads nothing).
-					shallow := *req
-					shallow.Body, shallow.ContentLength = http.NoBody, 0
-					in.Request = &shallow
+					in.Request = withoutBody(req)
 				}
 			}
 			if err := openapi3filter.ValidateRequest(req.Context(), in); err != nil {
@@ -152,6 +148,14 @@ func (s *Server) conformTo(method, path string) (echo.MiddlewareFunc, error) {
 			return next(c)
 		}
 	}, nil
+}
+
+// withoutBody is a shallow copy of req with no body, for the OpenAPI check's
+// security step, which reads a body whole to offer it to each scheme.
+func withoutBody(req *http.Request) *http.Request {
+	shallow := *req
+	shallow.Body, shallow.ContentLength = http.NoBody, 0
+	return &shallow
 }
 
 // asRequestError folds kin-openapi's multi-errors into one RequestError for problemFor.

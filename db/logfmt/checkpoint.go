@@ -60,6 +60,12 @@ func (s *Signer) VerifierKey() string { return s.vk }
 // Only a holder of the private key can make a tag the sequencer accepts, so
 // a row and leaf inserted behind the service's back never enter the log.
 func (s *Signer) Tag(site string, leafHash []byte) []byte {
+	return s.tagOf(site, "\x00", leafHash)
+}
+
+// tagOf is HMAC-SHA-256 with the tag key over site || marker || data, from a
+// keyed state reset and reused (macs) rather than keyed anew for each tag.
+func (s *Signer) tagOf(site, marker string, data []byte) []byte {
 	h, ok := s.macs.Get().(hash.Hash)
 	if ok {
 		h.Reset() // back to the keyed state
@@ -67,8 +73,8 @@ func (s *Signer) Tag(site string, leafHash []byte) []byte {
 		h = hmac.New(sha256.New, s.mac)
 	}
 	h.Write([]byte(site))
-	h.Write([]byte{0})
-	h.Write(leafHash)
+	h.Write([]byte(marker))
+	h.Write(data)
 	tag := h.Sum(make([]byte, 0, sha256.Size))
 	s.macs.Put(h)
 	return tag
@@ -84,11 +90,7 @@ func (s *Signer) TagOK(site string, leafHash, tag []byte) bool {
 // no such tag is ever the tag of a single leaf hash (Tag's input after the
 // site is the 32-byte hash alone).
 func (s *Signer) TagMany(site string, digest []byte) []byte {
-	h := hmac.New(sha256.New, s.mac)
-	h.Write([]byte(site))
-	h.Write([]byte("\x00many\x00"))
-	h.Write(digest)
-	return h.Sum(nil)
+	return s.tagOf(site, "\x00many\x00", digest)
 }
 
 // TagManyOK reports whether tag is the signer's tag of a pending entry's digest.

@@ -10,7 +10,8 @@ import (
 
 // TestTagIsHMACOfSiteAndLeaf checks a pending leaf's tag against Go's
 // crypto/hmac (the reference implementation of HMAC-SHA-256, RFC 2104)
-// computed afresh over site || 0x00 || leaf hash with the signer's tag key,
+// computed afresh over site || 0x00 || leaf hash with the signer's tag key
+// (and an entry of many leaves' tag, over site || 0x00 "many" 0x00 || digest),
 // also when Tag reuses its pooled states: calls in turn for other sites and
 // leaves, and from many goroutines at once.
 func TestTagIsHMACOfSiteAndLeaf(t *testing.T) {
@@ -22,13 +23,14 @@ func TestTagIsHMACOfSiteAndLeaf(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want := func(site string, leaf []byte) []byte {
+	hmacOf := func(site, marker string, data []byte) []byte {
 		h := hmac.New(sha256.New, s.mac)
 		h.Write([]byte(site))
-		h.Write([]byte{0})
-		h.Write(leaf)
+		h.Write([]byte(marker))
+		h.Write(data)
 		return h.Sum(nil)
 	}
+	want := func(site string, leaf []byte) []byte { return hmacOf(site, "\x00", leaf) }
 	leaf := func(i int) []byte { return bytes.Repeat([]byte{byte(i)}, 32) }
 	sites := []string{"north-bay", "", "yard 2"}
 	for round := 0; round < 3; round++ { // later rounds take states back from the pool
@@ -41,6 +43,13 @@ func TestTagIsHMACOfSiteAndLeaf(t *testing.T) {
 			}
 			if s.TagOK(site, leaf(i+1), want(site, leaf(i))) {
 				t.Fatalf("round %d: TagOK takes the tag of another leaf", round)
+			}
+			// An entry of many leaves: the same key and states, its own marker.
+			if got, w := s.TagMany(site, leaf(i)), hmacOf(site, "\x00many\x00", leaf(i)); !bytes.Equal(got, w) {
+				t.Fatalf("round %d: TagMany(%q, digest %d) = %x, HMAC-SHA-256 %x", round, site, i, got, w)
+			}
+			if s.TagManyOK(site, leaf(i), want(site, leaf(i))) {
+				t.Fatalf("round %d: TagManyOK takes a single leaf's tag", round)
 			}
 		}
 	}
