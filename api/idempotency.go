@@ -51,11 +51,10 @@ func (s *Server) idempotent(next echo.HandlerFunc) echo.HandlerFunc {
 		if err != nil {
 			return err
 		}
-		body, err := io.ReadAll(c.Request().Body)
+		body, err := requestBody(c)
 		if err != nil {
 			return err
 		}
-		c.Request().Body = io.NopCloser(bytes.NewReader(body))
 		h := sha256.New()
 		io.WriteString(h, c.Request().Method+" "+c.Request().URL.Path+"\n")
 		h.Write(body)

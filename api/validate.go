@@ -186,18 +186,31 @@ func ruleReason(fe validator.FieldError, name func(string) string) string {
 // bind decodes the JSON body into v, refusing unknown fields and trailing
 // data, after rewriting every quantity into its stored spelling (units.go).
 func bind(c echo.Context, v any) error {
-	body, ok := c.Get(ctxBody).([]byte) // read whole and checked by guard
-	if !ok {
-		var err error
-		if body, err = io.ReadAll(c.Request().Body); err != nil {
-			return err
-		}
+	body, err := requestBody(c)
+	if err != nil {
+		return err
 	}
 	sent, err := decodeBody(body, v)
 	if len(sent) > 0 {
 		c.Set(sentKey, sent)
 	}
 	return err
+}
+
+// requestBody is the request's body: the bytes guard read whole, checked and
+// kept, else (a blank or CSV body, which guard does not keep) read now and
+// put back for whoever reads it next.
+func requestBody(c echo.Context) ([]byte, error) {
+	if body, ok := c.Get(ctxBody).([]byte); ok {
+		return body, nil
+	}
+	req := c.Request()
+	body, err := io.ReadAll(req.Body)
+	if err != nil {
+		return nil, err
+	}
+	req.Body = io.NopCloser(bytes.NewReader(body))
+	return body, nil
 }
 
 // decodeBody is bind over a body already read: the quantities rewritten into
